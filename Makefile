@@ -1,0 +1,11 @@
+.PHONY: test build bench demo fuzz
+build:
+	go build ./...
+test:
+	bash scripts/test.sh
+bench:
+	go test -run '^$$' -bench . -benchmem ./...
+fuzz:
+	bash scripts/fuzz.sh 60s
+demo:
+	go run ./cmd/risewatch demo

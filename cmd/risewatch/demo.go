@@ -1,0 +1,12 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"io"
+)
+
+// STUB (lead): the owner of this subcommand replaces this file.
+func runDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error {
+	return errors.New("not implemented yet")
+}

@@ -1,0 +1,89 @@
+package rules
+
+import (
+	"time"
+
+	"risewatch/fdd"
+)
+
+// CONTRACT NOTE (lead): Transition is what the decision layer publishes and
+// what store and every output consume. The rules owner may add fields.
+
+// State is a fault's lifecycle state.
+type State int
+
+// Lifecycle states.
+const (
+	StateClear      State = iota // no fault
+	StatePending                 // condition true, persistence not yet met
+	StateOpen                    // fault raised
+	StateAcked                   // open, acknowledged by a person
+	StateSuppressed              // open or not, suppressed until a date
+)
+
+var stateNames = [...]string{"clear", "pending", "open", "acked", "suppressed"}
+
+// String returns the state's identifier.
+func (s State) String() string {
+	if s < 0 || int(s) >= len(stateNames) {
+		return "unknown"
+	}
+	return stateNames[s]
+}
+
+// EntityKind says what a fault is about.
+type EntityKind int
+
+// Entity kinds.
+const (
+	EntityTerminal EntityKind = iota
+	EntityLoop
+	EntityAHU
+)
+
+// Severity of a fault (1 = most urgent).
+type Severity int
+
+// Impact is the estimated energy and cost consequence of a fault.
+type Impact struct {
+	WastedHeatW   float64 // heat delivered that was not wanted (leaks)
+	AddedCoolingW float64 // cooling spent removing it
+	ShortfallW    float64 // heat wanted but not delivered (comfort)
+	WeeklyHeatKWh float64
+	WeeklyCoolKWh float64
+	WeeklyCost    float64 // in site currency
+}
+
+// Evidence is the set of numbers behind a fault, as shown to people.
+type Evidence struct {
+	ObservedRiseK float64
+	ExpectedRiseK float64
+	SigmaK        float64
+	ValveFrac     float64
+	AirflowM3s    float64
+	UAFactor      float64 // apparent UA multiplier (1 = as calibrated)
+	FlowFactor    float64 // apparent water-flow multiplier
+	LeakRiseK     float64
+	LeakFlowFrac  float64 // estimated leak flow as fraction of design
+	Extra         map[string]float64
+}
+
+// Transition is one change of a fault's state.
+type Transition struct {
+	FaultID    string // stable: "<entity>/<kind>", e.g. "VAV-2-07/leaking-valve"
+	Entity     string // terminal, loop or AHU ID
+	EntityKind EntityKind
+	Kind       fdd.Kind
+	Rule       string // rule ID that decided
+	From, To   State
+	At         time.Time
+	Since      time.Time // when the condition first became true
+	Severity   Severity
+	Confidence float64 // 0..1
+	Evidence   Evidence
+	Impact     Impact
+	Message    string   // one line, with numbers and units
+	Causes     []string // likely causes, most likely first
+	Checks     []string // what a technician should check first
+	AHU, Loop  string   // for routing and labels
+}

@@ -1,0 +1,13 @@
+#!/usr/bin/env bash
+# Runs every Fuzz* target for a bounded time each (default 8s). Seeds live in
+# each package's testdata/fuzz/ and are also run by plain `go test`.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+t="${1:-8s}"
+for pkg in $(go list ./...); do
+  dir=$(go list -f '{{.Dir}}' "$pkg")
+  for fz in $(grep -ho '^func Fuzz[A-Za-z0-9_]*' "$dir"/*_test.go 2>/dev/null | sed 's/^func //' | sort -u); do
+    echo "-- $pkg $fz ($t)"
+    go test -run '^$' -fuzz "^${fz}\$" -fuzztime "$t" "$pkg"
+  done
+done
