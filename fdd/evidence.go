@@ -1,0 +1,90 @@
+package fdd
+
+import "time"
+
+// CONTRACT NOTE (lead): Evidence is what the fdd engine hands the rules layer
+// for every terminal at every analysis step, and LoopEvidence for every loop.
+// The rules layer names these fields in YAML conditions (by the `rule:` tag).
+// The fdd owner may add fields (with a rule tag) but must not rename them.
+
+// Gate is a bitmask of reasons a sample was not used for fault evidence.
+type Gate uint32
+
+// Gate reasons.
+const (
+	GateMissing  Gate = 1 << iota // a required input is missing
+	GateRange                     // a value is outside its physical range
+	GateStale                     // a value has not changed for too long (flatlined)
+	GateFanOff                    // AHU fan off
+	GateNoAHU                     // AHU supply air temperature unavailable
+	GateNoLoop                    // loop supply temperature unavailable
+	GateStartup                   // within the settling time after fan start or mode change
+	GateUnsteady                  // not in steady state (not a data problem)
+)
+
+// Evidence is the running evidence for one terminal at one step. Values are
+// SI; NaN means "not available at this step".
+type Evidence struct {
+	Terminal int       `rule:"-"`
+	At       time.Time `rule:"-"`
+	Gates    Gate      `rule:"-"`
+	Usable   bool      `rule:"usable"` // no data gate (GateUnsteady excluded)
+	Steady   bool      `rule:"steady"`
+	PlantOn  bool      `rule:"plant_on"`
+	FanOn    bool      `rule:"fan_on"`
+	Occupied bool      `rule:"occupied"`
+
+	ValveFrac  float64 `rule:"valve"`       // command 0..1
+	AirflowM3s float64 `rule:"airflow_m3s"` // measured
+	SupplyC    float64 `rule:"sat_c"`
+	DischargeC float64 `rule:"dat_c"`
+	HotWaterC  float64 `rule:"hw_c"`
+	DATSetC    float64 `rule:"dat_set_c"` // discharge setpoint if known (else NaN)
+
+	ObservedRiseK float64 `rule:"rise_k"`          // DAT − (SAT + duct gain)
+	ExpectedRiseK float64 `rule:"expected_rise_k"` // model at measured flows and temperatures
+	SigmaK        float64 `rule:"sigma_k"`         // 1-sigma uncertainty of the residual
+	ResidualK     float64 `rule:"residual_k"`      // observed − expected
+	PerfIndex     float64 `rule:"perf_index"`      // observed / expected (heating, valve open)
+
+	UAFactor        float64 `rule:"ua_factor"` // apparent UA multiplier vs baseline (1 = healthy)
+	UAFactorSigma   float64 `rule:"ua_factor_sigma"`
+	FlowFactor      float64 `rule:"flow_factor"` // apparent water-flow multiplier vs baseline
+	FlowFactorSigma float64 `rule:"flow_factor_sigma"`
+	// ShortfallHighK and ShortfallLowK are mean residuals at high (>70 %) and
+	// low/mid (10-50 %) command over the recent window (starved vs fouled).
+	ShortfallHighK float64 `rule:"shortfall_high_k"`
+	ShortfallLowK  float64 `rule:"shortfall_low_k"`
+
+	LeakRiseK        float64 `rule:"leak_rise_k"`     // steady rise at ~0 % command with plant on
+	LeakFlowFrac     float64 `rule:"leak_flow_frac"`  // estimated leak flow / design flow
+	ClosedMinutes    float64 `rule:"closed_min"`      // minutes the valve has been commanded closed
+	OffsetK          float64 `rule:"offset_k"`        // steady rise with plant off / no HW (sensor bias)
+	RiseValveCorr    float64 `rule:"rise_valve_corr"` // correlation of rise with command over the window
+	RiseSpanK        float64 `rule:"rise_span_k"`     // rise range across the command range seen
+	ValveSpan        float64 `rule:"valve_span"`      // command range seen over the window
+	ReversalsPerHour float64 `rule:"reversals_per_hour"`
+	DATFlatMinutes   float64 `rule:"dat_flat_min"`
+
+	CUSUMLowK float64 `rule:"cusum_low"` // lower CUSUM of standardised residual
+	EWMAResid float64 `rule:"ewma_residual"`
+
+	Scores [kindCount]float64 `rule:"-"` // signature score 0..1 per Kind (fdd's isolation)
+	Best   Kind               `rule:"-"` // kind with the highest score above threshold, or KindNone
+
+	WastedHeatW   float64 `rule:"wasted_heat_w"`
+	AddedCoolingW float64 `rule:"added_cooling_w"`
+	ShortfallW    float64 `rule:"shortfall_w"`
+}
+
+// LoopEvidence is the running evidence for one hot-water loop at one step.
+type LoopEvidence struct {
+	Loop          int       `rule:"-"`
+	At            time.Time `rule:"-"`
+	PlantOn       bool      `rule:"plant_on"`
+	SupplyC       float64   `rule:"hw_c"`
+	ExpectedC     float64   `rule:"hw_expected_c"`  // design or reset-schedule value
+	Terminals     int       `rule:"terminals"`      // terminals with usable heating evidence
+	ShortFraction float64   `rule:"short_fraction"` // share of those short of expected rise
+	MeanPerfIndex float64   `rule:"mean_perf_index"`
+}
