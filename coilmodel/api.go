@@ -62,6 +62,7 @@ type Operating struct {
 	EnteringAirC   float64
 	WaterFlowM3s   float64
 	EnteringWaterC float64
+	HumidityRatio  float64 // kg water per kg dry air; 0 → dry air
 }
 
 // Regime is the water-side flow regime in the tubes.

@@ -38,24 +38,3 @@ func InvertUA(c Coil, op Operating, observedLeavingAirC float64) (float64, error
 func InvertWaterFlow(c Coil, op Operating, observedLeavingAirC float64) (float64, error) {
 	return 0, errUnimplemented
 }
-
-// Preset returns common-practice coil geometry for a VAV box by inlet diameter (in).
-func Preset(inletIn float64, rows int, fpi float64, oversized bool) (Coil, error) {
-	return Coil{}, errUnimplemented
-}
-
-// FlowM3s is the water flow through the valve at command cmdFrac (0..1) and
-// valve differential pressure dpPa.
-func (v Valve) FlowM3s(cmdFrac, dpPa, densityKgM3 float64) float64 { return 0 }
-
-// InstalledFlowM3s is the water flow at command cmdFrac with the valve and coil
-// in series across a branch differential pressure branchDPPa.
-func InstalledFlowM3s(v Valve, c Coil, cmdFrac, branchDPPa, waterC float64) (float64, error) {
-	return 0, errUnimplemented
-}
-
-// WaterDensity is liquid water density (kg/m³) at tC.
-func WaterDensity(tC float64) float64 { return 0 }
-
-// WaterCp is liquid water isobaric specific heat (J/(kg·K)) at tC.
-func WaterCp(tC float64) float64 { return 0 }
