@@ -1,0 +1,509 @@
+package collector
+
+import (
+	"context"
+	"fmt"
+	"log/slog"
+	"math"
+	"time"
+
+	"risewatch/site"
+)
+
+// DefaultLateness is how far a source may lag the leading source before
+// steps are emitted without waiting for it (common practice for BAS trend
+// uploads, which arrive in batches of up to an hour).
+const DefaultLateness = time.Hour
+
+// AssembleConfig configures the Assembler.
+type AssembleConfig struct {
+	Resample ResampleConfig
+	// Lateness bounds how long a step waits for a lagging source; it also
+	// bounds memory (Lateness/Interval steps are buffered).
+	Lateness time.Duration
+	// Sources names every source that will feed Add; a step is emitted once
+	// all of them have passed it (or Lateness). Run fills it in.
+	Sources []string
+	Logger  *slog.Logger
+}
+
+// AssembleStats counts what the assembler could not use.
+type AssembleStats struct {
+	Readings      int64 // readings accepted
+	UnknownPoint  int64 // readings for a point name not in the site
+	Late          int64 // readings older than a step already emitted, or out of order
+	ForcedSteps   int64 // steps emitted before every source had passed them (Lateness)
+	EmittedSteps  int64
+	EmittedSample int64
+}
+
+// field addresses one Sample field's value: a point index, a constant, or
+// nothing.
+type field struct {
+	idx   int32 // point index, -1 when none
+	fixed bool
+	value float64
+}
+
+func (f field) configured() bool { return f.idx >= 0 || f.fixed }
+
+// termFields are a terminal's resolved fields.
+type termFields struct {
+	airflow, airflowSet, discharge, supply, valve, hotWater, plant, fan, occupied, zone, zoneSet field
+}
+
+type sourceMark struct {
+	mark int64 // latest reading time seen, ns
+	seen bool
+	done bool
+}
+
+// Assembler joins resampled points into per-terminal Samples on the
+// analysis grid. It is streaming: readings arrive in time order per source
+// (several sources may interleave); a step is emitted once every source has
+// passed its end, or once the leading source is Lateness past it. Memory is
+// bounded by points × Lateness/Interval.
+type Assembler struct {
+	site     *site.Site
+	cfg      AssembleConfig
+	interval int64
+	log      *slog.Logger
+
+	names   []string
+	index   map[string]int32
+	res     []Resampler
+	sinks   []binFunc
+	terms   []termFields
+	ring    int64     // ring length in steps
+	vals    []float64 // ring × points
+	quals   []Quality
+	first   int64 // oldest step not yet emitted (step number = start/interval)
+	last    int64 // newest step touched
+	started bool
+	emitted bool
+
+	sources map[string]*sourceMark
+	samples []Sample
+	stats   AssembleStats
+	unknown map[string]struct{} // first few unknown names, for one log line each
+}
+
+// Points returns every point reference in the site, one per unique name, in
+// a stable order (loops, AHUs, terminals). Fixed-value references are
+// included; binary marks points used as states even when the config did not
+// say Binary.
+func Points(s *site.Site) []site.PointRef {
+	seen := map[string]bool{}
+	var out []site.PointRef
+	add := func(p site.PointRef, binary bool) {
+		if p.Kind == site.PointNone || p.Name == "" || seen[p.Name] {
+			return
+		}
+		seen[p.Name] = true
+		p.Binary = p.Binary || binary
+		out = append(out, p)
+	}
+	for _, l := range s.Loops {
+		add(l.SupplyTemp, false)
+		add(l.PlantEnabled, true)
+	}
+	for _, a := range s.AHUs {
+		add(a.SupplyAir, false)
+		add(a.FanStatus, true)
+		add(a.Occupancy, true)
+	}
+	for _, t := range s.Terminals {
+		p := t.Points
+		add(p.Airflow, false)
+		add(p.AirflowSetpoint, false)
+		add(p.Discharge, false)
+		add(p.Valve, false)
+		add(p.ZoneTemp, false)
+		add(p.ZoneSetpoint, false)
+	}
+	return out
+}
+
+// NewAssembler prepares the point table and the step ring for s.
+func NewAssembler(s *site.Site, cfg AssembleConfig) (*Assembler, error) {
+	cfg.Resample = cfg.Resample.WithDefaults()
+	if cfg.Lateness <= 0 {
+		cfg.Lateness = DefaultLateness
+	}
+	if cfg.Logger == nil {
+		cfg.Logger = slog.Default()
+	}
+	a := &Assembler{site: s, cfg: cfg, interval: int64(cfg.Resample.Interval), log: cfg.Logger,
+		index: map[string]int32{}, sources: map[string]*sourceMark{}, unknown: map[string]struct{}{}}
+	pts := Points(s)
+	a.res = make([]Resampler, len(pts))
+	a.sinks = make([]binFunc, len(pts))
+	for i, p := range pts {
+		a.names = append(a.names, p.Name)
+		a.index[p.Name] = int32(i)
+		a.res[i].init(cfg.Resample, p.Binary)
+		a.sinks[i] = a.sinkFor(int32(i))
+	}
+	a.ring = int64(cfg.Lateness/cfg.Resample.Interval) + 2
+	a.vals = make([]float64, a.ring*int64(len(pts)))
+	a.quals = make([]Quality, len(a.vals))
+	for i := range a.quals {
+		a.quals[i] = Missing
+	}
+	ref := func(p site.PointRef) field {
+		if p.Fixed != nil {
+			return field{idx: -1, fixed: true, value: *p.Fixed}
+		}
+		if i, ok := a.index[p.Name]; ok && p.Kind != site.PointNone {
+			return field{idx: i}
+		}
+		return field{idx: -1}
+	}
+	for ti, t := range s.Terminals {
+		var f termFields
+		p := t.Points
+		f.airflow, f.airflowSet, f.discharge = ref(p.Airflow), ref(p.AirflowSetpoint), ref(p.Discharge)
+		f.valve, f.zone, f.zoneSet = ref(p.Valve), ref(p.ZoneTemp), ref(p.ZoneSetpoint)
+		f.supply, f.fan, f.occupied = field{idx: -1}, field{idx: -1}, field{idx: -1}
+		f.hotWater, f.plant = field{idx: -1}, field{idx: -1}
+		if t.AHU != "" {
+			ai, ok := s.AHUIndex[t.AHU]
+			if !ok {
+				ai, ok = findAHU(s, t.AHU)
+			}
+			if !ok {
+				return nil, fmt.Errorf("terminal %s: unknown AHU %q", t.ID, t.AHU)
+			}
+			ahu := s.AHUs[ai]
+			f.supply, f.fan, f.occupied = ref(ahu.SupplyAir), ref(ahu.FanStatus), ref(ahu.Occupancy)
+		}
+		if t.Loop != "" {
+			li, ok := s.LoopIndex[t.Loop]
+			if !ok {
+				li, ok = findLoop(s, t.Loop)
+			}
+			if !ok {
+				return nil, fmt.Errorf("terminal %s: unknown loop %q", t.ID, t.Loop)
+			}
+			loop := s.Loops[li]
+			f.hotWater, f.plant = ref(loop.SupplyTemp), ref(loop.PlantEnabled)
+			if !f.hotWater.configured() && loop.DesignSupplyC > 0 {
+				f.hotWater = field{idx: -1, fixed: true, value: loop.DesignSupplyC}
+			}
+		}
+		a.terms = append(a.terms, f)
+		_ = ti
+	}
+	for _, name := range cfg.Sources {
+		a.sources[name] = &sourceMark{}
+	}
+	return a, nil
+}
+
+func findAHU(s *site.Site, id string) (int, bool) {
+	for i, x := range s.AHUs {
+		if x.ID == id {
+			return i, true
+		}
+	}
+	return 0, false
+}
+
+func findLoop(s *site.Site, id string) (int, bool) {
+	for i, x := range s.Loops {
+		if x.ID == id {
+			return i, true
+		}
+	}
+	return 0, false
+}
+
+func (a *Assembler) sinkFor(p int32) binFunc {
+	np := int64(len(a.res))
+	return func(s int64, v float64, q Quality, _ float64) {
+		step := s / a.interval
+		if step < a.first || step >= a.first+a.ring {
+			return
+		}
+		i := (step%a.ring)*np + int64(p)
+		a.vals[i], a.quals[i] = v, q
+	}
+}
+
+// Stats returns the counters so far.
+func (a *Assembler) Stats() AssembleStats { return a.stats }
+
+// Configured returns, for terminal ti, the flags of the fields that have a
+// point or a constant configured; the engine uses it to tell "not
+// configured" from "missing now" (both set the field's flag in a Sample).
+func (a *Assembler) Configured(ti int) Flags {
+	f := a.terms[ti]
+	var fl Flags
+	set := func(x field, b Flags) {
+		if x.configured() {
+			fl |= b
+		}
+	}
+	set(f.airflow, FlagAirflow)
+	set(f.airflowSet, FlagAirflowSet)
+	set(f.discharge, FlagDischarge)
+	set(f.supply, FlagSupply)
+	set(f.valve, FlagValve)
+	set(f.hotWater, FlagHotWater)
+	set(f.plant, FlagPlant)
+	set(f.fan, FlagFan)
+	set(f.occupied, FlagOccupied)
+	set(f.zone, FlagZone)
+	set(f.zoneSet, FlagZoneSet)
+	return fl
+}
+
+// Add feeds a batch of readings from one source and calls emit with the
+// samples of every step it completes (one call per step, all terminals in
+// site order). The slice passed to emit is reused: copy what you keep.
+func (a *Assembler) Add(source string, batch []Reading, emit func([]Sample)) {
+	sm := a.sources[source]
+	if sm == nil {
+		sm = &sourceMark{}
+		a.sources[source] = sm
+	}
+	for i := range batch {
+		rd := &batch[i]
+		p, ok := a.index[rd.Point]
+		if !ok {
+			a.unknownPoint(source, rd.Point)
+			continue
+		}
+		at := rd.At.UnixNano()
+		step := floorStep(at, a.interval) / a.interval
+		if !sm.seen || at > sm.mark {
+			sm.mark, sm.seen = at, true
+		}
+		if !a.started {
+			a.started, a.first, a.last = true, step, step
+		}
+		if step < a.first {
+			if a.emitted || a.last-step >= a.ring-1 {
+				a.stats.Late++
+				continue
+			}
+			a.first = step // nothing emitted yet: widen the window backwards
+		}
+		if step >= a.first+a.ring-1 {
+			// Lateness exceeded: emit old steps so the ring can hold this one.
+			a.emitThrough(step-a.ring+1, true, emit)
+		}
+		a.last = max(a.last, step)
+		if !a.res[p].add(at, rd.Value, rd.Quality, a.sinks[p]) {
+			a.stats.Late++
+			continue
+		}
+		a.stats.Readings++
+	}
+	a.release(emit)
+}
+
+// SourceDone tells the assembler a source has ended; it no longer holds
+// steps back.
+func (a *Assembler) SourceDone(source string, emit func([]Sample)) {
+	sm := a.sources[source]
+	if sm == nil {
+		sm = &sourceMark{}
+		a.sources[source] = sm
+	}
+	sm.done = true
+	a.release(emit)
+}
+
+// Flush emits every remaining step up to the newest reading's step, as at
+// the end of all input.
+func (a *Assembler) Flush(emit func([]Sample)) {
+	if a.started {
+		a.emitThrough(a.last, false, emit)
+	}
+}
+
+// release emits the steps every source has passed, and the steps the
+// leading source is more than Lateness past.
+func (a *Assembler) release(emit func([]Sample)) {
+	if !a.started {
+		return
+	}
+	bound, lead := int64(math.MaxInt64), int64(math.MinInt64)
+	active := false
+	for _, sm := range a.sources {
+		if sm.seen {
+			lead = max(lead, sm.mark)
+		}
+		if sm.done {
+			continue
+		}
+		active = true
+		if !sm.seen {
+			bound = math.MinInt64
+			continue
+		}
+		bound = min(bound, sm.mark)
+	}
+	if !active {
+		a.Flush(emit)
+		return
+	}
+	// A step [s, s+I) is complete when the bound is at or past s+I.
+	if bound != math.MinInt64 {
+		a.emitThrough(floorStep(bound, a.interval)/a.interval-1, false, emit)
+	}
+	if lead != math.MinInt64 {
+		a.emitThrough(floorStep(lead-int64(a.cfg.Lateness), a.interval)/a.interval-1, true, emit)
+	}
+}
+
+// emitThrough emits steps first..last inclusive.
+func (a *Assembler) emitThrough(last int64, forced bool, emit func([]Sample)) {
+	np := int64(len(a.res))
+	for a.first <= last {
+		k := a.first
+		end := (k + 1) * a.interval
+		for p := range a.res {
+			a.res[p].advance(end, a.sinks[p])
+		}
+		base := (k % a.ring) * np
+		a.build(k, a.vals[base:base+np], a.quals[base:base+np])
+		if emit != nil {
+			emit(a.samples)
+		}
+		for i := base; i < base+np; i++ {
+			a.quals[i] = Missing
+		}
+		a.stats.EmittedSteps++
+		a.stats.EmittedSample += int64(len(a.samples))
+		if forced {
+			a.stats.ForcedSteps++
+		}
+		a.first++
+		a.emitted = true
+	}
+}
+
+// build fills a.samples for step k from one ring slot.
+func (a *Assembler) build(k int64, vals []float64, quals []Quality) {
+	at := time.Unix(0, k*a.interval).UTC()
+	if cap(a.samples) < len(a.terms) {
+		a.samples = make([]Sample, len(a.terms))
+	}
+	a.samples = a.samples[:len(a.terms)]
+	get := func(f field, flag Flags, fl *Flags) float64 {
+		switch {
+		case f.fixed:
+			return f.value
+		case f.idx >= 0 && quals[f.idx] == Good:
+			return vals[f.idx]
+		}
+		*fl |= flag
+		return math.NaN()
+	}
+	for ti := range a.terms {
+		f := &a.terms[ti]
+		var fl Flags
+		s := &a.samples[ti]
+		s.Terminal, s.At = ti, at
+		s.AirflowM3s = get(f.airflow, FlagAirflow, &fl)
+		s.AirflowSetM3s = get(f.airflowSet, FlagAirflowSet, &fl)
+		s.DischargeC = get(f.discharge, FlagDischarge, &fl)
+		s.SupplyC = get(f.supply, FlagSupply, &fl)
+		s.ValveFrac = get(f.valve, FlagValve, &fl)
+		s.HotWaterC = get(f.hotWater, FlagHotWater, &fl)
+		s.ZoneC = get(f.zone, FlagZone, &fl)
+		s.ZoneSetC = get(f.zoneSet, FlagZoneSet, &fl)
+		s.PlantOn = get(f.plant, FlagPlant, &fl) >= 0.5
+		s.FanOn = get(f.fan, FlagFan, &fl) >= 0.5
+		s.Occupied = get(f.occupied, FlagOccupied, &fl) >= 0.5
+		s.Flags = fl
+	}
+}
+
+func (a *Assembler) unknownPoint(source, name string) {
+	a.stats.UnknownPoint++
+	if _, ok := a.unknown[name]; ok || len(a.unknown) >= 20 {
+		return
+	}
+	a.unknown[name] = struct{}{}
+	a.log.Warn("reading for a point not in the site ignored", "source", source, "point", name)
+}
+
+// Run runs every source, feeds their readings to the assembler and sends
+// each completed step's samples on out (a fresh slice per step). It returns
+// when all sources have ended (after the last step is sent) or ctx ends. A
+// source's error is returned after the others finish, wrapped with its name.
+func (a *Assembler) Run(ctx context.Context, sources []Source, out chan<- []Sample) error {
+	type tagged struct {
+		src   string
+		batch []Reading
+		done  bool
+		err   error
+	}
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	in := make(chan tagged, len(sources)*4)
+	for _, s := range sources {
+		if _, ok := a.sources[s.Name()]; !ok {
+			a.sources[s.Name()] = &sourceMark{}
+		}
+	}
+	for _, s := range sources {
+		go func(s Source) {
+			ch := make(chan []Reading, 4)
+			errc := make(chan error, 1)
+			go func() { errc <- s.Run(ctx, ch); close(ch) }()
+			for b := range ch {
+				select {
+				case in <- tagged{src: s.Name(), batch: b}:
+				case <-ctx.Done():
+				}
+			}
+			err := <-errc
+			select {
+			case in <- tagged{src: s.Name(), done: true, err: err}:
+			case <-ctx.Done():
+			}
+		}(s)
+	}
+	var firstErr error
+	var sendErr error
+	emit := func(ss []Sample) {
+		if sendErr != nil {
+			return
+		}
+		cp := make([]Sample, len(ss))
+		copy(cp, ss)
+		select {
+		case out <- cp:
+		case <-ctx.Done():
+			sendErr = ctx.Err()
+		}
+	}
+	for left := len(sources); left > 0; {
+		select {
+		case <-ctx.Done():
+			return ctx.Err()
+		case t := <-in:
+			if !t.done {
+				a.Add(t.src, t.batch, emit)
+				continue
+			}
+			left--
+			if t.err != nil && firstErr == nil {
+				firstErr = fmt.Errorf("source %s: %w", t.src, t.err)
+			}
+			a.SourceDone(t.src, emit)
+		}
+		if sendErr != nil {
+			return sendErr
+		}
+	}
+	a.Flush(emit)
+	if sendErr != nil {
+		return sendErr
+	}
+	return firstErr
+}

@@ -1,0 +1,242 @@
+package collector
+
+import (
+	"math"
+	"time"
+)
+
+// Resampling defaults.
+const (
+	// DefaultInterval is the analysis grid step.
+	DefaultInterval = time.Minute
+	// DefaultMaxGap is how long a reading's value is held before the point
+	// counts as missing. 20 min covers the common 15-min trend-log interval
+	// with margin for a late sample (common practice).
+	DefaultMaxGap = 20 * time.Minute
+	// DefaultMinCoverage is the fraction of a step that good data must cover
+	// for an analog step to be usable (common practice: half the step).
+	DefaultMinCoverage = 0.5
+)
+
+// ResampleConfig sets the analysis grid and the gap limit.
+type ResampleConfig struct {
+	Interval    time.Duration // grid step; steps are aligned to multiples of Interval since the Unix epoch
+	MaxGap      time.Duration // a reading's value is held at most this long; beyond it the point is missing
+	MinCoverage float64       // analog: fraction of the step good data must cover (0..1)
+}
+
+// WithDefaults fills zero fields with the package defaults.
+func (c ResampleConfig) WithDefaults() ResampleConfig {
+	if c.Interval <= 0 {
+		c.Interval = DefaultInterval
+	}
+	if c.MaxGap <= 0 {
+		c.MaxGap = DefaultMaxGap
+	}
+	if c.MinCoverage <= 0 || c.MinCoverage > 1 {
+		c.MinCoverage = DefaultMinCoverage
+	}
+	return c
+}
+
+// Bin is one point on one grid step [Start, Start+Interval).
+type Bin struct {
+	Start    time.Time
+	Value    float64 // SI; NaN when Quality is not Good
+	Quality  Quality
+	Coverage float64 // fraction of the step covered by good data
+}
+
+// binFunc receives a closed step: its start (Unix ns), value, quality and
+// good coverage. It is the internal, allocation-free form of Bin.
+type binFunc func(startNs int64, v float64, q Quality, cov float64)
+
+// Resampler turns one point's readings, arriving in time order, into steps
+// on the analysis grid. It is the project's one resampling algorithm; the
+// assembler runs one per point and Resample wraps it for slices.
+//
+// Readings are taken as samples of a piecewise-constant signal: each value
+// holds from its time until the next reading (zero-order hold, which is how
+// change-of-value and interval trend logs record a BAS point), but for at
+// most MaxGap. Past that the point is missing, so a gap longer than the
+// limit is marked, not bridged. A Missing or Bad reading ends the previous
+// value's hold.
+//
+// Analog points: the step value is the time-weighted mean of the good
+// values over the step, ∑vᵢ·Δtᵢ / ∑Δtᵢ, usable when good data cover at
+// least MinCoverage of the step. Binary points: the step value is the last
+// value, the state in effect at the end of the step (or the last good state
+// seen in the step when the end is unknown).
+type Resampler struct {
+	interval, maxGap int64
+	minCov           float64
+	binary           bool
+
+	started bool
+	pos     int64 // time accounted up to, ns
+	bin     int64 // start of the open step, ns
+
+	holdV   float64
+	holdQ   Quality
+	holdEnd int64 // the held state is valid before this time
+
+	sumVT    float64 // ∑ v·Δt over good data in the open step
+	good     int64   // ns of good data in the open step
+	bad      int64   // ns of bad data in the open step
+	lastGood float64 // binary: last good value in the open step
+	seenGood bool
+}
+
+// NewResampler returns a resampler for one point.
+func NewResampler(cfg ResampleConfig, binary bool) *Resampler {
+	r := &Resampler{}
+	r.init(cfg, binary)
+	return r
+}
+
+func (r *Resampler) init(cfg ResampleConfig, binary bool) {
+	cfg = cfg.WithDefaults()
+	*r = Resampler{interval: int64(cfg.Interval), maxGap: int64(cfg.MaxGap), minCov: cfg.MinCoverage, binary: binary}
+}
+
+// floorStep returns the start of the grid step containing t (ns).
+func floorStep(t, interval int64) int64 {
+	s := t - t%interval
+	if t%interval < 0 {
+		s -= interval
+	}
+	return s
+}
+
+// Add feeds one reading; emit receives every step the reading closes.
+// It reports false, and ignores the reading, when it is older than what
+// the resampler has already accounted for (out of order).
+func (r *Resampler) Add(rd Reading, emit func(Bin)) bool {
+	return r.add(rd.At.UnixNano(), rd.Value, rd.Quality, wrapEmit(emit))
+}
+
+// Advance closes every step that ends at or before to, holding the last
+// value (within MaxGap). Later readings must not be older than to.
+func (r *Resampler) Advance(to time.Time, emit func(Bin)) { r.advance(to.UnixNano(), wrapEmit(emit)) }
+
+// Finish closes the open step as it stands (end of data).
+func (r *Resampler) Finish(emit func(Bin)) {
+	if r.started && (r.good > 0 || r.bad > 0 || r.seenGood) {
+		r.close(wrapEmit(emit))
+	}
+}
+
+func wrapEmit(emit func(Bin)) binFunc {
+	return func(s int64, v float64, q Quality, cov float64) {
+		emit(Bin{Start: time.Unix(0, s).UTC(), Value: v, Quality: q, Coverage: cov})
+	}
+}
+
+func (r *Resampler) add(at int64, v float64, q Quality, emit binFunc) bool {
+	if q == Good && (math.IsNaN(v) || math.IsInf(v, 0)) {
+		q = Missing
+	}
+	if !r.started {
+		r.started = true
+		r.pos = at
+		r.bin = floorStep(at, r.interval)
+	} else if at < r.pos {
+		return false
+	} else {
+		r.advance(at, emit)
+	}
+	r.holdV, r.holdQ, r.holdEnd = v, q, at+r.maxGap
+	return true
+}
+
+func (r *Resampler) advance(to int64, emit binFunc) {
+	if !r.started || to <= r.pos {
+		return
+	}
+	for r.pos < to {
+		if r.pos >= r.holdEnd && r.good == 0 && r.bad == 0 && !r.seenGood {
+			// Nothing held and nothing pending: skip empty steps (they are missing).
+			r.pos = to
+			r.bin = floorStep(to, r.interval)
+			return
+		}
+		binEnd := r.bin + r.interval
+		segEnd := min(to, binEnd)
+		if h := min(segEnd, r.holdEnd); h > r.pos {
+			d := h - r.pos
+			switch r.holdQ {
+			case Good:
+				r.sumVT += r.holdV * float64(d)
+				r.good += d
+				r.lastGood, r.seenGood = r.holdV, true
+			case Bad:
+				r.bad += d
+			}
+		}
+		r.pos = segEnd
+		if r.pos == binEnd {
+			r.close(emit)
+			r.bin = binEnd
+		}
+	}
+}
+
+// close emits the open step and resets the accumulators.
+func (r *Resampler) close(emit binFunc) {
+	cov := float64(r.good) / float64(r.interval)
+	v, q := math.NaN(), Missing
+	if r.binary {
+		end := r.bin + r.interval
+		switch {
+		case r.holdEnd >= end && r.pos >= end && r.holdQ == Good:
+			v, q = r.holdV, Good
+		case r.seenGood:
+			v, q = r.lastGood, Good
+		case r.bad > 0:
+			q = Bad
+		}
+	} else {
+		switch {
+		case r.good > 0 && cov >= r.minCov:
+			v, q = r.sumVT/float64(r.good), Good
+		case r.bad > 0:
+			q = Bad
+		}
+	}
+	emit(r.bin, v, q, cov)
+	r.sumVT, r.good, r.bad, r.seenGood = 0, 0, 0, false
+}
+
+// Resample resamples one point's readings (in time order) to the grid and
+// returns every step from the first reading's step to the last one's, with
+// steps in gaps marked Missing. Out-of-order readings are dropped; the
+// count of dropped readings is returned.
+func Resample(readings []Reading, binary bool, cfg ResampleConfig) ([]Bin, int) {
+	var r Resampler
+	r.init(cfg, binary)
+	var out []Bin
+	interval := r.interval
+	var next int64 // next step start expected, for gap filling
+	emit := func(s int64, v float64, q Quality, cov float64) {
+		for len(out) > 0 && next < s {
+			out = append(out, Bin{Start: time.Unix(0, next).UTC(), Value: math.NaN(), Quality: Missing})
+			next += interval
+		}
+		out = append(out, Bin{Start: time.Unix(0, s).UTC(), Value: v, Quality: q, Coverage: cov})
+		next = s + interval
+	}
+	dropped := 0
+	for _, rd := range readings {
+		if !r.add(rd.At.UnixNano(), rd.Value, rd.Quality, emit) {
+			dropped++
+		}
+	}
+	if r.started {
+		// Close the last reading's step: hold to its end (within MaxGap).
+		r.advance(r.bin+r.interval, emit)
+		if r.good > 0 || r.bad > 0 || r.seenGood {
+			r.close(emit)
+		}
+	}
+	return out, dropped
+}
