@@ -1,0 +1,274 @@
+package notify
+
+import (
+	"bytes"
+	"fmt"
+	"html/template"
+	"math"
+	"mime"
+	"mime/multipart"
+	"mime/quotedprintable"
+	"net/textproto"
+	"net/url"
+	"sort"
+	"strings"
+	ttemplate "text/template"
+	"time"
+
+	"risewatch/rules"
+	"risewatch/units"
+)
+
+// EventType says why a fault is in a message.
+type EventType string
+
+// Event types.
+const (
+	EventOpened   EventType = "opened"
+	EventCleared  EventType = "cleared"
+	EventReminder EventType = "still open"
+	EventDigest   EventType = "open"
+)
+
+// Event is one fault in one message.
+type Event struct {
+	Type EventType
+	T    rules.Transition
+}
+
+// Advisory is printed in every message.
+const Advisory = "risewatch is advisory only and never writes to the building automation system. " +
+	"Confirm every finding on site and follow local codes, the equipment makers' instructions and licensed practice. " +
+	"Hot-water systems can scald and are under pressure: isolate the circuit, let it cool and relieve pressure " +
+	"before opening, venting or replacing valves, coils, strainers or air vents, and follow your lock-out/tag-out procedure."
+
+type view struct {
+	Site, Subject, Generated string
+	Items                    []itemView
+	Advisory                 string
+	TotalCost                string
+}
+
+type itemView struct {
+	Type, Title, Since, Message, Seen, Matters, Confidence string
+	Causes, Checks                                         []string
+	AckURL, SnoozeURL, AckCmd                              string
+}
+
+func (c *Config) fmtTemp(k float64) string {
+	return both(units.FormatTempDiff(k, c.IP), units.FormatTempDiff(k, !c.IP))
+}
+
+func both(a, b string) string { return a + " (" + b + ")" }
+
+func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
+
+func (c *Config) itemFor(e Event) itemView {
+	t := e.T
+	ev := t.Evidence
+	var seen []string
+	if finite(ev.ObservedRiseK) && finite(ev.ExpectedRiseK) && ev.ExpectedRiseK != 0 {
+		seen = append(seen, fmt.Sprintf("air temperature rise %s against %s expected", c.fmtTemp(ev.ObservedRiseK), c.fmtTemp(ev.ExpectedRiseK)))
+	} else if finite(ev.ObservedRiseK) {
+		seen = append(seen, "air temperature rise "+c.fmtTemp(ev.ObservedRiseK))
+	}
+	if finite(ev.ValveFrac) {
+		seen = append(seen, "valve command "+units.FormatPercent(ev.ValveFrac))
+	}
+	if finite(ev.AirflowM3s) && ev.AirflowM3s > 0 {
+		seen = append(seen, "airflow "+both(units.FormatAirflow(ev.AirflowM3s, c.IP), units.FormatAirflow(ev.AirflowM3s, !c.IP)))
+	}
+	if finite(ev.LeakFlowFrac) && ev.LeakFlowFrac > 0 {
+		seen = append(seen, fmt.Sprintf("estimated leak flow %s of design", units.FormatPercent(ev.LeakFlowFrac)))
+	}
+	if finite(ev.UAFactor) && ev.UAFactor > 0 && ev.UAFactor != 1 {
+		seen = append(seen, fmt.Sprintf("apparent coil UA %.0f %% of its baseline", ev.UAFactor*100))
+	}
+	if finite(ev.FlowFactor) && ev.FlowFactor > 0 && ev.FlowFactor != 1 {
+		seen = append(seen, fmt.Sprintf("apparent water flow %.0f %% of expected", ev.FlowFactor*100))
+	}
+	im := t.Impact
+	var matters []string
+	if im.WastedHeatW > 0 {
+		matters = append(matters, "unwanted heat "+both(units.FormatPower(im.WastedHeatW, c.IP), units.FormatPower(im.WastedHeatW, !c.IP)))
+	}
+	if im.AddedCoolingW > 0 {
+		matters = append(matters, "extra cooling "+both(units.FormatPower(im.AddedCoolingW, c.IP), units.FormatPower(im.AddedCoolingW, !c.IP)))
+	}
+	if im.ShortfallW > 0 {
+		matters = append(matters, "heat the zone asked for and did not get "+both(units.FormatPower(im.ShortfallW, c.IP), units.FormatPower(im.ShortfallW, !c.IP))+" (comfort)")
+	}
+	if im.WeeklyHeatKWh+im.WeeklyCoolKWh > 0 {
+		matters = append(matters, fmt.Sprintf("about %.0f kWh a week", im.WeeklyHeatKWh+im.WeeklyCoolKWh))
+	}
+	if im.WeeklyCost > 0 {
+		matters = append(matters, fmt.Sprintf("about %s a week", c.money(im.WeeklyCost)))
+	}
+	it := itemView{
+		Type:       string(e.Type),
+		Title:      fmt.Sprintf("%s: %s", t.Entity, t.Kind),
+		Since:      t.Since.In(c.Location).Format("Mon 2 Jan 15:04 MST"),
+		Message:    t.Message,
+		Seen:       strings.Join(seen, "; "),
+		Matters:    strings.Join(matters, "; "),
+		Confidence: fmt.Sprintf("%.0f %%", t.Confidence*100),
+		Causes:     t.Causes,
+		Checks:     t.Checks,
+		AckCmd:     "risewatch ack --fault " + t.FaultID,
+	}
+	if t.Since.IsZero() {
+		it.Since = t.At.In(c.Location).Format("Mon 2 Jan 15:04 MST")
+	}
+	if c.LinkBase != "" && e.Type != EventCleared {
+		base := strings.TrimRight(c.LinkBase, "/") + "/faults/" + url.PathEscape(t.FaultID)
+		it.AckURL = base + "/ack"
+		it.SnoozeURL = base + "/snooze"
+	}
+	return it
+}
+
+func (c *Config) money(v float64) string {
+	cur := c.Currency
+	if cur == "" {
+		cur = "USD"
+	}
+	return fmt.Sprintf("%s %.2f", cur, v)
+}
+
+const textTmpl = `{{.Subject}}
+{{range .Items}}
+== {{.Title}} ({{.Type}}) ==
+{{if .Message}}{{.Message}}
+{{end}}Since: {{.Since}}   Confidence: {{.Confidence}}
+{{if .Seen}}What was seen: {{.Seen}}
+{{end}}{{if .Matters}}Why it matters: {{.Matters}}
+{{end}}{{if .Checks}}What to check first:
+{{range .Checks}}  - {{.}}
+{{end}}{{end}}{{if .Causes}}Likely causes: {{join .Causes "; "}}
+{{end}}{{if .AckURL}}Acknowledge: {{.AckURL}}
+Snooze: {{.SnoozeURL}}
+{{end}}{{if ne .Type "cleared"}}Or on the server: {{.AckCmd}}
+{{end}}{{end}}{{if .TotalCost}}
+Estimated cost of the open faults above: {{.TotalCost}} a week.
+{{end}}
+Generated {{.Generated}} by risewatch for {{.Site}}.
+
+{{.Advisory}}
+`
+
+const htmlTmpl = `<!DOCTYPE html><html><body style="font-family:sans-serif;max-width:46em">
+<h2>{{.Subject}}</h2>
+{{range .Items}}<div style="border-left:4px solid {{if eq .Type "cleared"}}#2a7{{else}}#c52{{end}};padding-left:.8em;margin:1em 0">
+<h3 style="margin:.2em 0">{{.Title}} <small>({{.Type}})</small></h3>
+{{if .Message}}<p>{{.Message}}</p>{{end}}
+<p><b>Since</b> {{.Since}} &middot; <b>Confidence</b> {{.Confidence}}</p>
+{{if .Seen}}<p><b>What was seen:</b> {{.Seen}}</p>{{end}}
+{{if .Matters}}<p><b>Why it matters:</b> {{.Matters}}</p>{{end}}
+{{if .Checks}}<p><b>What to check first:</b></p><ol>{{range .Checks}}<li>{{.}}</li>{{end}}</ol>{{end}}
+{{if .Causes}}<p><b>Likely causes:</b> {{join .Causes "; "}}</p>{{end}}
+{{if .AckURL}}<p><a href="{{.AckURL}}">Acknowledge</a> &middot; <a href="{{.SnoozeURL}}">Snooze</a></p>{{end}}
+{{if ne .Type "cleared"}}<p><small>Or on the server: <code>{{.AckCmd}}</code></small></p>{{end}}
+</div>{{end}}
+{{if .TotalCost}}<p>Estimated cost of the open faults above: <b>{{.TotalCost}}</b> a week.</p>{{end}}
+<p><small>Generated {{.Generated}} by risewatch for {{.Site}}.</small></p>
+<p style="background:#fff4d6;padding:.6em"><small>{{.Advisory}}</small></p>
+</body></html>`
+
+type renderer struct {
+	text *ttemplate.Template
+	html *template.Template
+}
+
+func newRenderer() *renderer {
+	fm := map[string]any{"join": strings.Join}
+	return &renderer{
+		text: ttemplate.Must(ttemplate.New("t").Funcs(fm).Parse(textTmpl)),
+		html: template.Must(template.New("h").Funcs(fm).Parse(htmlTmpl)),
+	}
+}
+
+// subject summarises a group of events in one line.
+func subject(site string, evs []Event) string {
+	counts := map[EventType]int{}
+	kinds := map[string]bool{}
+	for _, e := range evs {
+		counts[e.Type]++
+		kinds[e.T.Kind.String()] = true
+	}
+	if len(evs) == 1 {
+		e := evs[0]
+		return fmt.Sprintf("[risewatch] %s %s: %s", e.T.Entity, e.Type, e.T.Kind)
+	}
+	var parts []string
+	for _, t := range []EventType{EventOpened, EventReminder, EventCleared, EventDigest} {
+		if counts[t] > 0 {
+			parts = append(parts, fmt.Sprintf("%d %s", counts[t], t))
+		}
+	}
+	ks := make([]string, 0, len(kinds))
+	for k := range kinds {
+		ks = append(ks, k)
+	}
+	sort.Strings(ks)
+	return fmt.Sprintf("[risewatch] %s: %s (%s)", site, strings.Join(parts, ", "), strings.Join(ks, ", "))
+}
+
+// compose builds the full MIME message (multipart/alternative, text and HTML).
+func (c *Config) compose(r *renderer, site, key string, to []string, at time.Time, subj string, evs []Event) ([]byte, error) {
+	v := view{Site: site, Subject: subj, Generated: at.In(c.Location).Format("Mon 2 Jan 2006 15:04 MST"), Advisory: Advisory}
+	total := 0.0
+	for _, e := range evs {
+		v.Items = append(v.Items, c.itemFor(e))
+		if e.Type != EventCleared {
+			total += e.T.Impact.WeeklyCost
+		}
+	}
+	if total > 0 && len(evs) > 1 {
+		v.TotalCost = c.money(total)
+	}
+	var text, html bytes.Buffer
+	if err := r.text.Execute(&text, v); err != nil {
+		return nil, fmt.Errorf("render text: %w", err)
+	}
+	if err := r.html.Execute(&html, v); err != nil {
+		return nil, fmt.Errorf("render html: %w", err)
+	}
+	var body bytes.Buffer
+	mw := multipart.NewWriter(&body)
+	for _, part := range []struct {
+		ctype string
+		data  []byte
+	}{{"text/plain; charset=utf-8", text.Bytes()}, {"text/html; charset=utf-8", html.Bytes()}} {
+		h := textproto.MIMEHeader{}
+		h.Set("Content-Type", part.ctype)
+		h.Set("Content-Transfer-Encoding", "quoted-printable")
+		pw, err := mw.CreatePart(h)
+		if err != nil {
+			return nil, err
+		}
+		qw := quotedprintable.NewWriter(pw)
+		if _, err := qw.Write(part.data); err != nil {
+			return nil, err
+		}
+		if err := qw.Close(); err != nil {
+			return nil, err
+		}
+	}
+	if err := mw.Close(); err != nil {
+		return nil, err
+	}
+	var msg bytes.Buffer
+	hdr := func(k, v string) { fmt.Fprintf(&msg, "%s: %s\r\n", k, v) }
+	hdr("From", c.From)
+	hdr("To", strings.Join(to, ", "))
+	hdr("Subject", mime.QEncoding.Encode("utf-8", subj))
+	hdr("Date", at.Format(time.RFC1123Z))
+	hdr("Message-ID", "<"+key+"@risewatch>")
+	hdr("MIME-Version", "1.0")
+	hdr("Auto-Submitted", "auto-generated")
+	hdr("X-Risewatch-Key", key)
+	hdr("Content-Type", "multipart/alternative; boundary="+mw.Boundary())
+	msg.WriteString("\r\n")
+	msg.Write(body.Bytes())
+	return msg.Bytes(), nil
+}
