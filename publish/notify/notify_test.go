@@ -67,7 +67,9 @@ func (q *memQueue) DueOn(_ context.Context, ch string, now time.Time, limit int)
 			out = append(out, *it)
 		}
 	}
-	sort.Slice(out, func(i, j int) bool { return out[i].CreatedAt.Before(out[j].CreatedAt) || (out[i].CreatedAt.Equal(out[j].CreatedAt) && out[i].Key < out[j].Key) })
+	sort.Slice(out, func(i, j int) bool {
+		return out[i].CreatedAt.Before(out[j].CreatedAt) || (out[i].CreatedAt.Equal(out[j].CreatedAt) && out[i].Key < out[j].Key)
+	})
 	if len(out) > limit {
 		out = out[:limit]
 	}
@@ -267,7 +269,7 @@ type clock struct {
 	t  time.Time
 }
 
-func (c *clock) now() time.Time { c.mu.Lock(); defer c.mu.Unlock(); return c.t }
+func (c *clock) now() time.Time      { c.mu.Lock(); defer c.mu.Unlock(); return c.t }
 func (c *clock) add(d time.Duration) { c.mu.Lock(); c.t = c.t.Add(d); c.mu.Unlock() }
 
 func leak(id string, at time.Time) rules.Transition {
