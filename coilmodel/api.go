@@ -63,6 +63,7 @@ type Operating struct {
 	WaterFlowM3s   float64
 	EnteringWaterC float64
 	HumidityRatio  float64 // kg water per kg dry air; 0 → dry air
+	BarometricPa   float64 // site barometric pressure for the air pressure drop; 0 → 101 325 Pa
 }
 
 // Regime is the water-side flow regime in the tubes.
@@ -91,7 +92,12 @@ type Rating struct {
 	ReWater       float64
 	ReAirDc       float64
 	WaterVelMs    float64
-	FaceVelMs     float64
+	FaceVelMs     float64 // AirflowM3s / face area (same density basis as the airflow)
+	HAirWm2K      float64 // air-side heat-transfer coefficient
+	HWaterWm2K    float64 // water-side heat-transfer coefficient
+	FinEfficiency float64 // Schmidt fin efficiency η_f
+	SurfaceEff    float64 // surface efficiency η_o
+	Extrapolated  Extrapolation
 }
 
 // RatedPoint is a submittal (schedule) rated point used for calibration.

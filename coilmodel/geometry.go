@@ -212,3 +212,7 @@ func (op Operating) airDensity() float64 {
 	}
 	return StandardAirDensity
 }
+
+func badGeometry(format string, a ...any) error {
+	return fmt.Errorf("%w: "+format, append([]any{ErrBadGeometry}, a...)...)
+}
