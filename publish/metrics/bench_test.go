@@ -1,0 +1,29 @@
+package metrics
+
+import (
+	"testing"
+	"time"
+
+	"risewatch/fdd"
+	"risewatch/site"
+)
+
+// BenchmarkObserveEvidence is the per-terminal, per-step publishing cost.
+func BenchmarkObserveEvidence(b *testing.B) {
+	s := &site.Site{Name: "bench", TerminalIndex: map[string]int{}, LoopIndex: map[string]int{}, AHUIndex: map[string]int{}}
+	for i := range 1000 {
+		id := "VAV-" + string(rune('A'+i%26)) + "-" + time.Duration(i).String()
+		s.Terminals = append(s.Terminals, site.Terminal{ID: id, AHU: "AHU-1", Loop: "HW-1"})
+		s.TerminalIndex[id] = i
+	}
+	m, err := New(s, Options{NoRuntime: true})
+	if err != nil {
+		b.Fatal(err)
+	}
+	ev := fdd.Evidence{Usable: true, At: time.Now(), ObservedRiseK: 8, ExpectedRiseK: 10, PerfIndex: 0.8}
+	b.ReportAllocs()
+	for i := 0; b.Loop(); i++ {
+		ev.Terminal = i % 1000
+		m.ObserveEvidence(&ev)
+	}
+}
