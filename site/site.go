@@ -92,6 +92,8 @@ type Loop struct {
 	BranchDPPa    float64  // design branch differential pressure available to a terminal
 	SupplyTemp    PointRef // optional; DesignSupplyC used when undefined
 	PlantEnabled  PointRef // optional
+	Device        *uint32  // BACnet device instance for point patterns (optional)
+	Line          int      // YAML line of the loop's definition
 }
 
 // AHU is an air handler.
@@ -101,6 +103,8 @@ type AHU struct {
 	FanStatus PointRef // optional
 	DuctGainK float64  // SAT-to-box duct/fan heat gain, K
 	Occupancy PointRef // optional occupied status
+	Device    *uint32  // BACnet device instance for point patterns (optional)
+	Line      int      // YAML line of the AHU's definition
 }
 
 // Terminal is one VAV box with a hot-water reheat coil.
@@ -125,6 +129,12 @@ type Terminal struct {
 
 	Points TerminalPoints
 
+	// CoilPreset, when set, is the preset Coil was built from (before
+	// calibration); Marshal writes the short preset form for it.
+	CoilPreset *CoilPreset
+	// Device is the BACnet device instance used by point patterns (optional).
+	Device *uint32
+
 	// Line is the YAML line of the terminal's definition (for messages).
 	Line int
 }
@@ -146,6 +156,10 @@ type SourceConfig struct {
 	Trendfile *TrendfileConfig
 	BACnet    *BACnetConfig
 	Influx    *InfluxConfig
+	// Points are point-naming patterns by role: how this source names the
+	// points of any loop, AHU or terminal that lists it in points_from.
+	Points map[Role]PointPattern
+	Line   int // YAML line of the source's definition
 }
 
 // TrendfileConfig configures exported CSV trend files.
@@ -161,6 +175,7 @@ type TrendfileConfig struct {
 	TimeFormat   string // Go layout, or "rfc3339", "unix"
 	TimeZone     *time.Location
 	Watch        bool
+	Glob         string // drop-folder file pattern, default "*.csv"
 	ProcessedDir string
 }
 
