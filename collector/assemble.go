@@ -56,6 +56,7 @@ type sourceMark struct {
 	mark int64 // latest reading time seen, ns
 	seen bool
 	done bool
+	hint int32 // predicted index of the next reading's point (sources repeat their order)
 }
 
 // Assembler joins resampled points into per-terminal Samples on the
@@ -269,11 +270,15 @@ func (a *Assembler) Add(source string, batch []Reading, emit func([]Sample)) {
 	}
 	for i := range batch {
 		rd := &batch[i]
-		p, ok := a.index[rd.Point]
-		if !ok {
-			a.unknownPoint(source, rd.Point)
-			continue
+		p := sm.hint
+		if int(p) >= len(a.names) || a.names[p] != rd.Point {
+			var ok bool
+			if p, ok = a.index[rd.Point]; !ok {
+				a.unknownPoint(source, rd.Point)
+				continue
+			}
 		}
+		sm.hint = p + 1
 		at := rd.At.UnixNano()
 		step := floorStep(at, a.interval) / a.interval
 		if !sm.seen || at > sm.mark {

@@ -1,0 +1,193 @@
+package trendfile
+
+import (
+	"context"
+	"crypto/sha256"
+	"encoding/hex"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"time"
+
+	"risewatch/collector"
+)
+
+// fileMark is a file's checkpoint: how far it was read and a fingerprint
+// of the bytes just before that point, to tell a continued file from a
+// replaced one.
+type fileMark struct {
+	File   string `json:"file"`
+	Offset int64  `json:"offset"` // bytes consumed (always a record boundary)
+	Line   int64  `json:"line"`   // line number at Offset
+	Tail   string `json:"tail"`   // SHA-256 of up to 4 KiB before Offset
+	Done   bool   `json:"done"`   // read to the end and final (moved or to be moved)
+}
+
+const (
+	identityMaxBytes = 1 << 20
+	tailBytes        = 4096
+)
+
+// identity hashes the file's first lines (skipped rows, the header and the
+// first data row, at most 1 MiB). Those bytes do not change while a file
+// grows and differ between exports, so they name the content whatever the
+// file is called. ok is false when the lines are not complete yet.
+func identity(f *os.File, size int64, lines int, final bool) (string, bool, error) {
+	n := min(size, identityMaxBytes)
+	buf := make([]byte, n)
+	if _, err := f.ReadAt(buf, 0); err != nil && !errors.Is(err, io.EOF) {
+		return "", false, err
+	}
+	end, seen := -1, 0
+	for i, c := range buf {
+		if c == '\n' {
+			seen++
+			if seen == lines {
+				end = i + 1
+				break
+			}
+		}
+	}
+	switch {
+	case end >= 0:
+	case final || n == identityMaxBytes:
+		end = int(n)
+	default:
+		return "", false, nil
+	}
+	h := sha256.Sum256(buf[:end])
+	return hex.EncodeToString(h[:]), true, nil
+}
+
+func tailHash(f *os.File, off int64) (string, error) {
+	start := max(0, off-tailBytes)
+	buf := make([]byte, off-start)
+	if _, err := f.ReadAt(buf, start); err != nil && !errors.Is(err, io.EOF) {
+		return "", err
+	}
+	h := sha256.Sum256(buf)
+	return hex.EncodeToString(h[:]), nil
+}
+
+func (s *Source) key(id string) string { return "trendfile/" + s.cfg.Name + "/" + id }
+
+func (s *Source) loadMark(key string) (fileMark, error) {
+	var m fileMark
+	b, ok, err := s.cfg.Checkpoints.Get(key)
+	if err != nil || !ok {
+		return m, err
+	}
+	if err := json.Unmarshal(b, &m); err != nil {
+		return fileMark{}, fmt.Errorf("checkpoint %s: %w", key, err)
+	}
+	return m, nil
+}
+
+func (s *Source) saveMark(key string, f *os.File, m fileMark) error {
+	t, err := tailHash(f, m.Offset)
+	if err != nil {
+		return err
+	}
+	m.Tail = t
+	b, _ := json.Marshal(m)
+	return s.cfg.Checkpoints.Put(key, b)
+}
+
+// ingestResult says what became of a file.
+type ingestResult int
+
+const (
+	notReady ingestResult = iota // first lines incomplete: try again later
+	readSome                     // read to its last complete line
+	complete                     // read to the end, final
+)
+
+// ingest reads path from its checkpoint up to the size it has now (only
+// complete lines unless final) and sends the readings. The checkpoint
+// advances only past batches the consumer took.
+func (s *Source) ingest(ctx context.Context, path string, final bool, out chan<- []collector.Reading) (ingestResult, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return notReady, fmt.Errorf("trend source %s: %w", s.cfg.Name, err)
+	}
+	defer f.Close()
+	st, err := f.Stat()
+	if err != nil {
+		return notReady, fmt.Errorf("%s: %w", path, err)
+	}
+	size := st.Size()
+	id, ok, err := identity(f, size, s.fmt.skipRows+2, final)
+	if err != nil {
+		return notReady, fmt.Errorf("%s: %w", path, err)
+	}
+	if !ok {
+		return notReady, nil
+	}
+	key := s.key(id)
+	mark, err := s.loadMark(key)
+	if err != nil {
+		return notReady, err
+	}
+	if mark.Done {
+		return complete, nil
+	}
+	if mark.Offset > 0 {
+		t, err := tailHash(f, mark.Offset)
+		if err != nil || size < mark.Offset || t != mark.Tail {
+			s.log.Warn("trend file changed under its checkpoint (same first lines, different body); reading it again from the start",
+				"source", s.cfg.Name, "file", path, "checkpoint_offset", mark.Offset, "size", size)
+			mark = fileMark{}
+		}
+	}
+	if mark.Offset == size && !final {
+		return readSome, nil
+	}
+	mark.File = filepath.Base(path)
+
+	p, err := newParser(s.fmt, s.pts, path, s.log)
+	if err != nil {
+		return notReady, err
+	}
+	sc := newScanner(io.NewSectionReader(f, 0, size), 0, 1, final)
+	if err := p.readHeader(sc); err != nil {
+		if errors.Is(err, errNoHeader) && !final {
+			return notReady, nil
+		}
+		return notReady, err
+	}
+	if mark.Offset > sc.consumed() {
+		sc = newScanner(io.NewSectionReader(f, mark.Offset, size-mark.Offset), mark.Offset, mark.Line, final)
+	}
+	lastPut := time.Now()
+	emit := func(b []collector.Reading, end, line int64) error {
+		if err := send(ctx, out, b); err != nil {
+			return err
+		}
+		mark.Offset, mark.Line = end, line
+		if time.Since(lastPut) >= s.cfg.CheckpointEvery {
+			lastPut = time.Now()
+			return s.saveMark(key, f, mark)
+		}
+		return nil
+	}
+	rerr := p.readRows(ctx, sc, emit)
+	p.st.Files = 1
+	p.warn.summary(p.st)
+	s.mu.Lock()
+	s.stats.add(p.st)
+	s.mu.Unlock()
+	res := readSome
+	if rerr == nil && final {
+		mark.Done, res = true, complete
+	}
+	if err := s.saveMark(key, f, mark); err != nil {
+		return notReady, errors.Join(rerr, err)
+	}
+	if rerr != nil {
+		return notReady, rerr
+	}
+	return res, nil
+}

@@ -1,0 +1,298 @@
+package trendfile
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"log/slog"
+	"strings"
+	"time"
+
+	"risewatch/collector"
+)
+
+// emitFunc receives a batch of readings that ends on a record boundary,
+// with the stream offset and line number just after that record. The batch
+// belongs to the receiver.
+type emitFunc func(batch []collector.Reading, endOffset, nextLine int64) error
+
+// mapped is one wide-layout column that feeds a point.
+type mapped struct {
+	col int
+	pt  int32
+}
+
+// parser reads one trend file (or one continuation of it).
+type parser struct {
+	f    format
+	pts  *pointTable
+	file string
+	warn *warner
+	tp   *timeParser
+	st   Stats
+
+	ncols              int
+	timeCol            int
+	pointCol, valueCol int
+	cols               []mapped
+
+	fields  [][]byte
+	scratch []byte
+	lastT   int64
+	hasT    bool
+	batch   []collector.Reading
+
+	unknownSeen map[string]struct{}
+}
+
+func newParser(f format, pts *pointTable, file string, log *slog.Logger) (*parser, error) {
+	tp, err := newTimeParser(f.timeFormat, f.loc)
+	if err != nil {
+		return nil, err
+	}
+	return &parser{f: f, pts: pts, file: file, warn: newWarner(log, f.source, file), tp: tp,
+		unknownSeen: map[string]struct{}{}}, nil
+}
+
+// split splits a record into p.fields, on the fast path when it has no quote.
+func (p *parser) split(rec []byte, quoted bool) error {
+	if !quoted {
+		p.fields = splitFields(p.fields, rec, p.f.delim)
+		return nil
+	}
+	var err error
+	p.fields, p.scratch, err = splitQuoted(p.fields, p.scratch, rec, p.f.delim, '"')
+	return err
+}
+
+// readHeader skips the configured rows and maps the header's columns.
+func (p *parser) readHeader(sc *scanner) error {
+	for i := 0; i < p.f.skipRows; i++ {
+		if _, _, _, err := sc.next(); err != nil {
+			return p.headerErr(err)
+		}
+	}
+	rec, line, quoted, err := sc.next()
+	if err != nil {
+		return p.headerErr(err)
+	}
+	if line == 1 && len(rec) >= 3 && rec[0] == 0xEF && rec[1] == 0xBB && rec[2] == 0xBF {
+		rec = rec[3:] // UTF-8 byte-order mark
+	}
+	if err := p.split(rec, quoted); err != nil {
+		return fmt.Errorf("%s:%d: header: %w", p.file, line, err)
+	}
+	p.ncols = len(p.fields)
+	find := func(name string) int {
+		for i, h := range p.fields {
+			if strings.EqualFold(string(trimSpace(h)), name) {
+				return i
+			}
+		}
+		return -1
+	}
+	p.timeCol = find(p.f.timeColumn)
+	if p.timeCol < 0 {
+		if p.f.timeSet {
+			return fmt.Errorf("%s:%d: header has no time column %q", p.file, line, p.f.timeColumn)
+		}
+		p.timeCol = 0
+	}
+	if p.f.layout == LayoutLong {
+		p.pointCol, p.valueCol = find(p.f.pointColumn), find(p.f.valueColumn)
+		if p.pointCol < 0 || p.valueCol < 0 {
+			return fmt.Errorf("%s:%d: long layout needs columns %q and %q in the header", p.file, line, p.f.pointColumn, p.f.valueColumn)
+		}
+		return nil
+	}
+	used := map[int32]bool{}
+	var unmapped []string
+	for c, h := range p.fields {
+		if c == p.timeCol {
+			continue
+		}
+		h = trimSpace(h)
+		pt, ok := p.pts.lookup(h)
+		if !ok || used[pt] {
+			if len(h) > 0 {
+				unmapped = append(unmapped, string(h))
+			}
+			continue
+		}
+		used[pt] = true
+		p.cols = append(p.cols, mapped{col: c, pt: pt})
+	}
+	p.st.UnmappedColumn = int64(len(unmapped))
+	if len(unmapped) > 0 {
+		show := unmapped[:min(len(unmapped), 10)]
+		p.warn.log.Info("trend file: columns that match no site point are ignored", "source", p.f.source,
+			"file", p.file, "count", len(unmapped), "first", strings.Join(show, ", "))
+	}
+	if len(p.cols) == 0 {
+		return fmt.Errorf("%s:%d: no column matches a point of source %s (a column matches a point's column name or its point name)", p.file, line, p.f.source)
+	}
+	return nil
+}
+
+func (p *parser) headerErr(err error) error {
+	if errors.Is(err, io.EOF) {
+		return fmt.Errorf("%s: %w", p.file, errNoHeader)
+	}
+	return fmt.Errorf("%s: reading header: %w", p.file, err)
+}
+
+var errNoHeader = errors.New("no complete header line yet")
+
+// readRows parses records until EOF (or ctx ends), sending batches to emit
+// on record boundaries. A bad row is counted, warned and skipped.
+func (p *parser) readRows(ctx context.Context, sc *scanner, emit emitFunc) error {
+	n := 0
+	for {
+		rec, line, quoted, err := sc.next()
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return fmt.Errorf("%s: %w", p.file, err)
+		}
+		if len(rec) == 0 {
+			continue
+		}
+		if p.f.layout == LayoutLong {
+			p.longRow(rec, line, quoted)
+		} else {
+			p.wideRow(rec, line, quoted)
+		}
+		if len(p.batch) >= p.f.batchReading {
+			if err := p.flush(sc, emit); err != nil {
+				return err
+			}
+			if n++; n%8 == 0 && ctx.Err() != nil {
+				return ctx.Err()
+			}
+		}
+	}
+	p.st.DSTGapTimes, p.st.RepeatedTimes = p.tp.gaps, p.tp.repeated
+	return p.flush(sc, emit)
+}
+
+func (p *parser) flush(sc *scanner, emit emitFunc) error {
+	b := p.batch
+	p.batch = nil
+	p.st.Readings += int64(len(b))
+	return emit(b, sc.consumed(), sc.line)
+}
+
+func (p *parser) badRow(line int64, msg string) {
+	p.st.BadRows++
+	p.warn.warn(line, "row skipped: "+msg)
+}
+
+// rowTime parses and checks the row's timestamp.
+func (p *parser) rowTime(cell []byte, line int64) (time.Time, bool) {
+	ns, err := p.tp.parse(cell)
+	if err != nil {
+		p.badRow(line, err.Error())
+		return time.Time{}, false
+	}
+	if p.hasT && ns < p.lastT {
+		p.badRow(line, fmt.Sprintf("time %s is before the previous row's %s (rows must be in time order)", formatNs(ns), formatNs(p.lastT)))
+		return time.Time{}, false
+	}
+	p.lastT, p.hasT = ns, true
+	return time.Unix(0, ns).UTC(), true
+}
+
+func (p *parser) ensureBatch(extra int) {
+	if p.batch == nil {
+		p.batch = make([]collector.Reading, 0, max(p.f.batchReading+extra, extra))
+	}
+}
+
+// cell converts one cell of point pt; false when it yields no reading.
+func (p *parser) cell(b []byte, pt int32, at time.Time, line int64, col int) (collector.Reading, bool) {
+	pi := &p.pts.points[pt]
+	v, kind := parseCell(b, p.f.decComma)
+	switch kind {
+	case cellBlank:
+		return collector.Reading{}, false
+	case cellNumber, cellState:
+		switch {
+		case pi.binary:
+			if v != 0 {
+				v = 1
+			}
+		case kind == cellNumber:
+			v = v*pi.scale + pi.offset // numbers get the unit; text states stay 0/1
+		}
+		return collector.Reading{Point: pi.name, At: at, Value: v, Quality: collector.Good}, true
+	case cellInvalid:
+		p.st.BadCells++
+		p.warn.warn(line, fmt.Sprintf("column %d (%s): %q is not a number or a known state; sent as bad", col+1, pi.name, b))
+	}
+	return collector.Reading{Point: pi.name, At: at, Value: 0, Quality: kind.quality()}, true
+}
+
+func (p *parser) wideRow(rec []byte, line int64, quoted bool) {
+	if err := p.split(rec, quoted); err != nil {
+		p.badRow(line, err.Error())
+		return
+	}
+	if len(p.fields) != p.ncols {
+		if len(p.fields) < p.ncols || !allBlank(p.fields[p.ncols:]) {
+			p.badRow(line, fmt.Sprintf("%d fields, the header has %d", len(p.fields), p.ncols))
+			return
+		}
+	}
+	at, ok := p.rowTime(p.fields[p.timeCol], line)
+	if !ok {
+		return
+	}
+	p.ensureBatch(len(p.cols))
+	for _, m := range p.cols {
+		if r, ok := p.cell(p.fields[m.col], m.pt, at, line, m.col); ok {
+			p.batch = append(p.batch, r)
+		}
+	}
+	p.st.Rows++
+}
+
+func (p *parser) longRow(rec []byte, line int64, quoted bool) {
+	if err := p.split(rec, quoted); err != nil {
+		p.badRow(line, err.Error())
+		return
+	}
+	if len(p.fields) <= max(p.timeCol, p.pointCol, p.valueCol) {
+		p.badRow(line, fmt.Sprintf("%d fields, want at least %d", len(p.fields), max(p.timeCol, p.pointCol, p.valueCol)+1))
+		return
+	}
+	name := trimSpace(p.fields[p.pointCol])
+	pt, ok := p.pts.lookup(name)
+	if !ok {
+		p.st.UnknownPoints++
+		if _, seen := p.unknownSeen[string(name)]; !seen && len(p.unknownSeen) < 100 {
+			p.unknownSeen[string(name)] = struct{}{}
+			p.warn.warn(line, fmt.Sprintf("point %q is not in the site; its rows are ignored", name))
+		}
+		return
+	}
+	at, ok := p.rowTime(p.fields[p.timeCol], line)
+	if !ok {
+		return
+	}
+	p.ensureBatch(1)
+	if r, ok := p.cell(p.fields[p.valueCol], pt, at, line, p.valueCol); ok {
+		p.batch = append(p.batch, r)
+	}
+	p.st.Rows++
+}
+
+func allBlank(fs [][]byte) bool {
+	for _, f := range fs {
+		if len(trimSpace(f)) > 0 {
+			return false
+		}
+	}
+	return true
+}

@@ -1,0 +1,162 @@
+package trendfile
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"log/slog"
+	"os"
+	"sync"
+	"time"
+
+	"risewatch/collector"
+	"risewatch/site"
+)
+
+// Defaults for the drop folder.
+const (
+	DefaultPollInterval    = 2 * time.Second
+	DefaultSettleTime      = 10 * time.Second
+	DefaultCheckpointEvery = time.Second
+)
+
+// Config configures one trend-file source.
+type Config struct {
+	Name string
+	Site *site.Site
+	File site.TrendfileConfig
+	// Checkpoints records how far each file was read. Needed to survive
+	// restarts in drop-folder mode; nil keeps positions in memory only.
+	Checkpoints Checkpoints
+	// PollInterval is how often the drop folder is listed.
+	PollInterval time.Duration
+	// SettleTime is how long a file's size and modification time must stay
+	// unchanged before it is read (it may still be arriving by transfer).
+	SettleTime time.Duration
+	// CheckpointEvery bounds how often a checkpoint is written while a file
+	// is read (one is always written at the end and when ctx ends).
+	CheckpointEvery time.Duration
+	Logger          *slog.Logger
+}
+
+// Source reads exported CSV trend files: one file, or every file in a
+// directory (once, or watched as a drop folder). It implements
+// collector.Source.
+type Source struct {
+	cfg Config
+	fmt format
+	pts *pointTable
+	log *slog.Logger
+
+	mu    sync.Mutex
+	stats Stats
+}
+
+var _ collector.Source = (*Source)(nil)
+
+// New checks the configuration against the site and returns the source.
+func New(cfg Config) (*Source, error) {
+	if cfg.Site == nil {
+		return nil, fmt.Errorf("trend source %s: no site", cfg.Name)
+	}
+	if cfg.File.Path == "" {
+		return nil, fmt.Errorf("trend source %s: no path", cfg.Name)
+	}
+	f, err := resolveFormat(cfg.Name, cfg.File, cfg.Site.Location)
+	if err != nil {
+		return nil, err
+	}
+	pts, err := buildPoints(cfg.Name, cfg.Site)
+	if err != nil {
+		return nil, err
+	}
+	if cfg.PollInterval <= 0 {
+		cfg.PollInterval = DefaultPollInterval
+	}
+	if cfg.SettleTime <= 0 {
+		cfg.SettleTime = DefaultSettleTime
+	}
+	if cfg.CheckpointEvery <= 0 {
+		cfg.CheckpointEvery = DefaultCheckpointEvery
+	}
+	if cfg.Logger == nil {
+		cfg.Logger = slog.Default()
+	}
+	if cfg.Checkpoints == nil {
+		cfg.Checkpoints = &MemCheckpoints{}
+	}
+	return &Source{cfg: cfg, fmt: f, pts: pts, log: cfg.Logger}, nil
+}
+
+// FromSite builds the source named name from the site's source list.
+func FromSite(s *site.Site, name string, ck Checkpoints, log *slog.Logger) (*Source, error) {
+	for _, sc := range s.Sources {
+		if sc.Name == name && sc.Trendfile != nil {
+			return New(Config{Name: name, Site: s, File: *sc.Trendfile, Checkpoints: ck, Logger: log})
+		}
+	}
+	return nil, fmt.Errorf("site %s: no trend-file source %q", s.Name, name)
+}
+
+// Name returns the source name.
+func (s *Source) Name() string { return s.cfg.Name }
+
+// Stats returns the counts so far.
+func (s *Source) Stats() Stats {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	return s.stats
+}
+
+// Run reads the configured path and sends readings in time order per file.
+// A single file, or a directory without Watch, is read once and Run
+// returns nil at its end; with Watch it polls until ctx ends.
+func (s *Source) Run(ctx context.Context, out chan<- []collector.Reading) error {
+	st, err := os.Stat(s.cfg.File.Path)
+	if err != nil {
+		return fmt.Errorf("trend source %s: %w", s.cfg.Name, err)
+	}
+	if st.IsDir() || s.cfg.File.Watch {
+		return s.watch(ctx, out)
+	}
+	_, err = s.ingest(ctx, s.cfg.File.Path, true, out)
+	return err
+}
+
+// ReadStream parses one trend file from r (a single pass, no checkpoint)
+// and calls emit with each batch of readings. name is used in messages.
+func (s *Source) ReadStream(ctx context.Context, r io.Reader, name string, emit func([]collector.Reading) error) (Stats, error) {
+	p, err := newParser(s.fmt, s.pts, name, s.log)
+	if err != nil {
+		return Stats{}, err
+	}
+	sc := newScanner(r, 0, 1, true)
+	if err := p.readHeader(sc); err != nil {
+		return p.st, err
+	}
+	err = p.readRows(ctx, sc, func(b []collector.Reading, _, _ int64) error {
+		if len(b) == 0 {
+			return nil
+		}
+		return emit(b)
+	})
+	p.st.Files = 1
+	p.warn.summary(p.st)
+	s.mu.Lock()
+	s.stats.add(p.st)
+	s.mu.Unlock()
+	return p.st, err
+}
+
+// send hands one batch to the consumer.
+func send(ctx context.Context, out chan<- []collector.Reading, b []collector.Reading) error {
+	if len(b) == 0 {
+		return nil
+	}
+	select {
+	case out <- b:
+		return nil
+	case <-ctx.Done():
+		return ctx.Err()
+	}
+}
