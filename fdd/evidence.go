@@ -20,7 +20,11 @@ const (
 	GateNoLoop                    // loop supply temperature unavailable
 	GateStartup                   // within the settling time after fan start or mode change
 	GateUnsteady                  // not in steady state (not a data problem)
+	GateNoModel                   // terminal has no usable coil/valve model (site data incomplete)
 )
+
+// dataGates are the gates that make a sample unusable (Evidence.Usable false).
+const dataGates = GateMissing | GateRange | GateStale | GateNoAHU | GateNoLoop
 
 // Evidence is the running evidence for one terminal at one step. Values are
 // SI; NaN means "not available at this step".
@@ -75,6 +79,21 @@ type Evidence struct {
 	WastedHeatW   float64 `rule:"wasted_heat_w"`
 	AddedCoolingW float64 `rule:"added_cooling_w"`
 	ShortfallW    float64 `rule:"shortfall_w"`
+
+	// Added by the fdd engine (additive to the lead's contract).
+	Learning        bool    `rule:"learning"`          // baseline still being learned (rated calibration in use)
+	DATMinusSATK    float64 `rule:"dat_minus_sat_k"`   // raw DAT − SAT, no duct gain (Guideline 36 leak check)
+	LeakSigmaK      float64 `rule:"leak_sigma_k"`      // 1-sigma uncertainty of LeakRiseK / OffsetK
+	ExpectedSpanK   float64 `rule:"expected_span_k"`   // model rise range over the same command bins as RiseSpanK
+	DesignPerfIndex float64 `rule:"design_perf_index"` // recent observed / expected rise at the loop's design HW temperature
+	LoopShort       bool    `rule:"loop_short"`        // saturated (valve ≥ 90 %) and short at design HW temperature (counts toward cold-loop)
+	ZScore          float64 `rule:"z"`                 // standardised residual ResidualK / SigmaK
+	EWMALimit       float64 `rule:"ewma_limit"`        // EWMA control limit L·√(λ/(2−λ)), sigma units
+	DATBadMinutes   float64 `rule:"dat_bad_min"`       // minutes the DAT has been missing/out of range while other points are fine
+	LeakFlowM3s     float64 `rule:"leak_flow_m3s"`     // estimated leak water flow
+	PerfAvg         float64 `rule:"perf_index_avg"`    // smoothed (30 min) performance index of steady heating samples
+	PerfHigh        float64 `rule:"perf_high"`         // observed / expected rise at high (>70 %) command over the response window
+	PerfLow         float64 `rule:"perf_low"`          // observed / expected rise at low/mid (10-50 %) command over the response window
 }
 
 // LoopEvidence is the running evidence for one hot-water loop at one step.
@@ -83,8 +102,14 @@ type LoopEvidence struct {
 	At            time.Time `rule:"-"`
 	PlantOn       bool      `rule:"plant_on"`
 	SupplyC       float64   `rule:"hw_c"`
-	ExpectedC     float64   `rule:"hw_expected_c"`  // design or reset-schedule value
-	Terminals     int       `rule:"terminals"`      // terminals with usable heating evidence
-	ShortFraction float64   `rule:"short_fraction"` // share of those short of expected rise
-	MeanPerfIndex float64   `rule:"mean_perf_index"`
+	ExpectedC     float64   `rule:"hw_expected_c"`   // design or reset-schedule value
+	Terminals     int       `rule:"terminals"`       // terminals with usable heating evidence
+	ShortFraction float64   `rule:"short_fraction"`  // share of those short of expected rise
+	MeanPerfIndex float64   `rule:"mean_perf_index"` // mean recent DesignPerfIndex of those terminals
+
+	// Added by the fdd engine (additive).
+	Short      int     `rule:"short"`       // terminals counted short (Evidence.LoopShort)
+	LowSupplyK float64 `rule:"hw_low_k"`    // ExpectedC − SupplyC (NaN if the supply temperature is not measured)
+	Score      float64 `rule:"score"`       // cold-loop signature score 0..1
+	Measured   bool    `rule:"hw_measured"` // SupplyC is measured (not the design value)
 }

@@ -1,0 +1,281 @@
+// Package fdd turns assembled terminal samples into evidence: data-quality
+// gates, steady-state detection, the expected rise of the calibrated coil
+// model with its uncertainty, per-terminal baselines, control charts,
+// response and leak statistics, signature scores per fault kind and the
+// energy impact. The rules layer decides faults from this evidence.
+package fdd
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"time"
+
+	"risewatch/collector"
+	"risewatch/site"
+)
+
+// Engine computes Evidence for every terminal of a site, one Step per
+// analysis interval. State is bounded per terminal (fixed windows and running
+// sums). Step is not safe for concurrent use; to shard, call StepTerminals
+// from several goroutines with disjoint terminal sets, then Loops once.
+type Engine struct {
+	site  *site.Site
+	cfg   Config
+	terms []termStatic
+	state []termState
+	air   airProps
+
+	// Derived per-step constants.
+	minPerStep, stepsPerHour                 float64
+	startupSteps, closedSteps, flatSteps     int
+	tempSlope, tempVar, valveVar, hwSlope    float64
+	ewmaLim, sig2Closed                      float64
+	revAlpha, leakAlpha, offAlpha, perfAlpha float64
+	facAlpha, respDecay                      float64
+
+	loops    []loopAcc
+	loopOut  []LoopEvidence
+	lastStep time.Time
+}
+
+// NewEngine builds the engine for s with cfg (zero fields take defaults).
+// Terminals whose coil or valve model cannot be built still get
+// data-quality, leak, offset, flatline and hunting evidence; their samples
+// carry GateNoModel and TerminalErrors lists why.
+func NewEngine(s *site.Site, cfg Config) (*Engine, error) {
+	return newEngine(s, cfg, defaultPhysics)
+}
+
+func newEngine(s *site.Site, cfg Config, pf physicsFactory) (*Engine, error) {
+	if s == nil {
+		return nil, errors.New("fdd: nil site")
+	}
+	c, err := cfg.withDefaults()
+	if err != nil {
+		return nil, err
+	}
+	en := &Engine{site: s, cfg: c, air: newAirProps(s.ElevationM, c.HumidityRatio, c.AirflowActual)}
+	en.minPerStep = c.Step.Minutes()
+	en.stepsPerHour = float64(time.Hour) / float64(c.Step)
+	en.startupSteps = c.stepsFor(c.StartupMinutes)
+	en.closedSteps = c.stepsFor(c.ClosedMinutes)
+	en.flatSteps = c.stepsFor(c.FlatlineMinutes)
+	en.tempSlope = c.SteadyTempSlopeKMin * en.minPerStep
+	en.tempVar = c.SteadyTempStdK * c.SteadyTempStdK
+	en.valveVar = sq(c.SteadyValveSpan / 2)
+	en.hwSlope = c.SteadyHWSlopeKMin * en.minPerStep
+	en.ewmaLim = ewmaLimit(c.EWMALambda, c.EWMAL)
+	a := c.Accuracy
+	en.sig2Closed = a.DischargeK*a.DischargeK + a.SupplyK*a.SupplyK + a.DuctGainK*a.DuctGainK
+	en.revAlpha = alphaFor(en.stepsPerHour)
+	en.leakAlpha = alphaFor(float64(c.stepsFor(15)))
+	en.offAlpha = alphaFor(float64(c.stepsFor(60)))
+	en.perfAlpha = alphaFor(float64(c.stepsFor(30)))
+	en.facAlpha = alphaFor(c.FactorHours * en.stepsPerHour)
+	en.respDecay = math.Exp(-respStatsEvery / (c.ResponseHours * en.stepsPerHour))
+
+	en.terms = make([]termStatic, len(s.Terminals))
+	en.state = make([]termState, len(s.Terminals))
+	en.loops = make([]loopAcc, len(s.Loops))
+	en.loopOut = make([]LoopEvidence, 0, len(s.Loops))
+	for i := range s.Terminals {
+		en.initTerminal(i, pf)
+	}
+	return en, nil
+}
+
+func (en *Engine) initTerminal(i int, pf physicsFactory) {
+	s := en.site
+	t := &s.Terminals[i]
+	ts := &en.terms[i]
+	*ts = termStatic{idx: i, id: t.ID, loop: -1, ahu: -1, designHWC: 80}
+	var loop *site.Loop
+	if li, ok := lookup(s.LoopIndex, t.Loop, len(s.Loops), func(k int) string { return s.Loops[k].ID }); ok {
+		ts.loop = li
+		loop = &s.Loops[li]
+		if loop.DesignSupplyC > 0 {
+			ts.designHWC = loop.DesignSupplyC
+		}
+		ts.plantPoint = loop.PlantEnabled.Defined()
+		ts.hwPoint = loop.SupplyTemp.Defined() && loop.SupplyTemp.Fixed == nil
+	}
+	if ai, ok := lookup(s.AHUIndex, t.AHU, len(s.AHUs), func(k int) string { return s.AHUs[k].ID }); ok {
+		ts.ahu = ai
+		ts.ductGainK = s.AHUs[ai].DuctGainK
+		ts.fanPoint = s.AHUs[ai].FanStatus.Defined()
+	}
+	maxA := math.Max(t.MaxAirflowM3s, t.HeatingAirflowM3s)
+	if maxA > 0 {
+		ts.maxAirM3s = 3 * maxA // far above any box's cooling maximum [I]
+	} else {
+		ts.maxAirM3s = 10
+	}
+	ts.fanOnM3s = 0.02
+	if t.MinAirflowM3s > 0 {
+		ts.fanOnM3s = t.MinAirflowM3s / 3
+	}
+	st := &en.state[i]
+	st.valve.init(en.cfg.SteadyWindow)
+	st.air.init(en.cfg.SteadyWindow)
+	st.sat.init(en.cfg.SteadyWindow)
+	st.hw.init(en.cfg.SteadyWindow)
+	st.dat.init(max(en.cfg.SteadyWindow/2, 2))
+	st.leakFlow = -1
+	st.base = ratedBaseline(t.ID)
+	if en.cfg.LearnMinPoints == 0 {
+		st.learn.done = true
+	}
+	phys, fc, err := pf(t, loop)
+	if err == nil {
+		ts.phys, ts.flow = phys, fc
+		err = en.applyBaseline(i, st.base)
+	}
+	if err != nil {
+		ts.modelErr = err
+	}
+}
+
+// lookup resolves an ID through the site's index map, or by a linear scan
+// when the map was not filled (sites built in code).
+func lookup(idx map[string]int, id string, n int, name func(int) string) (int, bool) {
+	if id == "" {
+		return -1, false
+	}
+	if k, ok := idx[id]; ok && k >= 0 && k < n {
+		return k, true
+	}
+	for k := 0; k < n; k++ {
+		if name(k) == id {
+			return k, true
+		}
+	}
+	return -1, false
+}
+
+// applyBaseline rebuilds terminal i's model at the baseline factors and
+// restarts the running statistics that are relative to the baseline.
+func (en *Engine) applyBaseline(i int, b Baseline) error {
+	ts, st := &en.terms[i], &en.state[i]
+	if ts.phys == nil {
+		return ts.modelErr
+	}
+	r, err := ts.phys.withUA(b.UAFactor)
+	if err != nil {
+		return fmt.Errorf("terminal %s: coil model at UA factor %.3g: %w", ts.id, b.UAFactor, err)
+	}
+	rUA, err := ts.phys.withUA(b.UAFactor * uaStep)
+	if err != nil {
+		return fmt.Errorf("terminal %s: coil model at UA factor %.3g: %w", ts.id, b.UAFactor*uaStep, err)
+	}
+	st.r, st.rUA, st.flowScale, st.base = r, rUA, b.FlowFactor, b
+	st.designFlow = ts.flow.design() * b.FlowFactor
+	st.eval = evaluation{}
+	st.fac, st.facOut = factorSums{}, factorOut{}
+	st.chart = chart{}
+	st.resp = response{}
+	st.respStats = st.resp.stats()
+	return nil
+}
+
+// finishLearning fits the baseline from the learning reservoir and adopts it
+// when plausible.
+func (en *Engine) finishLearning(st *termState, t *termStatic) {
+	st.learn.done = true
+	i := t.idx
+	b, err := fitBaseline(t.phys, &t.flow, &st.learn)
+	if err != nil {
+		st.base.Rejected = err.Error()
+		return
+	}
+	b.Terminal = t.id
+	band := en.cfg.BaselineBand
+	if b.UAFactor > band || b.UAFactor < 1/band || b.FlowFactor > band || b.FlowFactor < 1/band {
+		rej := st.base
+		rej.Rejected = fmt.Sprintf("learned UA factor %.2f, flow factor %.2f outside 1/%.2g..%.2g of the rated model", b.UAFactor, b.FlowFactor, band, band)
+		rej.Points, rej.From, rej.To = b.Points, b.From, b.To
+		st.base = rej
+		return
+	}
+	if err := en.applyBaseline(i, b); err != nil {
+		st.base.Rejected = err.Error()
+	}
+}
+
+// Step processes one analysis step: samples for any subset of terminals (in
+// any order), appending one Evidence per sample to out, then aggregates the
+// loops (Loops returns them) and applies loop-level isolation to the
+// terminal evidence it appended. Samples with an unknown terminal index are
+// skipped.
+func (en *Engine) Step(samples []collector.Sample, out []Evidence) []Evidence {
+	start := len(out)
+	out = en.StepTerminals(samples, out)
+	en.aggregateLoops(out[start:])
+	return out
+}
+
+// StepTerminals is the per-terminal part of Step, without loop aggregation.
+// Calls for disjoint terminal sets may run concurrently.
+func (en *Engine) StepTerminals(samples []collector.Sample, out []Evidence) []Evidence {
+	for k := range samples {
+		s := &samples[k]
+		i := s.Terminal
+		if i < 0 || i >= len(en.terms) {
+			continue
+		}
+		out = append(out, Evidence{})
+		en.process(s, &en.terms[i], &en.state[i], &out[len(out)-1])
+	}
+	return out
+}
+
+// Loops returns the loop evidence of the last Step (or AggregateLoops call).
+// The slice is reused by the next step; copy it to keep it.
+func (en *Engine) Loops() []LoopEvidence { return en.loopOut }
+
+// AggregateLoops computes loop evidence over the evidence of one step
+// (possibly gathered from sharded StepTerminals calls) and applies loop-level
+// isolation to it in place.
+func (en *Engine) AggregateLoops(ev []Evidence) { en.aggregateLoops(ev) }
+
+// TerminalErrors lists why terminals have no model (nil entries are fine).
+func (en *Engine) TerminalErrors() []error {
+	out := make([]error, len(en.terms))
+	for i := range en.terms {
+		out[i] = en.terms[i].modelErr
+	}
+	return out
+}
+
+// Baselines returns every terminal's current baseline.
+func (en *Engine) Baselines() []Baseline {
+	out := make([]Baseline, len(en.state))
+	for i := range en.state {
+		out[i] = en.state[i].base
+	}
+	return out
+}
+
+// LoadBaselines adopts persisted baselines (matched by terminal ID) and ends
+// learning for those terminals. Unknown terminals and implausible factors are
+// reported in the error; the others are applied.
+func (en *Engine) LoadBaselines(bs []Baseline) error {
+	var errs []error
+	for _, b := range bs {
+		i, ok := lookup(en.site.TerminalIndex, b.Terminal, len(en.terms), func(k int) string { return en.terms[k].id })
+		if !ok {
+			errs = append(errs, fmt.Errorf("baseline for unknown terminal %q", b.Terminal))
+			continue
+		}
+		if !(b.UAFactor > 0) || !(b.FlowFactor > 0) || !finite(b.UAFactor) || !finite(b.FlowFactor) {
+			errs = append(errs, fmt.Errorf("terminal %s: baseline factors UA %g, flow %g must be positive", b.Terminal, b.UAFactor, b.FlowFactor))
+			continue
+		}
+		if err := en.applyBaseline(i, b); err != nil {
+			errs = append(errs, err)
+			continue
+		}
+		en.state[i].learn.done = true
+	}
+	return errors.Join(errs...)
+}

@@ -1,0 +1,188 @@
+package fdd
+
+import (
+	"math"
+	"time"
+)
+
+// modelSample compares a steady sample (plant on, heat available) with the
+// calibrated coil model: expected rise at the measured airflow, EAT and HW
+// temperature and the water flow from the installed valve curve, its
+// uncertainty, the residual and everything that feeds on it.
+func (en *Engine) modelSample(st *termState, t *termStatic, in inputs, eat, obs float64, e *Evidence) {
+	cfg := &en.cfg
+	mw := t.flow.at(in.u) * st.flowScale
+	if !st.eval.near(in.v, eat, mw, in.hw) {
+		st.eval = evaluate(st.r, st.rUA, in.v, eat, mw, in.hw)
+		st.evalSteps++
+	}
+	ev := &st.eval
+	if !ev.ok {
+		return
+	}
+	f := ev.taylor(in.v, eat, mw, in.hw)
+	s2 := en.residualVar(ev, in, f, mw, st.base.ResidualSigmaK)
+	sigma := math.Sqrt(s2)
+	res := obs - f
+	z := res / sigma
+	e.ExpectedRiseK, e.SigmaK, e.ResidualK, e.ZScore = f, sigma, res, z
+	st.resp.add(in.u, obs, f, res, cfg.ClosedValveFrac)
+	if in.u <= heatingMinFrac {
+		return
+	}
+	if f > minExpectedRiseK {
+		e.PerfIndex = obs / f
+		st.perf.add(obs/f, en.perfAlpha)
+		// Rise at the design HW temperature: at fixed flows the e-NTU rise
+		// scales with the inlet temperature difference, ΔT_air = ε·(C_min/C_air)·(T_hw − EAT).
+		if d := in.hw - eat; d > offsetNoHeatK {
+			fd := f * (t.designHWC - eat) / d
+			if fd > minExpectedRiseK {
+				st.designPerf.add(obs/fd, en.perfAlpha)
+				st.perfAge = 0
+				st.saturated = in.u >= saturatedFrac
+			}
+		}
+	}
+	st.chart.add(z, cfg.ChartBlock, cfg.CUSUMK, cfg.EWMALambda)
+	if st.chart.cusumLow > 1e6 {
+		st.chart.cusumLow = 1e6
+	}
+	en.updateFactors(st, ev.dLU, ev.dM*mw, res, s2)
+	if e.Learning {
+		st.learn.add(learnPoint{at: e.At, v: in.v, eat: eat, u: in.u, thw: in.hw, obsRise: obs})
+		if st.learn.ready(cfg.LearnMinPoints, time.Duration(cfg.LearnMinHours*float64(time.Hour)), e.At) {
+			en.finishLearning(st, t)
+		}
+	}
+}
+
+// residualVar is the variance of the residual r = DAT − SAT − g − f(V, SAT+g,
+// ṁ, T_hw), first-order propagation of independent input errors (GUM, JCGM
+// 100:2008, eq. 10):
+//
+//	σ² = σ_DAT² + (1+∂f/∂EAT)²·(σ_SAT² + σ_g²) + (∂f/∂V·σ_V)² + (∂f/∂T_hw·σ_hw)²
+//	   + (∂f/∂ṁ·ṁ·σ_ṁ,rel)² + (f·σ_model,rel)² + s_baseline²
+func (en *Engine) residualVar(ev *evaluation, in inputs, f, mw, baseSig float64) float64 {
+	a := &en.cfg.Accuracy
+	sV := math.Max(a.AirflowFrac*in.v, a.AirflowFloorM3s)
+	one := 1 + ev.dE
+	hwK := a.HotWaterK
+	if in.hwAssumed {
+		hwK = 3 * a.HotWaterK // design value standing in for a measurement [I]
+	}
+	return a.DischargeK*a.DischargeK + one*one*(a.SupplyK*a.SupplyK+a.DuctGainK*a.DuctGainK) +
+		sq(ev.dV*sV) + sq(ev.dT*hwK) + sq(ev.dM*mw*a.WaterFlowFrac) + sq(f*a.ModelFrac) + baseSig*baseSig
+}
+
+func sq(x float64) float64 { return x * x }
+
+// updateFactors adds one linearised observation r ≈ g_U·δlnUA + g_F·δlnF
+// (weight 1/σ²) to the exponentially forgotten normal equations and solves
+// the 2×2 system with the weak prior of the baseline fit. This is one
+// Gauss-Newton step from the baseline, re-solved per sample; the covariance
+// is inflated by ChartBlock for the serial correlation of 1-min samples.
+func (en *Engine) updateFactors(st *termState, gU, gF, res, s2 float64) {
+	fs := &st.fac
+	d := 1 - en.facAlpha
+	w := 1 / s2
+	fs.a00 = d*fs.a00 + w*gU*gU
+	fs.a01 = d*fs.a01 + w*gU*gF
+	fs.a11 = d*fs.a11 + w*gF*gF
+	fs.b0 = d*fs.b0 + w*gU*res
+	fs.b1 = d*fs.b1 + w*gF*res
+	fs.n = d*fs.n + 1
+	p := 1 / (priorSigmaLog * priorSigmaLog)
+	m00, m01, m11 := fs.a00+p, fs.a01, fs.a11+p
+	det := m00*m11 - m01*m01
+	if !(det > 0) {
+		return
+	}
+	du := (m11*fs.b0 - m01*fs.b1) / det
+	df := (m00*fs.b1 - m01*fs.b0) / det
+	infl := float64(en.cfg.ChartBlock)
+	cu, cf := infl*m11/det, infl*m00/det
+	ua, fl := math.Exp(du), math.Exp(df)
+	st.facOut = factorOut{ua: ua, uaSig: ua * math.Sqrt(cu), fl: fl, flSig: fl * math.Sqrt(cf)}
+}
+
+// leakFlow estimates, every few steps, the water flow that explains the
+// closed-valve rise by inverting the coil model (bisection on water flow),
+// as a fraction of the full-open installed flow.
+func (en *Engine) leakFlow(st *termState, t *termStatic, in inputs, eat float64) {
+	st.leakAge++
+	if t.modelErr != nil || st.leakAge < leakInvertEvery {
+		return
+	}
+	st.leakAge = 0
+	rise := st.leak.value()
+	if off := st.offset.value(); finite(off) && off > 0 {
+		rise -= off
+	}
+	if !(rise > 0.3) {
+		st.leakFlow = 0
+		return
+	}
+	design := t.flow.design() * st.flowScale
+	m := invertFlow(st.r, in.v, eat, in.hw, rise, design)
+	if !finite(m) {
+		st.leakFlow = 1 // more than the open valve gives: reported as full flow
+		return
+	}
+	st.leakFlow = m / design
+}
+
+// copyRunning copies the running statistics into e.
+func (en *Engine) copyRunning(st *termState, e *Evidence) {
+	e.LeakRiseK = st.leak.value()
+	e.OffsetK = st.offset.value()
+	if st.leak.ok && st.leakFlowSet() {
+		e.LeakFlowFrac = st.leakFlow
+	}
+	if st.facOut.ua > 0 {
+		e.UAFactor, e.UAFactorSigma = st.facOut.ua, st.facOut.uaSig
+		e.FlowFactor, e.FlowFactorSigma = st.facOut.fl, st.facOut.flSig
+	}
+	if st.chart.started {
+		e.CUSUMLowK, e.EWMAResid = st.chart.cusumLow, st.chart.ewma
+	}
+	if st.perf.ok {
+		e.PerfAvg = st.perf.v
+	}
+	if st.perfAge < perfExpireSteps && st.designPerf.ok {
+		e.DesignPerfIndex = st.designPerf.v
+		e.LoopShort = st.saturated && st.designPerf.v < loopShortPerf
+	}
+}
+
+func (st *termState) leakFlowSet() bool { return st.leakFlow >= 0 }
+
+// copyResponse copies the latest response-bin statistics into e.
+func (en *Engine) copyResponse(st *termState, e *Evidence) {
+	r := &st.respStats
+	e.RiseValveCorr, e.RiseSpanK, e.ExpectedSpanK, e.ValveSpan = r.corr, r.riseSpan, r.expSpan, r.valveSpan
+	e.ShortfallHighK, e.ShortfallLowK = r.shortHigh, r.shortLow
+	e.PerfHigh, e.PerfLow = r.perfHigh, r.perfLow
+}
+
+// energy fills the energy impact: leak heat (and the cooling spent removing
+// it, taken equal; the box must offset it with cold air) and heating
+// shortfall, Q = ṁ_da·c_p·ΔT with moist-air properties (energy.go).
+func (en *Engine) energy(st *termState, in inputs, e *Evidence) {
+	if st.closedRun >= en.closedSteps && in.plantOn && finite(e.LeakRiseK) {
+		ex := e.LeakRiseK
+		if finite(e.OffsetK) && e.OffsetK > 0 {
+			ex -= e.OffsetK
+		}
+		if ex > 0 {
+			e.WastedHeatW = en.air.heatW(in.v, ex, in.dat)
+			e.AddedCoolingW = e.WastedHeatW
+		}
+	}
+	if in.u > heatingMinFrac && finite(e.ResidualK) && e.ResidualK < 0 {
+		e.ShortfallW = en.air.heatW(in.v, -e.ResidualK, in.dat)
+	}
+	if finite(e.LeakFlowFrac) && st.leak.ok {
+		e.LeakFlowM3s = e.LeakFlowFrac * st.designFlow
+	}
+}

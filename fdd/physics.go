@@ -1,0 +1,206 @@
+package fdd
+
+import (
+	"fmt"
+	"math"
+
+	"risewatch/coilmodel"
+	"risewatch/site"
+)
+
+// riser evaluates the expected air temperature rise (K) of one coil at an
+// operating point. *coilmodel.Calibrated satisfies it.
+type riser interface {
+	ExpectedRise(op coilmodel.Operating) float64
+}
+
+// coilPhysics gives risers for a terminal's coil with UA scaled relative to
+// its calibrated (rated-point) value.
+type coilPhysics interface {
+	withUA(scale float64) (riser, error)
+}
+
+// physicsFactory builds the model of one terminal: its coil and its installed
+// flow curve (water flow versus command). Tests substitute their own.
+type physicsFactory func(t *site.Terminal, l *site.Loop) (coilPhysics, flowCurve, error)
+
+// calibratedPhysics is the production physics: the coilmodel coil, calibrated
+// to the submittal rated point when one is given.
+type calibratedPhysics struct{ k *coilmodel.Calibrated }
+
+func (p calibratedPhysics) withUA(scale float64) (riser, error) {
+	if !(scale > 0) || !finite(scale) {
+		return nil, fmt.Errorf("UA scale %g must be positive", scale)
+	}
+	return p.k.WithUAMultiplier(p.k.UAMultiplier() * scale), nil
+}
+
+// flowPoints is the resolution of the installed flow table.
+const flowPoints = 41
+
+// flowCurve is the installed water flow (m³/s) at commands 0, 1/40, …, 1,
+// with the valve and coil in series across the loop's design branch
+// differential pressure (coilmodel.InstalledFlowM3s). Linear interpolation.
+type flowCurve struct {
+	m [flowPoints]float64
+}
+
+// at returns the flow at command u (clamped to 0..1).
+func (f *flowCurve) at(u float64) float64 {
+	if !(u > 0) {
+		return f.m[0]
+	}
+	if u >= 1 {
+		return f.m[flowPoints-1]
+	}
+	x := u * (flowPoints - 1)
+	i := int(x)
+	fr := x - float64(i)
+	return f.m[i] + fr*(f.m[i+1]-f.m[i])
+}
+
+// design is the full-open flow.
+func (f *flowCurve) design() float64 { return f.m[flowPoints-1] }
+
+// defaultPhysics builds a terminal's model from coilmodel. The coil is
+// calibrated to Terminal.Rated (coilmodel.Calibrate) unless the site loader
+// already set a UA multiplier. The flow curve comes from the valve and coil
+// hydraulics at the loop's design branch differential pressure; without
+// hydraulic data but with a rated water flow, the installed characteristic is
+// taken as linear through the rated flow at full command (an equal-percentage
+// valve with moderate authority installs close to linear; ISA/Wade, common
+// practice) and the wider flow uncertainty is the user's to configure.
+func defaultPhysics(t *site.Terminal, l *site.Loop) (coilPhysics, flowCurve, error) {
+	var fc flowCurve
+	c := t.Coil
+	if t.Rated != nil && c.UAMultiplier == 0 {
+		cal, _, err := coilmodel.Calibrate(c, *t.Rated)
+		if err != nil {
+			return nil, fc, fmt.Errorf("terminal %s: calibrate to rated point: %w", t.ID, err)
+		}
+		c = cal
+	}
+	waterC := 80.0
+	dp := 0.0
+	if l != nil {
+		if l.DesignSupplyC > 0 {
+			waterC = l.DesignSupplyC
+		}
+		dp = l.BranchDPPa
+	}
+	switch {
+	case t.Valve.Cv > 0 && dp > 0:
+		for i := range fc.m {
+			u := float64(i) / (flowPoints - 1)
+			q, err := coilmodel.InstalledFlowM3s(t.Valve, c, u, dp, waterC)
+			if err != nil {
+				return nil, fc, fmt.Errorf("terminal %s: installed flow at %.0f %% command: %w", t.ID, 100*u, err)
+			}
+			fc.m[i] = q
+		}
+	case t.Rated != nil && t.Rated.WaterFlowM3s > 0:
+		for i := range fc.m {
+			fc.m[i] = t.Rated.WaterFlowM3s * float64(i) / (flowPoints - 1)
+		}
+	default:
+		return nil, fc, fmt.Errorf("terminal %s: no valve Cv with branch pressure and no rated water flow: water flow unknown", t.ID)
+	}
+	if !(fc.design() > 0) || math.IsInf(fc.design(), 0) {
+		return nil, fc, fmt.Errorf("terminal %s: full-open water flow %g m³/s is not positive", t.ID, fc.design())
+	}
+	k, err := coilmodel.NewCalibrated(c)
+	if err != nil {
+		return nil, fc, fmt.Errorf("terminal %s: coil model: %w", t.ID, err)
+	}
+	return calibratedPhysics{k: k}, fc, nil
+}
+
+// evaluation is one full model evaluation with its first-order sensitivities,
+// reused as a Taylor expansion while the inputs stay near it.
+type evaluation struct {
+	ok                  bool
+	v, eat, mw, thw     float64 // inputs it was evaluated at
+	f                   float64 // expected rise, K
+	dV, dE, dM, dT, dLU float64 // ∂f/∂V (K per m³/s), ∂f/∂EAT, ∂f/∂ṁ (K per m³/s), ∂f/∂T_hw, ∂f/∂ln UA (K)
+}
+
+// Trust region of the Taylor reuse: inside it the second-order error is far
+// below the sensor uncertainty [I].
+const (
+	trustAirFrac   = 0.04
+	trustEATK      = 0.5
+	trustWaterFrac = 0.04
+	trustHWK       = 1.0
+)
+
+// near reports whether inputs are inside the trust region of e.
+func (e *evaluation) near(v, eat, mw, thw float64) bool {
+	return e.ok &&
+		math.Abs(v-e.v) <= trustAirFrac*e.v &&
+		math.Abs(eat-e.eat) <= trustEATK &&
+		math.Abs(mw-e.mw) <= trustWaterFrac*e.mw+1e-9 &&
+		math.Abs(thw-e.thw) <= trustHWK
+}
+
+// taylor is the first-order expansion of f around e.
+func (e *evaluation) taylor(v, eat, mw, thw float64) float64 {
+	return e.f + e.dV*(v-e.v) + e.dE*(eat-e.eat) + e.dM*(mw-e.mw) + e.dT*(thw-e.thw)
+}
+
+// evaluate runs the model at the inputs and forward differences for the
+// sensitivities (6 evaluations; the UA one uses the riser at UA × 1.05).
+func evaluate(r, rUA riser, v, eat, mw, thw float64) evaluation {
+	op := coilmodel.Operating{AirflowM3s: v, EnteringAirC: eat, WaterFlowM3s: mw, EnteringWaterC: thw}
+	f := r.ExpectedRise(op)
+	e := evaluation{ok: true, v: v, eat: eat, mw: mw, thw: thw, f: f}
+	hv := 0.02 * v
+	o := op
+	o.AirflowM3s = v + hv
+	e.dV = (r.ExpectedRise(o) - f) / hv
+	o = op
+	o.EnteringAirC = eat + 0.2
+	e.dE = (r.ExpectedRise(o) - f) / 0.2
+	hm := 0.02*mw + 1e-8
+	o = op
+	o.WaterFlowM3s = mw + hm
+	e.dM = (r.ExpectedRise(o) - f) / hm
+	o = op
+	o.EnteringWaterC = thw + 0.2
+	e.dT = (r.ExpectedRise(o) - f) / 0.2
+	e.dLU = (rUA.ExpectedRise(op) - f) / math.Log(uaStep)
+	if !finite(f) || !finite(e.dV) || !finite(e.dE) || !finite(e.dM) || !finite(e.dT) || !finite(e.dLU) {
+		return evaluation{}
+	}
+	return e
+}
+
+// uaStep is the UA multiplier of the perturbed riser used for ∂f/∂ln UA.
+const uaStep = 1.05
+
+// invertFlow finds the water flow in [0, mMax] at which the coil gives the
+// rise target at the other inputs (bisection; the rise increases
+// monotonically with water flow). It returns NaN when the target is not
+// reachable even at mMax (e.g. a sensor offset rather than a leak).
+func invertFlow(r riser, v, eat, thw, target, mMax float64) float64 {
+	op := coilmodel.Operating{AirflowM3s: v, EnteringAirC: eat, EnteringWaterC: thw}
+	if !(target > 0) {
+		return 0
+	}
+	op.WaterFlowM3s = mMax
+	if r.ExpectedRise(op) < target {
+		return math.NaN()
+	}
+	lo, hi := 0.0, mMax
+	for i := 0; i < 30; i++ {
+		mid := 0.5 * (lo + hi)
+		op.WaterFlowM3s = mid
+		if r.ExpectedRise(op) < target {
+			lo = mid
+		} else {
+			hi = mid
+		}
+	}
+	return 0.5 * (lo + hi)
+}
+
+func finite(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }

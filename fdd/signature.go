@@ -1,0 +1,136 @@
+package fdd
+
+import "math"
+
+// Signature scores: each fault kind gets a score in 0..1 from the evidence
+// that separates it from the others (fault-signature table: leak ∝ heat with
+// the valve closed and the plant on; stuck = rise does not follow command;
+// fouled = UA down, shortfall at all commands; starved = flow down, shortfall
+// flow-limited; DAT offset = rise with no heat available; reversed = rise
+// falls as command rises; hunting = many reversals). The ramps' end points
+// are engineering judgement [I] unless a source is named. The rules layer
+// applies persistence and its own thresholds; the scores are fdd's isolation.
+
+// ramp maps x linearly from 0 at lo to 1 at hi, clamped; NaN gives 0.
+func ramp(x, lo, hi float64) float64 {
+	if !(x > lo) {
+		return 0
+	}
+	if x >= hi {
+		return 1
+	}
+	return (x - lo) / (hi - lo)
+}
+
+// Score end points [I] unless noted.
+const (
+	stuckOpenLo, stuckOpenHi   = 0.4, 0.7 // leak flow fraction beyond which "leak" becomes "stuck open"
+	respValveSpanMin           = 0.25     // command span needed to judge the response
+	respExpSpanMinK            = 2.0      // model rise span needed to judge the response
+	respRatioLo, respRatioHi   = 0.2, 0.5 // observed/expected span: unresponsive below
+	revCorrLo, revCorrHi       = 0.3, 0.6 // negative correlation for reversed action
+	noHeatPerfLo, noHeatPerfHi = 0.1, 0.25
+	capLossLo, capLossHi       = 0.12, 0.25 // 1 − performance at high command
+	cusumLo, cusumHi           = 4.0, 8.0   // CUSUM decision interval h = 4–5σ for k = 0.5 (Montgomery) [P], ramped to 8
+	offsetLoK, offsetHiK       = 1.2, 2.2   // |offset| ≈ 1.5–3 σ of the closed-valve rise with default accuracies
+	huntLo, huntHi             = 6.0, 10.0  // valve reversals per hour
+	datBadLoMin, datBadHiMin   = 30.0, 60.0
+)
+
+// scoreSignatures fills e.Scores and e.Best for a usable sample.
+func scoreSignatures(e *Evidence, en *Engine, st *termState) {
+	cfg := &en.cfg
+	sc := &e.Scores
+
+	// Response to command: unresponsive (stuck) or reversed.
+	var unresp, rev float64
+	if e.ValveSpan >= respValveSpanMin && e.ExpectedSpanK >= respExpSpanMinK && finite(e.RiseSpanK) {
+		unresp = 1 - ramp(e.RiseSpanK/e.ExpectedSpanK, respRatioLo, respRatioHi)
+		rev = ramp(-e.RiseValveCorr, revCorrLo, revCorrHi) * ramp(-e.RiseSpanK, 0.5, 2)
+		unresp *= 1 - rev
+	}
+
+	// Leak (Guideline 36: closed ≥ 15 min, DAT above SAT by 3 K / 5 °F).
+	var leak, stuckOpen float64
+	if e.ClosedMinutes >= cfg.ClosedMinutes && e.PlantOn && finite(e.LeakRiseK) {
+		ex := e.LeakRiseK
+		if finite(e.OffsetK) && e.OffsetK > 0 {
+			ex -= e.OffsetK
+		}
+		s := ramp(ex, 0.5*cfg.LeakThresholdK, cfg.LeakThresholdK)
+		open := ramp(e.LeakFlowFrac, stuckOpenLo, stuckOpenHi)
+		leak = s * (1 - open) * (1 - rev)
+		stuckOpen = s * open * (1 - rev)
+	}
+
+	// Capacity at high command: no heat (stuck closed), or reduced.
+	p := e.PerfHigh
+	if !finite(p) {
+		p = e.PerfAvg
+	}
+	var noHeat, capLoss float64
+	if finite(p) {
+		noHeat = 1 - ramp(p, noHeatPerfLo, noHeatPerfHi)
+		capLoss = math.Max(ramp(1-p, capLossLo, capLossHi),
+			0.8*ramp(e.CUSUMLowK, cusumLo, cusumHi)*ramp(1-p, 0.5*capLossLo, capLossLo))
+		capLoss *= 1 - noHeat
+	}
+	// Which parameter explains the loss: UA (fouled) or water flow (starved).
+	fouledShare, starvedShare := 0.5, 0.5
+	if finite(e.UAFactor) && finite(e.FlowFactor) {
+		du := math.Max(0, -math.Log(e.UAFactor))
+		df := math.Max(0, -math.Log(e.FlowFactor))
+		if du+df > 1e-6 {
+			fouledShare = du / (du + df)
+			starvedShare = 1 - fouledShare
+		}
+	}
+	sharp := func(x float64) float64 { return ramp(x, 0.35, 0.65) }
+
+	sc[KindLeakingValve] = leak
+	sc[KindStuckValve] = math.Max(math.Max(unresp, stuckOpen), noHeat)
+	sc[KindFouledCoil] = capLoss * sharp(fouledShare) * (1 - unresp)
+	sc[KindStarvedCoil] = capLoss * sharp(starvedShare) * (1 - unresp)
+	sc[KindReversedValve] = rev
+	sc[KindHunting] = ramp(e.ReversalsPerHour, huntLo, huntHi)
+	neg := ramp(-e.LeakRiseK, offsetLoK, offsetHiK) // DAT below SAT with the fan on: impossible
+	sc[KindDATOffset] = math.Max(ramp(math.Abs(e.OffsetK), offsetLoK, offsetHiK), neg)
+	if finite(e.DATSetC) && e.PlantOn {
+		// Guideline 36 §5.6.6 low-DAT alarm: ≥ 8 K (15 °F) below setpoint.
+		sc[KindLowDischarge] = ramp(e.DATSetC-e.DischargeC, 0.5*cfg.LowDischargeK, cfg.LowDischargeK)
+	}
+	sc[KindDATFailed] = datFailedScore(e, st, cfg.FlatlineMinutes)
+	e.Best = bestKind(sc, cfg.ScoreThreshold)
+}
+
+// datFailedScore: a DAT frozen at one value while the valve or SAT moved, or
+// missing/out of range while the other points are fine.
+// The frozen-value ramp runs from a quarter to half of FlatlineMinutes.
+func datFailedScore(e *Evidence, st *termState, flatMin float64) float64 {
+	moved := st.flatUMax-st.flatUMin >= 0.2 || st.flatSMax-st.flatSMin >= 1
+	var flat float64
+	if moved {
+		flat = ramp(e.DATFlatMinutes, 0.25*flatMin, 0.5*flatMin)
+	}
+	return math.Max(flat, ramp(e.DATBadMinutes, datBadLoMin, datBadHiMin))
+}
+
+// scoreDataQuality scores a sample with a data gate: only data-quality kinds.
+func scoreDataQuality(e *Evidence, en *Engine, st *termState) {
+	e.Scores[KindDataQuality] = 1
+	e.Scores[KindDATFailed] = datFailedScore(e, st, en.cfg.FlatlineMinutes)
+	e.Best = bestKind(&e.Scores, en.cfg.ScoreThreshold)
+}
+
+// bestKind is the kind with the highest score at or above threshold; the
+// sensor kinds win ties (a failed sensor explains everything else).
+func bestKind(sc *[kindCount]float64, threshold float64) Kind {
+	best, bs := KindNone, threshold
+	for _, k := range [...]Kind{KindDATFailed, KindDATOffset, KindColdLoop, KindReversedValve, KindStuckValve,
+		KindLeakingValve, KindStarvedCoil, KindFouledCoil, KindHunting, KindLowDischarge, KindDataQuality} {
+		if s := sc[k]; s >= bs && (best == KindNone || s > bs) {
+			best, bs = k, s
+		}
+	}
+	return best
+}

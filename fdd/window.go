@@ -1,0 +1,134 @@
+package fdd
+
+// maxWindow is the capacity of a sliding window (steps).
+const maxWindow = 32
+
+// window is a fixed-capacity sliding window over equally spaced samples with
+// running sums, so the mean, variance and least-squares slope cost O(1) per
+// sample. The sums are recomputed from the ring every rebuildEvery pushes so
+// rounding does not accumulate.
+type window struct {
+	ring   [maxWindow]float64
+	n      int // window length
+	count  int // samples held (≤ n)
+	head   int // index of the next write
+	pushes int
+	sum    float64 // Σ x_j
+	sumSq  float64 // Σ x_j²
+	sumJ   float64 // Σ j·x_j, j = 0 for the oldest sample
+}
+
+const rebuildEvery = 256
+
+func (w *window) init(n int) { *w = window{n: n} }
+
+// reset empties the window (after a gap or a gated sample).
+func (w *window) reset() {
+	w.count, w.head, w.sum, w.sumSq, w.sumJ = 0, 0, 0, 0, 0
+}
+
+// full reports whether the window holds n samples.
+func (w *window) full() bool { return w.count == w.n }
+
+// push appends x, dropping the oldest sample when full.
+//
+// Sliding update of Σ j·x_j: removing x_0 and renumbering gives
+// S' = S − (T − x_0) + (n−1)·x_new, with T = Σ x_j before the update.
+func (w *window) push(x float64) {
+	if w.count < w.n {
+		w.sumJ += float64(w.count) * x
+		w.sum += x
+		w.sumSq += x * x
+		w.ring[w.head] = x
+		w.head++
+		if w.head == w.n {
+			w.head = 0
+		}
+		w.count++
+		return
+	}
+	old := w.ring[w.head]
+	w.sumJ = w.sumJ - (w.sum - old) + float64(w.n-1)*x
+	w.sum += x - old
+	w.sumSq += x*x - old*old
+	w.ring[w.head] = x
+	w.head++
+	if w.head == w.n {
+		w.head = 0
+	}
+	w.pushes++
+	if w.pushes >= rebuildEvery {
+		w.rebuild()
+	}
+}
+
+// rebuild recomputes the running sums from the ring.
+func (w *window) rebuild() {
+	w.pushes = 0
+	w.sum, w.sumSq, w.sumJ = 0, 0, 0
+	start := w.head - w.count
+	if start < 0 {
+		start += w.n
+	}
+	for j := 0; j < w.count; j++ {
+		k := start + j
+		if k >= w.n {
+			k -= w.n
+		}
+		x := w.ring[k]
+		w.sum += x
+		w.sumSq += x * x
+		w.sumJ += float64(j) * x
+	}
+}
+
+// mean of the samples held.
+func (w *window) mean() float64 {
+	if w.count == 0 {
+		return 0
+	}
+	return w.sum / float64(w.count)
+}
+
+// variance (population) of the samples held, clamped at 0.
+func (w *window) variance() float64 {
+	if w.count < 2 {
+		return 0
+	}
+	c := float64(w.count)
+	v := (w.sumSq - w.sum*w.sum/c) / c
+	if v < 0 {
+		return 0
+	}
+	return v
+}
+
+// slope is the ordinary least-squares slope per step over the samples held:
+// b = (c·Σjx − Σj·Σx) / (c·Σj² − (Σj)²), j = 0..c−1.
+func (w *window) slope() float64 {
+	if w.count < 2 {
+		return 0
+	}
+	c := float64(w.count)
+	sj := c * (c - 1) / 2
+	sjj := (c - 1) * c * (2*c - 1) / 6
+	return (c*w.sumJ - sj*w.sum) / (c*sjj - sj*sj)
+}
+
+// last returns the most recent sample.
+func (w *window) last() float64 {
+	i := w.head - 1
+	if i < 0 {
+		i += w.n
+	}
+	return w.ring[i]
+}
+
+// ago returns the sample k steps before the most recent (k < count).
+func (w *window) ago(k int) float64 {
+	i := w.head - 1 - k
+	for i < 0 {
+		i += w.n
+	}
+	return w.ring[i]
+}
