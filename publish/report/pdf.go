@@ -1,0 +1,310 @@
+package report
+
+import (
+	"bytes"
+	"fmt"
+	"image/color"
+	"io"
+	"math"
+	"strings"
+
+	"github.com/go-pdf/fpdf"
+	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/plotter"
+	"gonum.org/v1/plot/vg"
+
+	"risewatch/rules"
+	"risewatch/units"
+)
+
+// WritePDF writes the weekly report as PDF: A4 portrait, or Letter when the
+// report uses IP units (North American sites print on Letter).
+func WritePDF(w io.Writer, in Input) error {
+	size := "A4"
+	if in.IP {
+		size = "Letter"
+	}
+	pdf := fpdf.New("P", "mm", size, "")
+	pdf.SetTitle("risewatch weekly coil report", true)
+	pdf.SetCreator("risewatch", true)
+	pdf.SetAutoPageBreak(true, 15)
+	pdf.AliasNbPages("{nb}")
+	tr := pdf.UnicodeTranslatorFromDescriptor("") // cp1252 covers °, ±, ³ and –
+	loc := in.loc()
+	siteName := "site"
+	if in.Site != nil && in.Site.Name != "" {
+		siteName = in.Site.Name
+	}
+	week := fmt.Sprintf("%s – %s", in.WeekStart.In(loc).Format("Mon 2 Jan 2006"), in.WeekEnd.Add(-1).In(loc).Format("Mon 2 Jan 2006"))
+	pdf.SetFooterFunc(func() {
+		pdf.SetY(-12)
+		pdf.SetFont("Helvetica", "I", 8)
+		pdf.CellFormat(0, 5, tr(fmt.Sprintf("risewatch weekly coil report · %s · %s · page %d of {nb}", siteName, week, pdf.PageNo())), "", 0, "C", false, 0, "")
+	})
+	pageW, _ := pdf.GetPageSize()
+	lm, _, rm, _ := pdf.GetMargins()
+	bodyW := pageW - lm - rm
+
+	h1 := func(s string) {
+		pdf.SetFont("Helvetica", "B", 15)
+		pdf.MultiCell(0, 8, tr(s), "", "L", false)
+	}
+	h2 := func(s string) {
+		pdf.Ln(2)
+		pdf.SetFont("Helvetica", "B", 12)
+		pdf.MultiCell(0, 6, tr(s), "", "L", false)
+	}
+	para := func(s string) {
+		pdf.SetFont("Helvetica", "", 9.5)
+		pdf.MultiCell(0, 4.6, tr(s), "", "L", false)
+	}
+	table := func(header []string, widths []float64, rows [][]string) {
+		pdf.SetFont("Helvetica", "B", 8.5)
+		pdf.SetFillColor(225, 232, 240)
+		for i, h := range header {
+			pdf.CellFormat(widths[i], 6, tr(h), "1", 0, "L", true, 0, "")
+		}
+		pdf.Ln(-1)
+		pdf.SetFont("Helvetica", "", 8.5)
+		for _, r := range rows {
+			for i := range header {
+				txt := ""
+				if i < len(r) {
+					txt = r[i]
+				}
+				// Trim to the cell so columns stay aligned.
+				for pdf.GetStringWidth(tr(txt)) > widths[i]-1.5 && len(txt) > 1 {
+					txt = txt[:len(txt)-1]
+				}
+				pdf.CellFormat(widths[i], 5.5, tr(txt), "1", 0, "L", false, 0, "")
+			}
+			pdf.Ln(-1)
+		}
+	}
+	scale := func(ws []float64) []float64 {
+		sum := 0.0
+		for _, x := range ws {
+			sum += x
+		}
+		out := make([]float64, len(ws))
+		for i, x := range ws {
+			out[i] = x * bodyW / sum
+		}
+		return out
+	}
+
+	// Page 1: summary.
+	pdf.AddPage()
+	h1("Weekly reheat coil report — " + siteName)
+	para("Week " + week + ". Generated " + in.Generated.In(loc).Format("Mon 2 Jan 2006 15:04 MST") + ".")
+	pdf.Ln(1)
+	pdf.SetFillColor(255, 244, 214)
+	pdf.SetFont("Helvetica", "", 8.5)
+	pdf.MultiCell(0, 4.2, tr(Advisory), "1", "L", true)
+	open := ranked(in.Open)
+	total := 0.0
+	for _, t := range open {
+		total += t.Impact.WeeklyCost
+	}
+	h2("Summary")
+	para(fmt.Sprintf("%d open fault(s), estimated %s %.2f a week. %d opened and %d cleared this week.",
+		len(open), in.currency(), total, len(in.Opened), len(in.Cleared)))
+
+	h2("Open faults, highest weekly cost first")
+	var rows [][]string
+	for i, t := range open {
+		since := t.Since
+		if since.IsZero() {
+			since = t.At
+		}
+		rows = append(rows, []string{fmt.Sprint(i + 1), t.Entity, t.Kind.String(), since.In(loc).Format("Jan 2 15:04"),
+			fmt.Sprintf("%.2f", t.Impact.WeeklyCost), fmt.Sprintf("%.0f %%", t.Confidence*100), firstOr(t.Checks, "")})
+	}
+	if len(rows) == 0 {
+		para("No open faults.")
+	} else {
+		table([]string{"#", "Terminal", "Fault", "Since", "Cost/wk " + in.currency(), "Conf.", "Check first"}, scale([]float64{6, 18, 22, 20, 18, 11, 60}), rows)
+	}
+	listChanges := func(title string, ts []rules.Transition) {
+		h2(title)
+		if len(ts) == 0 {
+			para("None.")
+			return
+		}
+		var rs [][]string
+		for _, t := range ts {
+			rs = append(rs, []string{t.Entity, t.Kind.String(), t.At.In(loc).Format("Mon Jan 2 15:04"), t.Message})
+		}
+		table([]string{"Terminal", "Fault", "When", "Note"}, scale([]float64{18, 22, 24, 90}), rs)
+	}
+	listChanges("New this week", in.Opened)
+	listChanges("Cleared this week", in.Cleared)
+
+	// One page section per open fault.
+	for i, t := range open {
+		pdf.AddPage()
+		h1(fmt.Sprintf("%d. %s — %s", i+1, t.Entity, t.Kind))
+		cl := in.coilLine(t.Entity)
+		para(fmt.Sprintf("Box inlet %s, %s row(s), %s FPI, coil face %s. Zone %s. Location: %s. AHU %s, loop %s.",
+			orDash(cl[1]), orDash(cl[2]), orDash(cl[3]), orDash(cl[4]), orDash(cl[5]), orDash(cl[6]), orDash(t.AHU), orDash(t.Loop)))
+		if t.Message != "" {
+			h2("What was seen")
+			para(t.Message)
+		}
+		h2("Evidence")
+		for _, l := range in.evidenceLines(t) {
+			para("• " + l)
+		}
+		if len(t.Causes) > 0 {
+			h2("Likely cause")
+			for _, c := range t.Causes {
+				para("• " + c)
+			}
+		}
+		if len(t.Checks) > 0 {
+			h2("Checks to make")
+			for j, c := range t.Checks {
+				para(fmt.Sprintf("%d. %s", j+1, c))
+			}
+		}
+		if pts := in.Series[t.Entity]; len(pts) > 1 {
+			png, err := weekPlot(pts, in.IP, t.Entity)
+			if err != nil {
+				return fmt.Errorf("report: plot %s: %w", t.Entity, err)
+			}
+			name := "plot-" + t.FaultID
+			pdf.RegisterImageOptionsReader(name, fpdf.ImageOptions{ImageType: "PNG"}, bytes.NewReader(png))
+			pdf.Ln(2)
+			plotH := bodyW * 0.5
+			if pdf.GetY()+plotH > 270 {
+				pdf.AddPage()
+			}
+			pdf.ImageOptions(name, lm, pdf.GetY(), bodyW, plotH, true, fpdf.ImageOptions{ImageType: "PNG"}, 0, "")
+		}
+	}
+
+	// Terminal list for the technician.
+	pdf.AddPage()
+	h1("Terminals with open faults — coil data")
+	var trs [][]string
+	seen := map[string]bool{}
+	for _, t := range open {
+		if seen[t.Entity] || in.terminal(t.Entity) == nil {
+			continue
+		}
+		seen[t.Entity] = true
+		trs = append(trs, in.coilLine(t.Entity))
+	}
+	if len(trs) == 0 {
+		para("None.")
+	} else {
+		table([]string{"Terminal", "Inlet", "Rows", "FPI", "Coil face", "Zone", "Location"}, scale([]float64{20, 22, 9, 9, 24, 22, 50}), trs)
+	}
+
+	for _, s := range in.Sections {
+		pdf.AddPage()
+		h1(s.Title)
+		for _, p := range s.Intro {
+			para(p)
+		}
+		if len(s.Header) > 0 {
+			ws := make([]float64, len(s.Header))
+			for i := range ws {
+				ws[i] = 1
+			}
+			table(s.Header, scale(ws), s.Rows)
+		}
+	}
+	if err := pdf.Error(); err != nil {
+		return fmt.Errorf("report: pdf: %w", err)
+	}
+	return pdf.Output(w)
+}
+
+func firstOr(s []string, def string) string {
+	if len(s) > 0 {
+		return s[0]
+	}
+	return def
+}
+
+func orDash(s string) string {
+	if strings.TrimSpace(s) == "" {
+		return "–"
+	}
+	return s
+}
+
+// weekPlot draws observed and expected rise (left axis, °F or K) and valve
+// command scaled onto the same axis (0-100 % mapped to the rise range) as PNG.
+func weekPlot(pts []Point, ip bool, title string) ([]byte, error) {
+	p := plot.New()
+	p.Title.Text = title + ": air temperature rise and valve command"
+	unit := "K"
+	conv := func(k float64) float64 { return k }
+	if ip {
+		unit = "°F"
+		conv = units.DeltaKToF
+	}
+	p.Y.Label.Text = "rise, " + unit + " (valve % scaled to the same axis)"
+	p.X.Tick.Marker = plot.TimeTicks{Format: "Mon 15h"}
+	obs, exp, valve := plotter.XYs{}, plotter.XYs{}, plotter.XYs{}
+	maxRise := 1.0
+	for _, pt := range pts {
+		for _, v := range []float64{pt.ObservedRiseK, pt.ExpectedRiseK} {
+			if !math.IsNaN(v) && conv(v) > maxRise {
+				maxRise = conv(v)
+			}
+		}
+	}
+	for _, pt := range pts {
+		x := float64(pt.At.Unix())
+		if !math.IsNaN(pt.ObservedRiseK) {
+			obs = append(obs, plotter.XY{X: x, Y: conv(pt.ObservedRiseK)})
+		}
+		if !math.IsNaN(pt.ExpectedRiseK) {
+			exp = append(exp, plotter.XY{X: x, Y: conv(pt.ExpectedRiseK)})
+		}
+		if !math.IsNaN(pt.ValveFrac) {
+			valve = append(valve, plotter.XY{X: x, Y: pt.ValveFrac * maxRise})
+		}
+	}
+	add := func(xy plotter.XYs, c color.Color, dashed bool, name string) error {
+		if len(xy) < 2 {
+			return nil
+		}
+		l, err := plotter.NewLine(xy)
+		if err != nil {
+			return err
+		}
+		l.Color = c
+		l.Width = vg.Points(1.1)
+		if dashed {
+			l.Dashes = []vg.Length{vg.Points(4), vg.Points(3)}
+		}
+		p.Add(l)
+		p.Legend.Add(name, l)
+		return nil
+	}
+	if err := add(exp, color.RGBA{40, 110, 200, 255}, true, "expected rise"); err != nil {
+		return nil, err
+	}
+	if err := add(obs, color.RGBA{200, 60, 30, 255}, false, "observed rise"); err != nil {
+		return nil, err
+	}
+	if err := add(valve, color.RGBA{90, 90, 90, 255}, false, fmt.Sprintf("valve command (100 %% = %.0f)", maxRise)); err != nil {
+		return nil, err
+	}
+	p.Legend.Top = true
+	p.Legend.Left = true
+	p.Add(plotter.NewGrid())
+	wt, err := p.WriterTo(7*vg.Inch, 3.5*vg.Inch, "png")
+	if err != nil {
+		return nil, err
+	}
+	var buf bytes.Buffer
+	if _, err := wt.WriteTo(&buf); err != nil {
+		return nil, err
+	}
+	return buf.Bytes(), nil
+}

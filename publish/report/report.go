@@ -1,0 +1,223 @@
+// Package report writes the weekly contractor report: a PDF with the open
+// faults ranked by weekly cost, what opened and cleared during the week, per
+// fault the evidence, the likely cause, the checks to make and a plot of
+// observed against expected air temperature rise and valve command over the
+// week, and a terminal list with the coil data a technician needs on the
+// ladder; plus a CSV work list with one row per open fault.
+package report
+
+import (
+	"encoding/csv"
+	"fmt"
+	"io"
+	"math"
+	"sort"
+	"strconv"
+	"strings"
+	"time"
+
+	"risewatch/rules"
+	"risewatch/site"
+	"risewatch/units"
+)
+
+// Point is one sample of a terminal's evidence series for the week plot.
+type Point struct {
+	At            time.Time
+	ObservedRiseK float64
+	ExpectedRiseK float64
+	ValveFrac     float64
+}
+
+// Section is an extra section (for example the low-temperature hot-water
+// readiness summary) appended after the fault pages.
+type Section struct {
+	Title  string
+	Intro  []string
+	Header []string
+	Rows   [][]string
+}
+
+// Input is everything one weekly report shows.
+type Input struct {
+	Site      *site.Site
+	WeekStart time.Time // inclusive, site time
+	WeekEnd   time.Time // exclusive
+	Open      []rules.Transition
+	Opened    []rules.Transition // opened during the week
+	Cleared   []rules.Transition // cleared during the week
+	// Series holds each terminal's week of evidence, keyed by terminal ID.
+	Series   map[string][]Point
+	IP       bool // IP units first (SI in brackets); false: SI first
+	Sections []Section
+	// Generated is when the report was made (printed on it).
+	Generated time.Time
+}
+
+// Advisory is printed on the first page and in the CSV.
+const Advisory = "Advisory only: risewatch reads the building automation system and never writes to it. " +
+	"Confirm each finding on site and follow local codes, the equipment makers' instructions and licensed practice. " +
+	"Hot-water systems can scald and are under pressure: isolate, cool and depressurise a circuit and follow " +
+	"lock-out/tag-out before opening, venting or replacing valves, coils, strainers or air vents."
+
+// ranked returns the open faults, highest weekly cost first.
+func ranked(ts []rules.Transition) []rules.Transition {
+	out := append([]rules.Transition(nil), ts...)
+	sort.SliceStable(out, func(i, j int) bool {
+		if out[i].Impact.WeeklyCost != out[j].Impact.WeeklyCost {
+			return out[i].Impact.WeeklyCost > out[j].Impact.WeeklyCost
+		}
+		if out[i].Severity != out[j].Severity {
+			return out[i].Severity < out[j].Severity
+		}
+		return out[i].FaultID < out[j].FaultID
+	})
+	return out
+}
+
+func (in *Input) currency() string {
+	if in.Site != nil && in.Site.Energy.Currency != "" {
+		return in.Site.Energy.Currency
+	}
+	return "USD"
+}
+
+func (in *Input) loc() *time.Location {
+	if in.Site != nil && in.Site.Location != nil {
+		return in.Site.Location
+	}
+	return time.UTC
+}
+
+func (in *Input) terminal(id string) *site.Terminal {
+	if in.Site == nil {
+		return nil
+	}
+	if i, ok := in.Site.TerminalIndex[id]; ok && i < len(in.Site.Terminals) {
+		return &in.Site.Terminals[i]
+	}
+	for i := range in.Site.Terminals {
+		if in.Site.Terminals[i].ID == id {
+			return &in.Site.Terminals[i]
+		}
+	}
+	return nil
+}
+
+func dual(ip bool, f func(float64, bool) string, v float64) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return "n/a"
+	}
+	return f(v, ip) + " (" + f(v, !ip) + ")"
+}
+
+// evidenceLines describes a fault's evidence with numbers and units.
+func (in *Input) evidenceLines(t rules.Transition) []string {
+	ev := t.Evidence
+	ok := func(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
+	var l []string
+	if ok(ev.ObservedRiseK) {
+		s := "Observed air temperature rise " + dual(in.IP, units.FormatTempDiff, ev.ObservedRiseK)
+		if ok(ev.ExpectedRiseK) {
+			s += ", expected " + dual(in.IP, units.FormatTempDiff, ev.ExpectedRiseK)
+			if ok(ev.SigmaK) && ev.SigmaK > 0 {
+				s += " ± " + dual(in.IP, units.FormatTempDiff, 2*ev.SigmaK) + " (2 sigma)"
+			}
+		}
+		l = append(l, s)
+	}
+	if ok(ev.ValveFrac) {
+		l = append(l, "Valve command "+units.FormatPercent(ev.ValveFrac))
+	}
+	if ok(ev.AirflowM3s) && ev.AirflowM3s > 0 {
+		l = append(l, "Airflow "+dual(in.IP, units.FormatAirflow, ev.AirflowM3s))
+	}
+	if ok(ev.UAFactor) && ev.UAFactor > 0 {
+		l = append(l, fmt.Sprintf("Apparent coil UA %.0f %% of baseline", ev.UAFactor*100))
+	}
+	if ok(ev.FlowFactor) && ev.FlowFactor > 0 {
+		l = append(l, fmt.Sprintf("Apparent water flow %.0f %% of expected", ev.FlowFactor*100))
+	}
+	if ok(ev.LeakFlowFrac) && ev.LeakFlowFrac > 0 {
+		l = append(l, fmt.Sprintf("Estimated leak flow %s of design", units.FormatPercent(ev.LeakFlowFrac)))
+	}
+	im := t.Impact
+	if im.WastedHeatW > 0 {
+		l = append(l, "Unwanted heat "+dual(in.IP, units.FormatPower, im.WastedHeatW)+", extra cooling "+dual(in.IP, units.FormatPower, im.AddedCoolingW))
+	}
+	if im.ShortfallW > 0 {
+		l = append(l, "Heating shortfall "+dual(in.IP, units.FormatPower, im.ShortfallW))
+	}
+	l = append(l, fmt.Sprintf("Weekly impact: %.0f kWh heat, %.0f kWh cooling, %s %.2f; confidence %.0f %%",
+		im.WeeklyHeatKWh, im.WeeklyCoolKWh, in.currency(), im.WeeklyCost, t.Confidence*100))
+	return l
+}
+
+// coilLine is the ladder data of a terminal: box, inlet, rows, FPI, face, location.
+func (in *Input) coilLine(id string) []string {
+	tm := in.terminal(id)
+	if tm == nil {
+		return []string{id, "", "", "", "", "", ""}
+	}
+	c := tm.Coil
+	face := ""
+	if c.FaceWidthM > 0 {
+		if in.IP {
+			face = fmt.Sprintf("%.1f x %.1f in", units.MToIn(c.FaceWidthM), units.MToIn(c.FaceHeightM))
+		} else {
+			face = fmt.Sprintf("%.0f x %.0f mm", c.FaceWidthM*1000, c.FaceHeightM*1000)
+		}
+	}
+	inlet := ""
+	if tm.InletIn > 0 {
+		inlet = strconv.FormatFloat(tm.InletIn, 'f', -1, 64) + " in"
+		if tm.Oversized {
+			inlet += " (oversized coil)"
+		}
+	}
+	loc := tm.Location
+	if tm.Building != "" {
+		loc = strings.TrimSpace(tm.Building + " " + loc)
+	}
+	return []string{tm.ID, inlet, strconv.Itoa(c.Rows), fmt.Sprintf("%.0f", units.PerMToFPI(c.Fin.PerM)), face, tm.Zone, loc}
+}
+
+// WriteCSV writes the work list: one row per open fault, highest cost first.
+func WriteCSV(w io.Writer, in Input) error {
+	// The advisory goes first as a comment line (csv.Reader.Comment = '#').
+	if _, err := io.WriteString(w, "# "+Advisory+"\n"); err != nil {
+		return err
+	}
+	cw := csv.NewWriter(w)
+	cur := in.currency()
+	header := []string{"rank", "terminal", "fault", "severity", "since", "weekly_cost_" + strings.ToLower(cur),
+		"weekly_heat_kwh", "weekly_cooling_kwh", "confidence_pct", "observed_rise_k", "expected_rise_k",
+		"valve_pct", "message", "likely_causes", "checks", "inlet", "rows", "fpi", "face", "zone", "location", "ahu", "loop"}
+	if err := cw.Write(header); err != nil {
+		return err
+	}
+	loc := in.loc()
+	num := func(v float64, prec int) string {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return ""
+		}
+		return strconv.FormatFloat(v, 'f', prec, 64)
+	}
+	for i, t := range ranked(in.Open) {
+		cl := in.coilLine(t.Entity)
+		since := t.Since
+		if since.IsZero() {
+			since = t.At
+		}
+		row := []string{strconv.Itoa(i + 1), t.Entity, t.Kind.String(), strconv.Itoa(int(t.Severity)),
+			since.In(loc).Format("2006-01-02 15:04"), num(t.Impact.WeeklyCost, 2), num(t.Impact.WeeklyHeatKWh, 1),
+			num(t.Impact.WeeklyCoolKWh, 1), num(t.Confidence*100, 0), num(t.Evidence.ObservedRiseK, 2),
+			num(t.Evidence.ExpectedRiseK, 2), num(t.Evidence.ValveFrac*100, 0), t.Message,
+			strings.Join(t.Causes, "; "), strings.Join(t.Checks, "; "), cl[1], cl[2], cl[3], cl[4], cl[5], cl[6], t.AHU, t.Loop}
+		if err := cw.Write(row); err != nil {
+			return err
+		}
+	}
+	cw.Flush()
+	return cw.Error()
+}

@@ -1,0 +1,163 @@
+package report
+
+import (
+	"bytes"
+	"encoding/csv"
+	"math"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	"risewatch/coilmodel"
+	"risewatch/fdd"
+	"risewatch/internal/testenv"
+	"risewatch/rules"
+	"risewatch/site"
+	"risewatch/units"
+)
+
+func testSite() *site.Site {
+	loc, _ := time.LoadLocation("America/Chicago")
+	s := &site.Site{Name: "Larkspur Commons", Location: loc, Energy: site.EnergyPrices{Currency: "USD", HeatPerKWh: 0.045, CoolingPerKWh: 0.03}}
+	mk := func(id string, inlet float64, rows int, loc string) site.Terminal {
+		return site.Terminal{ID: id, AHU: "AHU-1", Loop: "HW-1", Zone: "Z-" + id[4:], Building: "North Hall", Location: loc, InletIn: inlet,
+			Coil: coilmodel.Coil{Rows: rows, FaceWidthM: units.InToM(15), FaceHeightM: units.InToM(12.5), Fin: coilmodel.Fin{PerM: units.FPIToPerM(10)}}}
+	}
+	s.Terminals = []site.Terminal{mk("VAV-1-03", 8, 1, "room 114 corridor ceiling"), mk("VAV-1-07", 12, 2, "room 131 above door")}
+	s.TerminalIndex = map[string]int{"VAV-1-03": 0, "VAV-1-07": 1}
+	return s
+}
+
+func testInput() Input {
+	s := testSite()
+	start := time.Date(2026, 1, 12, 0, 0, 0, 0, s.Location)
+	leak := rules.Transition{FaultID: "VAV-1-03/leaking-valve", Entity: "VAV-1-03", Kind: fdd.KindLeakingValve, To: rules.StateOpen,
+		At: start.Add(30 * time.Hour), Since: start.Add(29 * time.Hour), Severity: 2, Confidence: 0.9, AHU: "AHU-1", Loop: "HW-1",
+		Evidence: rules.Evidence{ObservedRiseK: 4.1, ExpectedRiseK: 0, ValveFrac: 0, AirflowM3s: 0.094, LeakFlowFrac: 0.07, UAFactor: math.NaN(), FlowFactor: math.NaN()},
+		Impact:   rules.Impact{WastedHeatW: 470, AddedCoolingW: 470, WeeklyHeatKWh: 79, WeeklyCoolKWh: 79, WeeklyCost: 5.93},
+		Message:  "Valve commanded closed, discharge 7.4 °F above supply.",
+		Causes:   []string{"worn valve seat"}, Checks: []string{"override the valve closed and watch the discharge temperature"}}
+	foul := rules.Transition{FaultID: "VAV-1-07/fouled-coil", Entity: "VAV-1-07", Kind: fdd.KindFouledCoil, To: rules.StateOpen,
+		At: start.Add(80 * time.Hour), Since: start.Add(70 * time.Hour), Severity: 3, Confidence: 0.8, AHU: "AHU-1", Loop: "HW-1",
+		Evidence: rules.Evidence{ObservedRiseK: 9.0, ExpectedRiseK: 13.5, SigmaK: 0.8, ValveFrac: 0.85, AirflowM3s: 0.2, UAFactor: 0.62, FlowFactor: 1.0},
+		Impact:   rules.Impact{ShortfallW: 1080, WeeklyCost: 14.2},
+		Message:  "Coil delivers 67 % of the expected rise at every valve position.",
+		Causes:   []string{"dust on the fins", "scale in the tubes"}, Checks: []string{"inspect the upstream face of the coil"}}
+	series := map[string][]Point{}
+	for h := 0; h < 7*24; h++ {
+		at := start.Add(time.Duration(h) * time.Hour)
+		v := 0.5 + 0.5*math.Sin(float64(h)/6)
+		series["VAV-1-07"] = append(series["VAV-1-07"], Point{At: at, ValveFrac: v, ExpectedRiseK: 14 * v, ObservedRiseK: 9 * v})
+	}
+	return Input{Site: s, WeekStart: start, WeekEnd: start.AddDate(0, 0, 7), Open: []rules.Transition{leak, foul},
+		Opened: []rules.Transition{foul}, Series: series, IP: true, Generated: start.AddDate(0, 0, 7).Add(6 * time.Hour),
+		Sections: []Section{{Title: "Low-temperature hot-water readiness", Header: []string{"Terminal", "Margin"}, Rows: [][]string{{"VAV-1-03", "+12 %"}}}}}
+}
+
+func TestCSVWorkListRankedByCost(t *testing.T) {
+	var buf bytes.Buffer
+	if err := WriteCSV(&buf, testInput()); err != nil {
+		t.Fatal(err)
+	}
+	r := csv.NewReader(&buf)
+	r.Comment = '#'
+	recs, err := r.ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(recs) != 3 {
+		t.Fatalf("%d rows, want header + 2", len(recs))
+	}
+	if recs[1][1] != "VAV-1-07" || recs[2][1] != "VAV-1-03" {
+		t.Errorf("not ranked by weekly cost: %v, %v", recs[1][:3], recs[2][:3])
+	}
+	if recs[1][5] != "14.20" || recs[1][16] != "2" || recs[1][15] != "12 in" {
+		t.Errorf("row 1 = %v", recs[1])
+	}
+	if !strings.HasPrefix(buf.String(), "") || !strings.Contains(recs[2][20], "room 114") {
+		t.Errorf("location missing: %v", recs[2])
+	}
+}
+
+func TestPDFPagesAndTextWithPoppler(t *testing.T) {
+	pdftotext := testenv.LookTool(t, "pdftotext", "apt-get install poppler-utils")
+	pdftoppm := testenv.LookTool(t, "pdftoppm", "apt-get install poppler-utils")
+	dir := t.TempDir()
+	path := filepath.Join(dir, "week.pdf")
+	f, err := os.Create(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := WritePDF(f, testInput()); err != nil {
+		t.Fatal(err)
+	}
+	f.Close()
+	if out, err := exec.Command(pdftoppm, "-r", "40", "-png", path, filepath.Join(dir, "page")).CombinedOutput(); err != nil {
+		t.Fatalf("pdftoppm: %v\n%s", err, out)
+	}
+	pages, _ := filepath.Glob(filepath.Join(dir, "page-*.png"))
+	// summary, two fault pages, terminal list, one extra section
+	if len(pages) < 5 {
+		t.Fatalf("%d pages rendered, want at least 5", len(pages))
+	}
+	out, err := exec.Command(pdftotext, "-layout", path, "-").Output()
+	if err != nil {
+		t.Fatal(err)
+	}
+	text := string(out)
+	for _, want := range []string{
+		"Weekly reheat coil report — Larkspur Commons",
+		"2 open fault(s), estimated USD 20.13 a week",
+		"VAV-1-07", "fouled-coil", "leaking-valve",
+		"Observed air temperature rise 16.2 °F (9.0 K), expected 24.3 °F (13.5 K)", // 9 K × 1.8 = 16.2 °F
+		"Apparent coil UA 62 % of baseline",
+		"Estimated leak flow 7 % of design",
+		"override the valve closed",
+		"room 131 above door",
+		"Low-temperature hot-water readiness",
+		"Advisory only", "scald",
+	} {
+		if !strings.Contains(strings.Join(strings.Fields(text), " "), strings.Join(strings.Fields(want), " ")) {
+			t.Errorf("PDF text lacks %q", want)
+		}
+	}
+	// Ranked: the fouled coil (USD 14.20) comes before the leak (USD 5.93).
+	if strings.Index(text, "1. VAV-1-07") < 0 || strings.Index(text, "2. VAV-1-03") < strings.Index(text, "1. VAV-1-07") {
+		t.Error("fault pages not ranked by weekly cost")
+	}
+}
+
+func TestScheduleAndWeeks(t *testing.T) {
+	loc, _ := time.LoadLocation("America/Chicago")
+	s, err := ParseSchedule("", loc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Wednesday 14 Jan 2026 → next Monday 19 Jan 06:00 Chicago.
+	next := s.Next(time.Date(2026, 1, 14, 12, 0, 0, 0, loc))
+	if want := time.Date(2026, 1, 19, 6, 0, 0, 0, loc); !next.Equal(want) {
+		t.Errorf("next run %v, want %v", next, want)
+	}
+	if _, err := ParseSchedule("61 * * * *", loc); err == nil {
+		t.Error("bad cron spec accepted")
+	}
+	// ISO 8601: 2026-W03 starts Monday 12 January 2026.
+	st, en, err := ParseWeek("2026-W03", loc)
+	if err != nil || !st.Equal(time.Date(2026, 1, 12, 0, 0, 0, 0, loc)) || en.Sub(st) != 7*24*time.Hour {
+		t.Errorf("2026-W03 = %v..%v, %v", st, en, err)
+	}
+	st2, _, err := ParseWeek("2026-01-15", loc)
+	if err != nil || !st2.Equal(st) {
+		t.Errorf("2026-01-15 in week %v, %v", st2, err)
+	}
+	ps, _ := PreviousWeek(time.Date(2026, 1, 19, 6, 0, 0, 0, loc), loc)
+	if !ps.Equal(st) {
+		t.Errorf("previous week of Mon 19 Jan = %v", ps)
+	}
+	if _, _, err := ParseWeek("2026-W60", loc); err == nil {
+		t.Error("week 60 accepted")
+	}
+}
