@@ -155,7 +155,9 @@ func num(b []byte, i, n int) (int, bool) {
 // parseRFC3339 parses YYYY-MM-DD[T ]hh:mm[:ss[.fff…]][Z|±hh[:]mm] without
 // allocating. Without an offset it is a wall-clock time in p.loc.
 func (p *timeParser) parseRFC3339(b []byte) (int64, error) {
-	bad := func() (int64, error) { return 0, fmt.Errorf("%q: %w (want RFC 3339, e.g. 2024-01-15T08:00:00-06:00)", b, errTime) }
+	bad := func() (int64, error) {
+		return 0, fmt.Errorf("%q: %w (want RFC 3339, e.g. 2024-01-15T08:00:00-06:00)", b, errTime)
+	}
 	if len(b) < 16 || b[4] != '-' || b[7] != '-' || (b[10] != 'T' && b[10] != ' ' && b[10] != 't') || b[13] != ':' {
 		return bad()
 	}
