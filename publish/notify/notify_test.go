@@ -353,7 +353,7 @@ func TestGroupedAlertOverRealSMTPWithSTARTTLSAndAuth(t *testing.T) {
 			text, html := parts(t, m)
 			for _, want := range []string{
 				"VAV-1-03: leaking-valve", "VAV-1-07: leaking-valve",
-				"valve command 0 %", "airflow 250 cfm (118 L/s)", // 0.118 m³/s = 250.0 cfm
+				"valve command 0 %", "airflow 250 cfm (118.0 L/s)", // 0.118 m³/s × 2118.88 cfm per m³/s = 250.0 cfm
 				"estimated leak flow 6 % of design",
 				"about USD 11.40 a week", "What to check first:", "close the valve by override",
 				"http://127.0.0.1:9470/faults/VAV-1-03%2Fleaking-valve/ack",

@@ -55,7 +55,7 @@ def main():
 
     def auth(server, session, envelope, mechanism, auth_data):
         ok = auth_data.login.decode() == a.user and auth_data.password.decode() == a.password
-        return AuthResult(success=ok, handled=False)
+        return AuthResult(success=ok, handled=False, auth_data=auth_data)
 
     ctl = Controller(
         Handler(a.maildir, a.fail_first),
