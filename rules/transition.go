@@ -52,6 +52,10 @@ type Impact struct {
 	WeeklyHeatKWh float64
 	WeeklyCoolKWh float64
 	WeeklyCost    float64 // in site currency
+	// Added by the rules owner.
+	WeeklyShortfallKWh    float64 // heat wanted but not delivered per week (comfort, not costed)
+	OperatingHoursPerWeek float64 // heating-operation hours per week the weekly figures assume
+	Currency              string  // site currency of WeeklyCost
 }
 
 // Evidence is the set of numbers behind a fault, as shown to people.
@@ -86,4 +90,27 @@ type Transition struct {
 	Causes     []string // likely causes, most likely first
 	Checks     []string // what a technician should check first
 	AHU, Loop  string   // for routing and labels
+	// Added by the rules owner.
+	Title           string    // rule title, e.g. "Reheat valve passing water while closed"
+	Source          string    // published source of the rule's thresholds
+	Location        string    // terminal location text for technicians
+	OpenedAt        time.Time // when the fault opened (zero while never open)
+	AckedBy         string    // who acknowledged it ("" = not acknowledged)
+	AckedAt         time.Time
+	SuppressedUntil time.Time // zero = not suppressed
+	ExplainedBy     string    // on a clear: the fault ID that explains this one (e.g. "HW-1/cold-loop")
+}
+
+// IsNotice reports whether outputs should notify people about this
+// transition: a fault opening, escalating or re-appearing after a
+// suppression, but not acknowledgements, suppressed faults or clears that
+// another fault explains.
+func (t *Transition) IsNotice() bool {
+	switch t.To {
+	case StateOpen:
+		return t.From == StatePending || t.From == StateOpen || t.From == StateSuppressed || t.From == StateClear
+	case StateClear:
+		return t.ExplainedBy == "" && t.From != StateSuppressed
+	}
+	return false
 }

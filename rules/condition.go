@@ -1,0 +1,453 @@
+package rules
+
+import (
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+	"time"
+	"unsafe"
+
+	"gopkg.in/yaml.v3"
+
+	"risewatch/units"
+)
+
+// Cond is one node of a condition tree as written in YAML. A node is either a
+// comparison (field set) or a group (all, any or not).
+//
+//	field: leak_rise_k      # evidence field by its rule tag
+//	minus: sat_c            # optional: compare field − minus
+//	abs: true               # optional: compare |field − minus|
+//	op: ">"                 # >, >=, <, <=, ==, !=
+//	value: 3 K              # threshold: SI number or quantity with unit ("5 F")
+//	ref: sigma_k            # optional: threshold += times × ref
+//	times: 2
+//	clear: 2.75 K           # optional clear threshold (hysteresis)
+//	name: dat_above_sat     # name used by site overrides (default: field)
+//
+//	field: fan_on           # truth values
+//	is: true
+type Cond struct {
+	Field string  `yaml:"field"`
+	Minus string  `yaml:"minus"`
+	Abs   bool    `yaml:"abs"`
+	Op    string  `yaml:"op"`
+	Value string  `yaml:"value"`
+	Clear string  `yaml:"clear"`
+	Ref   string  `yaml:"ref"`
+	Times float64 `yaml:"times"`
+	Is    *bool   `yaml:"is"`
+	Name  string  `yaml:"name"`
+	All   []Cond  `yaml:"all"`
+	Any   []Cond  `yaml:"any"`
+	Not   *Cond   `yaml:"not"`
+
+	Line, Column int `yaml:"-"`
+}
+
+var condKeys = []string{"field", "minus", "abs", "op", "value", "clear", "ref", "times", "is", "name", "all", "any", "not"}
+
+// UnmarshalYAML records the position and rejects unknown keys.
+func (c *Cond) UnmarshalYAML(n *yaml.Node) error {
+	if err := checkKeys(n, "condition", condKeys); err != nil {
+		return err
+	}
+	type plain Cond
+	if err := n.Decode((*plain)(c)); err != nil {
+		return err
+	}
+	c.Line, c.Column = n.Line, n.Column
+	return nil
+}
+
+// ThresholdName is the name site overrides use for this comparison.
+func (c *Cond) ThresholdName() string {
+	switch {
+	case c.Name != "":
+		return c.Name
+	case c.Minus != "":
+		return c.Field + "_minus_" + c.Minus
+	}
+	return c.Field
+}
+
+// walk calls fn for every comparison in the tree.
+func (c *Cond) walk(fn func(*Cond)) {
+	if c == nil {
+		return
+	}
+	if c.Field != "" {
+		fn(c)
+	}
+	for i := range c.All {
+		c.All[i].walk(fn)
+	}
+	for i := range c.Any {
+		c.Any[i].walk(fn)
+	}
+	c.Not.walk(fn)
+}
+
+// clone deep-copies the tree (overrides edit copies, never the built-in set).
+func (c *Cond) clone() *Cond {
+	if c == nil {
+		return nil
+	}
+	d := *c
+	d.All = cloneConds(c.All)
+	d.Any = cloneConds(c.Any)
+	d.Not = c.Not.clone()
+	if c.Is != nil {
+		b := *c.Is
+		d.Is = &b
+	}
+	return &d
+}
+
+func cloneConds(cs []Cond) []Cond {
+	if cs == nil {
+		return nil
+	}
+	out := make([]Cond, len(cs))
+	for i := range cs {
+		out[i] = *cs[i].clone()
+	}
+	return out
+}
+
+// tri is a three-valued truth: a NaN input makes a comparison unknown, and
+// unknown neither opens nor clears a fault.
+type tri uint8
+
+const (
+	triFalse tri = iota
+	triTrue
+	triUnknown
+)
+
+// pred is a compiled condition over a pointer to an evidence struct.
+type pred func(p unsafe.Pointer) tri
+
+type cmpOp uint8
+
+const (
+	opGT cmpOp = iota
+	opGE
+	opLT
+	opLE
+	opEQ
+	opNE
+)
+
+func parseOp(s string) (cmpOp, bool) {
+	switch strings.TrimSpace(s) {
+	case ">", "gt":
+		return opGT, true
+	case ">=", "ge":
+		return opGE, true
+	case "<", "lt":
+		return opLT, true
+	case "<=", "le":
+		return opLE, true
+	case "==", "=", "eq":
+		return opEQ, true
+	case "!=", "ne":
+		return opNE, true
+	}
+	return 0, false
+}
+
+func (o cmpOp) cmp(a, b float64) bool {
+	switch o {
+	case opGT:
+		return a > b
+	case opGE:
+		return a >= b
+	case opLT:
+		return a < b
+	case opLE:
+		return a <= b
+	case opEQ:
+		return a == b
+	}
+	return a != b
+}
+
+// parseValue reads a threshold for a quantity of dimension d: a bare number is
+// SI (minutes for *_min fields); text with a unit goes through units.Parse;
+// a duration ("15m") is accepted for *_min fields.
+func parseValue(s string, d units.Dimension, fieldName string) (float64, error) {
+	s = strings.TrimSpace(s)
+	if s == "" {
+		return 0, fmt.Errorf("missing value")
+	}
+	if v, err := strconv.ParseFloat(s, 64); err == nil {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return 0, fmt.Errorf("value %q is not a finite number", s)
+		}
+		return v, nil
+	}
+	if strings.HasSuffix(fieldName, "_min") {
+		dur, err := time.ParseDuration(strings.ReplaceAll(s, " ", ""))
+		if err != nil {
+			return 0, fmt.Errorf("value %q: want minutes or a duration such as 15m", s)
+		}
+		return dur.Minutes(), nil
+	}
+	if d == units.NoDimension || d == units.Binary {
+		return 0, fmt.Errorf("value %q: field %s takes a plain number", s, fieldName)
+	}
+	return units.Parse(s, d)
+}
+
+// compileCond turns a tree into a predicate. useClear selects each
+// comparison's clear threshold (falling back to its open threshold).
+func compileCond(c *Cond, s *schema, useClear bool) (pred, error) {
+	pos := func(err error) error { return fmt.Errorf("line %d: %w", c.Line, err) }
+	groups := 0
+	if c.Field != "" {
+		groups++
+	}
+	if c.All != nil {
+		groups++
+	}
+	if c.Any != nil {
+		groups++
+	}
+	if c.Not != nil {
+		groups++
+	}
+	if groups != 1 {
+		return nil, pos(fmt.Errorf("a condition needs exactly one of field, all, any, not"))
+	}
+	switch {
+	case c.All != nil || c.Any != nil:
+		kids := c.All
+		isAll := c.All != nil
+		if !isAll {
+			kids = c.Any
+		}
+		if len(kids) == 0 {
+			return nil, pos(fmt.Errorf("empty condition group"))
+		}
+		ps := make([]pred, len(kids))
+		for i := range kids {
+			p, err := compileCond(&kids[i], s, useClear)
+			if err != nil {
+				return nil, err
+			}
+			ps[i] = p
+		}
+		if isAll {
+			return allOf(ps), nil
+		}
+		return anyOf(ps), nil
+	case c.Not != nil:
+		p, err := compileCond(c.Not, s, useClear)
+		if err != nil {
+			return nil, err
+		}
+		return notOf(p), nil
+	}
+	return compileLeaf(c, s, useClear)
+}
+
+func allOf(ps []pred) pred {
+	if len(ps) == 1 {
+		return ps[0]
+	}
+	return func(p unsafe.Pointer) tri {
+		r := triTrue
+		for _, q := range ps {
+			switch q(p) {
+			case triFalse:
+				return triFalse
+			case triUnknown:
+				r = triUnknown
+			}
+		}
+		return r
+	}
+}
+
+func anyOf(ps []pred) pred {
+	if len(ps) == 1 {
+		return ps[0]
+	}
+	return func(p unsafe.Pointer) tri {
+		r := triFalse
+		for _, q := range ps {
+			switch q(p) {
+			case triTrue:
+				return triTrue
+			case triUnknown:
+				r = triUnknown
+			}
+		}
+		return r
+	}
+}
+
+func notOf(q pred) pred {
+	return func(p unsafe.Pointer) tri {
+		switch q(p) {
+		case triTrue:
+			return triFalse
+		case triFalse:
+			return triTrue
+		}
+		return triUnknown
+	}
+}
+
+func compileLeaf(c *Cond, s *schema, useClear bool) (pred, error) {
+	pos := func(err error) error { return fmt.Errorf("line %d: field %s: %w", c.Line, c.Field, err) }
+	a, err := s.lookup(c.Field)
+	if err != nil {
+		return nil, pos(err)
+	}
+	if c.Is != nil {
+		if !a.isBool() {
+			return nil, pos(fmt.Errorf("'is' needs a truth-valued field"))
+		}
+		if c.Op != "" || c.Value != "" || c.Minus != "" || c.Ref != "" || c.Clear != "" || c.Abs {
+			return nil, pos(fmt.Errorf("'is' takes no op, value, minus, ref, clear or abs"))
+		}
+		fa, want := *a, 0.0
+		if *c.Is {
+			want = 1
+		}
+		return func(p unsafe.Pointer) tri {
+			if fa.read(p) == want {
+				return triTrue
+			}
+			return triFalse
+		}, nil
+	}
+	op, ok := parseOp(c.Op)
+	if !ok {
+		return nil, pos(fmt.Errorf("op %q: want one of > >= < <= == !=", c.Op))
+	}
+	dim := a.dim
+	var b, ref *field
+	if c.Minus != "" {
+		if b, err = s.lookup(c.Minus); err != nil {
+			return nil, pos(err)
+		}
+		if dim == units.Temperature {
+			dim = units.TempDiff
+		}
+	}
+	if c.Ref != "" {
+		if ref, err = s.lookup(c.Ref); err != nil {
+			return nil, pos(err)
+		}
+		if c.Times == 0 || math.IsNaN(c.Times) || math.IsInf(c.Times, 0) {
+			return nil, pos(fmt.Errorf("ref %s needs a finite non-zero 'times'", c.Ref))
+		}
+	}
+	text := c.Value
+	if useClear && c.Clear != "" {
+		text = c.Clear
+	}
+	if text == "" && ref != nil {
+		text = "0"
+	}
+	v, err := parseValue(text, dim, c.Field)
+	if err != nil {
+		return nil, pos(err)
+	}
+	if c.Clear != "" {
+		if _, err := parseValue(c.Clear, dim, c.Field); err != nil {
+			return nil, pos(fmt.Errorf("clear: %w", err))
+		}
+	}
+	if b == nil && ref == nil && !c.Abs && a.kind == fieldFloat {
+		return floatLeaf(a.off, op, v), nil
+	}
+	fa := *a
+	var fb, fr field
+	if b != nil {
+		fb = *b
+	}
+	if ref != nil {
+		fr = *ref
+	}
+	hasB, hasRef, abs, times := b != nil, ref != nil, c.Abs, c.Times
+	return func(p unsafe.Pointer) tri {
+		x := fa.read(p)
+		if hasB {
+			x -= fb.read(p)
+		}
+		if abs {
+			x = math.Abs(x)
+		}
+		t := v
+		if hasRef {
+			t += times * fr.read(p)
+		}
+		if x != x || t != t {
+			return triUnknown
+		}
+		if op.cmp(x, t) {
+			return triTrue
+		}
+		return triFalse
+	}, nil
+}
+
+// floatLeaf is the common case, specialised per operator: one load, one
+// compare.
+func floatLeaf(off uintptr, op cmpOp, v float64) pred {
+	ld := func(p unsafe.Pointer) float64 { return *(*float64)(unsafe.Add(p, off)) }
+	res := func(ok bool, x float64) tri {
+		if ok {
+			return triTrue
+		}
+		if x != x {
+			return triUnknown
+		}
+		return triFalse
+	}
+	switch op {
+	case opGT:
+		return func(p unsafe.Pointer) tri { x := ld(p); return res(x > v, x) }
+	case opGE:
+		return func(p unsafe.Pointer) tri { x := ld(p); return res(x >= v, x) }
+	case opLT:
+		return func(p unsafe.Pointer) tri { x := ld(p); return res(x < v, x) }
+	case opLE:
+		return func(p unsafe.Pointer) tri { x := ld(p); return res(x <= v, x) }
+	case opEQ:
+		return func(p unsafe.Pointer) tri { x := ld(p); return res(x == v, x) }
+	}
+	return func(p unsafe.Pointer) tri {
+		x := ld(p)
+		if x != x {
+			return triUnknown
+		}
+		return res(x != v, x)
+	}
+}
+
+// checkKeys rejects mapping keys not in allowed, naming the line.
+func checkKeys(n *yaml.Node, what string, allowed []string) error {
+	if n.Kind != yaml.MappingNode {
+		return fmt.Errorf("line %d: %s must be a mapping", n.Line, what)
+	}
+	for i := 0; i+1 < len(n.Content); i += 2 {
+		k := n.Content[i]
+		ok := false
+		for _, a := range allowed {
+			if k.Value == a {
+				ok = true
+				break
+			}
+		}
+		if !ok {
+			return fmt.Errorf("line %d: unknown %s key %q (known: %s)", k.Line, what, k.Value, strings.Join(allowed, ", "))
+		}
+	}
+	return nil
+}

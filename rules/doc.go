@@ -1,0 +1,55 @@
+// Package rules is risewatch's decision layer. It turns the running evidence
+// the fdd engine computes for every terminal and loop (fdd.Evidence,
+// fdd.LoopEvidence) into faults a practitioner can act on: which condition,
+// for how long, under which operating gates, how severe, what it costs per
+// week, what probably caused it and what to check first.
+//
+// # Rules
+//
+// Rules are YAML. A built-in set is embedded (builtin.yaml); a site file can
+// change a built-in rule by its ID (thresholds, persistence, severity,
+// disable, terminal exceptions) and add rules of its own. Each rule names
+// evidence fields by their `rule:"name"` struct tag, compares them with
+// thresholds (numbers in SI, or quantities with units such as "5 F" read by
+// package units), groups comparisons with all/any/not, requires gates
+// (usable, steady, plant_on, fan_on, occupied, heating_season, or their
+// negation with "!"), and holds the condition for a persistence time before
+// a fault opens. A fault clears with hysteresis: either an explicit
+// clear_when group or the negation of the open condition evaluated with each
+// comparison's separate clear threshold, held for clear_for.
+//
+// # Why structured YAML and not an expression language
+//
+// The hot-path goal is at least 10 million terminal-samples per second per
+// core for evidence plus rules, with no allocation per sample. Conditions are
+// therefore compiled once at load time: reflection over the Evidence struct
+// tags resolves every field name to a byte offset and type, and each
+// comparison becomes a small fixed-size record (offset, operator, threshold)
+// evaluated by a tight loop with three-valued logic (NaN is "unknown", which
+// neither opens nor clears a fault). An expression library would add a
+// dependency, an interpreter with its own value boxing on every evaluation,
+// and a second syntax for engineers to learn; the conditions people actually
+// write for terminal units are comparisons of a few measured quantities
+// against thresholds, which structured YAML states plainly, validates with
+// line numbers, and lets a site override one threshold by name without
+// re-typing an expression.
+//
+// # Lifecycle
+//
+// Every (entity, kind) pair is one fault with the stable ID
+// "<entity>/<kind>". Several rules may feed one fault (the Guideline 36
+// threshold rule and the model-based rule for a leaking valve); the fault is
+// open while any of them is active. States: clear → pending (condition true)
+// → open (after persistence) → clear (after clear persistence), and open
+// again later. Acknowledge keeps a fault open and visible but marks it
+// handled; suppress hides it until a date. The lifecycle state exports to
+// plain structs (Export/Import) so a restart resumes without re-opening open
+// faults.
+//
+// # Isolation
+//
+// A rule may list kinds it suppresses on the same entity (a failed discharge
+// sensor explains a "leak"), and a loop rule may suppress terminal kinds on
+// every terminal of its loop (one cold-loop fault instead of sixty
+// shortfalls); explained terminal faults close with ExplainedBy set.
+package rules

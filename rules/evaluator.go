@@ -1,0 +1,410 @@
+package rules
+
+import (
+	"errors"
+	"fmt"
+	"time"
+	"unsafe"
+
+	"risewatch/fdd"
+	"risewatch/site"
+)
+
+// Evaluator applies a Ruleset to the evidence stream of one site and keeps
+// every fault's lifecycle. It is not safe for concurrent use; shard
+// terminals over several evaluators (one per goroutine) when needed.
+type Evaluator struct {
+	site *site.Site
+	rs   *Ruleset
+	term []*compiled // terminal rules, evaluation order
+	loop []*compiled // loop rules
+	nT   int
+	nL   int
+	trk  []tracker // terminal t, rule r: trk[t*len(term)+r]
+	ltrk []tracker // loop l, rule r: ltrk[l*len(loop)+r]
+
+	termLoop    []int   // loop index per terminal, -1 when unknown
+	loopTerms   [][]int // terminals per loop
+	explain     []uint32
+	loopExplain []uint32 // len nL+1; slot nL is always 0 (terminals without a loop)
+
+	ops []operating // per terminal heating-operation time
+
+	termIdx map[string]int
+	loopIdx map[string]int
+
+	faults   map[faultKey]*fault
+	byID     map[string]*fault
+	suppress map[string]time.Time
+
+	maxGapNs  int64
+	seasonDay int64
+	seasonOK  bool
+	now       time.Time
+}
+
+// tracker is the persistence state of one rule on one entity.
+type tracker struct {
+	since, last       int64 // condition true since / last true (unix ns); since 0 = not pending
+	clrSince, clrLast int64
+	f                 *fault // non-nil while this rule holds the fault open
+	off               bool   // rule does not apply to this entity (disabled, only/except)
+}
+
+// operating accumulates how long a terminal's heating is in operation (fan
+// and plant on), to turn a fault's power into a weekly energy.
+type operating struct {
+	lastAt   int64
+	totalSec float64
+	opSec    float64
+}
+
+type faultKey struct {
+	ek   EntityKind
+	idx  int
+	kind fdd.Kind
+}
+
+// NewEvaluator prepares evaluation of rs over the site's terminals and loops.
+func NewEvaluator(s *site.Site, rs *Ruleset) (*Evaluator, error) {
+	if s == nil {
+		return nil, errors.New("rules: nil site")
+	}
+	if rs == nil {
+		var err error
+		if rs, err = Default(); err != nil {
+			return nil, err
+		}
+	}
+	e := &Evaluator{
+		site: s, rs: rs, nT: len(s.Terminals), nL: len(s.Loops),
+		faults: map[faultKey]*fault{}, byID: map[string]*fault{}, suppress: map[string]time.Time{},
+		maxGapNs: int64(rs.maxGap), seasonDay: -1 << 62,
+	}
+	for _, c := range rs.rules {
+		if c.loop {
+			e.loop = append(e.loop, c)
+		} else {
+			e.term = append(e.term, c)
+		}
+	}
+	loopIdx := map[string]int{}
+	for i, l := range s.Loops {
+		if _, dup := loopIdx[l.ID]; dup {
+			return nil, fmt.Errorf("rules: site %s: duplicate loop ID %q", s.Name, l.ID)
+		}
+		loopIdx[l.ID] = i
+	}
+	termIdx := map[string]int{}
+	for i, t := range s.Terminals {
+		if _, dup := termIdx[t.ID]; dup {
+			return nil, fmt.Errorf("rules: site %s: duplicate terminal ID %q", s.Name, t.ID)
+		}
+		termIdx[t.ID] = i
+	}
+	e.termIdx, e.loopIdx = termIdx, loopIdx
+	e.termLoop = make([]int, e.nT)
+	e.loopTerms = make([][]int, e.nL)
+	for t, term := range s.Terminals {
+		l, ok := loopIdx[term.Loop]
+		if !ok {
+			l = -1
+		} else {
+			e.loopTerms[l] = append(e.loopTerms[l], t)
+		}
+		e.termLoop[t] = l
+	}
+	e.explain = make([]uint32, e.nT)
+	e.loopExplain = make([]uint32, e.nL+1)
+	e.ops = make([]operating, e.nT)
+	e.trk = make([]tracker, e.nT*len(e.term))
+	for t, term := range s.Terminals {
+		for r, c := range e.term {
+			e.trk[t*len(e.term)+r].off = !c.appliesTo(term.ID)
+		}
+	}
+	e.ltrk = make([]tracker, e.nL*len(e.loop))
+	for l, lp := range s.Loops {
+		for r, c := range e.loop {
+			e.ltrk[l*len(e.loop)+r].off = !c.appliesTo(lp.ID)
+		}
+	}
+	return e, nil
+}
+
+// Ruleset returns the rules the evaluator applies.
+func (e *Evaluator) Ruleset() *Ruleset { return e.rs }
+
+// Step evaluates one analysis step: loop evidence first (so a loop fault that
+// opens explains its terminals in the same step), then terminal evidence.
+// Transitions are appended to out and returned. Records with an index
+// outside the site are ignored. Step does not allocate unless a fault
+// changes state.
+func (e *Evaluator) Step(ev []fdd.Evidence, loops []fdd.LoopEvidence, out []Transition) []Transition {
+	var now time.Time
+	switch {
+	case len(ev) > 0:
+		now = ev[0].At
+	case len(loops) > 0:
+		now = loops[0].At
+	}
+	if now.After(e.now) {
+		e.now = now
+	}
+	if len(e.suppress) > 0 {
+		out = e.expireSuppressions(e.now, out)
+	}
+	for i := range loops {
+		out = e.stepLoop(&loops[i], out)
+	}
+	for i := range ev {
+		out = e.stepTerminal(&ev[i], out)
+	}
+	return out
+}
+
+// heatingSeason reports whether at lies in the configured season, caching
+// the answer per day.
+func (e *Evaluator) heatingSeason(at time.Time, ns int64) bool {
+	if !e.rs.seasonOn {
+		return true
+	}
+	day := ns / int64(24*time.Hour)
+	if day == e.seasonDay {
+		return e.seasonOK
+	}
+	loc := e.site.Location
+	if loc == nil {
+		loc = time.UTC
+	}
+	lt := at.In(loc)
+	md := int(lt.Month())*100 + lt.Day()
+	lo, hi := e.rs.seasonLo, e.rs.seasonHi
+	if lo <= hi {
+		e.seasonOK = md >= lo && md <= hi
+	} else {
+		e.seasonOK = md >= lo || md <= hi
+	}
+	e.seasonDay = day
+	return e.seasonOK
+}
+
+func (e *Evaluator) terminalMask(ev *fdd.Evidence, ns int64) gateMask {
+	var m gateMask
+	if ev.Usable {
+		m |= gUsable
+	}
+	if ev.Steady {
+		m |= gSteady
+	}
+	if ev.PlantOn {
+		m |= gPlant
+	}
+	if ev.FanOn {
+		m |= gFan
+	}
+	if ev.Occupied {
+		m |= gOccupied
+	}
+	if e.heatingSeason(ev.At, ns) {
+		m |= gSeason
+	}
+	return m
+}
+
+func (e *Evaluator) stepTerminal(ev *fdd.Evidence, out []Transition) []Transition {
+	t := ev.Terminal
+	if t < 0 || t >= e.nT {
+		return out
+	}
+	at := ev.At.UnixNano()
+	mask := e.terminalMask(ev, at)
+	e.accumulateOperating(t, at, mask)
+	l := e.termLoop[t]
+	if l < 0 {
+		l = e.nL
+	}
+	explained := e.explain[t] | e.loopExplain[l]
+	n := len(e.term)
+	trks := e.trk[t*n : t*n+n]
+	p := unsafe.Pointer(ev)
+	for r, c := range e.term {
+		tk := &trks[r]
+		if tk.off {
+			continue
+		}
+		gatesOK := mask&c.need == c.need && mask&c.forbid == 0 && (c.gates == nil || c.gates(p) == triTrue)
+		if tk.f == nil {
+			if gatesOK && explained&(1<<uint(c.kind)) != 0 {
+				tk.since = 0
+				continue
+			}
+			if e.pend(tk, c, gatesOK, p, at) {
+				out = e.activate(EntityTerminal, t, c, tk, p, ev.At, out)
+				explained = e.explain[t] | e.loopExplain[l]
+			}
+			continue
+		}
+		f := tk.f
+		if f.lastEnergyAt != at {
+			f.observe(ev, at, mask)
+		}
+		if e.release(tk, c, gatesOK, p, at) {
+			out = e.deactivate(EntityTerminal, t, c, tk, ev.At, out)
+			explained = e.explain[t] | e.loopExplain[l]
+		} else if gatesOK && f.lastTrueAt != at && c.when(p) == triTrue {
+			f.lastTrueAt = at
+			f.lastTerm = *ev
+			f.hasLast = true
+			f.confidence = c.confidenceAt(p)
+		}
+	}
+	return out
+}
+
+func (e *Evaluator) stepLoop(lv *fdd.LoopEvidence, out []Transition) []Transition {
+	l := lv.Loop
+	if l < 0 || l >= e.nL {
+		return out
+	}
+	at := lv.At.UnixNano()
+	var mask gateMask
+	if lv.PlantOn {
+		mask |= gPlant
+	}
+	if e.heatingSeason(lv.At, at) {
+		mask |= gSeason
+	}
+	n := len(e.loop)
+	trks := e.ltrk[l*n : l*n+n]
+	p := unsafe.Pointer(lv)
+	for r, c := range e.loop {
+		tk := &trks[r]
+		if tk.off {
+			continue
+		}
+		gatesOK := mask&c.need == c.need && mask&c.forbid == 0 && (c.gates == nil || c.gates(p) == triTrue)
+		if tk.f == nil {
+			if e.pend(tk, c, gatesOK, p, at) {
+				out = e.activate(EntityLoop, l, c, tk, p, lv.At, out)
+			}
+			continue
+		}
+		if e.release(tk, c, gatesOK, p, at) {
+			out = e.deactivate(EntityLoop, l, c, tk, lv.At, out)
+		} else if gatesOK && c.when(p) == triTrue {
+			tk.f.lastLoop = *lv
+			tk.f.hasLast = true
+		}
+	}
+	return out
+}
+
+// pend advances an inactive tracker and reports whether its persistence is
+// met. A false condition under met gates resets it; an unknown or gated
+// sample holds it unless the gap since the last true sample exceeds max_gap.
+func (e *Evaluator) pend(tk *tracker, c *compiled, gatesOK bool, p unsafe.Pointer, at int64) bool {
+	if !gatesOK {
+		if tk.since != 0 && at-tk.last > e.maxGapNs {
+			tk.since = 0
+		}
+		return false
+	}
+	switch c.when(p) {
+	case triTrue:
+		if tk.since == 0 || at-tk.last > e.maxGapNs {
+			tk.since = at
+		}
+		tk.last = at
+		return at-tk.since >= c.forNs
+	case triFalse:
+		tk.since = 0
+	default:
+		if tk.since != 0 && at-tk.last > e.maxGapNs {
+			tk.since = 0
+		}
+	}
+	return false
+}
+
+// release advances an active tracker's clear timer and reports whether the
+// clear persistence is met (hysteresis: the clear condition has its own
+// thresholds and time).
+func (e *Evaluator) release(tk *tracker, c *compiled, gatesOK bool, p unsafe.Pointer, at int64) bool {
+	if !gatesOK {
+		if tk.clrSince != 0 && at-tk.clrLast > e.maxGapNs {
+			tk.clrSince = 0
+		}
+		return false
+	}
+	switch c.clear(p) {
+	case triTrue:
+		if tk.clrSince == 0 || at-tk.clrLast > e.maxGapNs {
+			tk.clrSince = at
+		}
+		tk.clrLast = at
+		return at-tk.clrSince >= c.clearForNs
+	case triFalse:
+		tk.clrSince = 0
+	default:
+		if tk.clrSince != 0 && at-tk.clrLast > e.maxGapNs {
+			tk.clrSince = 0
+		}
+	}
+	return false
+}
+
+func (e *Evaluator) accumulateOperating(t int, at int64, mask gateMask) {
+	o := &e.ops[t]
+	if o.lastAt != 0 {
+		if dt := at - o.lastAt; dt > 0 && dt <= e.maxGapNs {
+			s := float64(dt) / 1e9
+			o.totalSec += s
+			if mask&(gFan|gPlant) == gFan|gPlant {
+				o.opSec += s
+			}
+		}
+	}
+	if at > o.lastAt {
+		o.lastAt = at
+	}
+}
+
+// operatingHoursPerWeek is the terminal's measured heating-operation time
+// scaled to a week. Before a day of data it assumes 60 h/week (a typical
+// occupied schedule, common practice).
+func (e *Evaluator) operatingHoursPerWeek(t int) float64 {
+	if t < 0 || t >= e.nT {
+		return 60
+	}
+	o := e.ops[t]
+	if o.totalSec < 24*3600 {
+		return 60
+	}
+	return 168 * o.opSec / o.totalSec
+}
+
+// confidenceAt is the rule's confidence for the evidence at p.
+func (c *compiled) confidenceAt(p unsafe.Pointer) float64 {
+	if c.confField != nil {
+		v := c.confField.read(p)
+		if v == v && v > 0 {
+			if v > 1 {
+				v = 1
+			}
+			return v
+		}
+	}
+	return c.confConst
+}
+
+// entityID names entity idx of kind ek.
+func (e *Evaluator) entityID(ek EntityKind, idx int) string {
+	switch ek {
+	case EntityTerminal:
+		return e.site.Terminals[idx].ID
+	case EntityLoop:
+		return e.site.Loops[idx].ID
+	}
+	return fmt.Sprintf("entity-%d", idx)
+}

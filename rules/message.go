@@ -1,0 +1,127 @@
+package rules
+
+import (
+	"fmt"
+	"math"
+	"strings"
+	"text/template"
+
+	"risewatch/units"
+)
+
+// Message templates are Go text/template text with the data below. Numbers
+// are SI; the formatting functions print SI first and IP in brackets:
+//
+//	{{dtemp .E.leak_rise_k}}  → "3.4 K (6.1 °F)"
+//	{{temp .E.hw_c}}          → "60.0 °C (140.0 °F)"
+//	{{flow .E.airflow_m3s}}   → "141.6 L/s (300 cfm)"
+//	{{power .Impact.WastedHeatW}} → "0.47 kW (1.6 MBH)"
+//	{{pct .E.valve}}          → "0 %"
+//	{{mins .E.closed_min}}    → "45 min" / "3.5 h"
+//	{{money .Impact.WeeklyCost}} → "12.40 USD"
+//	{{num .E.rise_valve_corr 2}}, {{sub a b}}, {{add a b}}, {{mul a b}}, {{abs a}}
+//
+// A missing field reads as NaN and prints as "n/a".
+type msgData struct {
+	Entity   string
+	Kind     string
+	Rule     string
+	Title    string
+	Source   string
+	E        map[string]float64
+	Impact   Impact
+	Currency string
+	Loop     string
+	AHU      string
+}
+
+func na(v float64) bool { return math.IsNaN(v) || math.IsInf(v, 0) }
+
+var msgFuncs = template.FuncMap{
+	"temp": func(c float64) string {
+		if na(c) {
+			return "n/a"
+		}
+		return units.FormatTemp(c, false) + " (" + units.FormatTemp(c, true) + ")"
+	},
+	"dtemp": func(k float64) string {
+		if na(k) {
+			return "n/a"
+		}
+		return units.FormatTempDiff(k, false) + " (" + units.FormatTempDiff(k, true) + ")"
+	},
+	"flow": func(m3s float64) string {
+		if na(m3s) {
+			return "n/a"
+		}
+		return units.FormatAirflow(m3s, false) + " (" + units.FormatAirflow(m3s, true) + ")"
+	},
+	"power": func(w float64) string {
+		if na(w) {
+			return "n/a"
+		}
+		return units.FormatPower(w, false) + " (" + units.FormatPower(w, true) + ")"
+	},
+	"energy": func(kwh float64) string {
+		if na(kwh) {
+			return "n/a"
+		}
+		// 1 therm = 100,000 Btu (units.KWhPerTherm).
+		return fmt.Sprintf("%.0f kWh (%.1f therm)", kwh, kwh/units.KWhPerTherm)
+	},
+	"pct": func(f float64) string {
+		if na(f) {
+			return "n/a"
+		}
+		return units.FormatPercent(f)
+	},
+	"mins": func(m float64) string {
+		switch {
+		case na(m):
+			return "n/a"
+		case m < 90:
+			return fmt.Sprintf("%.0f min", m)
+		case m < 48*60:
+			return fmt.Sprintf("%.1f h", m/60)
+		}
+		return fmt.Sprintf("%.1f d", m/1440)
+	},
+	"money": func(v float64, cur string) string {
+		if na(v) {
+			return "n/a"
+		}
+		return strings.TrimSpace(fmt.Sprintf("%.2f %s", v, cur))
+	},
+	"num": func(v float64, prec int) string {
+		if na(v) {
+			return "n/a"
+		}
+		return fmt.Sprintf("%.*f", prec, v)
+	},
+	"sub": func(a, b float64) float64 { return a - b },
+	"add": func(a, b float64) float64 { return a + b },
+	"mul": func(a, b float64) float64 { return a * b },
+	"abs": math.Abs,
+}
+
+// parseMessage compiles a rule's message template.
+func parseMessage(id, text string) (*template.Template, error) {
+	if strings.TrimSpace(text) == "" {
+		text = "{{.Title}}"
+	}
+	t, err := template.New(id).Funcs(msgFuncs).Option("missingkey=zero").Parse(text)
+	if err != nil {
+		return nil, fmt.Errorf("message: %w", err)
+	}
+	return t, nil
+}
+
+// render executes the template; a failing template yields the title and the
+// error text rather than losing the fault.
+func (c *compiled) render(d *msgData) string {
+	var b strings.Builder
+	if err := c.tmpl.Execute(&b, d); err != nil {
+		return d.Title + " (message template error: " + err.Error() + ")"
+	}
+	return strings.Join(strings.Fields(b.String()), " ")
+}
