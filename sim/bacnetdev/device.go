@@ -1,0 +1,214 @@
+// Package bacnetdev serves simulated BACnet/IP devices on loopback for tests
+// and the demo. A Server is one device group on one UDP port: devices sit
+// either directly on that port or behind a simulated BACnet/IP router on
+// remote networks. Devices hold analog/binary objects and trend logs that
+// fill as the caller advances time, and can misbehave on purpose (silence,
+// slow replies, Reject of ReadPropertyMultiple, segmented answers,
+// duplicated and malformed packets). It reuses collector/bacnet/wire.
+package bacnetdev
+
+import (
+	"fmt"
+	"sync"
+	"time"
+
+	"risewatch/collector/bacnet/wire"
+)
+
+// Misbehaviour makes a device answer badly on purpose.
+type Misbehaviour struct {
+	Silent         bool          // never answers anything (also not Who-Is)
+	Delay          time.Duration // every answer is sent this late
+	RejectRPM      bool          // ReadPropertyMultiple gets Reject unrecognized-service
+	Duplicate      bool          // every answer is sent twice
+	MalformedFirst bool          // a malformed frame precedes every answer
+	DropFirst      int           // the first N confirmed requests are ignored (forces retries)
+	// DropSegmentACKs ignores this many Segment-ACKs (forces window resends).
+	DropSegmentACKs int
+}
+
+// DeviceConfig describes one simulated device.
+type DeviceConfig struct {
+	Instance     uint32
+	Name         string
+	Vendor       uint16 // default 999 (unassigned, common practice for tests)
+	MaxAPDU      int    // octets accepted and sent per segment (default 1476; MS/TP-like devices 480)
+	Segmentation wire.Segmentation
+	// Network and MAC place the device behind the server's router (Network 0: directly on the port).
+	Network uint16
+	MAC     byte
+	// Location is the device clock's time zone for trend-log timestamps (default UTC).
+	Location *time.Location
+	Misbehaviour
+}
+
+// Object is one analog or binary object.
+type Object struct {
+	ID          wire.ObjectID
+	Name        string
+	Description string
+	Units       uint32 // BACnetEngineeringUnits (ignored for binary objects)
+	Value       float64
+	Flags       [4]bool // in-alarm, fault, overridden, out-of-service
+}
+
+// TrendLogConfig describes a trend log that records one object's present-value.
+type TrendLogConfig struct {
+	Instance   uint32
+	Name       string
+	Logged     wire.ObjectID
+	Interval   time.Duration // log interval (default 1 min)
+	BufferSize int           // records kept; older ones are overwritten (default 1000)
+}
+
+type trendLog struct {
+	cfg     TrendLogConfig
+	records []wire.LogRecord // ring: oldest at start
+	total   uint32           // total-record-count: sequence number of the newest record
+	last    time.Time
+}
+
+// Device is one simulated device. Its methods are safe for concurrent use.
+type Device struct {
+	cfg     DeviceConfig
+	mu      sync.Mutex
+	objects map[wire.ObjectID]*Object
+	logs    map[uint32]*trendLog
+	order   []wire.ObjectID
+	dropped int
+	segDrop int
+}
+
+func newDevice(cfg DeviceConfig) *Device {
+	if cfg.Vendor == 0 {
+		cfg.Vendor = 999
+	}
+	if cfg.MaxAPDU <= 0 || cfg.MaxAPDU > 1476 {
+		cfg.MaxAPDU = 1476
+	}
+	if cfg.Name == "" {
+		cfg.Name = fmt.Sprintf("SIM-%d", cfg.Instance)
+	}
+	if cfg.Location == nil {
+		cfg.Location = time.UTC
+	}
+	return &Device{cfg: cfg, objects: map[wire.ObjectID]*Object{}, logs: map[uint32]*trendLog{}}
+}
+
+// Instance is the device instance number.
+func (d *Device) Instance() uint32 { return d.cfg.Instance }
+
+// AddObject adds or replaces an object.
+func (d *Device) AddObject(o Object) {
+	d.mu.Lock()
+	defer d.mu.Unlock()
+	if _, ok := d.objects[o.ID]; !ok {
+		d.order = append(d.order, o.ID)
+	}
+	cp := o
+	d.objects[o.ID] = &cp
+}
+
+// AddTrendLog adds a trend log; its buffer starts empty.
+func (d *Device) AddTrendLog(c TrendLogConfig) {
+	if c.Interval <= 0 {
+		c.Interval = time.Minute
+	}
+	if c.BufferSize <= 0 {
+		c.BufferSize = 1000
+	}
+	d.mu.Lock()
+	defer d.mu.Unlock()
+	id := wire.ObjectID{Type: wire.ObjectTrendLog, Instance: c.Instance}
+	if _, ok := d.logs[c.Instance]; !ok {
+		d.order = append(d.order, id)
+	}
+	d.logs[c.Instance] = &trendLog{cfg: c}
+}
+
+// SetValue sets an object's present-value.
+func (d *Device) SetValue(id wire.ObjectID, v float64) error {
+	d.mu.Lock()
+	defer d.mu.Unlock()
+	o, ok := d.objects[id]
+	if !ok {
+		return fmt.Errorf("bacnetdev: device %d has no object %s", d.cfg.Instance, id)
+	}
+	o.Value = v
+	return nil
+}
+
+// SetFlags sets an object's status flags.
+func (d *Device) SetFlags(id wire.ObjectID, flags [4]bool) error {
+	d.mu.Lock()
+	defer d.mu.Unlock()
+	o, ok := d.objects[id]
+	if !ok {
+		return fmt.Errorf("bacnetdev: device %d has no object %s", d.cfg.Instance, id)
+	}
+	o.Flags = flags
+	return nil
+}
+
+// SetMisbehaviour changes how the device misbehaves.
+func (d *Device) SetMisbehaviour(m Misbehaviour) {
+	d.mu.Lock()
+	d.cfg.Misbehaviour = m
+	d.dropped, d.segDrop = 0, 0
+	d.mu.Unlock()
+}
+
+func (d *Device) misbehaviour() Misbehaviour {
+	d.mu.Lock()
+	defer d.mu.Unlock()
+	return d.cfg.Misbehaviour
+}
+
+// Advance records into every trend log whose interval has passed at now
+// (logging the object's present-value as it is now), with timestamps in now's location.
+func (d *Device) Advance(now time.Time) {
+	d.mu.Lock()
+	defer d.mu.Unlock()
+	for _, l := range d.logs {
+		if !l.last.IsZero() && now.Sub(l.last) < l.cfg.Interval {
+			continue
+		}
+		o := d.objects[l.cfg.Logged]
+		if o == nil {
+			continue
+		}
+		l.last = now
+		d.appendRecord(l, now, o.Value, o.Flags)
+	}
+}
+
+// Record appends one record to a trend log directly.
+func (d *Device) Record(trendLog uint32, at time.Time, v float64, flags [4]bool) error {
+	d.mu.Lock()
+	defer d.mu.Unlock()
+	l, ok := d.logs[trendLog]
+	if !ok {
+		return fmt.Errorf("bacnetdev: device %d has no trend-log %d", d.cfg.Instance, trendLog)
+	}
+	d.appendRecord(l, at, v, flags)
+	return nil
+}
+
+func (d *Device) appendRecord(l *trendLog, at time.Time, v float64, flags [4]bool) {
+	dt, tm := wire.DateTimeOf(at.In(d.cfg.Location))
+	r := wire.LogRecord{Date: dt, Time: tm, Kind: wire.LogReal, Value: v, HasFlags: true,
+		Flags: wire.NewBitString(flags[0], flags[1], flags[2], flags[3])}
+	if l.cfg.Logged.Type.IsBinary() {
+		r.Kind = wire.LogEnumerated
+	}
+	if len(l.records) >= l.cfg.BufferSize {
+		copy(l.records, l.records[1:])
+		l.records = l.records[:len(l.records)-1]
+	}
+	l.records = append(l.records, r)
+	l.total++ // wraps at 2^32 like the device's Unsigned32
+}
+
+func (d *Device) objectList() []wire.ObjectID {
+	return append([]wire.ObjectID{{Type: wire.ObjectDevice, Instance: d.cfg.Instance}}, d.order...)
+}
