@@ -115,21 +115,26 @@ func (en *Engine) leakFlow(st *termState, t *termStatic, in inputs, eat float64)
 		return
 	}
 	st.leakAge = 0
-	rise := st.leak.value()
+	// Invert at the current steady rise and airflow (the rise scales about
+	// as 1/V, so a smoothed rise must not be paired with today's airflow).
+	rise := st.dat.mean() - eat
 	if off := st.offset.value(); finite(off) && off > 0 {
 		rise -= off
 	}
-	if !(rise > 0.3) {
-		st.leakFlow = 0
-		return
+	frac := 0.0
+	if rise > 0.3 {
+		design := t.flow.design() * st.flowScale
+		m := invertFlow(st.r, in.v, eat, in.hw, rise, design)
+		frac = 1 // more than the open valve gives: reported as full flow
+		if finite(m) {
+			frac = m / design
+		}
 	}
-	design := t.flow.design() * st.flowScale
-	m := invertFlow(st.r, in.v, eat, in.hw, rise, design)
-	if !finite(m) {
-		st.leakFlow = 1 // more than the open valve gives: reported as full flow
-		return
+	if st.leakFlow < 0 {
+		st.leakFlow = frac
+	} else {
+		st.leakFlow += 0.3 * (frac - st.leakFlow)
 	}
-	st.leakFlow = m / design
 }
 
 // copyRunning copies the running statistics into e.
@@ -168,9 +173,9 @@ func (en *Engine) copyResponse(st *termState, e *Evidence) {
 // energy fills the energy impact: leak heat (and the cooling spent removing
 // it, taken equal; the box must offset it with cold air) and heating
 // shortfall, Q = ṁ_da·c_p·ΔT with moist-air properties (energy.go).
-func (en *Engine) energy(st *termState, in inputs, e *Evidence) {
-	if st.closedRun >= en.closedSteps && in.plantOn && finite(e.LeakRiseK) {
-		ex := e.LeakRiseK
+func (en *Engine) energy(st *termState, in inputs, eat float64, e *Evidence) {
+	if st.closedRun >= en.closedSteps && in.plantOn && finite(e.LeakRiseK) && st.dat.full() {
+		ex := st.dat.mean() - eat
 		if finite(e.OffsetK) && e.OffsetK > 0 {
 			ex -= e.OffsetK
 		}

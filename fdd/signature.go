@@ -59,7 +59,7 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 		}
 		s := ramp(ex, 0.5*cfg.LeakThresholdK, cfg.LeakThresholdK)
 		open := ramp(e.LeakFlowFrac, stuckOpenLo, stuckOpenHi)
-		leak = s * (1 - open) * (1 - rev)
+		leak = s * (1 - open) * (1 - rev) * (1 - unresp)
 		stuckOpen = s * open * (1 - rev)
 	}
 

@@ -196,7 +196,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 		st.perfAge++
 	}
 	en.copyRunning(st, e)
-	en.energy(st, in, e)
+	en.energy(st, in, eat, e)
 	scoreSignatures(e, en, st)
 }
 
