@@ -1,6 +1,7 @@
 package site
 
 import (
+	"math"
 	"strings"
 
 	"gopkg.in/yaml.v3"
@@ -33,8 +34,8 @@ func (d *decoder) decodeTerminal(n *yaml.Node, what string, allowed []string) {
 			return
 		}
 	}
-	t.AHU = d.ref(m, what, "ahu", full, d.site.AHUIndexOf, d.ahuIDs())
-	t.Loop = d.ref(m, what, "loop", full, d.site.LoopIndexOf, d.loopIDs())
+	t.AHU = d.ref(m, what, "ahu", "AHU", full, d.site.AHUIndexOf, d.ahuIDs())
+	t.Loop = d.ref(m, what, "loop", "loop", full, d.site.LoopIndexOf, d.loopIDs())
 	t.Zone = m.str("zone", false, "")
 	t.Building = m.str("building", false, "")
 	t.Location = m.str("location", false, "")
@@ -50,10 +51,10 @@ func (d *decoder) decodeTerminal(n *yaml.Node, what string, allowed []string) {
 	}
 	d.checkFrom(en, m.has("points_from"))
 	en.vars = map[string]string{"id": t.ID, "ahu": t.AHU, "loop": t.Loop, "zone": t.Zone, "building": t.Building}
-	d.decodePoints(en, m.val("points"), terminalRoles, t.Points.Ref)
+	given := d.decodePoints(en, m.val("points"), terminalRoles, t.Points.Ref)
 	if full && !en.brokenFrom {
 		for _, r := range []Role{RoleAirflow, RoleDischarge, RoleValve} {
-			if !t.Points.Ref(r).Defined() {
+			if !t.Points.Ref(r).Defined() && !given[r] {
 				d.e.at(m.pos(), "%s: required point %s (%s) is missing; give points: %s: ... or a points_from source with a %s pattern", what, r, roleInfos[r].doc, r, r)
 			}
 		}
@@ -79,7 +80,7 @@ func (d *decoder) decodeTerminal(n *yaml.Node, what string, allowed []string) {
 
 // ref reads an AHU or loop reference; with one AHU (loop) in the file it
 // may be left out.
-func (d *decoder) ref(m *mapReader, what, key string, full bool, index func(string) int, ids []string) string {
+func (d *decoder) ref(m *mapReader, what, key, kind string, full bool, index func(string) int, ids []string) string {
 	v := m.str(key, false, "")
 	if v == "" {
 		if full && len(ids) == 1 {
@@ -91,7 +92,7 @@ func (d *decoder) ref(m *mapReader, what, key string, full bool, index func(stri
 		return ""
 	}
 	if index(v) < 0 {
-		d.e.at(m.at(key), "%s: %s: no %s named %q; defined: %s", what, key, strings.ToUpper(key[:1])+key[1:], v, joinOr(ids))
+		d.e.at(m.at(key), "%s: %s: no %s named %q; defined: %s", what, key, kind, v, joinOr(ids))
 	}
 	return v
 }
@@ -152,7 +153,7 @@ func (d *decoder) decodeCoil(n *yaml.Node, what string, t *Terminal) {
 	}
 	full := !d.partial
 	if v, ok := m.quantity("inlet", units.Length, false, "in"); ok {
-		t.InletIn = units.MToIn(v)
+		t.InletIn = math.Round(units.MToIn(v)*1e6) / 1e6 // 6 in stays 6, not 5.999999999999999
 	}
 	var c coilmodel.Coil
 	haveGeom := false

@@ -105,10 +105,19 @@ func (e *errs) syntax(err error, data []byte) {
 	}
 	lines := strings.Split(string(data), "\n")
 	col := 1
+	if strings.Contains(msg, "tab") {
+		// yaml.v3 may name the line before the tab; point at the tab.
+		for l := max(line, 1); l <= len(lines) && l <= line+2; l++ {
+			if i := strings.IndexByte(lines[l-1], '\t'); i >= 0 {
+				line = l
+				break
+			}
+		}
+	}
 	if line >= 1 && line <= len(lines) {
 		text := lines[line-1]
 		col = len(text) - len(strings.TrimLeft(text, " ")) + 1
-		if strings.Contains(text, "\t") {
+		if strings.Contains(text, "\t") || strings.Contains(msg, "tab") {
 			msg += " (YAML indentation must use spaces, not tabs)"
 		}
 	}

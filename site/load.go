@@ -240,8 +240,8 @@ func (d *decoder) decodeAHUs(n *yaml.Node) {
 		}
 		en.vars["ahu"] = en.id
 		a := AHU{ID: en.id, Device: en.device, Line: m.node.Line}
-		d.decodePoints(en, m.val("points"), ahuRoles, a.Ref)
-		if !a.SupplyAir.Defined() && !en.brokenFrom {
+		given := d.decodePoints(en, m.val("points"), ahuRoles, a.Ref)
+		if !a.SupplyAir.Defined() && !en.brokenFrom && !given[RoleSupplyAir] {
 			d.e.at(m.pos(), "AHU %s: required point supply_air (supply air temperature) is missing; give points: supply_air: ... or a points_from source with a supply_air pattern", en.id)
 		}
 		if v, ok := m.quantity("duct_gain", units.TempDiff, false, ""); ok {

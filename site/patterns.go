@@ -38,6 +38,9 @@ var placeholderNames = map[string]bool{"{id}": true, "{ahu}": true, "{loop}": tr
 func expandText(s string, vars map[string]string) (string, string) {
 	var empty string
 	out := placeholder.ReplaceAllStringFunc(s, func(ph string) string {
+		if !placeholderNames[ph] {
+			return ph // reported where the pattern is defined
+		}
 		v := vars[strings.Trim(ph, "{}")]
 		if v == "" && empty == "" {
 			empty = ph

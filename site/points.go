@@ -29,13 +29,17 @@ func (en *entity) what() string { return en.kind + " " + en.id }
 
 // decodePoints fills the entity's points for roles from its explicit
 // `points:` mapping and its `points_from` sources. An explicit value wins;
-// "none" (or null) removes a point a pattern would give.
-func (d *decoder) decodePoints(en *entity, pointsNode *yaml.Node, roles []Role, get func(Role) *PointRef) {
+// "none" (or null) removes a point a pattern would give. It returns the
+// roles written explicitly (so a bad explicit point is not also reported
+// as missing).
+func (d *decoder) decodePoints(en *entity, pointsNode *yaml.Node, roles []Role, get func(Role) *PointRef) map[Role]bool {
+	given := map[Role]bool{}
 	pm := mapping(d.e, pointsNode, en.what()+" points", roleKeys(roles)...)
 	for _, r := range roles {
 		ref := get(r)
 		*ref = PointRef{}
 		if v, ok := pm.vals[r.String()]; ok {
+			given[r] = true
 			if isNull(v) || (resolve(v).Kind == yaml.ScalarNode && strings.EqualFold(resolve(v).Value, "none")) {
 				continue
 			}
@@ -63,6 +67,7 @@ func (d *decoder) decodePoints(en *entity, pointsNode *yaml.Node, roles []Role, 
 			ref.Name = PointName(en.id, r)
 		}
 	}
+	return given
 }
 
 // checkFrom validates a points_from list; report is false for a list

@@ -230,4 +230,3 @@ func (d *decoder) decodeTerminals(n *yaml.Node) {
 		d.decodeTerminal(eff, what, terminalKeys)
 	}
 }
-
