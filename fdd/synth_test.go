@@ -155,6 +155,9 @@ func (g *gen) sample(i int, at time.Time, phase int) collector.Sample {
 	if plant {
 		u = command(at, phase)
 	}
+	if g.f == fColdLoop && active && u > 0 {
+		u = math.Min(1, 2*u) // the zone loops open the valves further to make up for cold water
+	}
 	if g.f == fHunting && active && u > 0 {
 		u = math.Max(0.02, math.Min(1, u+0.25*math.Sin(2*math.Pi*float64(at.Minute())/8)))
 	}
@@ -204,7 +207,7 @@ func (g *gen) sample(i int, at time.Time, phase int) collector.Sample {
 	}
 	target := 0.0
 	if fan {
-		target = g.k.ExpectedRiseWith(coilmodel.Operating{AirflowM3s: v, EnteringAirC: sat + ductGain, WaterFlowM3s: mw, EnteringWaterC: hw}, ua, 1)
+		target = g.k.ExpectedRiseWith(coilmodel.Operating{AirflowM3s: v, EnteringAirC: sat + ductGain, WaterFlowM3s: mw, EnteringWaterC: hw}, ua*g.k.UAMultiplier(), 1)
 	}
 	g.rise += (target - g.rise) * (1 - math.Exp(-1.0/2))
 	dat := sat + ductGain + g.rise + 0.12*g.rng.NormFloat64()
