@@ -37,7 +37,7 @@ type FaultRecord struct {
 	AckedBy         string
 	AckedAt         time.Time
 	SuppressedUntil time.Time
-	Evidence        Evidence // last evidence, shown until fresh evidence arrives
+	Evidence        map[string]float64 // last evidence (Evidence.Map), shown until fresh evidence arrives
 	HeatWSum        float64
 	CoolWSum        float64
 	ShortWSum       float64
@@ -102,7 +102,7 @@ func (e *Evaluator) Export() Snapshot {
 			HeatWSum: f.heatWSum, CoolWSum: f.coolWSum, ShortWSum: f.shortWSum, OpSamples: f.opSamples,
 		}
 		tr := e.transition(f, f.state, f.state, e.now)
-		rec.Rule, rec.Evidence = tr.Rule, tr.Evidence
+		rec.Rule, rec.Evidence = tr.Rule, tr.Evidence.Map()
 		s.Faults = append(s.Faults, rec)
 	}
 	addT := func(ek EntityKind, ent string, rules []*compiled, trks []tracker) {
@@ -156,7 +156,7 @@ func (e *Evaluator) Import(s Snapshot) (ImportStats, error) {
 		f := &fault{
 			key: key, id: r.FaultID, entity: e.entityID(key.ek, key.idx), state: r.State,
 			since: r.Since, openedAt: r.OpenedAt, severity: r.Severity, confidence: r.Confidence,
-			ackBy: r.AckedBy, ackAt: r.AckedAt, suppressTil: r.SuppressedUntil, saved: r.Evidence,
+			ackBy: r.AckedBy, ackAt: r.AckedAt, suppressTil: r.SuppressedUntil, saved: EvidenceFromMap(r.Evidence),
 			heatWSum: r.HeatWSum, coolWSum: r.CoolWSum, shortWSum: r.ShortWSum, opSamples: r.OpSamples,
 		}
 		e.faults[key] = f

@@ -1,0 +1,38 @@
+package rules
+
+import (
+	"testing"
+
+	"risewatch/fdd"
+)
+
+// FuzzParseRules feeds arbitrary bytes to the loader and the compiler: they
+// must return an error or a usable rule set, never panic.
+func FuzzParseRules(f *testing.F) {
+	f.Add(BuiltinYAML())
+	f.Add([]byte("overrides:\n  - id: g36-valve-leak\n    thresholds: {dat_above_sat: 5 F}\n    except: [\"VAV-1-*\"]\n"))
+	f.Add([]byte("rules:\n  - id: x\n    kind: hunting\n    severity: 3\n    gates: [\"!plant_on\", steady]\n    when: {not: {any: [{field: valve, op: '>', value: 50 %}, {field: fan_on, is: true}]}}\n    for: 3d\n"))
+	f.Add([]byte("heating_season: {from: 10-01, to: 04-30}\nmax_gap: 5m\n"))
+	f.Add([]byte("rules:\n  - id: l\n    kind: cold-loop\n    scope: loop\n    severity: 2\n    when: {field: hw_c, minus: hw_expected_c, op: '<', value: -15 F, ref: short, times: 0.1}\n"))
+	f.Add([]byte("rules: [{id: a, kind: leaking-valve, severity: 9}]"))
+	f.Add([]byte("{"))
+	f.Fuzz(func(t *testing.T, data []byte) {
+		file, err := Parse(data, "fuzz.yaml")
+		if err != nil {
+			return
+		}
+		rs, err := Build(file)
+		if err != nil {
+			return
+		}
+		e, err := NewEvaluator(testSite(1, 2), rs)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for i := 0; i < 3; i++ {
+			e.Step(nil, nil, nil)
+			ev := quiet(i%2, minute(i))
+			e.Step([]fdd.Evidence{ev}, []fdd.LoopEvidence{{Loop: 0, At: minute(i), PlantOn: true}}, nil)
+		}
+	})
+}

@@ -1,0 +1,140 @@
+package rules
+
+import (
+	"math"
+	"strings"
+	"testing"
+
+	"risewatch/fdd"
+)
+
+// lowDAT is a terminal calling for full heat with DAT 10 K short of the
+// 35 °C setpoint: the Guideline 36 8 K (15 °F) low-DAT condition holds.
+func lowDAT(t, i int) fdd.Evidence {
+	e := quiet(t, minute(i))
+	e.ValveFrac, e.DATSetC, e.DischargeC = 1, 35, 25
+	e.ObservedRiseK, e.DATMinusSATK = 12, 12
+	return e
+}
+
+func coldLoop(i int, short bool) fdd.LoopEvidence {
+	l := fdd.LoopEvidence{Loop: 0, At: minute(i), PlantOn: true, SupplyC: 45, ExpectedC: 60,
+		Terminals: 60, ShortFraction: 0.05, MeanPerfIndex: 0.95, LowSupplyK: 15, Score: 0.9, Measured: true, Short: 0}
+	if short {
+		l.ShortFraction, l.Short, l.MeanPerfIndex = 0.8, 48, 0.6
+	} else {
+		l.SupplyC, l.LowSupplyK = 60, 0
+	}
+	return l
+}
+
+// Sixty terminals on one loop fall short together: one cold-loop fault
+// opens, the terminal low-DAT faults it explains close with ExplainedBy and
+// do not re-open while the loop fault stands.
+func TestColdLoopExplainsTerminalShortfalls(t *testing.T) {
+	const n = 60
+	e := mustEval(t, testSite(1, n))
+	var trs []Transition
+	for i := 0; i < 120; i++ {
+		ev := make([]fdd.Evidence, n)
+		for k := range ev {
+			ev[k] = lowDAT(k, i)
+		}
+		trs = e.Step(ev, []fdd.LoopEvidence{coldLoop(i, true)}, trs)
+	}
+	var loopOpen, termOpen, explained int
+	for _, tr := range trs {
+		switch {
+		case tr.FaultID == "HW-1/cold-loop" && tr.To == StateOpen:
+			loopOpen++
+			if tr.At != minute(30) || tr.EntityKind != EntityLoop || !strings.Contains(tr.Message, "of 60 heating boxes") {
+				t.Errorf("loop fault: %+v", tr)
+			}
+		case tr.Kind == fdd.KindLowDischarge && tr.To == StateOpen:
+			termOpen++
+		case tr.Kind == fdd.KindLowDischarge && tr.To == StateClear:
+			if tr.ExplainedBy != "HW-1/cold-loop" || tr.IsNotice() {
+				t.Errorf("terminal clear not explained: %+v", tr)
+			}
+			explained++
+		}
+	}
+	if loopOpen != 1 || termOpen != n || explained != n {
+		t.Fatalf("loop opens %d, terminal opens %d, explained %d; want 1, %d, %d", loopOpen, termOpen, explained, n, n)
+	}
+	if open := e.Open(); len(open) != 1 || open[0].FaultID != "HW-1/cold-loop" {
+		t.Fatalf("open faults after explanation: %d", len(open))
+	}
+	// Loop recovers; the boxes still short now open their own faults.
+	trs = trs[:0]
+	for i := 120; i < 300; i++ {
+		ev := make([]fdd.Evidence, n)
+		for k := range ev {
+			ev[k] = lowDAT(k, i)
+		}
+		trs = e.Step(ev, []fdd.LoopEvidence{coldLoop(i, false)}, trs)
+	}
+	if tr, ok := firstOf(trs, "HW-1/cold-loop", StateClear); !ok || tr.At != minute(180) {
+		t.Fatalf("loop clear %v at %v, want minute 180 (1 h clear persistence)", ok, tr.At)
+	}
+	if tr, ok := firstOf(trs, "VAV-1-01/low-discharge", StateOpen); !ok || tr.At != minute(190) {
+		t.Fatalf("terminal re-open %v at %v, want minute 190", ok, tr.At)
+	}
+}
+
+// A failed discharge sensor explains the leak that the same reading
+// suggests.
+func TestDeadSensorSuppressesLeak(t *testing.T) {
+	e := mustEval(t, testSite(1, 1))
+	var trs []Transition
+	for i := 0; i < 200; i++ {
+		ev := quiet(0, minute(i))
+		ev.ClosedMinutes = float64(i)
+		ev.DATMinusSATK, ev.DischargeC = 6, 19
+		ev.DATFlatMinutes = float64(100 + i)
+		trs = e.Step([]fdd.Evidence{ev}, nil, trs)
+	}
+	if _, ok := firstOf(trs, "VAV-1-01/dat-failed", StateOpen); !ok {
+		t.Fatal("dead sensor not raised")
+	}
+	if tr, ok := firstOf(trs, "VAV-1-01/leaking-valve", StateClear); !ok || tr.ExplainedBy != "VAV-1-01/dat-failed" {
+		t.Fatalf("leak not explained: %+v", tr)
+	}
+	for _, o := range e.Open() {
+		if o.Kind == fdd.KindLeakingValve {
+			t.Fatal("leak still open")
+		}
+	}
+}
+
+// Model-based leak: impact is computed from the engine's wasted heat at the
+// site's prices. Check value: 470 W of leak heat and 470 W of cooling for the
+// 60 h/week default schedule at 0.05 and 0.04 /kWh is 28.2 kWh each, 1.41 +
+// 1.128 = 2.538 a week (arithmetic; 470 W is the worked 300 cfm, 5 °F leak in
+// the reference notes' Q = 1.08·cfm·ΔT example, engineering inference).
+func TestLeakImpactAndMessage(t *testing.T) {
+	e := mustEval(t, testSite(1, 1))
+	var trs []Transition
+	for i := 0; i < 60; i++ {
+		ev := quiet(0, minute(i))
+		ev.ClosedMinutes = float64(i)
+		ev.LeakRiseK, ev.LeakSigmaK, ev.LeakFlowFrac = 2.8, 0.3, 0.06
+		ev.WastedHeatW, ev.AddedCoolingW = 470, 470
+		trs = e.Step([]fdd.Evidence{ev}, nil, trs)
+	}
+	tr, ok := firstOf(trs, leakID, StateOpen)
+	if !ok || tr.Rule != "model-valve-leak" {
+		t.Fatalf("model leak not raised: %+v", trs)
+	}
+	if math.Abs(tr.Impact.WeeklyHeatKWh-28.2) > 1e-9 || math.Abs(tr.Impact.WeeklyCost-2.538) > 1e-9 {
+		t.Errorf("impact %+v, want 28.2 kWh and 2.538 USD a week", tr.Impact)
+	}
+	for _, want := range []string{"6 % of design water flow", "0.47 kW (1.6 MBH)", "2.54 USD"} {
+		if !strings.Contains(tr.Message, want) {
+			t.Errorf("message %q lacks %q", tr.Message, want)
+		}
+	}
+	if tr.Evidence.LeakFlowFrac != 0.06 || tr.Evidence.Extra["wasted_heat_w"] != 470 || len(tr.Causes) == 0 || len(tr.Checks) == 0 {
+		t.Errorf("evidence %+v causes %d checks %d", tr.Evidence, len(tr.Causes), len(tr.Checks))
+	}
+}
