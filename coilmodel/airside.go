@@ -143,22 +143,37 @@ func newWang(c Coil, s Surfaces) wang {
 //	f = 0.0267·Re^F1·(Pt/Pl)^F2·(Fp/Dc)^F3, F1 = −0.764 + 0.739·Pt/Pl + 0.177·Fp/Dc − 0.00758/N,
 //	       F2 = −15.689 + 64.021/ln Re, F3 = 1.696 − 15.695/ln Re.
 func (w *wang) jf(lnRe float64) (j, f float64) {
+	return w.jOnly(lnRe), w.fOnly(lnRe)
+}
+
+// Natural logs of the correlation constants.
+const (
+	ln0108  = -2.2256240518579173 // ln 0.108
+	ln0086  = -2.4534079827286295 // ln 0.086
+	ln00267 = -3.623091713575933  // ln 0.0267
+)
+
+func (w *wang) jOnly(lnRe float64) float64 {
 	var lj float64
 	if w.n < 1.5 {
 		p1 := 1.9 - 0.23*lnRe
 		p2 := -0.236 + 0.126*lnRe
-		lj = math.Log(0.108) - 0.29*lnRe + p1*w.lnPtPl - 1.084*w.lnFpDc - 0.786*w.lnFpDh + p2*w.lnFpPt
+		lj = ln0108 - 0.29*lnRe + p1*w.lnPtPl - 1.084*w.lnFpDc - 0.786*w.lnFpDh + p2*w.lnFpPt
 	} else {
-		p3 := -0.361 - 0.042*w.n/lnRe + w.p3geo
-		p4 := -1.224 - 0.076*w.plDh142/lnRe
-		p5 := -0.083 + 0.058*w.n/lnRe
+		inv := 1 / lnRe
+		p3 := -0.361 - 0.042*w.n*inv + w.p3geo
+		p4 := -1.224 - 0.076*w.plDh142*inv
+		p5 := -0.083 + 0.058*w.n*inv
 		p6 := -5.735 + 1.21*(lnRe-w.lnN)
-		lj = math.Log(0.086) + p3*lnRe + p4*w.lnN + p5*w.lnFpDc + p6*w.lnFpDh - 0.93*w.lnFpPt
+		lj = ln0086 + p3*lnRe + p4*w.lnN + p5*w.lnFpDc + p6*w.lnFpDh - 0.93*w.lnFpPt
 	}
+	return math.Exp(lj)
+}
+
+func (w *wang) fOnly(lnRe float64) float64 {
 	f2 := -15.689 + 64.021/lnRe
 	f3 := 1.696 - 15.695/lnRe
-	lf := math.Log(0.0267) + w.f1*lnRe + f2*w.lnPtPl + f3*w.lnFpDc
-	return math.Exp(lj), math.Exp(lf)
+	return math.Exp(ln00267 + w.f1*lnRe + f2*w.lnPtPl + f3*w.lnFpDc)
 }
 
 // colburnJ is the Wang j factor at Re_Dc, extended beyond the fitted range by
@@ -170,8 +185,7 @@ func (w *wang) colburnJ(re float64) (j float64, outside bool) {
 	case re > wangReMax:
 		return w.jHi * math.Pow(re/wangReMax, wangHighReSlope), true
 	}
-	j, _ = w.jf(math.Log(re))
-	return j, false
+	return w.jOnly(math.Log(re)), false
 }
 
 // fanning is the Wang friction factor at Re_Dc with the same extension.
@@ -182,8 +196,7 @@ func (w *wang) fanning(re float64) float64 {
 	case re > wangReMax:
 		return w.fHi * math.Pow(re/wangReMax, wangHighReSlope)
 	}
-	_, f := w.jf(math.Log(re))
-	return f
+	return w.fOnly(math.Log(re))
 }
 
 // SchmidtPhi is the Schmidt (1949) equivalent-circular-fin parameter

@@ -61,33 +61,41 @@ func (k *Calibrated) Rate(op Operating) (Rating, error) { return k.m.rate(op) }
 // water temperature (K/K) and water flow (K per m³/s), by central finite
 // differences (one-sided at a zero flow). No allocations.
 func (k *Calibrated) RiseAndGrad(op Operating) (riseK, dAirflow, dEAT, dEWT, dWaterFlow float64) {
-	at := func(o Operating) float64 {
-		var st state
-		k.m.eval(toFlows(o, 1), k.m.uaMult, &st)
-		return st.rise
-	}
-	riseK = at(op)
-	diffFlow := func(get func(*Operating) *float64) float64 {
-		x := *get(&op)
-		h := 1e-4 * math.Max(math.Abs(x), 1e-5)
-		up, dn := op, op
-		*get(&up) = x + h
-		if x-h <= 0 {
-			return (at(up) - riseK) / h
-		}
-		*get(&dn) = x - h
-		return (at(up) - at(dn)) / (2 * h)
-	}
-	diffTemp := func(get func(*Operating) *float64) float64 {
-		const h = 0.01
-		up, dn := op, op
-		*get(&up) += h
-		*get(&dn) -= h
-		return (at(up) - at(dn)) / (2 * h)
-	}
-	dAirflow = diffFlow(func(o *Operating) *float64 { return &o.AirflowM3s })
-	dWaterFlow = diffFlow(func(o *Operating) *float64 { return &o.WaterFlowM3s })
-	dEAT = diffTemp(func(o *Operating) *float64 { return &o.EnteringAirC })
-	dEWT = diffTemp(func(o *Operating) *float64 { return &o.EnteringWaterC })
+	riseK = k.riseAt(op)
+	// flows: relative step, one-sided at zero
+	h := 1e-4 * math.Max(math.Abs(op.AirflowM3s), 1e-5)
+	up, dn := op, op
+	up.AirflowM3s += h
+	dn.AirflowM3s -= h
+	dAirflow = k.centralOrForward(up, dn, riseK, h, dn.AirflowM3s <= 0)
+
+	h = 1e-4 * math.Max(math.Abs(op.WaterFlowM3s), 1e-8)
+	up, dn = op, op
+	up.WaterFlowM3s += h
+	dn.WaterFlowM3s -= h
+	dWaterFlow = k.centralOrForward(up, dn, riseK, h, dn.WaterFlowM3s <= 0)
+
+	const ht = 0.01 // K
+	up, dn = op, op
+	up.EnteringAirC += ht
+	dn.EnteringAirC -= ht
+	dEAT = (k.riseAt(up) - k.riseAt(dn)) / (2 * ht)
+	up, dn = op, op
+	up.EnteringWaterC += ht
+	dn.EnteringWaterC -= ht
+	dEWT = (k.riseAt(up) - k.riseAt(dn)) / (2 * ht)
 	return
+}
+
+func (k *Calibrated) riseAt(op Operating) float64 {
+	var st state
+	k.m.eval(toFlows(op, 1), k.m.uaMult, &st)
+	return st.rise
+}
+
+func (k *Calibrated) centralOrForward(up, dn Operating, rise0, h float64, forward bool) float64 {
+	if forward {
+		return (k.riseAt(up) - rise0) / h
+	}
+	return (k.riseAt(up) - k.riseAt(dn)) / (2 * h)
 }

@@ -1,0 +1,68 @@
+package coilmodel
+
+import (
+	"testing"
+
+	"risewatch/units"
+)
+
+func benchCoil(b *testing.B) Coil {
+	c, err := Preset(12, 2, 10, false)
+	if err != nil {
+		b.Fatal(err)
+	}
+	return c
+}
+
+var benchOp = Operating{AirflowM3s: units.CFMToM3s(500), EnteringAirC: units.FToC(55), WaterFlowM3s: units.GPMToM3s(1.5), EnteringWaterC: units.FToC(180)}
+
+// BenchmarkRateFromGeometry: a full rating from geometry (validation, areas,
+// correlations, hydraulics).
+func BenchmarkRateFromGeometry(b *testing.B) {
+	c := benchCoil(b)
+	b.ReportAllocs()
+	var sink float64
+	for b.Loop() {
+		r, err := Rate(c, benchOp)
+		if err != nil {
+			b.Fatal(err)
+		}
+		sink += r.CapacityW
+	}
+	_ = sink
+}
+
+// BenchmarkExpectedRiseCalibrated: the detector's hot path with the geometry cached.
+func BenchmarkExpectedRiseCalibrated(b *testing.B) {
+	k, err := NewCalibrated(benchCoil(b))
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.ReportAllocs()
+	var sink float64
+	op := benchOp
+	for i := 0; b.Loop(); i++ {
+		op.WaterFlowM3s = benchOp.WaterFlowM3s * (1 + float64(i&7)*0.01)
+		sink += k.ExpectedRise(op)
+	}
+	_ = sink
+}
+
+func BenchmarkRiseAndGrad(b *testing.B) {
+	k, _ := NewCalibrated(benchCoil(b))
+	b.ReportAllocs()
+	for b.Loop() {
+		k.RiseAndGrad(benchOp)
+	}
+}
+
+func BenchmarkInvertUA(b *testing.B) {
+	k, _ := NewCalibrated(benchCoil(b))
+	r, _ := k.Rate(benchOp)
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, err := k.InvertUA(benchOp, r.LeavingAirC); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
