@@ -33,6 +33,8 @@ type coilGeom struct {
 	rWallSeg       float64 // tube wall resistance of one segment, K/W
 	finR1, finR2   float64 // equivalent annular fin radii
 	bendK          float64
+	dh             float64 // air-side hydraulic diameter 4·A_c·depth/A_o
+	airCorr        airCorrelation
 	circuitPasses  [][]pass
 	circuitLengthM []float64
 }
@@ -107,6 +109,7 @@ func newCoilGeom(c coilmodel.Coil, segs int) (*coilGeom, error) {
 	// Equal-area annular fin: the rectangular fin share Pt·Pl of one tube
 	// replaced by a circular fin of the same area (ASHRAE Handbook
 	// Fundamentals ch. 4, "Fin efficiency", sector/equivalent-area method).
+	g.dh = 4 * g.minFlowAreaM2 * float64(c.Rows) * g.pl / (g.aoSeg * float64(segs*tubes*c.Rows))
 	g.finR1 = g.dc / 2
 	g.finR2 = math.Sqrt(g.pt * g.pl / math.Pi)
 
@@ -132,6 +135,36 @@ func newCoilGeom(c coilmodel.Coil, segs int) (*coilGeom, error) {
 		g.circuitLengthM[ci] = float64(len(g.circuitPasses[ci])) * g.widthM
 	}
 	return g, nil
+}
+
+// airCorrelation selects the air-side j correlation of the segment model.
+type airCorrelation int
+
+const (
+	// airGrayWebb is the simulator's own choice (independent of the detector).
+	airGrayWebb airCorrelation = iota
+	// airWangChiChang is used only to cross-check the solution method against
+	// the detector's rating on equal correlations.
+	airWangChiChang
+)
+
+// wangChiChangJ is the Colburn j of plain plate fins, Wang, Chi & Chang
+// (2000), Int. J. Heat Mass Transfer 43:2693, Eqs. for N = 1 and N ≥ 2,
+// Re on the fin-collar diameter.
+func (g *coilGeom) wangChiChangJ(reDc float64) float64 {
+	ln := math.Log(reDc)
+	n := math.Min(float64(g.rows), 6)
+	if g.rows == 1 {
+		p1 := 1.9 - 0.23*ln
+		p2 := -0.236 + 0.126*ln
+		return 0.108 * math.Pow(reDc, -0.29) * math.Pow(g.pt/g.pl, p1) * math.Pow(g.fp/g.dc, -1.084) *
+			math.Pow(g.fp/g.dh, -0.786) * math.Pow(g.fp/g.pt, p2)
+	}
+	p3 := -0.361 - 0.042*n/ln + 0.158*math.Log(n*math.Pow(g.fp/g.dc, 0.41))
+	p4 := -1.224 - 0.076*math.Pow(g.pl/g.dh, 1.42)/ln
+	p5 := -0.083 + 0.058*n/ln
+	p6 := -5.735 + 1.21*math.Log(reDc/n)
+	return 0.086 * math.Pow(reDc, p3) * math.Pow(n, p4) * math.Pow(g.fp/g.dc, p5) * math.Pow(g.fp/g.dh, p6) * math.Pow(g.fp/g.pt, -0.93)
 }
 
 // grayWebbJ is the Colburn j factor of plain plate fins on staggered round
@@ -161,8 +194,12 @@ func (g *coilGeom) airSideConductance(mAir, tC, rfa, hFactor float64) (uaSeg, hA
 		return 0, 0
 	}
 	gc := mAir / g.minFlowAreaM2
-	reD := gc * g.do / airViscosity(tC)
-	j := g.grayWebbJ(reD)
+	var j float64
+	if g.airCorr == airWangChiChang {
+		j = g.wangChiChangJ(gc * g.dc / airViscosity(tC))
+	} else {
+		j = g.grayWebbJ(gc * g.do / airViscosity(tC))
+	}
 	hAir = hFactor * j * gc * airCp / math.Pow(airPr, 2.0/3.0)
 	hEff := 1 / (1/hAir + rfa)
 	eta := annularFinEfficiency(hEff, g.kFin, g.tf, g.finR1, g.finR2)

@@ -96,7 +96,7 @@ func relClose(a, b float64) bool { return math.Abs(a-b) <= cacheFlowRel*math.Abs
 // "Cmax mixed / Cmin unmixed" with the roles written air-side). Local UA per
 // segment is 1/UA = 1/(η_o·h_a·A_o) + R_wall + (R_fw + 1/h_w)/A_i with h_a
 // per row (its mean air temperature) and h_w per circuit and row (its entering
-// water temperature and the circuit's own flow).
+// water temperature and the circuit's own flow), water cp per pass.
 func (s *coilSolver) solveExact(mAir, taIn float64, circKgS []float64, twIn float64) coilResult {
 	g := s.g
 	nCell := g.tubes * g.segs
@@ -129,16 +129,18 @@ func (s *coilSolver) solveExact(mAir, taIn float64, circKgS []float64, twIn floa
 			}
 			tw := twIn
 			curRow := -1
-			var p, cw float64
+			var p, cw, uaW float64
 			for _, ps := range g.circuitPasses[ci] {
 				if ps.row != curRow {
 					curRow = ps.row
-					cw = mc * waterCp(tw)
 					hw := g.waterSideH(mc, tw, g.widthM)
-					ua := 1 / (1/s.uaAir[curRow] + g.rWallSeg + (s.faults.foulWater+1/hw)/g.aiSeg)
-					rr := cSeg / cw
-					p = -math.Expm1(-rr*(-math.Expm1(-ua/cSeg))) / rr
+					uaW = 1 / (g.rWallSeg + (s.faults.foulWater+1/hw)/g.aiSeg)
 				}
+				// cp and the segment effectiveness at this pass's entering water.
+				cw = mc * waterCp(tw)
+				ua := 1 / (1/s.uaAir[curRow] + 1/uaW)
+				rr := cSeg / cw
+				p = -math.Expm1(-rr*(-math.Expm1(-ua/cSeg))) / rr
 				base := (ps.row*g.tubes + ps.pos) * g.segs
 				up := base - nCell // same cell, one row upstream
 				for k := 0; k < g.segs; k++ {

@@ -28,6 +28,9 @@ type Config struct {
 // Stats counts what a server saw.
 type Stats struct {
 	Requests, Answers, WhoIs, SegmentsSent, Rejected atomic.Uint64
+	// InFlight and MaxInFlight count delayed answers not yet sent (how many
+	// requests a client had open at once toward slow devices).
+	InFlight, MaxInFlight atomic.Int64
 }
 
 // Server is one simulated device group on one UDP port.
@@ -308,9 +311,17 @@ func (s *Server) send(rp reply, m Misbehaviour, apdu func([]byte) []byte) {
 		s.Stats.Answers.Add(1)
 	}
 	if m.Delay > 0 {
+		n := s.Stats.InFlight.Add(1)
+		for {
+			old := s.Stats.MaxInFlight.Load()
+			if n <= old || s.Stats.MaxInFlight.CompareAndSwap(old, n) {
+				break
+			}
+		}
 		s.wg.Add(1)
 		go func() {
 			defer s.wg.Done()
+			defer s.Stats.InFlight.Add(-1)
 			select {
 			case <-time.After(m.Delay):
 				out()
