@@ -220,3 +220,14 @@ func BenchmarkParse(b *testing.B) {
 		}
 	}
 }
+
+// Kv = 0.865·Cv (IEC 60534-1 / ISA-75.01.01 relation between the metric and
+// US flow coefficients, printed to 3 digits).
+func TestCvKv(t *testing.T) {
+	if kv := CvToKv(1); !near(kv, 0.865, 1e-3) {
+		t.Errorf("CvToKv(1) = %g, want 0.865", kv)
+	}
+	if cv := KvToCv(1); !near(cv, 1.156, 1e-3) {
+		t.Errorf("KvToCv(1) = %g, want 1.156", cv)
+	}
+}

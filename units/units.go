@@ -112,7 +112,7 @@ func MsToFPM(ms float64) float64 { return ms * SecondsPerMinute / MetrePerFoot }
 // CvToKv converts a US valve flow coefficient Cv (gpm at 1 psi, 60 °F water)
 // to the metric Kv (m³/h at 1 bar): Kv = 0.865·Cv (IEC 60534-1 / ISA-75.01.01).
 func CvToKv(cv float64) float64 {
-	return cv * GPMToM3s(1) * SecondsPerHour / math.Sqrt(1e5/PascalPerPSI)
+	return cv * GPMToM3s(1) * SecondsPerHour * math.Sqrt(1e5/PascalPerPSI)
 }
 
 // KvToCv converts the metric Kv (m³/h at 1 bar) to the US Cv.
