@@ -268,11 +268,17 @@ func (c *Client) handle(from netip.AddrPort, b []byte) {
 	default:
 		return
 	}
+	c.finish(t, r)
+}
+
+// finish delivers the final result and releases the invoke ID at once, so
+// a duplicated answer arriving later counts as unmatched.
+func (c *Client) finish(t *txn, r result) {
 	select {
 	case t.done <- r:
-	default: // a duplicate of an answer already delivered
-		c.Stats.Unmatched.Add(1)
+	default:
 	}
+	c.closeTxn(t)
 }
 
 // segmentArrived reassembles a segmented Complex-ACK and sends Segment-ACKs
@@ -287,8 +293,7 @@ func (c *Client) segmentArrived(from netip.AddrPort, t *txn, a wire.APDU) {
 	}
 	if !t.started {
 		if a.Sequence != 0 {
-			c.sendSegmentACK(t, true, 0, a.Window) // ask for a restart from segment 0
-			return
+			return // joined mid-answer: the server resends after its segment timeout
 		}
 		t.started, t.window = true, min(a.Window, 127)
 	}
@@ -302,10 +307,7 @@ func (c *Client) segmentArrived(from netip.AddrPort, t *txn, a wire.APDU) {
 	}
 	if len(t.segData)+len(a.Data) > t.limit {
 		c.sendAbort(t, wire.AbortBufferOverflow)
-		select {
-		case t.done <- result{err: &AbortError{Reason: wire.AbortBufferOverflow}}:
-		default:
-		}
+		c.finish(t, result{err: &AbortError{Reason: wire.AbortBufferOverflow}})
 		return
 	}
 	t.segData = append(t.segData, a.Data...)
@@ -313,10 +315,7 @@ func (c *Client) segmentArrived(from netip.AddrPort, t *txn, a wire.APDU) {
 	t.inWindow++
 	if !a.MoreFollows {
 		c.sendSegmentACK(t, false, a.Sequence, t.window)
-		select {
-		case t.done <- result{apdu: a, data: t.segData}:
-		default:
-		}
+		c.finish(t, result{apdu: a, data: t.segData})
 		return
 	}
 	if t.inWindow >= int(t.window) {

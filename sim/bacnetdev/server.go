@@ -321,11 +321,12 @@ func (s *Server) send(rp reply, m Misbehaviour, apdu func([]byte) []byte) {
 		s.wg.Add(1)
 		go func() {
 			defer s.wg.Done()
-			defer s.Stats.InFlight.Add(-1)
 			select {
 			case <-time.After(m.Delay):
+				s.Stats.InFlight.Add(-1) // before sending: the requester may send its next one at once
 				out()
 			case <-s.closed:
+				s.Stats.InFlight.Add(-1)
 			}
 		}()
 		return

@@ -1,0 +1,191 @@
+package bacnet
+
+import (
+	"context"
+	"errors"
+	"fmt"
+
+	"risewatch/collector/bacnet/wire"
+)
+
+// Read names one property of one object to read.
+type Read struct {
+	Object wire.ObjectID
+	Prop   wire.PropertyRef
+}
+
+// ReadResult is the answer to one Read.
+type ReadResult struct {
+	Values []wire.Value
+	Err    error
+}
+
+// Size estimates for packing ReadPropertyMultiple answers into one APDU
+// (encodings of ASHRAE 135 clause 21): per object the identifier (5) and
+// the list's opening/closing tags (2); per property its identifier (2-4),
+// opening/closing tags (2) and a value or an error (at most 7 for REAL,
+// enumerations and status flags, 6 for an error).
+const (
+	rpmAckHeader   = 3
+	rpmPerObject   = 7
+	rpmPerProperty = 13
+)
+
+// maxRPMProperties caps properties per request for small devices: 10 for
+// 206-octet devices, 20 for 480-octet ones (a BAS vendor's client limits,
+// quoted in practice guides); 128 otherwise.
+func maxRPMProperties(maxAPDU int) int {
+	switch {
+	case maxAPDU <= 206:
+		return 10
+	case maxAPDU <= 480:
+		return 20
+	}
+	return 128
+}
+
+// batches splits reads into ReadPropertyMultiple requests whose answers fit
+// the device's max-APDU without segmentation.
+func batches(reads []Read, maxAPDU int) [][]Read {
+	var out [][]Read
+	budget := maxAPDU - rpmAckHeader
+	limit := maxRPMProperties(maxAPDU)
+	start, size := 0, 0
+	for i, r := range reads {
+		add := rpmPerProperty
+		if i == start || reads[i-1].Object != r.Object {
+			add += rpmPerObject
+		}
+		if i > start && (size+add > budget || i-start >= limit) {
+			out = append(out, reads[start:i])
+			start, size = i, rpmPerObject+rpmPerProperty
+			continue
+		}
+		size += add
+	}
+	if start < len(reads) {
+		out = append(out, reads[start:])
+	}
+	return out
+}
+
+func specsOf(reads []Read) []wire.ReadAccessSpec {
+	var specs []wire.ReadAccessSpec
+	for _, r := range reads {
+		if n := len(specs); n > 0 && specs[n-1].Object == r.Object {
+			specs[n-1].Props = append(specs[n-1].Props, r.Prop)
+			continue
+		}
+		specs = append(specs, wire.ReadAccessSpec{Object: r.Object, Props: []wire.PropertyRef{r.Prop}})
+	}
+	return specs
+}
+
+// ReadMany reads every property, packed into ReadPropertyMultiple requests
+// up to the device's max-APDU. A device that rejects ReadPropertyMultiple is
+// remembered and read with ReadProperty from then on; a batch whose answer
+// is too long is split in two. Results are in the order of reads.
+func (c *Client) ReadMany(ctx context.Context, d *Device, reads []Read) []ReadResult {
+	out := make([]ReadResult, len(reads))
+	if d.noRPM.Load() {
+		c.readEach(ctx, d, reads, out)
+		return out
+	}
+	off := 0
+	for _, b := range batches(reads, d.MaxAPDU) {
+		c.readBatch(ctx, d, b, out[off:off+len(b)])
+		off += len(b)
+	}
+	return out
+}
+
+func (c *Client) readBatch(ctx context.Context, d *Device, reads []Read, out []ReadResult) {
+	if d.noRPM.Load() {
+		c.readEach(ctx, d, reads, out)
+		return
+	}
+	res, err := c.ReadPropertyMultiple(ctx, d, specsOf(reads))
+	switch {
+	case err == nil:
+		matchResults(reads, res, out)
+	case unsupported(err):
+		if !d.noRPM.Swap(true) {
+			c.opts.Logger.Info("bacnet: device does not serve ReadPropertyMultiple; using ReadProperty",
+				"device", d.Instance, "err", err)
+		}
+		c.readEach(ctx, d, reads, out)
+	case tooBig(err) && len(reads) > 1:
+		h := len(reads) / 2
+		c.readBatch(ctx, d, reads[:h], out[:h])
+		c.readBatch(ctx, d, reads[h:], out[h:])
+	case tooBig(err):
+		c.readEach(ctx, d, reads, out)
+	default:
+		for i := range out {
+			out[i].Err = err
+		}
+	}
+}
+
+// matchResults pairs answers with requests by object, property and index.
+func matchResults(reads []Read, res []wire.PropertyValue, out []ReadResult) {
+	type key struct {
+		o wire.ObjectID
+		p wire.PropertyRef
+	}
+	j := 0
+	var idx map[key]int
+	for i, r := range reads {
+		// Answers normally come in request order; fall back to a lookup when not.
+		if j < len(res) && res[j].Object == r.Object && res[j].PropertyRef == r.Prop {
+			out[i] = resultOf(res[j])
+			j++
+			continue
+		}
+		if idx == nil {
+			idx = make(map[key]int, len(res))
+			for k, pv := range res {
+				idx[key{pv.Object, pv.PropertyRef}] = k
+			}
+		}
+		if k, ok := idx[key{r.Object, r.Prop}]; ok {
+			out[i] = resultOf(res[k])
+			continue
+		}
+		out[i].Err = fmt.Errorf("%s %s: missing from the read-property-multiple answer", r.Object, r.Prop.Prop)
+	}
+}
+
+func resultOf(pv wire.PropertyValue) ReadResult {
+	if pv.Err != nil {
+		return ReadResult{Err: &ServiceError{Service: wire.ServiceReadPropertyMultiple, Class: pv.Err.Class, Code: pv.Err.Code}}
+	}
+	return ReadResult{Values: pv.Values}
+}
+
+// readEach reads properties one ReadProperty at a time (up to the device's
+// outstanding limit in parallel).
+func (c *Client) readEach(ctx context.Context, d *Device, reads []Read, out []ReadResult) {
+	done := make(chan struct{}, len(reads))
+	par := cap(d.sem)
+	next := make(chan int)
+	for w := 0; w < par; w++ {
+		go func() {
+			for i := range next {
+				vs, err := c.ReadProperty(ctx, d, reads[i].Object, reads[i].Prop)
+				out[i] = ReadResult{Values: vs, Err: err}
+				done <- struct{}{}
+			}
+		}()
+	}
+	for i := range reads {
+		next <- i
+	}
+	close(next)
+	for range reads {
+		<-done
+	}
+}
+
+// errNoValue is returned for a property that answered without a value.
+var errNoValue = errors.New("bacnet: property has no value")
