@@ -125,12 +125,15 @@ type evaluation struct {
 }
 
 // Trust region of the Taylor reuse: inside it the second-order error is far
-// below the sensor uncertainty [I].
+// below the sensor uncertainty [I]. The rise is close to linear in EAT and
+// HW temperature (ΔT_air = P·(T_hw − EAT) with P nearly independent of
+// them) and varies about as V^−0.6 with airflow, whose second-order term at
+// 8 % is under 0.3 % of the rise.
 const (
-	trustAirFrac   = 0.04
-	trustEATK      = 0.5
-	trustWaterFrac = 0.04
-	trustHWK       = 1.0
+	trustAirFrac   = 0.08
+	trustEATK      = 1.5
+	trustWaterFrac = 0.05
+	trustHWK       = 2.0
 )
 
 // near reports whether inputs are inside the trust region of e.
@@ -148,7 +151,7 @@ func (e *evaluation) taylor(v, eat, mw, thw float64) float64 {
 }
 
 // evaluate runs the model at the inputs and forward differences for the
-// sensitivities (6 evaluations; the UA one uses the riser at UA × 1.05).
+// sensitivities (4 evaluations; the UA one uses the riser at UA × 1.05).
 func evaluate(r, rUA riser, v, eat, mw, thw float64) evaluation {
 	op := coilmodel.Operating{AirflowM3s: v, EnteringAirC: eat, WaterFlowM3s: mw, EnteringWaterC: thw}
 	f := r.ExpectedRise(op)
@@ -157,16 +160,16 @@ func evaluate(r, rUA riser, v, eat, mw, thw float64) evaluation {
 	o := op
 	o.AirflowM3s = v + hv
 	e.dV = (r.ExpectedRise(o) - f) / hv
-	o = op
-	o.EnteringAirC = eat + 0.2
-	e.dE = (r.ExpectedRise(o) - f) / 0.2
+	// Temperatures: ΔT_air = P·(T_hw − EAT) with the effectiveness P nearly
+	// independent of the inlet temperatures (properties vary little over the
+	// trust region), so ∂f/∂T_hw = f/(T_hw − EAT) = −∂f/∂EAT.
+	if d := thw - eat; math.Abs(d) > 1e-3 {
+		e.dT, e.dE = f/d, -f/d
+	}
 	hm := 0.02*mw + 1e-8
 	o = op
 	o.WaterFlowM3s = mw + hm
 	e.dM = (r.ExpectedRise(o) - f) / hm
-	o = op
-	o.EnteringWaterC = thw + 0.2
-	e.dT = (r.ExpectedRise(o) - f) / 0.2
 	e.dLU = (rUA.ExpectedRise(op) - f) / math.Log(uaStep)
 	if !finite(f) || !finite(e.dV) || !finite(e.dE) || !finite(e.dM) || !finite(e.dT) || !finite(e.dLU) {
 		return evaluation{}
@@ -191,7 +194,7 @@ func invertFlow(r riser, v, eat, thw, target, mMax float64) float64 {
 		return math.NaN()
 	}
 	lo, hi := 0.0, mMax
-	for i := 0; i < 30; i++ {
+	for i := 0; i < 20; i++ { // 2^−20 of the range
 		mid := 0.5 * (lo + hi)
 		op.WaterFlowM3s = mid
 		if r.ExpectedRise(op) < target {

@@ -77,7 +77,7 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 	}
 	// Which parameter explains the loss: UA (fouled) or water flow (starved).
 	fouledShare, starvedShare := 0.5, 0.5
-	if finite(e.UAFactor) && finite(e.FlowFactor) {
+	if capLoss > 0 && finite(e.UAFactor) && finite(e.FlowFactor) {
 		du := math.Max(0, -math.Log(e.UAFactor))
 		df := math.Max(0, -math.Log(e.FlowFactor))
 		if du+df > 1e-6 {

@@ -77,7 +77,7 @@ const (
 	saturatedFrac    = 0.90 // valve counts as saturated for the cold-loop count
 	loopShortPerf    = 0.80 // design performance index below which a saturated box is short
 	perfExpireSteps  = 120  // recent heating evidence expires after this many steps without any
-	leakInvertEvery  = 15   // steps between leak-flow inversions
+	leakInvertEvery  = 30   // steps between leak-flow inversions
 	respStatsEvery   = 16   // steps between response-bin statistics
 	minExpectedRiseK = 1.0  // expected rise below which the performance index is not formed
 	offsetNoHeatK    = 3.0  // HW within this of the entering air: no heat available
