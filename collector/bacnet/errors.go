@@ -26,7 +26,9 @@ func (e *ServiceError) Error() string {
 // RejectError is a BACnet Reject PDU.
 type RejectError struct{ Reason uint8 }
 
-func (e *RejectError) Error() string { return fmt.Sprintf("bacnet: request rejected (reason %d)", e.Reason) }
+func (e *RejectError) Error() string {
+	return fmt.Sprintf("bacnet: request rejected (reason %d)", e.Reason)
+}
 
 // AbortError is a BACnet Abort PDU.
 type AbortError struct {
@@ -34,7 +36,9 @@ type AbortError struct {
 	Server bool
 }
 
-func (e *AbortError) Error() string { return fmt.Sprintf("bacnet: transaction aborted (reason %d)", e.Reason) }
+func (e *AbortError) Error() string {
+	return fmt.Sprintf("bacnet: transaction aborted (reason %d)", e.Reason)
+}
 
 // tooBig reports whether err says the answer did not fit (split and retry).
 func tooBig(err error) bool {

@@ -38,7 +38,6 @@ func newSim(t testing.TB, cfg bacnetdev.DeviceConfig, n int) (*bacnetdev.Server,
 	return s, d
 }
 
-
 func newClient(t testing.TB, o Options) *Client {
 	t.Helper()
 	if o.Timeout == 0 {
