@@ -223,3 +223,20 @@ func parseSpan(d DaySchedule) (daySpan, error) {
 	}
 	return sp, nil
 }
+
+// With returns a copy with the number of days and/or the seed replaced
+// (zero keeps the scenario's value); fault windows are re-resolved.
+func (s *Scenario) With(days int, seed uint64) (*Scenario, error) {
+	c := *s
+	c.Faults = append([]FaultSpec(nil), s.Faults...)
+	if days > 0 {
+		c.Days = days
+	}
+	if seed > 0 {
+		c.Seed = seed
+	}
+	if err := c.prepare(); err != nil {
+		return nil, err
+	}
+	return &c, nil
+}

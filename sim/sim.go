@@ -275,3 +275,6 @@ func Run(ctx context.Context, sc *Scenario, fn func(*Step) error) error {
 	}
 	return s.Run(ctx, fn)
 }
+
+// Terminals is the number of simulated terminals.
+func (s *Simulator) Terminals() int { return len(s.terms) }
