@@ -216,3 +216,9 @@ func (op Operating) airDensity() float64 {
 func badGeometry(format string, a ...any) error {
 	return fmt.Errorf("%w: "+format, append([]any{ErrBadGeometry}, a...)...)
 }
+
+// MarshalText writes the regime name (JSON output).
+func (r Regime) MarshalText() ([]byte, error) { return []byte(r.String()), nil }
+
+// MarshalText writes the extrapolation flags (JSON output).
+func (e Extrapolation) MarshalText() ([]byte, error) { return []byte(e.String()), nil }
