@@ -43,14 +43,14 @@ func runCoil(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	if len(args) == 0 || args[0] == "-h" || args[0] == "--help" || args[0] == "help" {
 		fmt.Fprint(stderr, coilUsage)
 		if len(args) == 0 {
-			return errors.New("coil: missing subcommand (rate or compare)")
+			return errors.New("missing subcommand (rate or compare)")
 		}
 		return nil
 	}
 	sub := args[0]
 	if sub != "rate" && sub != "compare" {
 		fmt.Fprint(stderr, coilUsage)
-		return fmt.Errorf("coil: unknown subcommand %q (rate or compare)", sub)
+		return fmt.Errorf("unknown subcommand %q (rate or compare)", sub)
 	}
 	fs := flag.NewFlagSet("coil "+sub, flag.ContinueOnError)
 	fs.SetOutput(stderr)
@@ -76,9 +76,9 @@ func runCoil(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	fs.Float64Var(&f.waterFouling, "water-fouling", 0, "water-side fouling resistance, m²·K/W (0.0005 h·ft²·°F/Btu = 8.8e-5)")
 	fs.Float64Var(&f.uaMult, "ua-multiplier", 0, "UA multiplier (0: 1, or fitted with --rated)")
 	fs.StringVar(&f.airflow, "airflow", "", "airflow, standard air (required), e.g. 450cfm")
-	fs.StringVar(&f.eat, "eat", "55", "entering air temperature")
+	fs.StringVar(&f.eat, "eat", "55F", "entering air temperature")
 	fs.StringVar(&f.water, "gpm", "", "water flow (required), e.g. 2 or 2gpm or 0.13L/s")
-	fs.StringVar(&f.ewt, "ewt", "180", "entering water temperature")
+	fs.StringVar(&f.ewt, "ewt", "180F", "entering water temperature")
 	fs.StringVar(&f.rated, "rated", "", "rate: submittal capacity at this operating point, e.g. 38MBH; fits the UA multiplier")
 	fs.StringVar(&f.vary, "vary", "ewt,rows,fpi,face", "compare: variants to show")
 	fs.StringVar(&f.altEWT, "alt-ewt", "", "compare: entering water of the EWT variant (default 120 F, or 180 F if the base is below 150 F)")
@@ -89,18 +89,18 @@ func runCoil(ctx context.Context, args []string, stdout, stderr io.Writer) error
 		return err
 	}
 	if fs.NArg() > 0 {
-		return fmt.Errorf("coil %s: unexpected argument %q", sub, fs.Arg(0))
+		return fmt.Errorf("%s: unexpected argument %q", sub, fs.Arg(0))
 	}
 	if err := ctx.Err(); err != nil {
 		return err
 	}
 	c, desc, err := f.coil(f.rows, f.fpi, f.oversized)
 	if err != nil {
-		return fmt.Errorf("coil %s: %w", sub, err)
+		return fmt.Errorf("%s: %w", sub, err)
 	}
 	op, err := f.operating()
 	if err != nil {
-		return fmt.Errorf("coil %s: %w", sub, err)
+		return fmt.Errorf("%s: %w", sub, err)
 	}
 	if sub == "rate" {
 		return f.runRate(stdout, c, desc, op)
@@ -238,13 +238,13 @@ func (f *coilFlags) runRate(w io.Writer, c coilmodel.Coil, desc string, op coilm
 			WaterFlowM3s: op.WaterFlowM3s, EnteringWaterC: op.EnteringWaterC}
 		cal, rep, err := coilmodel.Calibrate(c, rp)
 		if err != nil {
-			return fmt.Errorf("coil rate: --rated: %w", err)
+			return fmt.Errorf("rate: --rated: %w", err)
 		}
 		res.Coil, res.Calibration = cal, &rep
 	}
 	r, err := coilmodel.Rate(res.Coil, op)
 	if err != nil {
-		return fmt.Errorf("coil rate: %w", err)
+		return fmt.Errorf("rate: %w", err)
 	}
 	res.Rating = r
 	if f.asJSON {
@@ -333,7 +333,7 @@ func (f *coilFlags) runCompare(w io.Writer, base coilmodel.Coil, desc string, op
 	for i, v := range vs {
 		r, err := coilmodel.Rate(v.c, v.op)
 		if err != nil {
-			return fmt.Errorf("coil compare: %s: %w", v.name, err)
+			return fmt.Errorf("compare: %s: %w", v.name, err)
 		}
 		res := coilResult{Name: v.name, Description: v.desc, Coil: v.c, Operating: v.op, Rating: r}
 		if i > 0 {

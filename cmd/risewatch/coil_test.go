@@ -118,3 +118,11 @@ func TestCoilErrors(t *testing.T) {
 		}
 	}
 }
+
+func TestCoilSIDefaultsKeepTheirUnits(t *testing.T) {
+	// The default EAT/EWT (55 °F, 180 °F) must not be re-read as °C under --si.
+	out, err := runCoilArgs(t, "rate", "--si", "--airflow", "212", "--gpm", "0.126")
+	if err != nil || !strings.Contains(out, "82.2 °C") || !strings.Contains(out, "12.8 °C") {
+		t.Errorf("(%v)\n%s", err, out)
+	}
+}
