@@ -1,0 +1,431 @@
+package bacnet
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"log/slog"
+	"math"
+	"net/netip"
+	"sync"
+	"time"
+
+	"risewatch/collector"
+	"risewatch/collector/bacnet/wire"
+	"risewatch/site"
+	"risewatch/units"
+)
+
+// point is one configured BACnet point, resolved to wire identifiers.
+type point struct {
+	ref    site.PointRef
+	device uint32
+	object wire.ObjectID
+	prop   wire.PropertyID
+	unit   units.Unit // conversion applied to device values
+	hasU   bool
+	trend  *uint32
+}
+
+// Source polls configured BACnet points and backfills their trend logs. It
+// implements collector.Source.
+type Source struct {
+	name   string
+	cfg    site.BACnetConfig
+	points []point
+	cp     Checkpoints
+	loc    *time.Location
+	log    *slog.Logger
+	opts   Options
+
+	mu         sync.Mutex
+	client     *Client
+	devices    map[uint32]*Device
+	unitChecks []UnitCheck
+	// Workers bounds how many devices are polled at once (default 64).
+	Workers int
+}
+
+// NewSource builds a source from its site configuration and the points that
+// name it. Bad point references are reported with the point's name and lose
+// nothing already accepted: every error is collected and returned together.
+func NewSource(name string, cfg site.BACnetConfig, refs []site.PointRef, cp Checkpoints, loc *time.Location, log *slog.Logger) (*Source, error) {
+	if log == nil {
+		log = slog.Default()
+	}
+	if cp == nil {
+		cp = &MemCheckpoints{}
+	}
+	if loc == nil {
+		loc = time.UTC
+	}
+	s := &Source{name: name, cfg: cfg, cp: cp, loc: loc, log: log, devices: map[uint32]*Device{}, Workers: 64}
+	var errs []error
+	for _, r := range refs {
+		if r.Kind != site.PointBACnet || r.BACnet == nil {
+			continue
+		}
+		p, err := resolvePoint(r)
+		if err != nil {
+			errs = append(errs, fmt.Errorf("source %s: point %s: %w", name, r.Name, err))
+			continue
+		}
+		s.points = append(s.points, p)
+	}
+	s.opts = Options{Bind: cfg.Bind, Timeout: cfg.Timeout, Retries: cfg.Retries, NoRetries: cfg.Retries == 0 && cfg.Timeout > 0,
+		BBMD: cfg.BBMD, TTL: cfg.TTL, Logger: log}
+	return s, errors.Join(errs...)
+}
+
+func resolvePoint(r site.PointRef) (point, error) {
+	b := r.BACnet
+	typ, err := wire.ParseObjectType(b.ObjectType)
+	if err != nil {
+		return point{}, err
+	}
+	prop, err := wire.ParsePropertyID(b.Property)
+	if err != nil {
+		return point{}, err
+	}
+	p := point{ref: r, device: b.Device, object: wire.ObjectID{Type: typ, Instance: b.Instance}, prop: prop, trend: b.TrendLog}
+	if r.Unit != "" && !r.Binary && !typ.IsBinary() {
+		u, err := units.ParseUnit(r.Unit)
+		if err != nil {
+			return point{}, err
+		}
+		p.unit, p.hasU = u, true
+	}
+	return p, nil
+}
+
+// PointsFor collects the points of every loop, AHU and terminal that read from source.
+func PointsFor(s *site.Site, source string) []site.PointRef {
+	var out []site.PointRef
+	add := func(ps ...site.PointRef) {
+		for _, p := range ps {
+			if p.Kind == site.PointBACnet && p.Source == source {
+				out = append(out, p)
+			}
+		}
+	}
+	for _, l := range s.Loops {
+		add(l.SupplyTemp, l.PlantEnabled)
+	}
+	for _, a := range s.AHUs {
+		add(a.SupplyAir, a.FanStatus, a.Occupancy)
+	}
+	for _, t := range s.Terminals {
+		p := t.Points
+		add(p.Airflow, p.AirflowSetpoint, p.Discharge, p.Valve, p.ZoneTemp, p.ZoneSetpoint)
+	}
+	return out
+}
+
+// Name is the source's configured name.
+func (s *Source) Name() string { return s.name }
+
+// UnitChecks returns the result of the start-up units comparison.
+func (s *Source) UnitChecks() []UnitCheck {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	return append([]UnitCheck(nil), s.unitChecks...)
+}
+
+// Start binds the client, finds every device (configured addresses first,
+// then a broadcast Who-Is for the rest) and reads each analog point's units
+// property, flagging points whose units disagree with the configuration.
+func (s *Source) Start(ctx context.Context) error {
+	c, err := Dial(ctx, s.opts)
+	if err != nil {
+		return fmt.Errorf("source %s: %w", s.name, err)
+	}
+	s.mu.Lock()
+	s.client = c
+	s.mu.Unlock()
+	need := map[uint32]bool{}
+	for _, p := range s.points {
+		need[p.device] = true
+	}
+	var missing []uint32
+	for inst := range need {
+		addrText, ok := s.cfg.Devices[inst]
+		if !ok {
+			missing = append(missing, inst)
+			continue
+		}
+		a, err := ParseAddress(addrText)
+		if err != nil {
+			return fmt.Errorf("source %s: device %d: %w", s.name, inst, err)
+		}
+		d, err := c.Resolve(ctx, inst, a)
+		if err != nil {
+			return fmt.Errorf("source %s: device %d: %w", s.name, inst, err)
+		}
+		s.devices[inst] = d
+	}
+	if len(missing) > 0 {
+		bcast := netip.AddrPortFrom(netip.AddrFrom4([4]byte{255, 255, 255, 255}), DefaultPort)
+		if _, err := c.Discover(ctx, []netip.AddrPort{bcast}, -1, -1, c.opts.Timeout); err != nil {
+			s.log.Warn("bacnet: who-is broadcast failed", "source", s.name, "err", err)
+		}
+		for _, inst := range missing {
+			if d, ok := c.Device(inst); ok {
+				s.devices[inst] = d
+			} else {
+				s.log.Warn("bacnet: device not found; its points stay missing", "source", s.name, "device", inst)
+			}
+		}
+	}
+	s.checkUnits(ctx)
+	return nil
+}
+
+func (s *Source) checkUnits(ctx context.Context) {
+	byDev := map[uint32][]int{}
+	for i, p := range s.points {
+		if p.prop == wire.PropPresentValue && !p.object.Type.IsBinary() && !p.ref.Binary {
+			byDev[p.device] = append(byDev[p.device], i)
+		}
+	}
+	var checks []UnitCheck
+	for inst, idx := range byDev {
+		d := s.devices[inst]
+		if d == nil {
+			continue
+		}
+		reads := make([]Read, len(idx))
+		for k, i := range idx {
+			reads[k] = Read{s.points[i].object, wire.PropertyRef{Prop: wire.PropUnits, Index: wire.NoIndex}}
+		}
+		for k, r := range s.client.ReadMany(ctx, d, reads) {
+			p := &s.points[idx[k]]
+			if r.Err != nil || len(r.Values) != 1 || r.Values[0].Tag != wire.TagEnumerated {
+				continue
+			}
+			uc := checkUnit(p.ref.Name, p.ref.Unit, EngineeringUnit(r.Values[0].U))
+			if du, ok := UnitOf(uc.Device); ok {
+				p.unit, p.hasU = du, true // the device says what its numbers mean
+			}
+			if uc.Mismatch {
+				s.log.Warn("bacnet: units disagree with the configuration", "source", s.name, "point", p.ref.Name, "detail", uc.Message)
+			}
+			checks = append(checks, uc)
+		}
+	}
+	s.mu.Lock()
+	s.unitChecks = checks
+	s.mu.Unlock()
+}
+
+// Close releases the client.
+func (s *Source) Close() error {
+	s.mu.Lock()
+	c := s.client
+	s.client = nil
+	s.mu.Unlock()
+	if c == nil {
+		return nil
+	}
+	return c.Close()
+}
+
+// convert turns a device value into SI with the point's quality.
+func (p *point) convert(v float64, flags wire.BitString, hasFlags bool) (float64, collector.Quality) {
+	q := collector.Good
+	if hasFlags && (flags.Bit(wire.StatusFault) || flags.Bit(wire.StatusOutOfService)) {
+		q = collector.Bad
+	}
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return 0, collector.Missing
+	}
+	if p.object.Type.IsBinary() || p.ref.Binary {
+		if v != 0 {
+			return 1, q
+		}
+		return 0, q
+	}
+	if p.hasU {
+		v = p.unit.ToSI(v)
+	}
+	return v, q
+}
+
+// PollOnce reads every point once: present value and status flags, packed
+// into ReadPropertyMultiple per device. Unreachable points come back Missing.
+func (s *Source) PollOnce(ctx context.Context) ([]collector.Reading, error) {
+	s.mu.Lock()
+	c := s.client
+	s.mu.Unlock()
+	if c == nil {
+		return nil, fmt.Errorf("source %s: not started", s.name)
+	}
+	now := time.Now()
+	byDev := map[uint32][]int{}
+	for i, p := range s.points {
+		byDev[p.device] = append(byDev[p.device], i)
+	}
+	out := make([]collector.Reading, len(s.points))
+	jobs := make(chan uint32)
+	var wg sync.WaitGroup
+	for w := 0; w < max(1, min(s.Workers, len(byDev))); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for inst := range jobs {
+				s.pollDevice(ctx, inst, byDev[inst], now, out)
+			}
+		}()
+	}
+	for inst := range byDev {
+		jobs <- inst
+	}
+	close(jobs)
+	wg.Wait()
+	return out, ctx.Err()
+}
+
+func (s *Source) pollDevice(ctx context.Context, inst uint32, idx []int, now time.Time, out []collector.Reading) {
+	d := s.devices[inst]
+	reads := make([]Read, 0, 2*len(idx))
+	for _, i := range idx {
+		p := s.points[i]
+		reads = append(reads, Read{p.object, wire.PropertyRef{Prop: p.prop, Index: wire.NoIndex}})
+		if p.prop == wire.PropPresentValue {
+			reads = append(reads, Read{p.object, wire.PropertyRef{Prop: wire.PropStatusFlags, Index: wire.NoIndex}})
+		}
+	}
+	var res []ReadResult
+	if d != nil {
+		res = s.client.ReadMany(ctx, d, reads)
+	}
+	k := 0
+	for _, i := range idx {
+		p := &s.points[i]
+		r := Reading(p.ref.Name, now)
+		if d != nil {
+			val := res[k]
+			var flags wire.BitString
+			hasFlags := false
+			if p.prop == wire.PropPresentValue {
+				k++
+				if f := res[k]; f.Err == nil && len(f.Values) == 1 && f.Values[0].Tag == wire.TagBitString {
+					flags, hasFlags = f.Values[0].Bits, true
+				}
+			}
+			if val.Err == nil && len(val.Values) == 1 {
+				if f, ok := val.Values[0].Float(); ok {
+					r.Value, r.Quality = p.convert(f, flags, hasFlags)
+				}
+			}
+		}
+		k++
+		out[i] = r
+	}
+}
+
+// Reading makes a Missing reading for point at t.
+func Reading(point string, t time.Time) collector.Reading {
+	return collector.Reading{Point: point, At: t, Quality: collector.Missing}
+}
+
+// SweepTrends backfills every configured trend log from its checkpoint and
+// passes the readings to emit, one page at a time; the checkpoint moves only
+// after emit returns nil.
+func (s *Source) SweepTrends(ctx context.Context, emit func([]collector.Reading) error) ([]TrendResult, error) {
+	s.mu.Lock()
+	c := s.client
+	s.mu.Unlock()
+	if c == nil {
+		return nil, fmt.Errorf("source %s: not started", s.name)
+	}
+	tr := &TrendReader{Client: c, Checkpoints: s.cp, Location: s.loc}
+	var results []TrendResult
+	var errs []error
+	for i := range s.points {
+		p := &s.points[i]
+		d := s.devices[p.device]
+		if p.trend == nil || d == nil {
+			continue
+		}
+		res, err := tr.Backfill(ctx, d, *p.trend, func(recs []TrendRecord) error {
+			rs := make([]collector.Reading, 0, len(recs))
+			for _, rec := range recs {
+				r := Reading(p.ref.Name, rec.At)
+				switch {
+				case rec.Numeric():
+					r.Value, r.Quality = p.convert(rec.Value, rec.Flags, rec.HasFlags)
+				case rec.Kind == wire.LogTimeChange:
+					continue // a clock change marker, not a value
+				}
+				rs = append(rs, r)
+			}
+			return emit(rs)
+		})
+		if res.Lost > 0 || res.Reset {
+			s.log.Warn("bacnet: trend log lost records before they were read", "source", s.name, "point", p.ref.Name,
+				"device", p.device, "trend_log", *p.trend, "lost", res.Lost, "renumbered", res.Reset)
+		}
+		results = append(results, res)
+		if err != nil {
+			errs = append(errs, fmt.Errorf("point %s: %w", p.ref.Name, err))
+		}
+	}
+	return results, errors.Join(errs...)
+}
+
+// Run starts the source, backfills trend logs, then polls every
+// PollInterval and sweeps trend logs every TrendSweep until ctx ends.
+func (s *Source) Run(ctx context.Context, out chan<- []collector.Reading) error {
+	if err := s.Start(ctx); err != nil {
+		return err
+	}
+	defer s.Close()
+	emit := func(rs []collector.Reading) error {
+		if len(rs) == 0 {
+			return nil
+		}
+		select {
+		case out <- rs:
+			return nil
+		case <-ctx.Done():
+			return ctx.Err()
+		}
+	}
+	poll := s.cfg.PollInterval
+	if poll <= 0 {
+		poll = time.Minute
+	}
+	sweep := s.cfg.TrendSweep
+	if sweep <= 0 {
+		sweep = 15 * time.Minute
+	}
+	if _, err := s.SweepTrends(ctx, emit); err != nil {
+		s.log.Warn("bacnet: trend sweep incomplete", "source", s.name, "err", err)
+	}
+	pt, st := time.NewTicker(poll), time.NewTicker(sweep)
+	defer pt.Stop()
+	defer st.Stop()
+	for {
+		rs, err := s.PollOnce(ctx)
+		if ctx.Err() != nil {
+			return nil
+		}
+		if err != nil {
+			s.log.Warn("bacnet: poll incomplete", "source", s.name, "err", err)
+		}
+		if err := emit(rs); err != nil {
+			return nil
+		}
+		select {
+		case <-ctx.Done():
+			return nil
+		case <-pt.C:
+		case <-st.C:
+			if _, err := s.SweepTrends(ctx, emit); err != nil && ctx.Err() == nil {
+				s.log.Warn("bacnet: trend sweep incomplete", "source", s.name, "err", err)
+			}
+		}
+	}
+}
+
+var _ collector.Source = (*Source)(nil)
