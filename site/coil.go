@@ -55,7 +55,7 @@ func (d *decoder) decodeTerminal(n *yaml.Node, what string, allowed []string) {
 	if full && !en.brokenFrom {
 		for _, r := range []Role{RoleAirflow, RoleDischarge, RoleValve} {
 			if !t.Points.Ref(r).Defined() && !given[r] {
-				d.e.at(m.pos(), "%s: required point %s (%s) is missing; give points: %s: ... or a points_from source with a %s pattern", what, r, roleInfos[r].doc, r, r)
+				d.e.at(m.pos(), "%s: required point %s (%s) is missing; give points: %s: ... or list a source with a pattern for %s in points_from", what, r, roleInfos[r].doc, r, r)
 			}
 		}
 	}

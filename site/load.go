@@ -195,6 +195,7 @@ func (d *decoder) decodeLoops(n *yaml.Node) {
 		if en == nil || en.id == "" {
 			continue
 		}
+		m.what = en.what()
 		en.vars["loop"] = en.id
 		l := Loop{ID: en.id, Device: en.device, Line: m.node.Line}
 		d.decodePoints(en, m.val("points"), loopRoles, l.Ref)
@@ -238,11 +239,12 @@ func (d *decoder) decodeAHUs(n *yaml.Node) {
 		if en == nil || en.id == "" {
 			continue
 		}
+		m.what = en.what()
 		en.vars["ahu"] = en.id
 		a := AHU{ID: en.id, Device: en.device, Line: m.node.Line}
 		given := d.decodePoints(en, m.val("points"), ahuRoles, a.Ref)
 		if !a.SupplyAir.Defined() && !en.brokenFrom && !given[RoleSupplyAir] {
-			d.e.at(m.pos(), "AHU %s: required point supply_air (supply air temperature) is missing; give points: supply_air: ... or a points_from source with a supply_air pattern", en.id)
+			d.e.at(m.pos(), "AHU %s: required point supply_air (supply air temperature) is missing; give points: supply_air: ... or list a source with a supply_air pattern in points_from", en.id)
 		}
 		if v, ok := m.quantity("duct_gain", units.TempDiff, false, ""); ok {
 			if v < -5 || v > 10 {

@@ -203,8 +203,8 @@ func (w *writer) bacnet(m *yaml.Node, c *BACnetConfig) {
 		}
 	}
 	for _, kv := range []struct {
-		k string
-		v interface{ String() string }
+		k  string
+		v  interface{ String() string }
 		ok bool
 	}{{"poll_interval", c.PollInterval, c.PollInterval > 0}, {"trend_sweep", c.TrendSweep, c.TrendSweep > 0}, {"timeout", c.Timeout, c.Timeout > 0}} {
 		if kv.ok {

@@ -122,8 +122,8 @@ func campus(t testing.TB, n int) *Site {
 		tm := Terminal{
 			ID: fmt.Sprintf("VAV-%d-%03d", 1+i%4, i), AHU: fmt.Sprintf("AHU-%d", 1+i%4), Loop: "HW-1",
 			Zone: fmt.Sprintf("Room %d", 100+i), InletIn: inlet, Coil: c,
-			CoilPreset: &CoilPreset{InletIn: inlet, Rows: 1 + i%2, FPI: 10},
-			Valve:      coilmodel.Valve{Cv: inlet / 8, Characteristic: coilmodel.EqualPercentage},
+			CoilPreset:    &CoilPreset{InletIn: inlet, Rows: 1 + i%2, FPI: 10},
+			Valve:         coilmodel.Valve{Cv: inlet / 8, Characteristic: coilmodel.EqualPercentage},
 			MinAirflowM3s: units.CFMToM3s(inlet * 15), MaxAirflowM3s: units.CFMToM3s(inlet * 60), HeatingAirflowM3s: units.CFMToM3s(inlet * 30),
 		}
 		vars := map[string]string{"ahu": tm.AHU, "loop": tm.Loop, "zone": tm.Zone}
