@@ -4,6 +4,8 @@ import (
 	"slices"
 
 	"gopkg.in/yaml.v3"
+
+	"risewatch/units"
 )
 
 // Terminal keys. Templates and terminal_defaults take the same keys except
@@ -229,4 +231,128 @@ func (d *decoder) decodeTerminals(n *yaml.Node) {
 		eff := d.effective(item, what)
 		d.decodeTerminal(eff, what, terminalKeys)
 	}
+}
+
+// decodeTerminal decodes one terminal (or, in partial mode, a template or
+// defaults block, where required keys may come later).
+func (d *decoder) decodeTerminal(n *yaml.Node, what string, allowed []string) {
+	m := mapping(d.e, n, what, allowed...)
+	if m.node == nil {
+		return
+	}
+	full := !d.partial
+	t := Terminal{Line: m.node.Line}
+	if full {
+		t.ID = m.str("id", true, "a unique name such as VAV-2-07")
+		if t.ID == "" || !d.claimID(m.at("id"), "terminal", t.ID) {
+			return
+		}
+	}
+	t.AHU = d.ref(m, what, "ahu", "AHU", full, d.site.AHUIndexOf, d.ahuIDs())
+	t.Loop = d.ref(m, what, "loop", "loop", full, d.site.LoopIndexOf, d.loopIDs())
+	t.Zone = m.str("zone", false, "")
+	t.Building = m.str("building", false, "")
+	t.Location = m.str("location", false, "")
+	if x, ok := m.integer("device", false, 0, maxInstance); ok {
+		u := uint32(x)
+		t.Device = &u
+	}
+	en := &entity{kind: "terminal", id: t.ID, node: m.node, device: t.Device}
+	if m.has("points_from") {
+		en.from, en.fromNode = m.strList("points_from")
+	} else {
+		en.from, en.fromNode = d.siteFrom, d.siteFromN
+	}
+	d.checkFrom(en, m.has("points_from"))
+	en.vars = map[string]string{"id": t.ID, "ahu": t.AHU, "loop": t.Loop, "zone": t.Zone, "building": t.Building}
+	given := d.decodePoints(en, m.val("points"), terminalRoles, t.Points.Ref)
+	if full && !en.brokenFrom {
+		for _, r := range []Role{RoleAirflow, RoleDischarge, RoleValve} {
+			if !t.Points.Ref(r).Defined() && !given[r] {
+				d.e.at(m.pos(), "%s: required point %s (%s) is missing; give points: %s: ... or list a source with a pattern for %s in points_from", what, r, roleInfos[r].doc, r, r)
+			}
+		}
+	}
+	if m.has("coil") {
+		d.decodeCoil(m.val("coil"), what, &t)
+	} else if full {
+		d.e.at(m.pos(), "%s: coil is required: a preset (coil: {inlet: 8 in, rows: 2}), or coil: geometry: ..., optionally with coil: rated: ... from the submittal", what)
+	}
+	d.decodeValve(m, what, &t)
+	d.decodeAirflow(m, what, &t)
+	if v, ok := m.quantity("design_load", units.Power, false, ""); ok {
+		if v <= 0 || v > 500e3 {
+			d.e.at(m.at("design_load"), "%s: design_load must be above 0 and at most 500 kW", what)
+		} else {
+			t.DesignLoadW = v
+		}
+	}
+	if full {
+		d.site.Terminals = append(d.site.Terminals, t)
+	}
+}
+
+// ref reads an AHU or loop reference; with one AHU (loop) in the file it
+// may be left out.
+func (d *decoder) ref(m *mapReader, what, key, kind string, full bool, index func(string) int, ids []string) string {
+	v := m.str(key, false, "")
+	if v == "" {
+		if full && len(ids) == 1 {
+			return ids[0]
+		}
+		if full {
+			d.e.at(m.pos(), "%s: %s is required: the file defines %d (%s)", what, key, len(ids), joinOr(ids))
+		}
+		return ""
+	}
+	if index(v) < 0 {
+		d.e.at(m.at(key), "%s: %s: no %s named %q; defined: %s", what, key, kind, v, joinOr(ids))
+	}
+	return v
+}
+
+func joinOr(ids []string) string {
+	if len(ids) == 0 {
+		return "none"
+	}
+	if len(ids) > 8 {
+		return joinKeys(ids[:8]) + ", ..."
+	}
+	return joinKeys(ids)
+}
+
+func (d *decoder) ahuIDs() []string {
+	out := make([]string, len(d.site.AHUs))
+	for i, a := range d.site.AHUs {
+		out[i] = a.ID
+	}
+	return out
+}
+
+func (d *decoder) loopIDs() []string {
+	out := make([]string, len(d.site.Loops))
+	for i, l := range d.site.Loops {
+		out[i] = l.ID
+	}
+	return out
+}
+
+// AHUIndexOf returns the index of the AHU with this ID, or -1.
+func (s *Site) AHUIndexOf(id string) int {
+	for i := range s.AHUs {
+		if s.AHUs[i].ID == id {
+			return i
+		}
+	}
+	return -1
+}
+
+// LoopIndexOf returns the index of the loop with this ID, or -1.
+func (s *Site) LoopIndexOf(id string) int {
+	for i := range s.Loops {
+		if s.Loops[i].ID == id {
+			return i
+		}
+	}
+	return -1
 }
