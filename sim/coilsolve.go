@@ -109,8 +109,9 @@ func (s *coilSolver) solveExact(mAir, taIn float64, circKgS []float64, twIn floa
 	var q, qPrev float64
 	it := 0
 	for it = 1; it <= 60; it++ {
-		// Air side per row at the row's mean air temperature.
-		for r := 0; r < g.rows; r++ {
+		// Air side per row at the row's mean air temperature (refreshed on the
+		// first three sweeps; the field changes little after that).
+		for r := 0; r < g.rows && it <= 3; r++ {
 			sum := 0.0
 			row := s.ta[r*nCell : (r+1)*nCell]
 			for _, t := range row {
@@ -160,7 +161,7 @@ func (s *coilSolver) solveExact(mAir, taIn float64, circKgS []float64, twIn floa
 			}
 			s.circOutC[ci] = tw
 		}
-		if g.rows == 1 && it >= 2 || math.Abs(q-qPrev) <= 1e-7*math.Abs(q)+1e-6 {
+		if g.rows == 1 && it >= 2 || math.Abs(q-qPrev) <= 1e-6*math.Abs(q)+1e-4 {
 			break
 		}
 		qPrev = q

@@ -72,7 +72,8 @@ func (s *Scenario) prepareFault(f *FaultSpec, loops map[string]int, terminals ma
 	if f.start, err = s.parseWhen(f.Start, s.start); err != nil {
 		return s.errf(f.Line, "fault %s on %s: start: %v", f.Kind, f.Target, err)
 	}
-	if f.end, err = s.parseWhen(f.End, s.EndTime()); err != nil {
+	// Without an end a fault lasts past any run length (GroundTruth clips it).
+	if f.end, err = s.parseWhen(f.End, s.start.AddDate(100, 0, 0)); err != nil {
 		return s.errf(f.Line, "fault %s on %s: end: %v", f.Kind, f.Target, err)
 	}
 	if !f.end.After(f.start) {

@@ -76,7 +76,7 @@ type coilHydraulics struct {
 }
 
 const (
-	hydTableTempK = 3.0
+	hydTableTempK = 15.0 // viscosity moves friction only a few % over 15 K
 	hydTableN     = 56
 	hydMinDP      = 1.0   // Pa
 	hydMaxDP      = 4.0e5 // Pa
@@ -113,12 +113,20 @@ func (h *coilHydraulics) ensure(tC float64) {
 	h.tempC, h.valid = tC, true
 	step := math.Log(hydMaxDP/hydMinDP) / float64(hydTableN-1)
 	qc := make([]float64, h.g.circuits)
+	for ci := range qc {
+		qc[ci] = 1e-6
+	}
 	for i := 0; i < hydTableN; i++ {
 		lp := math.Log(hydMinDP) + float64(i)*step
 		dp := math.Exp(lp)
 		tot := 0.0
 		for ci := range qc {
-			qc[ci] = h.circuitFlow(ci, dp, tC)
+			// Warm start from the previous grid point (Δp ∝ q^1.75 turbulent).
+			guess := qc[ci]
+			if i > 0 {
+				guess *= math.Exp(step / 1.75)
+			}
+			qc[ci] = h.circuitFlow(ci, dp, tC, guess)
 			tot += qc[ci]
 		}
 		h.lnDP[i], h.lnQ[i] = lp, math.Log(tot)
@@ -130,13 +138,13 @@ func (h *coilHydraulics) ensure(tC float64) {
 
 // circuitFlow solves circuitDP(q) = dp for one circuit by secant iteration
 // in log–log coordinates (Δp ∝ q^1…2, so the iteration is nearly linear).
-func (h *coilHydraulics) circuitFlow(ci int, dp, tC float64) float64 {
+func (h *coilHydraulics) circuitFlow(ci int, dp, tC, guess float64) float64 {
 	g := h.g
 	ln := math.Log(dp)
-	q0, q1 := 1e-5, 2e-5
+	q0, q1 := guess, guess*1.05
 	f0 := math.Log(g.circuitDP(ci, q0, tC, h.mult[ci])) - ln
 	f1 := math.Log(g.circuitDP(ci, q1, tC, h.mult[ci])) - ln
-	for k := 0; k < 40 && math.Abs(f1) > 1e-10; k++ {
+	for k := 0; k < 40 && math.Abs(f1) > 1e-9 && f1 != f0; k++ {
 		l0, l1 := math.Log(q0), math.Log(q1)
 		l2 := l1 - f1*(l1-l0)/(f1-f0)
 		q0, f0 = q1, f1
