@@ -6,21 +6,23 @@ import "math"
 // one per call; Calibrated keeps one, so ExpectedRise does only the
 // flow- and temperature-dependent work.
 type model struct {
-	c         Coil
-	s         Surfaces
-	w         wang
-	rows      int
-	path      circuitPath
-	dOverL    float64 // Di / straight tube length (Hausen entry length)
-	finFactor float64 // √(2/(k_f·δf))·r·φ, so m·r·φ = finFactor·√h
-	afFrac    float64 // A_f / A_o
-	dc        float64
-	rWall     float64 // ln(Do/Di)/(2π·k_t·L_tot), K/W
-	rFoulW    float64 // R_fw/A_i, K/W
-	rFoulA    float64 // R_fa/A_o (divided by η_o at run time), K/W
-	uaMult    float64
-	circuits  float64
-	extrap    Extrapolation // geometry-only flags
+	c           Coil
+	s           Surfaces
+	w           wang
+	rows        int
+	path        circuitPath
+	dOverL      float64 // Di / straight tube length (Hausen entry length)
+	finFactor   float64 // √(2/(k_f·δf))·r·φ, so m·r·φ = finFactor·√h
+	afFrac      float64 // A_f / A_o
+	dc          float64
+	rWall       float64 // ln(Do/Di)/(2π·k_t·L_tot), K/W
+	rFoulW      float64 // R_fw/A_i, K/W
+	rFoulA      float64 // R_fa/A_o (divided by η_o at run time), K/W
+	uaMult      float64
+	circuits    float64
+	invAc       float64       // 1/A_c
+	invFlowArea float64       // 1/(circuits·tube flow area)
+	extrap      Extrapolation // geometry-only flags
 }
 
 func newModel(c Coil) (model, error) {
@@ -36,6 +38,8 @@ func newModel(c Coil) (model, error) {
 		dc: c.CollarDiaM(), uaMult: c.uaMult(), circuits: float64(c.Circuits),
 	}
 	m.dOverL = m.path.di / m.path.straightM
+	m.invAc = 1 / s.MinFlowAreaM2
+	m.invFlowArea = 1 / (m.circuits * m.path.areaM2)
 	m.finFactor = math.Sqrt(2/(c.finK()*c.Fin.ThicknessM)) * (m.dc / 2) * SchmidtPhi(c)
 	m.afFrac = s.FinAreaM2 / s.OuterAreaM2
 	m.rWall = math.Log(c.Tube.OuterDiaM/c.InnerDiaM()) / (2 * math.Pi * c.tubeK() * s.Tubes * c.FaceWidthM)
@@ -102,16 +106,36 @@ func (m *model) eval(f flows, uaMult float64, st *state) {
 		st.rise = st.latC - f.eat
 		return
 	}
-	m.pass(f, uaMult, f.eat, f.ewt, st)
-	m.pass(f, uaMult, 0.5*(f.eat+st.latC), 0.5*(f.ewt+st.lwtC), st)
+	pre := passInputs{
+		g:   f.mAir * m.invAc,
+		vel: f.qWater * m.invFlowArea,
+	}
+	m.pass(f, pre, uaMult, f.eat, f.ewt, st)
+	m.pass(f, pre, uaMult, 0.5*(f.eat+st.latC), 0.5*(f.ewt+st.lwtC), st)
+}
+
+// passInputs are the flow quantities that do not change between passes.
+type passInputs struct {
+	g   float64 // air mass flux in the minimum free-flow area, kg/(m²·s)
+	vel float64 // water velocity in one tube, m/s
+}
+
+// airMuPr is AirViscosity(taC) and μ·cp/k with one square root: both are
+// Sutherland laws, so the T^1.5 factors cancel in the Prandtl number.
+func airMuPr(taC, cp float64) (mu, pr float64) {
+	t := taC + 273.15
+	r := t / 273.15
+	mu = 1.716e-5 * r * math.Sqrt(r) * (273.15 + 110.4) / (t + 110.4)
+	// μ/k = (μ0/k0)·[(T0 + Sμ)/(T + Sμ)]·[(T + Sk)/(T0 + Sk)]
+	pr = cp * (1.716e-5 / 0.0241) * (273.15 + 110.4) / (273.15 + 194.4) * (t + 194.4) / (t + 110.4)
+	return mu, pr
 }
 
 // pass is one evaluation with air properties at taC and water properties at twC.
-func (m *model) pass(f flows, uaMult, taC, twC float64, st *state) {
+func (m *model) pass(f flows, pre passInputs, uaMult, taC, twC float64, st *state) {
 	// Air side: Wang et al. (2000) j, h = j·G_c·cp/Pr^(2/3); Schmidt fin efficiency.
-	mu := AirViscosity(taC)
-	pr := mu * f.cpAir / AirConductivity(taC)
-	g := f.mAir / m.s.MinFlowAreaM2
+	mu, pr := airMuPr(taC, f.cpAir)
+	g := pre.g
 	re := g * m.dc / mu
 	j, outside := m.w.colburnJ(re)
 	if outside {
@@ -127,7 +151,7 @@ func (m *model) pass(f flows, uaMult, taC, twC float64, st *state) {
 
 	// Water side: Hausen / Gnielinski / VDI blend.
 	w := waterAt(twC)
-	vel := f.qWater / m.circuits / m.path.areaM2
+	vel := pre.vel
 	reW := w.rho * vel * m.path.di / w.mu
 	prW := w.mu * w.cp / w.k
 	if prW < 0.5 || prW > 2000 {
@@ -137,7 +161,7 @@ func (m *model) pass(f flows, uaMult, taC, twC float64, st *state) {
 	hw := nu * w.k / m.path.di
 
 	// Overall conductance, Jacobi, Engineering Data Book III, Eq. 6.1.7.
-	rTot := 1/(etaO*h*m.s.OuterAreaM2) + m.rFoulA/etaO + m.rWall + m.rFoulW + 1/(hw*m.s.InnerAreaM2)
+	rTot := (1/(h*m.s.OuterAreaM2)+m.rFoulA)/etaO + m.rWall + m.rFoulW + 1/(hw*m.s.InnerAreaM2)
 	ua := uaMult / rTot
 
 	cAir := f.mAir * f.cpAir
