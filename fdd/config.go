@@ -110,7 +110,7 @@ type Config struct {
 	EWMAL float64
 
 	// HuntingDeadband is the valve travel that counts as a direction change
-	// for the reversal counter. Default 0.03 [I].
+	// for the reversal counter. Default 0.10 [I].
 	HuntingDeadband float64
 
 	// Learning: a baseline is fitted once LearnMinPoints steady heating
@@ -162,7 +162,7 @@ func DefaultConfig() Config {
 		CUSUMK:              0.5,
 		EWMALambda:          0.1,
 		EWMAL:               3,
-		HuntingDeadband:     0.03,
+		HuntingDeadband:     0.10,
 		LearnMinPoints:      48,
 		LearnMinHours:       24,
 		BaselineBand:        1.6,

@@ -33,7 +33,7 @@ const (
 	capLossLo, capLossHi       = 0.12, 0.25 // 1 − performance at high command
 	cusumLo, cusumHi           = 4.0, 8.0   // CUSUM decision interval h = 4–5σ for k = 0.5 (Montgomery) [P], ramped to 8
 	offsetLoK, offsetHiK       = 1.2, 2.2   // |offset| ≈ 1.5–3 σ of the closed-valve rise with default accuracies
-	huntLo, huntHi             = 6.0, 10.0  // valve reversals per hour
+	huntLo, huntHi             = 8.0, 14.0  // valve reversals per hour
 	datBadLoMin, datBadHiMin   = 30.0, 60.0
 )
 
