@@ -215,3 +215,41 @@ func TestFoulingLowersUA(t *testing.T) {
 		t.Errorf("fouled UA %.2f, series-resistance estimate %.2f (clean %.2f)", fouled.UAWK, want, clean.UAWK)
 	}
 }
+
+func TestInlineLayoutAndExtrapolationFlags(t *testing.T) {
+	// Wang et al. (2000) is fitted on staggered coils only (Shah & Sekulić 2003,
+	// §7.5.4.2), so inline ratings are flagged as extrapolated; the model has no
+	// inline j correlation and only the Schmidt inline fin geometry differs.
+	st := chainCoil(2)
+	in := st
+	in.Layout = Inline
+	in.LongitudinalPitchM = 0.0275
+	op := ipOp(800, 55, 2, 180)
+	rs, ri := mustRate(t, st, op), mustRate(t, in, op)
+	if ri.Extrapolated&ExtrapInline == 0 || rs.Extrapolated != 0 {
+		t.Errorf("flags: staggered %v inline %v", rs.Extrapolated, ri.Extrapolated)
+	}
+	if ri.FinEfficiency <= 0 || ri.FinEfficiency >= 1 || math.IsNaN(ri.CapacityW) {
+		t.Errorf("inline rating %+v", ri)
+	}
+	// A trickle of air is below the Wang Reynolds range (300): flagged, finite.
+	lo := mustRate(t, st, ipOp(20, 55, 2, 180))
+	if lo.Extrapolated&ExtrapAirRe == 0 || lo.ReAirDc >= 300 || math.IsNaN(lo.LeavingAirC) {
+		t.Errorf("low airflow: Re %.0f flags %v", lo.ReAirDc, lo.Extrapolated)
+	}
+}
+
+func TestExpectedRiseEdgeInputs(t *testing.T) {
+	k, err := NewCalibrated(chainCoil(1))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r := k.ExpectedRise(ipOp(500, 55, -1, 180)); r != 0 {
+		t.Errorf("negative water flow: rise %g", r)
+	}
+	op := ipOp(500, 55, 2, 180)
+	op.EnteringAirC = math.NaN()
+	if r := k.ExpectedRise(op); !math.IsNaN(r) {
+		t.Errorf("NaN input gave %g", r)
+	}
+}
