@@ -120,6 +120,7 @@ func TestLeakImpactAndMessage(t *testing.T) {
 		ev.ClosedMinutes = float64(i)
 		ev.LeakRiseK, ev.LeakSigmaK, ev.LeakFlowFrac = 2.8, 0.3, 0.06
 		ev.WastedHeatW, ev.AddedCoolingW = 470, 470
+		ev.Scores[fdd.KindLeakingValve] = 0.9
 		trs = e.Step([]fdd.Evidence{ev}, nil, trs)
 	}
 	tr, ok := firstOf(trs, leakID, StateOpen)
