@@ -45,7 +45,7 @@ type format struct {
 func resolveFormat(source string, c site.TrendfileConfig, siteLoc *time.Location) (format, error) {
 	f := format{source: source, layout: strings.ToLower(c.Layout), decComma: c.DecimalComma, skipRows: c.SkipRows,
 		timeColumn: c.TimeColumn, timeSet: c.TimeColumn != "", pointColumn: c.PointColumn, valueColumn: c.ValueColumn,
-		timeFormat: c.TimeFormat, loc: c.TimeZone, batchReading: 8192}
+		timeFormat: c.TimeFormat, loc: c.TimeZone, batchReading: 2048}
 	if f.layout == "" {
 		f.layout = LayoutWide
 	}

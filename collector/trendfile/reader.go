@@ -14,7 +14,7 @@ import (
 
 // emitFunc receives a batch of readings that ends on a record boundary,
 // with the stream offset and line number just after that record. The batch
-// belongs to the receiver.
+// belongs to the receiver unless the parser reuses batches.
 type emitFunc func(batch []collector.Reading, endOffset, nextLine int64) error
 
 // mapped is one wide-layout column that feeds a point.
@@ -36,6 +36,8 @@ type parser struct {
 	timeCol            int
 	pointCol, valueCol int
 	cols               []mapped
+	colPt              []int32 // per column: point index or -1
+	colM               []int32 // per column: index in cols or -1
 
 	fields  [][]byte
 	scratch []byte
@@ -44,6 +46,61 @@ type parser struct {
 	batch   []collector.Reading
 
 	unknownSeen map[string]struct{}
+	reuse       bool // the batch is reused after emit returns (ReadStream)
+
+	// Row mode (ReadRows): one callback per row instead of Readings.
+	rowFn    func(Row) error
+	rowErr   error
+	rowNames []string // mapped columns' point names
+	rowV     []float64
+	rowQ     []collector.Quality
+	rowSet   []bool
+	one      [1]string
+	oneV     [1]float64
+	oneQ     [1]collector.Quality
+	oneSet   [1]bool
+}
+
+// Row is one row of a trend file in SI: the values of the points it
+// carries at one time. Set[i] is false for a blank cell (no sample). The
+// slices are reused after the callback returns.
+type Row struct {
+	At      time.Time
+	Points  []string // point names (PointRef.Name), the same for every row of a wide file
+	Values  []float64
+	Quality []collector.Quality
+	Set     []bool
+}
+
+func (p *parser) ensureRow() {
+	if p.rowV == nil {
+		n := len(p.cols)
+		p.rowV, p.rowQ, p.rowSet = make([]float64, n), make([]collector.Quality, n), make([]bool, n)
+		for _, m := range p.cols {
+			p.rowNames = append(p.rowNames, p.pts.points[m.pt].name)
+		}
+	}
+}
+
+// commitRow hands a parsed wide row on: to the row callback, or as
+// Readings into the batch.
+func (p *parser) commitRow(at time.Time) {
+	p.st.Rows++
+	if p.rowFn != nil {
+		for _, ok := range p.rowSet {
+			if ok {
+				p.st.Readings++
+			}
+		}
+		p.rowErr = p.rowFn(Row{At: at, Points: p.rowNames, Values: p.rowV, Quality: p.rowQ, Set: p.rowSet})
+		return
+	}
+	p.ensureBatch(len(p.cols))
+	for k, ok := range p.rowSet {
+		if ok {
+			p.batch = append(p.batch, collector.Reading{Point: p.rowNames[k], At: at, Value: p.rowV[k], Quality: p.rowQ[k]})
+		}
+	}
 }
 
 func newParser(f format, pts *pointTable, file string, log *slog.Logger) (*parser, error) {
@@ -164,6 +221,9 @@ func (p *parser) readRows(ctx context.Context, sc *scanner, emit emitFunc) error
 		} else {
 			p.wideRow(rec, line, quoted)
 		}
+		if p.rowErr != nil {
+			return p.rowErr
+		}
 		if len(p.batch) >= p.f.batchReading {
 			if err := p.flush(sc, emit); err != nil {
 				return err
@@ -179,7 +239,11 @@ func (p *parser) readRows(ctx context.Context, sc *scanner, emit emitFunc) error
 
 func (p *parser) flush(sc *scanner, emit emitFunc) error {
 	b := p.batch
-	p.batch = nil
+	if p.reuse {
+		p.batch = p.batch[:0]
+	} else {
+		p.batch = nil
+	}
 	p.st.Readings += int64(len(b))
 	return emit(b, sc.consumed(), sc.line)
 }
@@ -210,13 +274,14 @@ func (p *parser) ensureBatch(extra int) {
 	}
 }
 
-// cell converts one cell of point pt; false when it yields no reading.
-func (p *parser) cell(b []byte, pt int32, at time.Time, line int64, col int) (collector.Reading, bool) {
+// cell converts one cell of point pt; ok is false when it yields no
+// reading (a blank cell).
+func (p *parser) cell(b []byte, pt int32, line int64, col int) (v float64, q collector.Quality, ok bool) {
 	pi := &p.pts.points[pt]
 	v, kind := parseCell(b, p.f.decComma)
 	switch kind {
 	case cellBlank:
-		return collector.Reading{}, false
+		return 0, collector.Missing, false
 	case cellNumber, cellState:
 		switch {
 		case pi.binary:
@@ -226,15 +291,19 @@ func (p *parser) cell(b []byte, pt int32, at time.Time, line int64, col int) (co
 		case kind == cellNumber:
 			v = v*pi.scale + pi.offset // numbers get the unit; text states stay 0/1
 		}
-		return collector.Reading{Point: pi.name, At: at, Value: v, Quality: collector.Good}, true
+		return v, collector.Good, true
 	case cellInvalid:
 		p.st.BadCells++
 		p.warn.warn(line, fmt.Sprintf("column %d (%s): %q is not a number or a known state; sent as bad", col+1, pi.name, b))
 	}
-	return collector.Reading{Point: pi.name, At: at, Value: 0, Quality: kind.quality()}, true
+	return 0, kind.quality(), true
 }
 
 func (p *parser) wideRow(rec []byte, line int64, quoted bool) {
+	if !quoted && p.timeCol == 0 {
+		p.wideFast(rec, line)
+		return
+	}
 	if err := p.split(rec, quoted); err != nil {
 		p.badRow(line, err.Error())
 		return
@@ -249,13 +318,11 @@ func (p *parser) wideRow(rec []byte, line int64, quoted bool) {
 	if !ok {
 		return
 	}
-	p.ensureBatch(len(p.cols))
-	for _, m := range p.cols {
-		if r, ok := p.cell(p.fields[m.col], m.pt, at, line, m.col); ok {
-			p.batch = append(p.batch, r)
-		}
+	p.ensureRow()
+	for k, m := range p.cols {
+		p.rowV[k], p.rowQ[k], p.rowSet[k] = p.cell(p.fields[m.col], m.pt, line, m.col)
 	}
-	p.st.Rows++
+	p.commitRow(at)
 }
 
 func (p *parser) longRow(rec []byte, line int64, quoted bool) {
@@ -281,9 +348,19 @@ func (p *parser) longRow(rec []byte, line int64, quoted bool) {
 	if !ok {
 		return
 	}
+	v, q, ok := p.cell(p.fields[p.valueCol], pt, line, p.valueCol)
+	if p.rowFn != nil {
+		p.one[0], p.oneV[0], p.oneQ[0], p.oneSet[0] = p.pts.points[pt].name, v, q, ok
+		p.st.Rows++
+		if ok {
+			p.st.Readings++
+		}
+		p.rowErr = p.rowFn(Row{At: at, Points: p.one[:], Values: p.oneV[:], Quality: p.oneQ[:], Set: p.oneSet[:]})
+		return
+	}
 	p.ensureBatch(1)
-	if r, ok := p.cell(p.fields[p.valueCol], pt, at, line, p.valueCol); ok {
-		p.batch = append(p.batch, r)
+	if ok {
+		p.batch = append(p.batch, collector.Reading{Point: p.pts.points[pt].name, At: at, Value: v, Quality: q})
 	}
 	p.st.Rows++
 }
