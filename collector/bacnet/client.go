@@ -137,6 +137,9 @@ func Dial(ctx context.Context, opts Options) (*Client, error) {
 	if err != nil {
 		return nil, fmt.Errorf("bacnet: bind %s: %w", opts.Bind, err)
 	}
+	// Answers from many devices arrive in bursts; a larger receive buffer
+	// (capped by net.core.rmem_max) keeps the kernel from dropping them.
+	_ = conn.SetReadBuffer(4 << 20)
 	c := &Client{opts: opts, conn: conn, peers: map[Address]*peer{}, devices: map[uint32]*Device{},
 		iamSubs: map[int]chan<- *Device{}, fdResult: make(chan uint16, 1), closed: make(chan struct{})}
 	c.bufPool.New = func() any { b := make([]byte, 0, wire.MaxBVLCLength); return &b }

@@ -76,6 +76,7 @@ func NewServer(cfg Config) (*Server, error) {
 	if err != nil {
 		return nil, fmt.Errorf("bacnetdev: bind %s: %w", cfg.Bind, err)
 	}
+	_ = conn.SetReadBuffer(1 << 20)
 	s := &Server{cfg: cfg, conn: conn, direct: map[uint32]*Device{}, routed: map[routeKey]*Device{},
 		byInst: map[uint32]*Device{}, pending: map[segKey]*segmentedReply{}, closed: make(chan struct{})}
 	s.wg.Add(1)
