@@ -183,7 +183,10 @@ func analyzeSources(s *site.Site, only string, log *slog.Logger) ([]collector.So
 			log.Warn("analyze reads trend-file sources only; skipping", "source", sc.Name, "kind", sc.Kind)
 			continue
 		}
-		src, err := trendfile.FromSite(s, sc.Name, nil, log)
+		// History: read what is there once, even from a watched drop folder.
+		tf := *sc.Trendfile
+		tf.Watch = false
+		src, err := trendfile.New(trendfile.Config{Name: sc.Name, Site: s, File: tf, Logger: log})
 		if err != nil {
 			return nil, err
 		}
