@@ -1,6 +1,7 @@
 package coilmodel
 
 import (
+	"errors"
 	"math"
 	"testing"
 )
@@ -48,6 +49,52 @@ func FuzzRate(f *testing.F) {
 		}
 		if rise := k.ExpectedRise(op); math.Abs(rise-(r.LeavingAirC-eat)) > 1e-9*math.Max(1, math.Abs(rise)) {
 			t.Fatalf("ExpectedRise %g vs Rate %g", rise, r.LeavingAirC-eat)
+		}
+	})
+}
+
+// FuzzInvert: an inversion either reproduces the observed leaving air (the
+// rating at the returned multiplier or flow gives it back) or says why not
+// with ErrNotIdentifiable; it never panics or returns NaN.
+func FuzzInvert(f *testing.F) {
+	f.Add(uint8(5), uint8(2), 0.2, 12.8, 1.2e-4, 82.0, 1.0, 2.0)
+	f.Add(uint8(1), uint8(1), 0.05, -5.0, 1e-6, 45.0, 0.2, -3.0)
+	f.Add(uint8(7), uint8(4), 1.5, 30.0, 5e-4, 110.0, 3.0, 0.5)
+	f.Fuzz(func(t *testing.T, inlet, rows uint8, airflow, eat, water, ewt, mult, latOffset float64) {
+		inlets := PresetInlets()
+		c, err := Preset(inlets[int(inlet)%len(inlets)], 1+int(rows)%4, 10, false)
+		if err != nil {
+			t.Fatal(err)
+		}
+		c.UAMultiplier = mult
+		op := Operating{AirflowM3s: airflow, EnteringAirC: eat, WaterFlowM3s: water, EnteringWaterC: ewt}
+		k, err := NewCalibrated(c)
+		if err != nil || op.Validate() != nil || math.IsNaN(latOffset) || math.IsInf(latOffset, 0) {
+			return
+		}
+		r, err := k.Rate(op)
+		if err != nil {
+			return
+		}
+		obs := r.LeavingAirC + latOffset
+		if m, err := k.InvertUA(op, obs); err == nil {
+			if math.IsNaN(m) || m <= 0 {
+				t.Fatalf("InvertUA returned %g", m)
+			}
+			if got := op.EnteringAirC + k.WithUAMultiplier(m).ExpectedRise(op); math.Abs(got-obs) > 1e-6*math.Max(1, math.Abs(obs-op.EnteringAirC)) {
+				t.Fatalf("InvertUA %g gives LAT %.9f, observed %.9f", m, got, obs)
+			}
+		} else if !errors.Is(err, ErrNotIdentifiable) {
+			t.Fatalf("InvertUA: unexpected error kind: %v", err)
+		}
+		if q, err := k.InvertWaterFlow(op, obs); err == nil {
+			o := op
+			o.WaterFlowM3s = q
+			if got := op.EnteringAirC + k.ExpectedRise(o); math.IsNaN(q) || math.Abs(got-obs) > 1e-6*math.Max(1, math.Abs(obs-op.EnteringAirC)) {
+				t.Fatalf("InvertWaterFlow %g gives LAT %.9f, observed %.9f", q, got, obs)
+			}
+		} else if !errors.Is(err, ErrNotIdentifiable) {
+			t.Fatalf("InvertWaterFlow: unexpected error kind: %v", err)
 		}
 	})
 }
