@@ -227,3 +227,13 @@ func FinEfficiency(hAir, finK, finThicknessM, collarRadiusM, phi float64) float6
 	}
 	return math.Tanh(x) / x
 }
+
+// WangChiChang returns the Colburn j and Fanning-type core friction factor f
+// of Wang, Chi & Chang (2000) for coil c (which must be valid) at the
+// collar Reynolds number reDc, with this package's power-law extension
+// outside Re_Dc 300-20 000 (see wangLowReSlope).
+func WangChiChang(c Coil, reDc float64) (j, f float64) {
+	w := newWang(c, SurfacesOf(c))
+	j, _ = w.colburnJ(reDc)
+	return j, w.fanning(reDc)
+}

@@ -253,3 +253,20 @@ func TestExpectedRiseEdgeInputs(t *testing.T) {
 		t.Errorf("NaN input gave %g", r)
 	}
 }
+
+func TestWangChiChangExport(t *testing.T) {
+	// Rating chain above (computed, not published): at Re_Dc ≈ 3844, 1 row,
+	// j ≈ 0.0090 and f ≈ 0.0312.
+	j, f := WangChiChang(chainCoil(1), 3844)
+	if relErr(j, 0.0090) > 0.02 || relErr(f, 0.0312) > 0.02 {
+		t.Errorf("j %.5f f %.5f", j, f)
+	}
+	// Continuity at the range edges of the extension.
+	for _, re := range []float64{wangReMin, wangReMax} {
+		j1, f1 := WangChiChang(chainCoil(2), re*(1-1e-9))
+		j2, f2 := WangChiChang(chainCoil(2), re*(1+1e-9))
+		if relErr(j1, j2) > 1e-6 || relErr(f1, f2) > 1e-6 {
+			t.Errorf("discontinuity at Re %g: j %g/%g f %g/%g", re, j1, j2, f1, f2)
+		}
+	}
+}
