@@ -1,0 +1,6 @@
+# collector/bacnet interop test: the independent BACnet stack @bacnet-js/client
+# (MIT, npm registry), installed from the committed package-lock.json. Idempotent.
+if [ ! -f collector/bacnet/testdata/interop/node_modules/@bacnet-js/client/package.json ]; then
+  (cd collector/bacnet/testdata/interop && npm ci --silent --no-audit --no-fund >/dev/null) ||
+    { echo "bacnet.sh: npm ci in collector/bacnet/testdata/interop failed" >&2; return 1 2>/dev/null || exit 1; }
+fi
