@@ -44,6 +44,7 @@ func TestPresetSizes(t *testing.T) {
 	}
 }
 
+// Common practice: each added row adds capacity and air pressure drop.
 func TestMoreRowsMoreCapacityMoreAirDrop(t *testing.T) {
 	op := ipOp(500, 55, 2, 180)
 	prev := Rating{}
@@ -56,6 +57,7 @@ func TestMoreRowsMoreCapacityMoreAirDrop(t *testing.T) {
 	}
 }
 
+// Common practice: more parallel circuits lower the water pressure drop at the same flow.
 func TestMoreCircuitsLowerWaterDrop(t *testing.T) {
 	op := ipOp(1200, 55, 4, 180)
 	one := mustPreset(t, 16, 2, 10, false)
@@ -72,6 +74,7 @@ func TestMoreCircuitsLowerWaterDrop(t *testing.T) {
 	}
 }
 
+// Common practice: 12 FPI gives more capacity and more air pressure drop than 10 FPI.
 func TestTwelveFPIBeatsTen(t *testing.T) {
 	op := ipOp(500, 55, 2, 180)
 	for rows := 1; rows <= 2; rows++ {
@@ -83,6 +86,7 @@ func TestTwelveFPIBeatsTen(t *testing.T) {
 	}
 }
 
+// Common practice: 120 °F water on the same coil gives roughly half the capacity of 180 °F.
 func TestLowTemperatureWaterMuchLessCapacity(t *testing.T) {
 	// 120 °F water on a coil selected for 180 °F gives much less heat: the
 	// driving difference falls from 125 to 65 °F at 55 °F air.
@@ -94,6 +98,7 @@ func TestLowTemperatureWaterMuchLessCapacity(t *testing.T) {
 	}
 }
 
+// Common practice: an oversized face at equal capacity needs less water.
 func TestOversizedFaceAtEqualCapacity(t *testing.T) {
 	// At the same airflow and capacity, an oversized face needs less water and
 	// returns it colder, with lower air and water pressure drops.
