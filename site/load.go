@@ -89,6 +89,7 @@ func (d *decoder) decode(root *yaml.Node) {
 	d.site.Sources = d.sources
 	d.siteFrom, d.siteFromN = m.strList("points_from")
 	d.checkFrom(&entity{kind: "top-level", id: "points_from", from: d.siteFrom, fromNode: d.siteFromN}, true)
+	d.decodeSitePoints(m.val("site"))
 	d.decodeLoops(m.val("loops"))
 	d.decodeAHUs(m.val("ahus"))
 	d.decodeTemplates(m.val("terminal_defaults"), m.val("templates"))
@@ -99,7 +100,7 @@ func (d *decoder) decode(root *yaml.Node) {
 }
 
 func (d *decoder) decodeSite(n *yaml.Node) {
-	m := mapping(d.e, n, "site", "name", "time_zone", "elevation", "energy")
+	m := mapping(d.e, n, "site", "name", "time_zone", "elevation", "energy", "design_heating_outdoor", "points")
 	if m.node == nil {
 		return
 	}
@@ -118,6 +119,15 @@ func (d *decoder) decodeSite(n *yaml.Node) {
 			d.e.at(m.at("elevation"), "site: elevation %.0f m is impossible for a building; expected -450 m to 5500 m", v)
 		} else {
 			s.ElevationM = v
+		}
+	}
+	if v, ok := m.quantity("design_heating_outdoor", units.Temperature, false, ""); ok {
+		// Coldest published 99.6 % design dry bulbs are near -50 °C; above
+		// 20 °C no heating design is meaningful.
+		if v < -60 || v > 20 {
+			d.e.at(m.at("design_heating_outdoor"), "site: design_heating_outdoor %.1f °C is outside -60 to 20 °C (-76 to 68 °F)", v)
+		} else {
+			s.DesignOutdoorC = &v
 		}
 	}
 	em := mapping(d.e, m.val("energy"), "site energy", "currency", "heat_per_kwh", "heat_per_therm", "cooling_per_kwh", "heating_efficiency", "cooling_cop")
@@ -144,6 +154,26 @@ func (d *decoder) decodeSite(n *yaml.Node) {
 	if v, ok := em.number("cooling_cop", false, 0.5, 15); ok {
 		en.CoolingPlantCOP = v
 	}
+}
+
+// decodeSitePoints decodes the site's own points (outdoor air) once the
+// sources and the top-level points_from are known. A source pattern for
+// outdoor_air gives the point when the site lists no explicit one.
+func (d *decoder) decodeSitePoints(n *yaml.Node) {
+	var pn *yaml.Node
+	if n != nil {
+		if rn := resolve(n); rn != nil && rn.Kind == yaml.MappingNode {
+			for i := 0; i+1 < len(rn.Content); i += 2 {
+				if rn.Content[i].Value == "points" {
+					pn = rn.Content[i+1]
+				}
+			}
+		}
+	}
+	en := &entity{kind: "site", id: SiteEntity, node: n, from: d.siteFrom, fromNode: d.siteFromN,
+		vars: map[string]string{"id": SiteEntity}}
+	d.checkFrom(en, false)
+	d.decodePoints(en, pn, siteRoles, d.site.Ref)
 }
 
 // claimID records an entity ID; IDs are unique across loops, AHUs and

@@ -91,6 +91,14 @@ func (w *writer) site(root *yaml.Node) {
 	if s.ElevationM != 0 {
 		put(m, "elevation", qty(s.ElevationM, units.Length))
 	}
+	if s.DesignOutdoorC != nil {
+		put(m, "design_heating_outdoor", qty(*s.DesignOutdoorC, units.Temperature))
+	}
+	if s.OutdoorAir.Defined() {
+		pm := w.mapping(true)
+		put(pm, RoleOutdoorAir.String(), w.point(RoleOutdoorAir, s.OutdoorAir))
+		put(m, "points", pm)
+	}
 	e := s.Energy
 	if e != (EnergyPrices{}) {
 		em := w.mapping(false)

@@ -6,7 +6,7 @@ import "risewatch/units"
 // String(); its point-name suffix is Suffix().
 type Role int
 
-// Point roles. Terminal roles first, then AHU, then loop.
+// Point roles. Terminal roles first, then AHU, then loop, then site.
 const (
 	RoleNone Role = iota
 	RoleAirflow
@@ -20,6 +20,7 @@ const (
 	RoleOccupancy
 	RoleSupplyTemp
 	RolePlantEnabled
+	RoleOutdoorAir
 	numRoles
 )
 
@@ -42,6 +43,7 @@ var roleInfos = [numRoles]roleInfo{
 	RoleOccupancy:       {"occupancy", "OCC", units.Binary, "occupied mode"},
 	RoleSupplyTemp:      {"supply_temp", "HWST", units.Temperature, "hot-water supply temperature"},
 	RolePlantEnabled:    {"plant_enabled", "HWEN", units.Binary, "heating plant enabled"},
+	RoleOutdoorAir:      {"outdoor_air", "OAT", units.Temperature, "outdoor-air temperature (site)"},
 }
 
 // String returns the role's YAML key ("discharge").
@@ -54,7 +56,8 @@ func (r Role) String() string {
 
 // Suffix returns the role's point-name suffix ("DAT"): a point's Name is
 // "<loop, AHU or terminal ID>.<suffix>", e.g. "VAV-2-07.DAT", "AHU-1.SAT",
-// "HW-1.HWST".
+// "HW-1.HWST"; the site's own points use the entity ID SiteEntity
+// ("site.OAT").
 func (r Role) Suffix() string {
 	if r < 0 || r >= numRoles {
 		return ""
@@ -77,7 +80,8 @@ var (
 	terminalRoles = []Role{RoleAirflow, RoleAirflowSetpoint, RoleDischarge, RoleValve, RoleZoneTemp, RoleZoneSetpoint}
 	ahuRoles      = []Role{RoleSupplyAir, RoleFanStatus, RoleOccupancy}
 	loopRoles     = []Role{RoleSupplyTemp, RolePlantEnabled}
-	allRoles      = append(append(append([]Role(nil), terminalRoles...), ahuRoles...), loopRoles...)
+	siteRoles     = []Role{RoleOutdoorAir}
+	allRoles      = append(append(append(append([]Role(nil), terminalRoles...), ahuRoles...), loopRoles...), siteRoles...)
 )
 
 func roleKeys(rs []Role) []string {
@@ -101,6 +105,17 @@ func roleByKey(k string) Role {
 // Sources key their readings (collector.Reading.Point) by it.
 func PointName(entityID string, r Role) string { return entityID + "." + r.Suffix() }
 
+// SiteEntity is the entity ID of the site's own points (outdoor air).
+const SiteEntity = "site"
+
+// Ref returns the site point for role r (nil for a non-site role).
+func (s *Site) Ref(r Role) *PointRef {
+	if r == RoleOutdoorAir {
+		return &s.OutdoorAir
+	}
+	return nil
+}
+
 // PointUse is one defined point with what it belongs to.
 type PointUse struct {
 	Ref      *PointRef
@@ -112,7 +127,7 @@ type PointUse struct {
 }
 
 // Points lists every defined point of the site (fixed values included), in
-// file order: loops, AHUs, terminals. A source selects its own by
+// file order: the site's outdoor air, loops, AHUs, terminals. A source selects its own by
 // Ref.Source; the assembler maps Ref.Name to the entity and role.
 func (s *Site) Points() []PointUse {
 	var out []PointUse
@@ -121,6 +136,7 @@ func (s *Site) Points() []PointUse {
 			out = append(out, PointUse{Ref: p, Role: r, Entity: id, Terminal: t, AHU: a, Loop: l})
 		}
 	}
+	add(&s.OutdoorAir, RoleOutdoorAir, SiteEntity, -1, -1, -1)
 	for i := range s.Loops {
 		lp := &s.Loops[i]
 		add(&lp.SupplyTemp, RoleSupplyTemp, lp.ID, -1, -1, i)

@@ -25,6 +25,13 @@ type Site struct {
 	AHUs       []AHU
 	Terminals  []Terminal
 	Sources    []SourceConfig
+	// OutdoorAir is the site's outdoor-air temperature point (optional).
+	// The low-temperature readiness assessment regresses zone heating loads
+	// on it to extrapolate them to DesignOutdoorC.
+	OutdoorAir PointRef
+	// DesignOutdoorC is the heating design outdoor dry bulb, °C (for
+	// example the ASHRAE Handbook—Fundamentals 99.6 % value); nil if not given.
+	DesignOutdoorC *float64
 	// Index maps, filled by Load.
 	LoopIndex     map[string]int
 	AHUIndex      map[string]int
