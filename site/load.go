@@ -74,7 +74,7 @@ type idUse struct {
 	line int
 }
 
-var topKeys = []string{"site", "sources", "points_from", "terminal_defaults", "templates", "loops", "ahus", "terminals"}
+var topKeys = []string{"site", "sources", "points_from", "terminal_defaults", "templates", "loops", "ahus", "terminals", "daemon"}
 
 func (d *decoder) decode(root *yaml.Node) {
 	m := mapping(d.e, root, "the file", topKeys...)
@@ -94,6 +94,9 @@ func (d *decoder) decode(root *yaml.Node) {
 	d.decodeAHUs(m.val("ahus"))
 	d.decodeTemplates(m.val("terminal_defaults"), m.val("templates"))
 	d.decodeTerminals(m.val("terminals"))
+	if dn := m.val("daemon"); dn != nil && !isNull(resolve(dn)) {
+		d.site.Daemon = dn // decoded by package daemon
+	}
 	if len(d.site.Terminals) == 0 && m.node != nil && !m.has("terminals") {
 		d.e.at(m.pos(), "terminals: is required: at least one terminal unit")
 	}

@@ -11,6 +11,8 @@ package site
 import (
 	"time"
 
+	"gopkg.in/yaml.v3"
+
 	"risewatch/coilmodel"
 )
 
@@ -25,6 +27,9 @@ type Site struct {
 	AHUs       []AHU
 	Terminals  []Terminal
 	Sources    []SourceConfig
+	// Daemon is the top-level daemon: section kept as raw YAML (nil when
+	// absent); package daemon decodes and validates it with positions.
+	Daemon *yaml.Node
 	// OutdoorAir is the site's outdoor-air temperature point (optional).
 	// The low-temperature readiness assessment regresses zone heating loads
 	// on it to extrapolate them to DesignOutdoorC.
