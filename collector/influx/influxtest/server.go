@@ -82,7 +82,7 @@ bind-address = "127.0.0.1:%d"
 		t.Fatal(err)
 	}
 	s.Restart()
-	t.Cleanup(s.Stop)
+	t.Cleanup(s.kill)
 	if _, err := s.InfluxQL("", "CREATE DATABASE "+Database); err != nil {
 		t.Fatalf("influxd: create database: %v", err)
 	}
@@ -154,6 +154,16 @@ func (s *Server) Stop() {
 		_ = s.cmd.Process.Kill()
 		<-s.exited
 	}
+	s.cmd = nil
+}
+
+// kill ends the server at once (cleanup: the data is thrown away).
+func (s *Server) kill() {
+	if s.cmd == nil {
+		return
+	}
+	_ = s.cmd.Process.Kill()
+	<-s.exited
 	s.cmd = nil
 }
 
