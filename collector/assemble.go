@@ -50,6 +50,7 @@ func (f field) configured() bool { return f.idx >= 0 || f.fixed }
 // termFields are a terminal's resolved fields.
 type termFields struct {
 	airflow, airflowSet, discharge, supply, valve, hotWater, plant, fan, occupied, zone, zoneSet field
+	outdoor                                                                                      field
 }
 
 type sourceMark struct {
@@ -90,7 +91,7 @@ type Assembler struct {
 }
 
 // Points returns every point reference in the site, one per unique name, in
-// a stable order (loops, AHUs, terminals). Fixed-value references are
+// a stable order (site outdoor air, loops, AHUs, terminals). Fixed-value references are
 // included; binary marks points used as states even when the config did not
 // say Binary.
 func Points(s *site.Site) []site.PointRef {
@@ -104,6 +105,7 @@ func Points(s *site.Site) []site.PointRef {
 		p.Binary = p.Binary || binary
 		out = append(out, p)
 	}
+	add(s.OutdoorAir, false)
 	for _, l := range s.Loops {
 		add(l.SupplyTemp, false)
 		add(l.PlantEnabled, true)
@@ -167,6 +169,7 @@ func NewAssembler(s *site.Site, cfg AssembleConfig) (*Assembler, error) {
 		f.valve, f.zone, f.zoneSet = ref(p.Valve), ref(p.ZoneTemp), ref(p.ZoneSetpoint)
 		f.supply, f.fan, f.occupied = field{idx: -1}, field{idx: -1}, field{idx: -1}
 		f.hotWater, f.plant = field{idx: -1}, field{idx: -1}
+		f.outdoor = ref(s.OutdoorAir)
 		if t.AHU != "" {
 			ai, ok := s.AHUIndex[t.AHU]
 			if !ok {
@@ -256,6 +259,7 @@ func (a *Assembler) Configured(ti int) Flags {
 	set(f.occupied, FlagOccupied)
 	set(f.zone, FlagZone)
 	set(f.zoneSet, FlagZoneSet)
+	set(f.outdoor, FlagOutdoor)
 	return fl
 }
 
@@ -420,6 +424,7 @@ func (a *Assembler) build(k int64, vals []float64, quals []Quality) {
 		s.HotWaterC = get(f.hotWater, FlagHotWater, &fl)
 		s.ZoneC = get(f.zone, FlagZone, &fl)
 		s.ZoneSetC = get(f.zoneSet, FlagZoneSet, &fl)
+		s.OutdoorC = get(f.outdoor, FlagOutdoor, &fl)
 		s.PlantOn = get(f.plant, FlagPlant, &fl) >= 0.5
 		s.FanOn = get(f.fan, FlagFan, &fl) >= 0.5
 		s.Occupied = get(f.occupied, FlagOccupied, &fl) >= 0.5

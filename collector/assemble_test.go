@@ -71,7 +71,7 @@ func TestAssemblerWaitsForAllSources(t *testing.T) {
 	if s0.HotWaterC != 82 || s0.Flags&FlagHotWater != 0 {
 		t.Errorf("hot water %v flags %b: want the loop's design value 82", s0.HotWaterC, s0.Flags)
 	}
-	want := FlagAirflowSet | FlagZone | FlagZoneSet | FlagOccupied
+	want := FlagAirflowSet | FlagZone | FlagZoneSet | FlagOccupied | FlagOutdoor
 	if s0.Flags != want {
 		t.Errorf("flags %b, want %b (unconfigured fields)", s0.Flags, want)
 	}

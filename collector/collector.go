@@ -67,6 +67,7 @@ const (
 	FlagZoneSet
 	FlagOccupied
 	FlagAirflowSet
+	FlagOutdoor
 )
 
 // Sample is one terminal on the analysis grid (default 1 min): its own points
@@ -82,6 +83,7 @@ type Sample struct {
 	HotWaterC     float64
 	ZoneC         float64
 	ZoneSetC      float64
+	OutdoorC      float64 // site outdoor-air temperature (site.Site.OutdoorAir)
 	PlantOn       bool
 	FanOn         bool
 	Occupied      bool
