@@ -40,6 +40,10 @@ func (s *Simulator) Site(trendDir string) *site.Site {
 			TimeZone: sc.loc, Watch: true,
 		}}},
 	}
+	st.OutdoorAir = trendPoint(colOAT(), "degF", false)
+	st.OutdoorAir.Name = site.PointName(site.SiteEntity, site.RoleOutdoorAir)
+	designOAT := sc.Weather.DesignOutdoor
+	st.DesignOutdoorC = &designOAT
 	for i := range sc.Loops {
 		l := &sc.Loops[i]
 		st.Loops = append(st.Loops, site.Loop{ID: l.ID, DesignSupplyC: l.supplyAtDesignC, DesignDeltaK: l.designDeltaK,
