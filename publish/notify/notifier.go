@@ -314,10 +314,7 @@ func (n *Notifier) Deliver(ctx context.Context) (int, error) {
 			continue
 		}
 		if err := n.send.Send(ctx, Mail{From: n.cfg.From, To: rec.To, Data: rec.Data}); err != nil {
-			back := time.Minute << min(it.Attempts, 10)
-			if back > n.MaxBackoff {
-				back = n.MaxBackoff
-			}
+			back := store.Backoff(it.Attempts, time.Minute, n.MaxBackoff)
 			n.log.Warn("notify: send failed, will retry", "route", rec.Route, "key", it.Key, "attempt", it.Attempts+1, "retry_in", back, "err", err)
 			if merr := n.q.MarkFailed(ctx, it.Key, err, now.Add(back)); merr != nil {
 				errs = append(errs, merr)
