@@ -1,0 +1,178 @@
+package daemon
+
+import (
+	"context"
+	"encoding/json"
+	"fmt"
+	"math"
+	"strconv"
+	"time"
+
+	"risewatch/fdd"
+	"risewatch/rules"
+	"risewatch/store"
+)
+
+// State keys in the store (per shard: one data directory may hold several).
+func stateKey(shard, what string) string {
+	if shard == "" {
+		shard = "all"
+	}
+	return "daemon/" + shard + "/" + what
+}
+
+// progress is what the daemon keeps beside the rules' lifecycle state.
+type progress struct {
+	LastStep  time.Time `json:"last_step"`  // newest analysed step: older input is a replay
+	AckCursor int64     `json:"ack_cursor"` // newest acknowledgement applied
+}
+
+// jf is a float64 that survives JSON as null when NaN or infinite.
+type jf float64
+
+func (f jf) MarshalJSON() ([]byte, error) {
+	v := float64(f)
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return []byte("null"), nil
+	}
+	return strconv.AppendFloat(nil, v, 'g', -1, 64), nil
+}
+
+func (f *jf) UnmarshalJSON(b []byte) error {
+	if string(b) == "null" {
+		*f = jf(math.NaN())
+		return nil
+	}
+	v, err := strconv.ParseFloat(string(b), 64)
+	*f = jf(v)
+	return err
+}
+
+// baselineBlob is fdd.Baseline as stored (BlobBaseline).
+type baselineBlob struct {
+	Terminal        string    `json:"terminal"`
+	Source          string    `json:"source"`
+	UAFactor        jf        `json:"ua_factor"`
+	UAFactorSigma   jf        `json:"ua_factor_sigma"`
+	FlowFactor      jf        `json:"flow_factor"`
+	FlowFactorSigma jf        `json:"flow_factor_sigma"`
+	Correlation     jf        `json:"correlation"`
+	ResidualSigmaK  jf        `json:"residual_sigma_k"`
+	Points          int       `json:"points"`
+	From            time.Time `json:"from"`
+	To              time.Time `json:"to"`
+	Rejected        string    `json:"rejected,omitempty"`
+}
+
+func toBlob(b fdd.Baseline) baselineBlob {
+	return baselineBlob{b.Terminal, b.Source, jf(b.UAFactor), jf(b.UAFactorSigma), jf(b.FlowFactor), jf(b.FlowFactorSigma),
+		jf(b.Correlation), jf(b.ResidualSigmaK), b.Points, b.From, b.To, b.Rejected}
+}
+
+func (b baselineBlob) baseline() fdd.Baseline {
+	return fdd.Baseline{Terminal: b.Terminal, Source: b.Source, UAFactor: float64(b.UAFactor), UAFactorSigma: float64(b.UAFactorSigma),
+		FlowFactor: float64(b.FlowFactor), FlowFactorSigma: float64(b.FlowFactorSigma), Correlation: float64(b.Correlation),
+		ResidualSigmaK: float64(b.ResidualSigmaK), Points: b.Points, From: b.From, To: b.To, Rejected: b.Rejected}
+}
+
+// loadBaselines adopts the stored learned baselines.
+func loadBaselines(ctx context.Context, st *store.Store, eng *fdd.Engine, terminals map[string]int) (int, error) {
+	blobs, err := st.TerminalBlobs(ctx, store.BlobBaseline)
+	if err != nil {
+		return 0, err
+	}
+	var bs []fdd.Baseline
+	for id, raw := range blobs {
+		if _, ok := terminals[id]; !ok {
+			continue // another shard's terminal
+		}
+		var b baselineBlob
+		if err := json.Unmarshal(raw, &b); err != nil {
+			return 0, fmt.Errorf("baseline of %s: %w", id, err)
+		}
+		if b.Source != "learned" {
+			continue
+		}
+		bs = append(bs, b.baseline())
+	}
+	if len(bs) == 0 {
+		return 0, nil
+	}
+	return len(bs), eng.LoadBaselines(bs)
+}
+
+// saveBaselines writes the learned baselines and the dirty plot series in
+// one transaction.
+func saveBaselines(ctx context.Context, st *store.Store, eng *fdd.Engine, ring *seriesRing, ids func(int) string) (int, error) {
+	bs := eng.Baselines()
+	dirty := ring.takeDirty()
+	n := 0
+	err := st.Update(ctx, func(tx *store.Tx) error {
+		for _, b := range bs {
+			if b.Source != "learned" {
+				continue
+			}
+			raw, err := json.Marshal(toBlob(b))
+			if err != nil {
+				return err
+			}
+			if err := tx.PutTerminalBlob(ctx, b.Terminal, store.BlobBaseline, raw); err != nil {
+				return err
+			}
+			n++
+		}
+		for _, ti := range dirty {
+			if err := tx.PutTerminalBlob(ctx, ids(ti), BlobSeries, ring.marshal(ti)); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		for _, ti := range dirty { // try again next time
+			ring.mu.Lock()
+			ring.dirty[ti] = true
+			ring.mu.Unlock()
+		}
+	}
+	return n, err
+}
+
+// loadSeries restores the plot series of the site's terminals.
+func loadSeries(ctx context.Context, st *store.Store, ring *seriesRing, terminals map[string]int) error {
+	blobs, err := st.TerminalBlobs(ctx, BlobSeries)
+	if err != nil {
+		return err
+	}
+	for id, raw := range blobs {
+		if ti, ok := terminals[id]; ok {
+			if err := ring.unmarshal(ti, raw); err != nil {
+				return fmt.Errorf("series of %s: %w", id, err)
+			}
+		}
+	}
+	return nil
+}
+
+// loadLifecycle restores the rules' lifecycle state and the progress marks.
+func loadLifecycle(ctx context.Context, st *store.Store, shard string, ev *rules.Evaluator) (progress, rules.ImportStats, error) {
+	var pr progress
+	var is rules.ImportStats
+	if raw, ok, err := st.LoadState(ctx, stateKey(shard, "progress")); err != nil {
+		return pr, is, err
+	} else if ok {
+		if err := json.Unmarshal(raw, &pr); err != nil {
+			return pr, is, fmt.Errorf("daemon progress: %w", err)
+		}
+	}
+	raw, ok, err := st.LoadState(ctx, stateKey(shard, "lifecycle"))
+	if err != nil || !ok {
+		return pr, is, err
+	}
+	var snap rules.Snapshot
+	if err := json.Unmarshal(raw, &snap); err != nil {
+		return pr, is, fmt.Errorf("rules lifecycle state: %w", err)
+	}
+	is, err = ev.Import(snap)
+	return pr, is, err
+}

@@ -1,0 +1,281 @@
+package daemon
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"log/slog"
+	"sync"
+	"sync/atomic"
+	"time"
+
+	"github.com/robfig/cron/v3"
+
+	"risewatch/collector"
+	"risewatch/collector/bacnet"
+	cinflux "risewatch/collector/influx"
+	"risewatch/collector/trendfile"
+	"risewatch/publish/metrics"
+	"risewatch/publish/web"
+	"risewatch/site"
+	"risewatch/store"
+)
+
+// health is one source's state for the dashboard, beside its metrics.
+type health struct {
+	name, kind string
+	points     int
+	m          *metrics.SourceHealth
+
+	reads, readings atomic.Uint64
+	lastOK          atomic.Int64 // Unix nanoseconds
+	mu              sync.Mutex
+	errs            map[string]uint64
+	lastErr         string
+	stale           int
+}
+
+func (h *health) ok(d time.Duration, n int) {
+	now := time.Now()
+	h.reads.Add(1)
+	h.readings.Add(uint64(n))
+	h.lastOK.Store(now.UnixNano())
+	if h.m != nil {
+		h.m.ReadOK(d, now, n)
+	}
+}
+
+func (h *health) failed(err error, d time.Duration) {
+	k := metrics.ClassifyError(err)
+	h.mu.Lock()
+	if h.errs == nil {
+		h.errs = map[string]uint64{}
+	}
+	h.errs[string(k)]++
+	h.lastErr = err.Error()
+	h.mu.Unlock()
+	if h.m != nil {
+		h.m.ReadFailed(k, d)
+	}
+}
+
+func (h *health) setStale(n int) {
+	h.mu.Lock()
+	h.stale = n
+	h.mu.Unlock()
+	if h.m != nil {
+		h.m.SetStale(n)
+	}
+}
+
+func (h *health) snapshot() web.SourceHealth {
+	h.mu.Lock()
+	defer h.mu.Unlock()
+	e := make(map[string]uint64, len(h.errs))
+	for k, v := range h.errs {
+		e[k] = v
+	}
+	var last time.Time
+	if n := h.lastOK.Load(); n > 0 {
+		last = time.Unix(0, n)
+	}
+	return web.SourceHealth{Name: h.name, Kind: h.kind, LastSuccess: last, Reads: h.reads.Load(), Errors: e,
+		LastError: h.lastErr, StalePoints: h.stale, Points: h.points}
+}
+
+// observed wraps a source so every batch it sends counts as a read.
+type observed struct {
+	collector.Source
+	h *health
+}
+
+func (o observed) Run(ctx context.Context, out chan<- []collector.Reading) error {
+	mid := make(chan []collector.Reading)
+	errc := make(chan error, 1)
+	go func() { errc <- o.Source.Run(ctx, mid); close(mid) }()
+	last := time.Now()
+	for b := range mid {
+		stale := 0
+		for i := range b {
+			if b[i].Quality != collector.Good {
+				stale++
+			}
+		}
+		o.h.ok(time.Since(last), len(b))
+		o.h.setStale(stale)
+		select {
+		case out <- b:
+		case <-ctx.Done():
+		}
+		last = time.Now()
+	}
+	err := <-errc
+	if err != nil && !errors.Is(err, context.Canceled) {
+		o.h.failed(err, 0)
+	}
+	return err
+}
+
+// countPoints counts the site points a source feeds.
+func countPoints(s *site.Site, source string) int {
+	n := 0
+	for _, p := range collector.Points(s) {
+		if p.Source == source {
+			n++
+		}
+	}
+	return n
+}
+
+// buildSources makes every configured source, each reading its checkpoints
+// from the store under "<kind>:<name>/".
+func buildSources(s *site.Site, st *store.Store, m *metrics.Metrics, clock func() time.Time, settle time.Duration, log *slog.Logger) ([]collector.Source, []*health, error) {
+	var out []collector.Source
+	var hs []*health
+	var errs []error
+	for _, sc := range s.Sources {
+		h := &health{name: sc.Name, kind: sc.Kind, points: countPoints(s, sc.Name)}
+		if m != nil {
+			h.m = m.Source(sc.Name)
+		}
+		ck := st.Checkpoints(sc.Kind + ":" + sc.Name + "/")
+		switch {
+		case sc.Trendfile != nil:
+			src, err := trendfile.New(trendfile.Config{Name: sc.Name, Site: s, File: *sc.Trendfile, Checkpoints: ck, SettleTime: settle, Logger: log})
+			if err != nil {
+				errs = append(errs, err)
+				continue
+			}
+			out = append(out, observed{src, h})
+		case sc.BACnet != nil:
+			src, err := bacnet.NewSource(sc.Name, *sc.BACnet, bacnet.PointsFor(s, sc.Name), ck, s.Location, log)
+			if err != nil {
+				errs = append(errs, err)
+				continue
+			}
+			out = append(out, &bacnetCron{src: src, cfg: *sc.BACnet, h: h, clock: clock, log: log})
+		case sc.Influx != nil:
+			opt := cinflux.Options{Name: sc.Name, Config: *sc.Influx, Token: cinflux.TokenFromEnv(*sc.Influx), Site: s,
+				Start: time.Now().Add(-7 * 24 * time.Hour), Checkpoints: ck, Logger: log,
+				OnRead: func(d time.Duration, n int, err error) {
+					if err != nil {
+						h.failed(err, d)
+					} else {
+						h.ok(d, n)
+					}
+				}}
+			src, err := cinflux.New(opt)
+			if err != nil {
+				errs = append(errs, err)
+				continue
+			}
+			out = append(out, src)
+		default:
+			errs = append(errs, fmt.Errorf("source %s: kind %q has no reader", sc.Name, sc.Kind))
+			continue
+		}
+		hs = append(hs, h)
+	}
+	if len(out) == 0 && len(errs) == 0 {
+		errs = append(errs, fmt.Errorf("site %s has no source", s.Name))
+	}
+	return out, hs, errors.Join(errs...)
+}
+
+// bacnetCron runs a BACnet source on robfig/cron/v3 schedules: a present-
+// value poll every PollInterval and a trend-log sweep every TrendSweep
+// ("@every" specs), one at a time. The first sweep runs at start, before
+// polling, so backfilled history reaches the assembler ahead of live values.
+type bacnetCron struct {
+	src   *bacnet.Source
+	cfg   site.BACnetConfig
+	h     *health
+	clock func() time.Time // stamps polled values (the daemon's clock)
+	log   *slog.Logger
+	mu    sync.Mutex
+}
+
+func (b *bacnetCron) Name() string { return b.src.Name() }
+
+func (b *bacnetCron) Run(ctx context.Context, out chan<- []collector.Reading) error {
+	if err := b.src.Start(ctx); err != nil {
+		b.h.failed(err, 0)
+		return err
+	}
+	defer b.src.Close()
+	emit := func(rs []collector.Reading) error {
+		if len(rs) == 0 {
+			return nil
+		}
+		select {
+		case out <- rs:
+			return nil
+		case <-ctx.Done():
+			return ctx.Err()
+		}
+	}
+	b.sweep(ctx, emit)
+	poll, sweep := b.cfg.PollInterval, b.cfg.TrendSweep
+	if poll <= 0 {
+		poll = time.Minute
+	}
+	if sweep <= 0 {
+		sweep = 15 * time.Minute
+	}
+	c := cron.New(cron.WithChain(cron.SkipIfStillRunning(cron.DiscardLogger)))
+	if _, err := c.AddFunc(fmt.Sprintf("@every %s", poll), func() { b.poll(ctx, emit) }); err != nil {
+		return fmt.Errorf("source %s: poll schedule: %w", b.Name(), err)
+	}
+	if _, err := c.AddFunc(fmt.Sprintf("@every %s", sweep), func() { b.sweep(ctx, emit) }); err != nil {
+		return fmt.Errorf("source %s: sweep schedule: %w", b.Name(), err)
+	}
+	b.poll(ctx, emit)
+	c.Start()
+	<-ctx.Done()
+	<-c.Stop().Done()
+	return nil
+}
+
+func (b *bacnetCron) poll(ctx context.Context, emit func([]collector.Reading) error) {
+	b.mu.Lock()
+	defer b.mu.Unlock()
+	t0 := time.Now()
+	rs, err := b.src.PollOnce(ctx)
+	if ctx.Err() != nil {
+		return
+	}
+	if err != nil {
+		b.h.failed(err, time.Since(t0))
+		b.log.Warn("bacnet: poll incomplete", "source", b.Name(), "err", err)
+	}
+	stamp := b.clock()
+	stale := 0
+	for i := range rs {
+		rs[i].At = stamp
+		if rs[i].Quality != collector.Good {
+			stale++
+		}
+	}
+	b.h.setStale(stale)
+	if err == nil {
+		b.h.ok(time.Since(t0), len(rs))
+	}
+	_ = emit(rs)
+}
+
+func (b *bacnetCron) sweep(ctx context.Context, emit func([]collector.Reading) error) {
+	b.mu.Lock()
+	defer b.mu.Unlock()
+	t0 := time.Now()
+	n := 0
+	_, err := b.src.SweepTrends(ctx, func(rs []collector.Reading) error { n += len(rs); return emit(rs) })
+	if ctx.Err() != nil {
+		return
+	}
+	if err != nil {
+		b.h.failed(err, time.Since(t0))
+		b.log.Warn("bacnet: trend sweep incomplete", "source", b.Name(), "err", err)
+		return
+	}
+	b.h.ok(time.Since(t0), n)
+}
