@@ -258,3 +258,16 @@ func (c *Config) InfluxToken() string {
 	}
 	return os.Getenv(c.Influx.TokenEnv)
 }
+
+// Load reads a site file and decodes its daemon: section.
+func Load(path string) (*site.Site, *Config, error) {
+	s, err := site.Load(path)
+	if err != nil {
+		return nil, nil, err
+	}
+	c, err := DecodeConfig(s)
+	if err != nil {
+		return nil, nil, err
+	}
+	return s, c, nil
+}

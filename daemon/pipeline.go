@@ -260,7 +260,7 @@ func (pl *pipeline) run(parent context.Context) (*plan, error) {
 				log.Info("backlog analysed", "steps", pl.steps, "newest", pl.Now(), "open_faults", len(pl.Faults0()))
 				pl.persistAll(ctx, false)
 				if pl.d.opts.ReportOnStart {
-					go pl.runReport(ctx, pl.Now(), false)
+					go pl.runReport(ctx, pl.Now(), true, true)
 				}
 			}
 		case <-snap.C:

@@ -3,7 +3,9 @@ package daemon
 import (
 	"bytes"
 	"context"
+	"errors"
 	"fmt"
+	"log/slog"
 	"os"
 	"path/filepath"
 	"time"
@@ -158,6 +160,9 @@ func writeAtomic(path string, data []byte) error {
 		err = cerr
 	}
 	if err == nil {
+		err = os.Chmod(tmp.Name(), 0o644)
+	}
+	if err == nil {
 		err = os.Rename(tmp.Name(), path)
 	}
 	if err != nil {
@@ -188,10 +193,14 @@ func MailReport(ctx context.Context, n *notify.Notifier, siteName string, to []s
 	})
 }
 
-// runReport writes (and mails) the report of the full week before at.
-func (pl *pipeline) runReport(ctx context.Context, at time.Time, mail bool) {
+// runReport writes (and mails) the report of the full week before at (or,
+// with current, of the week in progress: the demo's first report).
+func (pl *pipeline) runReport(ctx context.Context, at time.Time, mail, current bool) {
 	cfg, s := pl.p.cfg, pl.p.site
 	start, end := report.PreviousWeek(at, cfg.Location())
+	if current {
+		start, end = report.WeekOf(at, cfg.Location())
+	}
 	in, err := ReportInput(ctx, pl.st, s, pl.ring, start, end, cfg.Report.IP || cfg.Web.IP)
 	if err != nil {
 		pl.d.log.Error("weekly report: gather", "err", err)
@@ -222,7 +231,26 @@ func (pl *pipeline) startReports(ctx context.Context) func() {
 		return func() {}
 	}
 	c := cron.New(cron.WithLocation(cfg.Location()))
-	c.Schedule(sched, cron.FuncJob(func() { pl.runReport(ctx, pl.Now(), true) }))
+	c.Schedule(sched, cron.FuncJob(func() { pl.runReport(ctx, pl.Now(), true, false) }))
 	c.Start()
 	return func() { <-c.Stop().Done() }
+}
+
+// SendReport queues the report to the contractor list and delivers what is
+// due on the mail channel now (for `risewatch report --send`).
+func SendReport(ctx context.Context, st *store.Store, s *site.Site, cfg *Config, rf ReportFiles, log *slog.Logger) (int, error) {
+	if cfg.Notify == nil || len(cfg.Report.To) == 0 {
+		return 0, errors.New("report: --send needs daemon.notify and daemon.report.to in the site file")
+	}
+	var snd notify.Sender = &notify.SMTPSender{Cfg: cfg.Notify.SMTP}
+	if cfg.MailSpool != "" {
+		snd = SpoolSender{Dir: cfg.MailSpool}
+	}
+	nc := *cfg.Notify
+	nc.Currency = s.Energy.Currency
+	n := notify.New(nc, s.Name, txQueue{st}, snd, nil, log)
+	if err := MailReport(ctx, n, s.Name, cfg.Report.To, rf); err != nil {
+		return 0, err
+	}
+	return n.Deliver(ctx)
 }

@@ -57,6 +57,9 @@ func (s SpoolSender) Send(ctx context.Context, m notify.Mail) error {
 		err = cerr
 	}
 	if err == nil {
+		err = os.Chmod(tmp.Name(), 0o644)
+	}
+	if err == nil {
 		err = os.Rename(tmp.Name(), filepath.Join(s.Dir, name))
 	}
 	if err != nil {

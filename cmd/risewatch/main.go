@@ -31,6 +31,7 @@ func commands() map[string]command {
 		"discover": {"discover BACnet/IP devices and write a config skeleton", runDiscover},
 		"report":   {"write the weekly contractor report", runReport},
 		"assess":   {"low-temperature hot-water readiness of every coil on a loop", runAssess},
+		"ack":      {"acknowledge or snooze a fault so its notifications stop", runAck},
 	}
 }
 
