@@ -137,13 +137,13 @@ func (f *Feeder) Samples(st *sim.Step, out []collector.Sample) []collector.Sampl
 		l := &st.Loops[f.termLoop[i]]
 		s := collector.Sample{Terminal: i, At: st.At, AirflowM3s: t.AirflowM3s, AirflowSetM3s: t.AirflowSetM3s,
 			DischargeC: t.DischargeC, SupplyC: a.SupplyC, ValveFrac: t.ValveCmd, HotWaterC: l.SupplyC,
-			ZoneC: t.ZoneC, ZoneSetC: t.ZoneSetC, PlantOn: l.PlantOn, FanOn: a.FanOn, Occupied: a.Occupied}
+			ZoneC: t.ZoneC, ZoneSetC: t.ZoneSetC, OutdoorC: st.OutdoorC, PlantOn: l.PlantOn, FanOn: a.FanOn, Occupied: a.Occupied}
 		for _, c := range []struct {
 			v    float64
 			flag collector.Flags
 		}{{s.AirflowM3s, collector.FlagAirflow}, {s.DischargeC, collector.FlagDischarge}, {s.SupplyC, collector.FlagSupply},
 			{s.ValveFrac, collector.FlagValve}, {s.HotWaterC, collector.FlagHotWater}, {s.ZoneC, collector.FlagZone},
-			{s.ZoneSetC, collector.FlagZoneSet}, {s.AirflowSetM3s, collector.FlagAirflowSet}} {
+			{s.ZoneSetC, collector.FlagZoneSet}, {s.AirflowSetM3s, collector.FlagAirflowSet}, {s.OutdoorC, collector.FlagOutdoor}} {
 			if math.IsNaN(c.v) || math.IsInf(c.v, 0) {
 				s.Flags |= c.flag
 			}

@@ -187,9 +187,20 @@ func (e *Evaluator) removeFault(f *fault) {
 	delete(e.byID, f.id)
 }
 
+// LoopExplainLead is how long before a loop fault's condition first held a
+// terminal fault may have started and still be explained (closed) by it. A
+// loop's supply can run low for most of a day before enough boxes saturate
+// to open the loop fault (a weekend or a mild morning carries too little
+// load), so the boxes' own shortfall faults from that day are the loop's;
+// a terminal fault that was already raised before then has a cause of its
+// own (a fouled coil stays fouled while the loop is cold) and stays open
+// [engineering inference].
+const LoopExplainLead = 24 * time.Hour
+
 // explainKinds records that fault f (opened by c) explains c.suppress kinds
 // and closes faults of those kinds already raised: on the same terminal, or
-// on every terminal of a loop.
+// on every terminal of a loop (there only those that started at most
+// LoopExplainLead before the loop fault's condition).
 func (e *Evaluator) explainKinds(ek EntityKind, idx int, c *compiled, f *fault, at time.Time, out []Transition) []Transition {
 	var targets []int
 	if ek == EntityLoop {
@@ -206,6 +217,11 @@ func (e *Evaluator) explainKinds(ek EntityKind, idx int, c *compiled, f *fault, 
 			}
 			g := e.faults[faultKey{EntityTerminal, t, fdd.Kind(k)}]
 			if g == nil {
+				continue
+			}
+			if ek == EntityLoop && g.since.Before(f.since.Add(-LoopExplainLead)) {
+				// Raised before the loop went short: the loop did not
+				// cause it, and the box's own fault stays open.
 				continue
 			}
 			trks := e.trackers(EntityTerminal, t)

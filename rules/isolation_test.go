@@ -1,6 +1,7 @@
 package rules
 
 import (
+	"fmt"
 	"math"
 	"strings"
 	"testing"
@@ -35,7 +36,7 @@ func TestColdLoopExplainsTerminalShortfalls(t *testing.T) {
 	const n = 60
 	e := mustEval(t, testSite(1, n))
 	var trs []Transition
-	for i := 0; i < 120; i++ {
+	for i := 0; i < 240; i++ {
 		ev := make([]fdd.Evidence, n)
 		for k := range ev {
 			ev[k] = lowDAT(k, i)
@@ -47,7 +48,7 @@ func TestColdLoopExplainsTerminalShortfalls(t *testing.T) {
 		switch {
 		case tr.FaultID == "HW-1/cold-loop" && tr.To == StateOpen:
 			loopOpen++
-			if tr.At != minute(30) || tr.EntityKind != EntityLoop || !strings.Contains(tr.Message, "of 60 heating boxes") {
+			if tr.At != minute(120) || tr.EntityKind != EntityLoop || !strings.Contains(tr.Message, "of 60 heating boxes") {
 				t.Errorf("loop fault: %+v", tr)
 			}
 		case tr.Kind == fdd.KindLowDischarge && tr.To == StateOpen:
@@ -67,18 +68,18 @@ func TestColdLoopExplainsTerminalShortfalls(t *testing.T) {
 	}
 	// Loop recovers; the boxes still short now open their own faults.
 	trs = trs[:0]
-	for i := 120; i < 300; i++ {
+	for i := 240; i < 420; i++ {
 		ev := make([]fdd.Evidence, n)
 		for k := range ev {
 			ev[k] = lowDAT(k, i)
 		}
 		trs = e.Step(ev, []fdd.LoopEvidence{coldLoop(i, false)}, trs)
 	}
-	if tr, ok := firstOf(trs, "HW-1/cold-loop", StateClear); !ok || tr.At != minute(180) {
-		t.Fatalf("loop clear %v at %v, want minute 180 (1 h clear persistence)", ok, tr.At)
+	if tr, ok := firstOf(trs, "HW-1/cold-loop", StateClear); !ok || tr.At != minute(300) {
+		t.Fatalf("loop clear %v at %v, want minute 300 (1 h clear persistence)", ok, tr.At)
 	}
-	if tr, ok := firstOf(trs, "VAV-1-01/low-discharge", StateOpen); !ok || tr.At != minute(190) {
-		t.Fatalf("terminal re-open %v at %v, want minute 190", ok, tr.At)
+	if tr, ok := firstOf(trs, "VAV-1-01/low-discharge", StateOpen); !ok || tr.At != minute(310) {
+		t.Fatalf("terminal re-open %v at %v, want minute 310", ok, tr.At)
 	}
 }
 
@@ -137,5 +138,37 @@ func TestLeakImpactAndMessage(t *testing.T) {
 	}
 	if tr.Evidence.LeakFlowFrac != 0.06 || tr.Evidence.Extra["wasted_heat_w"] != 470 || len(tr.Causes) == 0 || len(tr.Checks) == 0 {
 		t.Errorf("evidence %+v causes %d checks %d", tr.Evidence, len(tr.Causes), len(tr.Checks))
+	}
+}
+
+// A box whose own fault was raised days before its loop went short keeps
+// it open (its cause is its own); a box that fell short the same morning
+// is explained by the loop fault (LoopExplainLead).
+func TestColdLoopKeepsOlderTerminalFaults(t *testing.T) {
+	const n = 6
+	e := mustEval(t, testSite(1, n))
+	var trs []Transition
+	start := 3 * 24 * 60 // the loop goes short on day 3
+	for i := 0; i < start+180; i++ {
+		ev := make([]fdd.Evidence, n)
+		for k := range ev {
+			ev[k] = quiet(k, minute(i))
+			if k == 0 || i >= start-60 {
+				ev[k] = lowDAT(k, i) // box 1 short since day 0, the others since an hour before the loop
+			}
+		}
+		trs = e.Step(ev, []fdd.LoopEvidence{coldLoop(i, i >= start)}, trs)
+	}
+	if _, ok := firstOf(trs, "HW-1/cold-loop", StateOpen); !ok {
+		t.Fatal("loop fault did not open")
+	}
+	if tr, ok := firstOf(trs, "VAV-1-01/low-discharge", StateClear); ok {
+		t.Errorf("fault raised three days before the loop went short was closed: %+v", tr)
+	}
+	for k := 2; k <= n; k++ {
+		id := fmt.Sprintf("VAV-1-%02d/low-discharge", k)
+		if tr, ok := firstOf(trs, id, StateClear); !ok || tr.ExplainedBy != "HW-1/cold-loop" {
+			t.Errorf("%s: explained %v (%q), want closed as explained by HW-1/cold-loop", id, ok, tr.ExplainedBy)
+		}
 	}
 }
