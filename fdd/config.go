@@ -121,6 +121,17 @@ type Config struct {
 	LearnMinPoints int
 	LearnMinHours  float64
 	BaselineBand   float64
+	// BaselineUABand is the tighter band on a learned UA factor: the rated
+	// calibration (coilmodel.Calibrate at the submittal point) fixes UA within
+	// the scatter of the air-side correlation and the installed-versus-rated
+	// difference, about ±10–15 % [I]; a learned factor outside
+	// [1/BaselineUABand, BaselineUABand] is a coil that is not as rated (fouled
+	// from the start, wrong coil) and is reported, not absorbed. Default 1.25.
+	BaselineUABand float64
+	// ZoneUnmetK: a zone this far below its heating setpoint has unmet
+	// heating demand (a saturated box on a cold loop counts toward the
+	// cold-loop finding only then, when zone points exist) [I]. Default 0.5 K.
+	ZoneUnmetK float64
 
 	// ScoreThreshold: the minimum signature score for Best. Default 0.5.
 	ScoreThreshold float64
@@ -166,6 +177,8 @@ func DefaultConfig() Config {
 		LearnMinPoints:      48,
 		LearnMinHours:       24,
 		BaselineBand:        1.6,
+		BaselineUABand:      1.25,
+		ZoneUnmetK:          0.5,
 		ScoreThreshold:      0.5,
 		HumidityRatio:       0.008,
 		ModelEvery:          15,
@@ -223,6 +236,8 @@ func (c Config) withDefaults() (Config, error) {
 	}
 	fillF(&c.LearnMinHours, d.LearnMinHours)
 	fillF(&c.BaselineBand, d.BaselineBand)
+	fillF(&c.BaselineUABand, d.BaselineUABand)
+	fillF(&c.ZoneUnmetK, d.ZoneUnmetK)
 	fillF(&c.ScoreThreshold, d.ScoreThreshold)
 	fillF(&c.HumidityRatio, d.HumidityRatio)
 	if c.ModelEvery == 0 {
@@ -237,8 +252,8 @@ func (c Config) withDefaults() (Config, error) {
 		return c, fmt.Errorf("fdd config: closed valve fraction %g must be in [0, 0.5)", c.ClosedValveFrac)
 	case c.EWMALambda <= 0 || c.EWMALambda > 1:
 		return c, fmt.Errorf("fdd config: EWMA lambda %g must be in (0, 1]", c.EWMALambda)
-	case c.BaselineBand <= 1:
-		return c, fmt.Errorf("fdd config: baseline band %g must be > 1", c.BaselineBand)
+	case c.BaselineBand <= 1 || c.BaselineUABand <= 1:
+		return c, fmt.Errorf("fdd config: baseline bands %g and %g must be > 1", c.BaselineBand, c.BaselineUABand)
 	case c.ChartBlock < 1 || c.ModelEvery < 1:
 		return c, fmt.Errorf("fdd config: chart block and model cadence must be ≥ 1")
 	}

@@ -122,6 +122,7 @@ func (en *Engine) initTerminal(i int, pf physicsFactory) {
 	st.hw.init(en.cfg.SteadyWindow)
 	st.dat.init(max(en.cfg.SteadyWindow/2, 2))
 	st.leakFlow = -1
+	st.perfHighLast = nan
 	st.base = ratedBaseline(t.ID)
 	if en.cfg.LearnMinPoints == 0 {
 		st.learn.done = true
@@ -172,6 +173,7 @@ func (en *Engine) applyBaseline(i int, b Baseline) error {
 	st.designFlow = ts.flow.design() * b.FlowFactor
 	st.eval = evaluation{}
 	st.fac, st.facOut = factorSums{}, factorOut{}
+	st.cmp = faultCompare{}
 	st.chart = chart{}
 	st.resp = response{}
 	st.respStats = st.resp.stats()
@@ -189,10 +191,12 @@ func (en *Engine) finishLearning(st *termState, t *termStatic) {
 		return
 	}
 	b.Terminal = t.id
-	band := en.cfg.BaselineBand
-	if b.UAFactor > band || b.UAFactor < 1/band || b.FlowFactor > band || b.FlowFactor < 1/band {
+	band, uaBand := en.cfg.BaselineBand, en.cfg.BaselineUABand
+	if b.UAFactor > uaBand || b.UAFactor < 1/uaBand || b.FlowFactor > band || b.FlowFactor < 1/band {
 		rej := st.base
-		rej.Rejected = fmt.Sprintf("learned UA factor %.2f, flow factor %.2f outside 1/%.2g..%.2g of the rated model", b.UAFactor, b.FlowFactor, band, band)
+		rej.Rejected = fmt.Sprintf("learned UA factor %.2f (band 1/%.3g..%.3g), flow factor %.2f (band 1/%.2g..%.2g) against the rated model",
+			b.UAFactor, uaBand, uaBand, b.FlowFactor, band, band)
+		st.learnedUA = b.UAFactor
 		rej.Points, rej.From, rej.To = b.Points, b.From, b.To
 		st.base = rej
 		return

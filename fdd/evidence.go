@@ -94,6 +94,16 @@ type Evidence struct {
 	PerfAvg         float64 `rule:"perf_index_avg"`    // smoothed (30 min) performance index of steady heating samples
 	PerfHigh        float64 `rule:"perf_high"`         // observed / expected rise at high (>70 %) command over the response window
 	PerfLow         float64 `rule:"perf_low"`          // observed / expected rise at low/mid (10-50 %) command over the response window
+
+	// Added by the fdd engine, second round (additive).
+	ClosedOffsetK      float64 `rule:"closed_offset_k"`       // intercept a of the closed-valve fit rise = a + s·h (sensor offset with the plant on)
+	ClosedOffsetSigmaK float64 `rule:"closed_offset_sigma_k"` // 1-sigma of ClosedOffsetK
+	ClosedHeatK        float64 `rule:"closed_heat_k"`         // mean heat-like part s·h̄ of the closed-valve rise (scales as 1/V and with T_hw)
+	ClosedCapacityFrac float64 `rule:"closed_capacity_frac"`  // closed-valve rise / full-open expected rise at the same conditions
+	PerfHighLast       float64 `rule:"perf_high_last"`        // last PerfHigh seen (kept until the command is high again)
+	StarvedShare       float64 `rule:"starved_share"`         // 0..1: how much better a series restriction explains the shortfall than a UA loss
+	RejectedUAFactor   float64 `rule:"rejected_ua_factor"`    // learned UA factor rejected as unlike the rated coil (NaN if none)
+	ZoneDeficitK       float64 `rule:"zone_deficit_k"`        // smoothed heating setpoint − zone temperature (NaN without zone points)
 }
 
 // LoopEvidence is the running evidence for one hot-water loop at one step.

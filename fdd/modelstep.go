@@ -49,6 +49,7 @@ func (en *Engine) modelSample(st *termState, t *termStatic, in inputs, eat, obs 
 		st.chart.cusumLow = 1e6
 	}
 	en.updateFactors(st, ev.dLU, ev.dM*mw, res, s2)
+	st.cmp.add(res, ev.dLU, ev.dM*mw, restrictionSens(ev.dM, mw, st.designFlow), 1/s2, en.facAlpha)
 	if e.Learning {
 		st.learn.add(learnPoint{at: e.At, v: in.v, eat: eat, u: in.u, thw: in.hw, obsRise: obs})
 		if st.learn.ready(cfg.LearnMinPoints, time.Duration(cfg.LearnMinHours*float64(time.Hour)), e.At) {
@@ -106,25 +107,67 @@ func (en *Engine) updateFactors(st *termState, gU, gF, res, s2 float64) {
 	st.facOut = factorOut{ua: ua, uaSig: ua * math.Sqrt(cu), fl: fl, flSig: fl * math.Sqrt(cf)}
 }
 
-// leakFlow estimates, every few steps, the water flow that explains the
-// closed-valve rise by inverting the coil model (bisection on water flow),
-// as a fraction of the full-open installed flow.
+// leakFlow runs, every few steps of steady closed-valve operation with heat
+// available, the closed-valve evidence that needs the coil model:
+//
+//   - the reference leak flow that explains the raw rise (bisection on water
+//     flow), smoothed; it only shapes the closed-valve fit (closedfit.go);
+//   - one point of the closed-valve fit, rise = a + s·h, with h the model
+//     rise at the reference leak flow;
+//   - the closed-valve rise as a fraction of the full-open rise at the same
+//     airflow and temperatures (a reversed valve heats at 0 % command with
+//     close to full-open capacity);
+//   - the leak flow that explains the rise left after the sensor offset, as
+//     a fraction of the full-open installed flow.
+//
+// The rise is the DAT mean over the last half window at the current
+// airflow (the rise scales about as 1/V, so a smoothed rise must not be
+// paired with today's airflow).
 func (en *Engine) leakFlow(st *termState, t *termStatic, in inputs, eat float64) {
 	st.leakAge++
 	if t.modelErr != nil || st.leakAge < leakInvertEvery {
 		return
 	}
 	st.leakAge = 0
-	// Invert at the current steady rise and airflow (the rise scales about
-	// as 1/V, so a smoothed rise must not be paired with today's airflow).
 	rise := st.dat.mean() - eat
-	if off := st.offset.value(); finite(off) && off > 0 {
-		rise -= off
+	design := t.flow.design() * st.flowScale
+	op := coilOp(in.v, eat, design, in.hw)
+	full := st.r.ExpectedRise(op)
+	if full > minExpectedRiseK {
+		st.closedCap.add(math.Max(0, rise)/full, 0.3)
 	}
-	frac := 0.0
+	// Reference leak flow from the raw rise (no offset removed: the fit's
+	// shape must not depend on its own result).
+	ref := leakRefMin * design
 	if rise > 0.3 {
-		design := t.flow.design() * st.flowScale
 		m := invertFlow(st.r, in.v, eat, in.hw, rise, design)
+		if !finite(m) {
+			m = design
+		}
+		ref = math.Max(ref, m)
+	}
+	// Slow: h must follow the operating point, not the rise it is fitted
+	// to (a reference tracking each rise would make h ≈ rise and hide an
+	// offset in the slope).
+	if st.leakRef <= 0 {
+		st.leakRef = ref
+	} else {
+		st.leakRef += (ref - st.leakRef) / closedFitTau
+	}
+	// The fit takes only samples at zero command held for the closed time:
+	// between 0 and the closed threshold a valve with a small dead band may
+	// already pass water, and that heat follows the command, not the
+	// operating point.
+	if st.zeroRun >= en.closedSteps {
+		op.WaterFlowM3s = st.leakRef
+		st.closed.add(st.r.ExpectedRise(op), rise)
+	}
+
+	heat := rise
+	heat -= en.offsetUsed(st)
+	frac := 0.0
+	if heat > 0.3 {
+		m := invertFlow(st.r, in.v, eat, in.hw, heat, design)
 		frac = 1 // more than the open valve gives: reported as full flow
 		if finite(m) {
 			frac = m / design
@@ -137,10 +180,38 @@ func (en *Engine) leakFlow(st *termState, t *termStatic, in inputs, eat float64)
 	}
 }
 
+// leakRefMin is the smallest reference leak flow of the closed-valve fit, as
+// a fraction of design flow: it keeps the shape h defined when the closed
+// rise is near zero [I].
+const leakRefMin = 0.005
+
+// offsetUsed is the sensor offset to take off a closed-valve rise: the
+// plant-off offset when one was measured, else the closed-valve fit's
+// intercept when it is identified.
+func (en *Engine) offsetUsed(st *termState) float64 {
+	if off := st.offset.value(); finite(off) {
+		return off
+	}
+	if a, sig, _, ok := st.closed.estimate(en.cfg.Accuracy.ModelFrac); ok && sig <= closedFitSigmaMax {
+		return a
+	}
+	return 0
+}
+
 // copyRunning copies the running statistics into e.
 func (en *Engine) copyRunning(st *termState, e *Evidence) {
 	e.LeakRiseK = st.leak.value()
 	e.OffsetK = st.offset.value()
+	if a, sig, heat, ok := st.closed.estimate(en.cfg.Accuracy.ModelFrac); ok {
+		e.ClosedOffsetK, e.ClosedOffsetSigmaK, e.ClosedHeatK = a, sig, heat
+	}
+	e.ClosedCapacityFrac = st.closedCap.value()
+	e.PerfHighLast = st.perfHighLast
+	e.StarvedShare = st.cmp.share()
+	if st.learnedUA > 0 {
+		e.RejectedUAFactor = st.learnedUA
+	}
+	e.ZoneDeficitK = st.zoneDef.value()
 	if st.leak.ok && st.leakFlowSet() {
 		e.LeakFlowFrac = st.leakFlow
 	}
@@ -156,7 +227,11 @@ func (en *Engine) copyRunning(st *termState, e *Evidence) {
 	}
 	if st.perfAge < perfExpireSteps && st.designPerf.ok {
 		e.DesignPerfIndex = st.designPerf.v
-		e.LoopShort = st.saturated && st.designPerf.v < loopShortPerf
+		// Saturated now, short at the design temperature, and (when zone
+		// points exist) the zone below its heating setpoint: a reset loop
+		// whose boxes still meet their zones is not a cold loop.
+		unmet := !st.zoneDef.ok || st.zoneDef.v > en.cfg.ZoneUnmetK
+		e.LoopShort = st.saturated && e.ValveFrac >= saturatedFrac && unmet && st.designPerf.v < loopShortPerf
 	}
 }
 
@@ -176,9 +251,7 @@ func (en *Engine) copyResponse(st *termState, e *Evidence) {
 func (en *Engine) energy(st *termState, in inputs, eat float64, e *Evidence) {
 	if st.closedRun >= en.closedSteps && in.plantOn && finite(e.LeakRiseK) && st.dat.full() {
 		ex := st.dat.mean() - eat
-		if finite(e.OffsetK) && e.OffsetK > 0 {
-			ex -= e.OffsetK
-		}
+		ex -= en.offsetUsed(st)
 		if ex > 0 {
 			e.WastedHeatW = en.air.heatW(in.v, ex, in.dat)
 			e.AddedCoolingW = e.WastedHeatW

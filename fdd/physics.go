@@ -206,4 +206,9 @@ func invertFlow(r riser, v, eat, thw, target, mMax float64) float64 {
 	return 0.5 * (lo + hi)
 }
 
+// coilOp is the model operating point at BAS airflow (standard air).
+func coilOp(v, eat, mw, thw float64) coilmodel.Operating {
+	return coilmodel.Operating{AirflowM3s: v, EnteringAirC: eat, WaterFlowM3s: mw, EnteringWaterC: thw}
+}
+
 func finite(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }

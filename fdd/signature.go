@@ -29,6 +29,8 @@ const (
 	respExpSpanMinK            = 2.0      // model rise span needed to judge the response
 	respRatioLo, respRatioHi   = 0.2, 0.5 // observed/expected span: unresponsive below
 	revCorrLo, revCorrHi       = 0.3, 0.6 // negative correlation for reversed action
+	revRatioLo, revRatioHi     = 0.3, 0.6 // observed/expected span below −0.3…−0.6: reversed
+	revCapLo, revCapHi         = 0.4, 0.7 // closed-valve rise / full-open rise for a reversed valve
 	noHeatPerfLo, noHeatPerfHi = 0.1, 0.25
 	capLossLo, capLossHi       = 0.12, 0.25 // 1 − performance at high command
 	cusumLo, cusumHi           = 4.0, 8.0   // CUSUM decision interval h = 4–5σ for k = 0.5 (Montgomery) [P], ramped to 8
@@ -42,20 +44,39 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 	cfg := &en.cfg
 	sc := &e.Scores
 
-	// Response to command: unresponsive (stuck) or reversed.
+	// Response to command: unresponsive (stuck) or reversed. A reversed
+	// valve delivers at low command what a healthy one delivers at high
+	// command: the observed span is the expected span with the sign turned.
+	// A stuck valve's span is near zero (only the 1/V effect of the airflow
+	// changing with the command remains).
 	var unresp, rev float64
 	if e.ValveSpan >= respValveSpanMin && e.ExpectedSpanK >= respExpSpanMinK && finite(e.RiseSpanK) {
-		unresp = 1 - ramp(e.RiseSpanK/e.ExpectedSpanK, respRatioLo, respRatioHi)
-		rev = ramp(-e.RiseValveCorr, revCorrLo, revCorrHi) * ramp(-e.RiseSpanK, 0.5, 2)
-		unresp *= 1 - rev
+		ratio := e.RiseSpanK / e.ExpectedSpanK
+		unresp = 1 - ramp(ratio, respRatioLo, respRatioHi)
+		rev = ramp(-e.RiseValveCorr, revCorrLo, revCorrHi) * ramp(-ratio, revRatioLo, revRatioHi)
+	}
+	// Both ends of the command range: heat at 0 % close to the full-open
+	// capacity and no heat at high command is what only a reversed valve
+	// (or reversed signal) does; a valve stuck open also heats at high command.
+	if finite(e.ClosedCapacityFrac) && finite(e.PerfHighLast) {
+		rev = math.Max(rev, ramp(e.ClosedCapacityFrac, revCapLo, revCapHi)*(1-ramp(e.PerfHighLast, noHeatPerfLo, noHeatPerfHi)))
+	}
+	unresp *= 1 - rev
+
+	// Sensor offset: measured with the plant off, else the intercept of the
+	// closed-valve fit when it is identified.
+	off := e.OffsetK
+	if !finite(off) && finite(e.ClosedOffsetK) && e.ClosedOffsetSigmaK <= closedFitSigmaMax {
+		off = e.ClosedOffsetK
 	}
 
-	// Leak (Guideline 36: closed ≥ 15 min, DAT above SAT by 3 K / 5 °F).
+	// Leak (Guideline 36: closed ≥ 15 min, DAT above SAT by 3 K / 5 °F),
+	// after the sensor offset.
 	var leak, stuckOpen float64
 	if e.ClosedMinutes >= cfg.ClosedMinutes && e.PlantOn && finite(e.LeakRiseK) {
 		ex := e.LeakRiseK
-		if finite(e.OffsetK) && e.OffsetK > 0 {
-			ex -= e.OffsetK
+		if finite(off) {
+			ex -= off
 		}
 		s := ramp(ex, 0.5*cfg.LeakThresholdK, cfg.LeakThresholdK)
 		open := ramp(e.LeakFlowFrac, stuckOpenLo, stuckOpenHi)
@@ -77,7 +98,10 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 	}
 	// Which parameter explains the loss: UA (fouled) or water flow (starved).
 	fouledShare, starvedShare := 0.5, 0.5
-	if capLoss > 0 && finite(e.UAFactor) && finite(e.FlowFactor) {
+	if capLoss > 0 && finite(e.StarvedShare) {
+		starvedShare = e.StarvedShare
+		fouledShare = 1 - starvedShare
+	} else if capLoss > 0 && finite(e.UAFactor) && finite(e.FlowFactor) {
 		du := math.Max(0, -math.Log(e.UAFactor))
 		df := math.Max(0, -math.Log(e.FlowFactor))
 		if du+df > 1e-6 {
@@ -94,7 +118,7 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 	sc[KindReversedValve] = rev
 	sc[KindHunting] = ramp(e.ReversalsPerHour, huntLo, huntHi)
 	neg := ramp(-e.LeakRiseK, offsetLoK, offsetHiK) // DAT below SAT with the fan on: impossible
-	sc[KindDATOffset] = math.Max(ramp(math.Abs(e.OffsetK), offsetLoK, offsetHiK), neg)
+	sc[KindDATOffset] = math.Max(ramp(math.Abs(off), offsetLoK, offsetHiK), neg)
 	if finite(e.DATSetC) && e.PlantOn {
 		// Guideline 36 §5.6.6 low-DAT alarm: ≥ 8 K (15 °F) below setpoint.
 		sc[KindLowDischarge] = ramp(e.DATSetC-e.DischargeC, 0.5*cfg.LowDischargeK, cfg.LowDischargeK)

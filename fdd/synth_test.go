@@ -224,7 +224,8 @@ func (g *gen) sample(i int, at time.Time, phase int) collector.Sample {
 		v = 0
 	}
 	return collector.Sample{Terminal: i, At: at, AirflowM3s: v, AirflowSetM3s: v, DischargeC: dat, SupplyC: sat,
-		ValveFrac: u, HotWaterC: hwMeas, PlantOn: plant, FanOn: fan, Occupied: fan}
+		ValveFrac: u, HotWaterC: hwMeas, PlantOn: plant, FanOn: fan, Occupied: fan,
+		Flags: collector.FlagZone | collector.FlagZoneSet} // the generator has no zone
 }
 
 // runResult: per terminal, how often each Kind was Best (fan on), when the

@@ -45,6 +45,7 @@ type termState struct {
 	plantRun   int // steps since the plant last changed state
 	lastPlant  bool
 	closedRun  int
+	zeroRun    int // consecutive steps at zero command (≤ zeroCommandFrac)
 	eval       evaluation
 	evalSteps  int // full model evaluations (diagnostic)
 	leak       ewma
@@ -63,6 +64,15 @@ type termState struct {
 	designPerf ewma
 	perfAge    int // steps since the last heating-steady sample
 	perf       ewma
+
+	closed       closedFit // closed-valve rise = a + s·h (offset versus heat)
+	closedCap    ewma      // closed-valve rise / full-open rise
+	leakRef      float64   // reference leak flow of the closed fit, m³/s (0 until set)
+	perfHighLast float64   // last valid high-command performance (NaN until seen)
+	cmp          faultCompare
+	learnedUA    float64 // learned UA factor that was rejected (0 if none)
+	zoneDef      ewma    // heating setpoint − zone temperature
+	satAge       int     // heating-steady steps since the valve was last saturated
 }
 
 // factorSums are the decayed normal equations of the running apparent
@@ -73,14 +83,15 @@ type factorOut struct{ ua, uaSig, fl, flSig float64 }
 
 // Hysteresis and cadence constants [I].
 const (
-	heatingMinFrac   = 0.10 // command above which a sample is "heating" for UA/flow evidence
-	saturatedFrac    = 0.90 // valve counts as saturated for the cold-loop count
-	loopShortPerf    = 0.80 // design performance index below which a saturated box is short
-	perfExpireSteps  = 120  // recent heating evidence expires after this many steps without any
-	leakInvertEvery  = 30   // steps between leak-flow inversions
-	respStatsEvery   = 16   // steps between response-bin statistics
-	minExpectedRiseK = 1.0  // expected rise below which the performance index is not formed
-	offsetNoHeatK    = 3.0  // HW within this of the entering air: no heat available
+	heatingMinFrac   = 0.10  // command above which a sample is "heating" for UA/flow evidence
+	saturatedFrac    = 0.90  // valve counts as saturated for the cold-loop count
+	loopShortPerf    = 0.80  // design performance index below which a saturated box is short
+	perfExpireSteps  = 120   // recent heating evidence expires after this many steps without any
+	leakInvertEvery  = 30    // steps between leak-flow inversions
+	respStatsEvery   = 16    // steps between response-bin statistics
+	minExpectedRiseK = 1.0   // expected rise below which the performance index is not formed
+	offsetNoHeatK    = 3.0   // HW within this of the entering air: no heat available
+	zeroCommandFrac  = 0.005 // command counted as exactly zero (valve on its seat) for the closed-valve fit
 )
 
 // nan is a quiet NaN.
@@ -143,10 +154,18 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	} else {
 		st.closedRun = 0
 	}
+	if in.u <= zeroCommandFrac {
+		st.zeroRun++
+	} else {
+		st.zeroRun = 0
+	}
 	e.ClosedMinutes = float64(st.closedRun) * en.minPerStep
 	st.rev.add(in.u, cfg.HuntingDeadband, en.revAlpha)
 	e.ReversalsPerHour = st.rev.rate * en.stepsPerHour
 
+	if s.Flags&(collector.FlagZone|collector.FlagZoneSet) == 0 && finite(s.ZoneC) && finite(s.ZoneSetC) {
+		st.zoneDef.add(s.ZoneSetC-s.ZoneC, en.leakAlpha)
+	}
 	eat := in.sat + t.ductGainK
 	obs := in.dat - eat
 	e.ObservedRiseK = obs
@@ -162,6 +181,9 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 		st.resp.decay(en.respDecay)
 		st.respStats = st.resp.stats()
 		st.respAge = 0
+		if finite(st.respStats.perfHigh) {
+			st.perfHighLast = st.respStats.perfHigh
+		}
 	}
 	en.copyResponse(st, e)
 	if st.fanRun < en.startupSteps || st.plantRun < en.startupSteps {
@@ -256,4 +278,6 @@ func setNaN(e *Evidence) {
 	e.CUSUMLowK, e.EWMAResid = nan, nan
 	e.DATMinusSATK, e.LeakSigmaK, e.ExpectedSpanK, e.DesignPerfIndex, e.ZScore, e.LeakFlowM3s = nan, nan, nan, nan, nan, nan
 	e.PerfAvg, e.PerfHigh, e.PerfLow = nan, nan, nan
+	e.ClosedOffsetK, e.ClosedOffsetSigmaK, e.ClosedHeatK, e.ClosedCapacityFrac = nan, nan, nan, nan
+	e.PerfHighLast, e.StarvedShare, e.RejectedUAFactor, e.ZoneDeficitK = nan, nan, nan, nan
 }
