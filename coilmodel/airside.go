@@ -105,6 +105,13 @@ type wang struct {
 	jLo, jHi, fLo, fHi    float64 // j and f at the Re bounds
 	lnReMin, lnReMax      float64
 	geometryOutsideFitted bool
+	// The exponents of both correlations are linear in ln Re and 1/ln Re with
+	// geometry-only coefficients, so ln j = jA + jB·ln Re + jC/ln Re and
+	// ln f = fA + fB·ln Re + fC/ln Re inside the fitted range (collected
+	// from the equations at jf). ljLo … lfHi are ln j and ln f at the bounds.
+	jA, jB, jC             float64
+	fA, fB, fC             float64
+	ljLo, ljHi, lfLo, lfHi float64
 }
 
 func newWang(c Coil, s Surfaces) wang {
@@ -121,8 +128,21 @@ func newWang(c Coil, s Surfaces) wang {
 		f1:      -0.764 + 0.739*pt/pl + 0.177*fp/dc - 0.00758/n,
 		lnReMin: math.Log(wangReMin), lnReMax: math.Log(wangReMax),
 	}
-	w.jLo, w.fLo = w.jf(w.lnReMin)
-	w.jHi, w.fHi = w.jf(w.lnReMax)
+	if n < 1.5 {
+		w.jA = ln0108 + 1.9*w.lnPtPl - 1.084*w.lnFpDc - 0.786*w.lnFpDh - 0.236*w.lnFpPt
+		w.jB = -0.29 - 0.23*w.lnPtPl + 0.126*w.lnFpPt
+	} else {
+		w.jA = ln0086 - 0.042*n - 1.224*w.lnN - 0.083*w.lnFpDc + (-5.735-1.21*w.lnN)*w.lnFpDh - 0.93*w.lnFpPt
+		w.jB = -0.361 + w.p3geo + 1.21*w.lnFpDh
+		w.jC = -0.076*w.plDh142*w.lnN + 0.058*n*w.lnFpDc
+	}
+	w.fA = ln00267 - 15.689*w.lnPtPl + 1.696*w.lnFpDc
+	w.fB = w.f1
+	w.fC = 64.021*w.lnPtPl - 15.695*w.lnFpDc
+	w.ljLo, w.lfLo = w.lnJIn(w.lnReMin), w.lnFIn(w.lnReMin)
+	w.ljHi, w.lfHi = w.lnJIn(w.lnReMax), w.lnFIn(w.lnReMax)
+	w.jLo, w.fLo = math.Exp(w.ljLo), math.Exp(w.lfLo)
+	w.jHi, w.fHi = math.Exp(w.ljHi), math.Exp(w.lfHi)
 	const tol = 1.02 // 2 % slack on the Shah & Sekulić ranges
 	w.geometryOutsideFitted = dc < 6.9e-3/tol || dc > 13.6e-3*tol ||
 		s.HydDiaM < 1.30e-3/tol || s.HydDiaM > 9.37e-3*tol ||
@@ -176,28 +196,46 @@ func (w *wang) fOnly(lnRe float64) float64 {
 	return math.Exp(ln00267 + w.f1*lnRe + f2*w.lnPtPl + f3*w.lnFpDc)
 }
 
+// lnJIn and lnFIn are ln j and ln f inside the fitted range in the collected
+// form (the same values as jOnly and fOnly, which spell the published
+// exponents out).
+func (w *wang) lnJIn(lnRe float64) float64 { return w.jA + w.jB*lnRe + w.jC/lnRe }
+
+func (w *wang) lnFIn(lnRe float64) float64 { return w.fA + w.fB*lnRe + w.fC/lnRe }
+
+// lnJ is ln j at ln Re_Dc, extended beyond the fitted range by the power-law
+// slopes above (a straight line in ln j against ln Re); outside reports the
+// extension.
+func (w *wang) lnJ(lnRe float64) (lj float64, outside bool) {
+	switch {
+	case lnRe < w.lnReMin:
+		return w.ljLo + wangLowReSlope*(lnRe-w.lnReMin), true
+	case lnRe > w.lnReMax:
+		return w.ljHi + wangHighReSlope*(lnRe-w.lnReMax), true
+	}
+	return w.lnJIn(lnRe), false
+}
+
+// lnF is ln f at ln Re_Dc with the same extension.
+func (w *wang) lnF(lnRe float64) float64 {
+	switch {
+	case lnRe < w.lnReMin:
+		return w.lfLo + wangLowReSlope*(lnRe-w.lnReMin)
+	case lnRe > w.lnReMax:
+		return w.lfHi + wangHighReSlope*(lnRe-w.lnReMax)
+	}
+	return w.lnFIn(lnRe)
+}
+
 // colburnJ is the Wang j factor at Re_Dc, extended beyond the fitted range by
 // the power-law slopes above; outside reports the extension.
 func (w *wang) colburnJ(re float64) (j float64, outside bool) {
-	switch {
-	case re < wangReMin:
-		return w.jLo * math.Pow(re/wangReMin, wangLowReSlope), true
-	case re > wangReMax:
-		return w.jHi * math.Pow(re/wangReMax, wangHighReSlope), true
-	}
-	return w.jOnly(math.Log(re)), false
+	lj, outside := w.lnJ(math.Log(re))
+	return math.Exp(lj), outside
 }
 
 // fanning is the Wang friction factor at Re_Dc with the same extension.
-func (w *wang) fanning(re float64) float64 {
-	switch {
-	case re < wangReMin:
-		return w.fLo * math.Pow(re/wangReMin, wangLowReSlope)
-	case re > wangReMax:
-		return w.fHi * math.Pow(re/wangReMax, wangHighReSlope)
-	}
-	return w.fOnly(math.Log(re))
-}
+func (w *wang) fanning(re float64) float64 { return math.Exp(w.lnF(math.Log(re))) }
 
 // SchmidtPhi is the Schmidt (1949) equivalent-circular-fin parameter
 // φ = (Req/r − 1)·[1 + 0.35·ln(Req/r)] for a plate fin on tubes of collar

@@ -22,6 +22,7 @@ func BenchmarkRateFromGeometry(b *testing.B) {
 	c := benchCoil(b)
 	b.ReportAllocs()
 	var sink float64
+	cpu := startCPU()
 	for b.Loop() {
 		r, err := Rate(c, benchOp)
 		if err != nil {
@@ -29,6 +30,7 @@ func BenchmarkRateFromGeometry(b *testing.B) {
 		}
 		sink += r.CapacityW
 	}
+	cpu.report(b)
 	_ = sink
 }
 
@@ -41,10 +43,12 @@ func BenchmarkExpectedRiseCalibrated(b *testing.B) {
 	b.ReportAllocs()
 	var sink float64
 	op := benchOp
+	cpu := startCPU()
 	for i := 0; b.Loop(); i++ {
 		op.WaterFlowM3s = benchOp.WaterFlowM3s * (1 + float64(i&7)*0.01)
 		sink += k.ExpectedRise(op)
 	}
+	cpu.report(b)
 	_ = sink
 }
 

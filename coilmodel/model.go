@@ -23,6 +23,18 @@ type model struct {
 	invAc       float64       // 1/A_c
 	invFlowArea float64       // 1/(circuits·tube flow area)
 	extrap      Extrapolation // geometry-only flags
+
+	// Logarithms and products the pass would otherwise recompute.
+	lnInvAc     float64 // −ln A_c
+	lnDcOverAc  float64 // ln(Dc/A_c): ln Re_Dc = ln ṁ_air + this − ln μ
+	lnFinFactor float64 // ln finFactor (finite only when hasFin)
+	invFF2      float64 // 1/finFactor²
+	hasFin      bool    // finFactor > 0 (a fin parameter φ of zero means η_f = 1)
+	rSeries     float64 // rWall + rFoulW
+	velDiPerQ   float64 // V·Di per m³/s of total water flow
+	invDi       float64
+	lnDOverL    float64
+	hausen23    float64 // (2300·Di/L)^(2/3), Hausen at the laminar limit
 }
 
 func newModel(c Coil) (model, error) {
@@ -45,6 +57,19 @@ func newModel(c Coil) (model, error) {
 	m.rWall = math.Log(c.Tube.OuterDiaM/c.InnerDiaM()) / (2 * math.Pi * c.tubeK() * s.Tubes * c.FaceWidthM)
 	m.rFoulW = c.FoulingWaterM2KW / s.InnerAreaM2
 	m.rFoulA = c.FoulingAirM2KW / s.OuterAreaM2
+	m.lnInvAc = -math.Log(s.MinFlowAreaM2)
+	m.lnDcOverAc = math.Log(m.dc) + m.lnInvAc
+	if m.finFactor > 0 && !math.IsInf(m.finFactor, 0) {
+		m.hasFin = true
+		m.lnFinFactor = math.Log(m.finFactor)
+		m.invFF2 = 1 / (m.finFactor * m.finFactor)
+	}
+	m.rSeries = m.rWall + m.rFoulW
+	m.invDi = 1 / m.path.di
+	m.velDiPerQ = m.invFlowArea * m.path.di
+	m.lnDOverL = math.Log(m.dOverL)
+	g := m.dOverL * ReLaminarMax
+	m.hausen23 = math.Cbrt(g * g)
 	if m.w.geometryOutsideFitted {
 		m.extrap |= ExtrapGeometry
 	}
@@ -59,7 +84,9 @@ type state struct {
 	rise, capW, latC, lwtC    float64
 	ua, ntu, r, p             float64
 	cAir, cWater              float64
-	hAir, etaFin, etaO, reAir float64
+	hAir, etaFin, etaO        float64
+	lnReAir                   float64 // ln Re_Dc (valid when heat)
+	heat                      bool    // a heat-transfer pass ran (both flows positive)
 	hWater, reWater, velWater float64
 	regime                    Regime
 	extrap                    Extrapolation
@@ -92,7 +119,8 @@ func toFlows(op Operating, flowMult float64) flows {
 // two passes: first at the inlet temperatures, then at the mean air and mean
 // water temperatures the first pass predicts (air at (EAT + LAT)/2, water at
 // (EWT + LWT)/2). Energy is conserved exactly within a pass: one cp per stream
-// gives both the capacity and the outlet temperature.
+// gives both the capacity and the outlet temperature. Properties come from
+// the interpolation tables (proptable.go).
 func (m *model) eval(f flows, uaMult float64, st *state) {
 	*st = state{extrap: m.extrap}
 	if !(f.mAir > 0) || !(f.qWater > 0) {
@@ -106,78 +134,93 @@ func (m *model) eval(f flows, uaMult float64, st *state) {
 		st.rise = st.latC - f.eat
 		return
 	}
-	pre := passInputs{
-		g:   f.mAir * m.invAc,
-		vel: f.qWater * m.invFlowArea,
+	lnM := math.Log(f.mAir)
+	lnCp := lnDryAirCp
+	if f.cpAir != DryAirCp {
+		lnCp = math.Log(f.cpAir)
 	}
-	m.pass(f, pre, uaMult, f.eat, f.ewt, st)
-	m.pass(f, pre, uaMult, 0.5*(f.eat+st.latC), 0.5*(f.ewt+st.lwtC), st)
+	velDi := f.qWater * m.velDiPerQ
+	cAir := f.mAir * f.cpAir
+	pre := passInputs{
+		lnGDc:   lnM + m.lnDcOverAc,
+		lnGCp13: lnM + m.lnInvAc + lnCp/3,
+		velDi:   velDi,
+		lnVelDi: math.Log(velDi),
+		cAir:    cAir,
+		invCAir: 1 / cAir,
+		dt:      f.ewt - f.eat,
+	}
+	m.pass(f, &pre, uaMult, f.eat, f.ewt, st)
+	m.pass(f, &pre, uaMult, 0.5*(f.eat+st.latC), 0.5*(f.ewt+st.lwtC), st)
 }
+
+// lnDryAirCp is ln DryAirCp.
+var lnDryAirCp = math.Log(DryAirCp)
 
 // passInputs are the flow quantities that do not change between passes.
 type passInputs struct {
-	g   float64 // air mass flux in the minimum free-flow area, kg/(m²·s)
-	vel float64 // water velocity in one tube, m/s
-}
-
-// airMuPr is AirViscosity(taC) and μ·cp/k with one square root: both are
-// Sutherland laws, so the T^1.5 factors cancel in the Prandtl number.
-func airMuPr(taC, cp float64) (mu, pr float64) {
-	t := taC + 273.15
-	r := t / 273.15
-	mu = 1.716e-5 * r * math.Sqrt(r) * (273.15 + 110.4) / (t + 110.4)
-	// μ/k = (μ0/k0)·[(T0 + Sμ)/(T + Sμ)]·[(T + Sk)/(T0 + Sk)]
-	pr = cp * (1.716e-5 / 0.0241) * (273.15 + 110.4) / (273.15 + 194.4) * (t + 194.4) / (t + 110.4)
-	return mu, pr
+	lnGDc   float64 // ln(G_c·Dc), G_c the air mass flux in A_c
+	lnGCp13 float64 // ln G_c + (1/3)·ln cp
+	velDi   float64 // water velocity in one tube × Di, m²/s
+	lnVelDi float64
+	cAir    float64 // ṁ_air·cp, W/K
+	invCAir float64
+	dt      float64 // EWT − EAT
 }
 
 // pass is one evaluation with air properties at taC and water properties at twC.
-func (m *model) pass(f flows, pre passInputs, uaMult, taC, twC float64, st *state) {
-	// Air side: Wang et al. (2000) j, h = j·G_c·cp/Pr^(2/3); Schmidt fin efficiency.
-	mu, pr := airMuPr(taC, f.cpAir)
-	g := pre.g
-	re := g * m.dc / mu
-	j, outside := m.w.colburnJ(re)
+func (m *model) pass(f flows, pre *passInputs, uaMult, taC, twC float64, st *state) {
+	// Air side: Wang et al. (2000) j, h = j·G_c·cp/Pr^(2/3); Schmidt fin
+	// efficiency η_f = tanh(x)/x, x = m·r·φ = finFactor·√h. With Pr/cp a
+	// function of temperature only (airPrFactor), ln h = ln j + ln G_c +
+	// (1/3)·ln cp − (2/3)·ln(Pr/cp).
+	a := tables.airAt(taC)
+	lnRe := pre.lnGDc - a.lnMu
+	lj, outside := m.w.lnJ(lnRe)
 	if outside {
 		st.extrap |= ExtrapAirRe
 	}
-	h := j * g * f.cpAir / math.Cbrt(pr*pr)
-	x := m.finFactor * math.Sqrt(h)
-	etaF := 1.0
-	if x > 1e-8 {
-		etaF = math.Tanh(x) / x
+	lnH := lj + pre.lnGCp13 - a.a23
+	h, etaF := 0.0, 1.0
+	if m.hasFin {
+		x := exp(0.5*lnH + m.lnFinFactor)
+		h = x * x * m.invFF2
+		etaF = tanhOverX(x)
+	} else {
+		h = exp(lnH)
 	}
 	etaO := 1 - m.afFrac*(1-etaF)
 
 	// Water side: Hausen / Gnielinski / VDI blend.
-	w := waterAt(twC)
-	vel := pre.vel
-	reW := w.rho * vel * m.path.di / w.mu
-	prW := w.mu * w.cp / w.k
-	if prW < 0.5 || prW > 2000 {
+	w := tables.waterAt(twC)
+	reW := w.rhoMu * pre.velDi
+	if w.pr < 0.5 || w.pr > 2000 {
 		st.extrap |= ExtrapWaterPrandtl
 	}
-	nu, regime := NusseltTube(reW, prW, m.dOverL)
-	hw := nu * w.k / m.path.di
+	nu, regime := m.nusseltTube(reW, pre.lnVelDi+w.lnRhoMu, &w)
+	hw := nu * w.k * m.invDi
 
-	// Overall conductance, Jacobi, Engineering Data Book III, Eq. 6.1.7.
-	rTot := (1/(h*m.s.OuterAreaM2)+m.rFoulA)/etaO + m.rWall + m.rFoulW + 1/(hw*m.s.InnerAreaM2)
-	ua := uaMult / rTot
+	// Overall conductance, Jacobi, Engineering Data Book III, Eq. 6.1.7:
+	// 1/UA = (1/(h·A_o) + R_fa/A_o)/η_o + R_wall + R_fw/A_i + 1/(h_w·A_i),
+	// brought over one denominator.
+	hA := h * m.s.OuterAreaM2
+	he := hA * etaO
+	hwA := hw * m.s.InnerAreaM2
+	ua := uaMult * he * hwA / ((1+m.rFoulA*hA)*hwA + m.rSeries*he*hwA + he)
 
-	cAir := f.mAir * f.cpAir
+	cAir := pre.cAir
 	cWater := f.mWater * w.cp
-	ntu := ua / cAir
+	ntu := ua * pre.invCAir
 	r := cAir / cWater
 	p := SerpentineEffectiveness(m.rows, ntu, r)
-	dt := f.ewt - f.eat
-	q := p * cAir * dt
 
-	st.rise = p * dt
+	st.rise = p * pre.dt
 	st.latC = f.eat + st.rise
-	st.capW = q
-	st.lwtC = f.ewt - q/cWater
+	st.capW = st.rise * cAir
+	st.lwtC = f.ewt - st.rise*r
 	st.ua, st.ntu, st.r, st.p = ua, ntu, r, p
 	st.cAir, st.cWater = cAir, cWater
-	st.hAir, st.etaFin, st.etaO, st.reAir = h, etaF, etaO, re
-	st.hWater, st.reWater, st.velWater, st.regime = hw, reW, vel, regime
+	st.hAir, st.etaFin, st.etaO, st.lnReAir = h, etaF, etaO, lnRe
+	st.hWater, st.reWater, st.velWater, st.regime = hw, reW, pre.velDi*m.invDi, regime
+	st.heat = true
 }

@@ -127,3 +127,38 @@ func WaterDropPa(c Coil, flowM3s, waterC float64) (float64, error) {
 	dp, _, _ := c.waterDrop(c.path(), flowM3s, waterAt(waterC))
 	return dp, nil
 }
+
+// Constants of the transition blend's turbulent end (Re = 10⁴): the Petukhov
+// d = 0.790·ln Re − 1.64, f/8 = 1/(8·d²) and √(f/8) = 1/(d·√8).
+const (
+	petukhovD1e4     = 0.790*9.210340371976184 - 1.64 // ln 10⁴ = 9.210340371976184
+	petukhovF8at1e4  = 1 / (8 * petukhovD1e4 * petukhovD1e4)
+	petukhovSq8at1e4 = 1 / (petukhovD1e4 * 2.8284271247461903) // √8 = 2.8284271247461903
+	gnielinskiK      = 12.7 * 2.8284271247461903               // 12.7·√8
+)
+
+// nusseltTube is NusseltTube for the rating pass, with the logarithms and
+// powers it needs passed in (ln Re, Pr^(2/3), ln Pr) and the geometry-only
+// factors taken from the model: the same equations, rearranged so that the
+// turbulent branch needs no transcendental function and the laminar branch
+// one exponential. Gnielinski with the Petukhov f: multiplying through by
+// 8·d² gives Nu = (Re − 1000)·Pr / [8·d² + 12.7·√8·d·(Pr^(2/3) − 1)].
+// Hausen: Gz^(2/3) = exp[(2/3)·(ln(D/L) + ln Re + ln Pr)], and at Re = 2300
+// it is (2300·D/L)^(2/3)·Pr^(2/3).
+func (m *model) nusseltTube(re, lnRe float64, w *waterPoint) (float64, Regime) {
+	switch {
+	case re < ReLaminarMax:
+		gz := m.dOverL * re * w.pr
+		gz23 := exp((2.0 / 3.0) * (m.lnDOverL + lnRe + w.lnPr))
+		return 3.66 + 0.0668*gz/(1+0.04*gz23), Laminar
+	case re <= ReTurbulentMin:
+		g := (re - ReLaminarMax) * (1 / (ReTurbulentMin - ReLaminarMax))
+		gz := m.dOverL * ReLaminarMax * w.pr
+		lam := 3.66 + 0.0668*gz/(1+0.04*m.hausen23*w.pr23)
+		turb := petukhovF8at1e4 * (ReTurbulentMin - 1000) * w.pr / (1 + 12.7*petukhovSq8at1e4*(w.pr23-1))
+		return (1-g)*lam + g*turb, Transitional
+	default:
+		d := 0.790*lnRe - 1.64
+		return (re - 1000) * w.pr / (8*d*d + gnielinskiK*d*(w.pr23-1)), Turbulent
+	}
+}
