@@ -83,3 +83,15 @@ func ReadGroundTruth(path string) ([]Truth, error) {
 	}
 	return out, nil
 }
+
+// Within keeps the truths active at some time in [from, to): a fault that
+// starts after the analysed period was not there to be found.
+func Within(truths []Truth, from, to time.Time) []Truth {
+	var out []Truth
+	for _, t := range truths {
+		if t.Start.Before(to) && t.End.After(from) {
+			out = append(out, t)
+		}
+	}
+	return out
+}

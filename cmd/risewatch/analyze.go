@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"encoding/json"
 	"errors"
 	"flag"
 	"fmt"
@@ -14,6 +15,7 @@ import (
 
 	"risewatch/collector"
 	"risewatch/collector/trendfile"
+	"risewatch/eval"
 	"risewatch/fdd"
 	"risewatch/rules"
 	"risewatch/site"
@@ -35,8 +37,9 @@ func runAnalyze(ctx context.Context, args []string, stdout, stderr io.Writer) er
 	only := fs.String("source", "", "comma-separated trend-file source names to read (default: all trend-file sources)")
 	progress := fs.String("progress", "auto", "progress bar on stderr: auto (when stderr is a terminal), always, never")
 	printRules := fs.Bool("print-rules", false, "print the built-in rules YAML and exit")
+	truthPath := fs.String("eval", "", "ground-truth CSV (entity,fault,severity,start,end; as `risewatch sim` writes): score the faults found against it")
 	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: risewatch analyze --config FILE --from T --to T [--rules FILE] [--json] [--out DIR]")
+		fmt.Fprintln(stderr, "usage: risewatch analyze --config FILE --from T --to T [--rules FILE] [--eval GROUNDTRUTH] [--json] [--out DIR]")
 		fs.PrintDefaults()
 	}
 	if err := fs.Parse(args); err != nil {
@@ -81,6 +84,14 @@ func runAnalyze(ctx context.Context, args []string, stdout, stderr io.Writer) er
 	if err != nil {
 		return err
 	}
+	var scorer *eval.Scorer
+	if *truthPath != "" {
+		truths, err := eval.ReadGroundTruth(*truthPath)
+		if err != nil {
+			return err
+		}
+		scorer = eval.NewScorer(s, eval.Within(truths, from, to), collector.ResampleConfig{}.WithDefaults().Interval)
+	}
 	log := slog.New(slog.NewTextHandler(stderr, &slog.HandlerOptions{Level: slog.LevelWarn}))
 	sources, err := analyzeSources(s, *only, log)
 	if err != nil {
@@ -90,22 +101,48 @@ func runAnalyze(ctx context.Context, args []string, stdout, stderr io.Writer) er
 	if err != nil {
 		return err
 	}
-	res, err := analyzeRun(ctx, s, rs, sources, from.Add(-*warmup), from, to, log, progressBar(show, stderr, from, to))
+	res, err := analyzeRun(ctx, s, rs, sources, from.Add(-*warmup), from, to, log, progressBar(show, stderr, from, to), scorer)
 	if err != nil {
 		return err
 	}
 	rows := rules.Rank(res.transitions, res.open)
+	var score *eval.Result
+	if scorer != nil {
+		r := scorer.Result()
+		score = &r
+	}
 	if *outDir != "" {
-		if err := writeAnalyzeFiles(*outDir, rows, res.transitions); err != nil {
+		if err := writeAnalyzeFiles(*outDir, rows, res.transitions, score); err != nil {
 			return err
 		}
 	}
 	if *asJSON {
-		return rules.WriteJSON(stdout, rows)
+		if score == nil {
+			return rules.WriteJSON(stdout, rows)
+		}
+		// With --eval the output is one object: the ranked faults and
+		// their score against the ground truth.
+		var b strings.Builder
+		if err := rules.WriteJSON(&b, rows); err != nil {
+			return err
+		}
+		enc := json.NewEncoder(stdout)
+		enc.SetIndent("", "  ")
+		return enc.Encode(struct {
+			Faults     json.RawMessage `json:"faults"`
+			Evaluation *eval.Result    `json:"evaluation"`
+		}{json.RawMessage(b.String()), score})
 	}
 	fmt.Fprintf(stdout, "%s: %d terminals, %s to %s, %d steps analysed, %d faults\n\n", s.Name, len(s.Terminals),
 		from.In(loc).Format("2006-01-02 15:04"), to.In(loc).Format("2006-01-02 15:04"), res.steps, len(rows))
-	return rules.WriteTable(stdout, rows, loc)
+	if err := rules.WriteTable(stdout, rows, loc); err != nil {
+		return err
+	}
+	if score != nil {
+		fmt.Fprintf(stdout, "\nAgainst the ground truth in %s:\n\n", *truthPath)
+		return score.WriteTable(stdout)
+	}
+	return nil
 }
 
 type analyzeResult struct {
@@ -115,10 +152,10 @@ type analyzeResult struct {
 }
 
 // analyzeRun feeds samples from start through the engine; from `from` on the
-// evidence also goes through the rules. Samples at or after `to` are drained
-// and ignored.
+// evidence also goes through the rules (and the scorer, when not nil).
+// Samples at or after `to` are drained and ignored.
 func analyzeRun(ctx context.Context, s *site.Site, rs *rules.Ruleset, sources []collector.Source, start, from, to time.Time,
-	log *slog.Logger, tick func(time.Time)) (*analyzeResult, error) {
+	log *slog.Logger, tick func(time.Time), scorer *eval.Scorer) (*analyzeResult, error) {
 	eng, err := fdd.NewEngine(s, fdd.Config{})
 	if err != nil {
 		return nil, err
@@ -155,7 +192,11 @@ func analyzeRun(ctx context.Context, s *site.Site, rs *rules.Ruleset, sources []
 		if at.Before(from) {
 			continue
 		}
+		n := len(res.transitions)
 		res.transitions = ev.Step(evid, eng.Loops(), res.transitions)
+		if scorer != nil {
+			scorer.Observe(at, evid, eng.Loops(), res.transitions[n:])
+		}
 		res.steps++
 		tick(at)
 	}
@@ -202,7 +243,7 @@ func analyzeSources(s *site.Site, only string, log *slog.Logger) ([]collector.So
 	return out, nil
 }
 
-func writeAnalyzeFiles(dir string, rows []rules.FaultRow, trs []rules.Transition) error {
+func writeAnalyzeFiles(dir string, rows []rules.FaultRow, trs []rules.Transition, score *eval.Result) error {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return err
 	}
@@ -224,7 +265,20 @@ func writeAnalyzeFiles(dir string, rows []rules.FaultRow, trs []rules.Transition
 	if err := write("faults.csv", func(w io.Writer) error { return rules.WriteCSV(w, rows) }); err != nil {
 		return err
 	}
-	return write("transitions.json", func(w io.Writer) error { return rules.WriteTransitionsJSON(w, trs) })
+	if err := write("transitions.json", func(w io.Writer) error { return rules.WriteTransitionsJSON(w, trs) }); err != nil {
+		return err
+	}
+	if score == nil {
+		return nil
+	}
+	if err := write("evaluation.json", func(w io.Writer) error {
+		enc := json.NewEncoder(w)
+		enc.SetIndent("", "  ")
+		return enc.Encode(score)
+	}); err != nil {
+		return err
+	}
+	return write("evaluation.md", score.WriteTable)
 }
 
 // parseWhen reads RFC 3339, or a date / date-time without offset in loc.
