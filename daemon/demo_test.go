@@ -1,0 +1,145 @@
+package daemon
+
+import (
+	"context"
+	"os"
+	"path/filepath"
+	"regexp"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/chromedp/chromedp"
+
+	"risewatch/internal/testenv"
+)
+
+// startDemo runs RunDemo with a short history on a free loopback port.
+func startDemo(t *testing.T, days int) (info DemoInfo, stop func()) {
+	t.Helper()
+	ctx, cancel := context.WithCancel(context.Background())
+	ready := make(chan DemoInfo, 1)
+	done := make(chan error, 1)
+	go func() {
+		done <- RunDemo(ctx, DemoOptions{DataDir: t.TempDir(), Listen: "127.0.0.1:0", Days: days, Forward: 2, Speed: 600,
+			Logger: quietLog(), Ready: func(in DemoInfo) { ready <- in }})
+	}()
+	select {
+	case info = <-ready:
+	case err := <-done:
+		cancel()
+		t.Fatalf("demo stopped: %v", err)
+	case <-time.After(30 * time.Second):
+		cancel()
+		t.Fatal("demo not ready in 30 s")
+	}
+	return info, func() {
+		cancel()
+		select {
+		case err := <-done:
+			if err != nil {
+				t.Errorf("demo: %v", err)
+			}
+		case <-time.After(20 * time.Second):
+			t.Error("demo did not stop in 20 s")
+		}
+	}
+}
+
+var faultRow = regexp.MustCompile(`VAV-[LQM]-\d+`)
+
+// TestDemoSmoke starts the demo, waits until the dashboard lists a fault
+// and a message is in the mail spool, then loads each page in headless
+// chromium (when installed) and keeps a screenshot of each.
+func TestDemoSmoke(t *testing.T) {
+	info, stop := startDemo(t, 3)
+	defer stop()
+	waitFor(t, 45*time.Second, "the dashboard to list a fault", func() bool {
+		p := get(t, info.URL)
+		i := strings.Index(p, `id="faults"`)
+		return i >= 0 && faultRow.MatchString(p[i:])
+	})
+	page := get(t, info.URL)
+	fault := faultRow.FindString(page[strings.Index(page, `id="faults"`):])
+	waitFor(t, 20*time.Second, "a message in the mail spool", func() bool {
+		m, _ := filepath.Glob(filepath.Join(info.MailSpool, "*.eml"))
+		return len(m) > 0
+	})
+	browse(t, info.URL, fault)
+}
+
+// browse loads every page in headless chromium, checks what a person reads
+// there and takes a screenshot (kept in RISEWATCH_SCREENSHOTS when set).
+func browse(t *testing.T, base, terminal string) {
+	exe := testenv.LookTool(t, "chromium", "apt-get install chromium")
+	opts := append([]chromedp.ExecAllocatorOption{},
+		chromedp.ExecPath(exe),
+		chromedp.Headless,
+		chromedp.NoSandbox,
+		chromedp.DisableGPU,
+		chromedp.NoFirstRun,
+		chromedp.NoDefaultBrowserCheck,
+		chromedp.UserDataDir(t.TempDir()),
+		chromedp.Flag("disable-quic", true),
+		chromedp.Flag("disable-background-networking", true),
+		chromedp.Flag("disable-component-update", true),
+		chromedp.Flag("disable-sync", true),
+		chromedp.Flag("disable-dev-shm-usage", true),
+		chromedp.WindowSize(1280, 1000),
+	)
+	actx, cancelA := chromedp.NewExecAllocator(context.Background(), opts...)
+	defer cancelA()
+	ctx, cancelC := chromedp.NewContext(actx)
+	defer cancelC()
+	ctx, cancelT := context.WithTimeout(ctx, 60*time.Second)
+	defer cancelT()
+	if err := chromedp.Do(ctx); err != nil {
+		t.Fatalf("start chromium: %v", err)
+	}
+	shots := t.TempDir()
+	if d := os.Getenv("RISEWATCH_SCREENSHOTS"); d != "" {
+		shots = d
+	}
+	pages := []struct {
+		name, path, sel string
+		want            []string
+	}{
+		{"demo-overview", "/", "#faults", []string{terminal}},
+		{"demo-terminal", "/terminals/" + terminal, "main", []string{terminal}},
+		{"demo-sources", "/sources", "#sources", []string{"sim-trends", "trendfile"}},
+	}
+	for _, p := range pages {
+		if err := chromedp.Do(ctx, chromedp.Navigate(base+strings.TrimPrefix(p.path, "/")), chromedp.WaitVisible(chromedp.CSS(p.sel))); err != nil {
+			t.Fatalf("%s: %v", p.path, err)
+		}
+		text, err := chromedp.Run(ctx, chromedp.Text(chromedp.CSS(p.sel)))
+		if err != nil {
+			t.Fatalf("%s: %v", p.path, err)
+		}
+		for _, w := range p.want {
+			if !strings.Contains(text, w) {
+				t.Errorf("%s %s: text lacks %q", p.path, p.sel, w)
+			}
+		}
+		png, err := chromedp.Run(ctx, chromedp.FullScreenshot(100))
+		if err != nil {
+			t.Fatalf("%s: screenshot: %v", p.path, err)
+		}
+		if len(png) < 5000 {
+			t.Errorf("%s: screenshot only %d bytes", p.path, len(png))
+		}
+		if err := os.WriteFile(filepath.Join(shots, p.name+".png"), png, 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := chromedp.Do(ctx, chromedp.Navigate(base+"terminals/"+terminal), chromedp.WaitVisible(chromedp.CSS("svg.chart"))); err != nil {
+		t.Fatalf("terminal page charts: %v", err)
+	}
+	lines, err := chromedp.Run(ctx, chromedp.Evaluate[int](`document.querySelectorAll("svg.chart polyline").length`))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if lines == 0 {
+		t.Errorf("terminal %s: charts have no lines (hourly series missing)", terminal)
+	}
+}
