@@ -1,3 +1,6 @@
+# Use the go.mod toolchain (fetched from the Go module proxy) even where GOTOOLCHAIN=local.
+export GOTOOLCHAIN := $(shell sed -n 's/^toolchain //p' go.mod)
+
 .PHONY: test build bench demo fuzz
 build:
 	go build ./...

@@ -3,6 +3,7 @@
 # each package's testdata/fuzz/ and are also run by plain `go test`.
 set -euo pipefail
 cd "$(dirname "$0")/.."
+export GOTOOLCHAIN="${GOTOOLCHAIN_OVERRIDE:-$(sed -n 's/^toolchain //p' go.mod)}"
 t="${1:-8s}"
 for pkg in $(go list ./...); do
   dir=$(go list -f '{{.Dir}}' "$pkg")

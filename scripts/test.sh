@@ -6,6 +6,9 @@
 #   *.sh    sourced after apt (npm installs, go install of tools)
 set -euo pipefail
 cd "$(dirname "$0")/.."
+# The patched toolchain (go.mod `toolchain` line) comes from the Go module proxy;
+# machines here default to GOTOOLCHAIN=local, which would ignore it.
+export GOTOOLCHAIN="${GOTOOLCHAIN_OVERRIDE:-$(sed -n 's/^toolchain //p' go.mod)}"
 export PATH="$PATH:$(go env GOPATH)/bin"
 
 sudo_() { if [ "$(id -u)" = 0 ]; then "$@"; else sudo "$@"; fi; }
