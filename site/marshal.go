@@ -24,6 +24,9 @@ func Marshal(s *Site) ([]byte, error) {
 	w.site(root)
 	w.sources(root)
 	w.entities(root)
+	if s.Daemon != nil {
+		put(root, "daemon", s.Daemon) // kept as written; package daemon owns its meaning
+	}
 	var buf bytes.Buffer
 	buf.WriteString("# risewatch site file written by site.Marshal\n")
 	enc := yaml.NewEncoder(&buf)

@@ -29,6 +29,7 @@ func normalized(s *Site) Site {
 	for i := range c.Terminals {
 		c.Terminals[i].Line = 0
 	}
+	c.Daemon = nil // raw YAML: positions differ after a round trip
 	c.Sources = append([]SourceConfig(nil), s.Sources...)
 	for i := range c.Sources {
 		c.Sources[i].Line = 0
