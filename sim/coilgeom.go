@@ -34,7 +34,9 @@ type coilGeom struct {
 	finR1, finR2   float64 // equivalent annular fin radii
 	bendK          float64
 	dh             float64 // air-side hydraulic diameter 4·A_c·depth/A_o
-	airCorr        airCorrelation
+	layout         coilmodel.TubeLayout
+	physics        coilPhysics
+	check          checkGeom // geometry-only terms of the rate-inputs physics
 	circuitPasses  [][]pass
 	circuitLengthM []float64
 }
@@ -81,7 +83,7 @@ func newCoilGeom(c coilmodel.Coil, segs int) (*coilGeom, error) {
 		do:     c.Tube.OuterDiaM, di: c.Tube.OuterDiaM - 2*c.Tube.WallM,
 		pt: c.TransversePitchM, pl: c.LongitudinalPitchM,
 		fp: 1 / c.Fin.PerM, tf: c.Fin.ThicknessM, kFin: c.Fin.ConductivityWmK,
-		bendK: c.ReturnBendK,
+		bendK: c.ReturnBendK, layout: c.Layout,
 	}
 	if g.kFin <= 0 {
 		g.kFin = 220 // aluminium 1100 (common practice)
@@ -103,15 +105,26 @@ func newCoilGeom(c coilmodel.Coil, segs int) (*coilGeom, error) {
 	g.aoSeg = g.afSeg + math.Pi*g.dc*segL*(1-g.tf/g.fp)
 	g.aiSeg = math.Pi * g.di * segL
 	g.rWallSeg = math.Log(g.do/g.di) / (2 * math.Pi * kTube * segL)
-	// Minimum free-flow area in the transverse plane (plate fins, staggered or inline).
+	// Minimum free-flow area between the fins: the transverse gap Pt − Dc,
+	// or for staggered tubes the two diagonal gaps 2·(√((Pt/2)² + Pl²) − Dc)
+	// when they are narrower (Kays & London, Compact Heat Exchangers, 3rd ed.,
+	// ch. 10, tube-bank free-flow area).
 	faceH := float64(tubes) * g.pt
-	g.minFlowAreaM2 = g.widthM * faceH * (g.pt - g.dc) * (g.fp - g.tf) / (g.pt * g.fp)
+	gap := g.pt - g.dc
+	if c.Layout == coilmodel.Staggered {
+		gap = math.Min(gap, 2*(math.Hypot(g.pt/2, g.pl)-g.dc))
+	}
+	if gap <= 0 {
+		return nil, fmt.Errorf("coil tubes leave no air passage (collar %.4f m, pitches %.4f × %.4f m)", g.dc, g.pt, g.pl)
+	}
+	g.minFlowAreaM2 = g.widthM * faceH * gap * (g.fp - g.tf) / (g.pt * g.fp)
 	// Equal-area annular fin: the rectangular fin share Pt·Pl of one tube
 	// replaced by a circular fin of the same area (ASHRAE Handbook
 	// Fundamentals ch. 4, "Fin efficiency", sector/equivalent-area method).
 	g.dh = 4 * g.minFlowAreaM2 * float64(c.Rows) * g.pl / (g.aoSeg * float64(segs*tubes*c.Rows))
 	g.finR1 = g.dc / 2
 	g.finR2 = math.Sqrt(g.pt * g.pl / math.Pi)
+	g.check = newCheckGeom(g)
 
 	g.circuitPasses = make([][]pass, circ)
 	g.circuitLengthM = make([]float64, circ)
@@ -135,36 +148,6 @@ func newCoilGeom(c coilmodel.Coil, segs int) (*coilGeom, error) {
 		g.circuitLengthM[ci] = float64(len(g.circuitPasses[ci])) * g.widthM
 	}
 	return g, nil
-}
-
-// airCorrelation selects the air-side j correlation of the segment model.
-type airCorrelation int
-
-const (
-	// airGrayWebb is the simulator's own choice (independent of the detector).
-	airGrayWebb airCorrelation = iota
-	// airWangChiChang is used only to cross-check the solution method against
-	// the detector's rating on equal correlations.
-	airWangChiChang
-)
-
-// wangChiChangJ is the Colburn j of plain plate fins, Wang, Chi & Chang
-// (2000), Int. J. Heat Mass Transfer 43:2693, Eqs. for N = 1 and N ≥ 2,
-// Re on the fin-collar diameter.
-func (g *coilGeom) wangChiChangJ(reDc float64) float64 {
-	ln := math.Log(reDc)
-	n := math.Min(float64(g.rows), 6)
-	if g.rows == 1 {
-		p1 := 1.9 - 0.23*ln
-		p2 := -0.236 + 0.126*ln
-		return 0.108 * math.Pow(reDc, -0.29) * math.Pow(g.pt/g.pl, p1) * math.Pow(g.fp/g.dc, -1.084) *
-			math.Pow(g.fp/g.dh, -0.786) * math.Pow(g.fp/g.pt, p2)
-	}
-	p3 := -0.361 - 0.042*n/ln + 0.158*math.Log(n*math.Pow(g.fp/g.dc, 0.41))
-	p4 := -1.224 - 0.076*math.Pow(g.pl/g.dh, 1.42)/ln
-	p5 := -0.083 + 0.058*n/ln
-	p6 := -5.735 + 1.21*math.Log(reDc/n)
-	return 0.086 * math.Pow(reDc, p3) * math.Pow(n, p4) * math.Pow(g.fp/g.dc, p5) * math.Pow(g.fp/g.dh, p6) * math.Pow(g.fp/g.pt, -0.93)
 }
 
 // grayWebbJ is the Colburn j factor of plain plate fins on staggered round
@@ -194,12 +177,7 @@ func (g *coilGeom) airSideConductance(mAir, tC, rfa, hFactor float64) (uaSeg, hA
 		return 0, 0
 	}
 	gc := mAir / g.minFlowAreaM2
-	var j float64
-	if g.airCorr == airWangChiChang {
-		j = g.wangChiChangJ(gc * g.dc / airViscosity(tC))
-	} else {
-		j = g.grayWebbJ(gc * g.do / airViscosity(tC))
-	}
+	j := g.grayWebbJ(gc * g.do / airViscosity(tC))
 	hAir = hFactor * j * gc * airCp / math.Pow(airPr, 2.0/3.0)
 	hEff := 1 / (1/hAir + rfa)
 	eta := annularFinEfficiency(hEff, g.kFin, g.tf, g.finR1, g.finR2)

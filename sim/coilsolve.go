@@ -20,6 +20,12 @@ type coilSolver struct {
 	faults   coilFaults
 	circOutC []float64 // leaving water temperature per circuit (last exact solve)
 
+	// fixed, when set, makes the rate-inputs physics evaluate every
+	// property at fixAirC / fixWaterC instead of locally (used to measure
+	// what local evaluation changes).
+	fixed              bool
+	fixAirC, fixWaterC float64
+
 	cache struct {
 		valid                 bool
 		mAir, mW, taIn, twIn  float64
@@ -111,7 +117,7 @@ func (s *coilSolver) solveExact(mAir, taIn float64, circKgS []float64, twIn floa
 	for it = 1; it <= 60; it++ {
 		// Air side per row at the row's mean air temperature (refreshed on the
 		// first three sweeps; the field changes little after that).
-		for r := 0; r < g.rows && it <= 3; r++ {
+		for r := 0; r < g.rows && it <= 3 && g.physics == physicsOwn; r++ {
 			sum := 0.0
 			row := s.ta[r*nCell : (r+1)*nCell]
 			for _, t := range row {
@@ -129,6 +135,15 @@ func (s *coilSolver) solveExact(mAir, taIn float64, circKgS []float64, twIn floa
 				continue
 			}
 			tw := twIn
+			if g.physics == physicsRateInputs {
+				for _, ps := range g.circuitPasses[ci] {
+					var dq float64
+					tw, dq = s.localPass(ps, mAir, taIn, mc, tw, cSeg)
+					q += dq
+				}
+				s.circOutC[ci] = tw
+				continue
+			}
 			curRow := -1
 			var p, cw, uaW float64
 			for _, ps := range g.circuitPasses[ci] {
@@ -161,7 +176,9 @@ func (s *coilSolver) solveExact(mAir, taIn float64, circKgS []float64, twIn floa
 			}
 			s.circOutC[ci] = tw
 		}
-		if g.rows == 1 && it >= 2 || math.Abs(q-qPrev) <= 1e-6*math.Abs(q)+1e-4 {
+		// One row with per-row properties is exact after the second sweep;
+		// local properties need the sweeps to converge like several rows.
+		if g.rows == 1 && it >= 2 && g.physics == physicsOwn || math.Abs(q-qPrev) <= 1e-6*math.Abs(q)+1e-4 {
 			break
 		}
 		qPrev = q
@@ -188,4 +205,48 @@ func meanOf(v []float64) float64 {
 		s += x
 	}
 	return s / float64(len(v))
+}
+
+// localPass marches one tube pass of a circuit with water mass flow mc
+// entering at tw, in the rate-inputs physics: every segment gets its own UA
+// from its own mean air and water temperatures (a predictor at the inlet
+// water and the previous sweep's leaving air, then one corrector at the
+// segment means), and the segment balance P = (1/R)·[1 − exp(−R·(1 − e^(−NTU)))]
+// with the water cp of the same mean. It returns the leaving water
+// temperature and the heat of the pass.
+func (s *coilSolver) localPass(ps pass, mAir, taIn, mc, tw, cSeg float64) (twOut, q float64) {
+	g := s.g
+	nCell := g.tubes * g.segs
+	base := (ps.row*g.tubes + ps.pos) * g.segs
+	up := base - nCell
+	for k := 0; k < g.segs; k++ {
+		sg := k
+		if !ps.forward {
+			sg = g.segs - 1 - k
+		}
+		in := taIn
+		if ps.row > 0 {
+			in = s.ta[up+sg]
+		}
+		taM, twM := 0.5*(in+s.ta[base+sg]), tw
+		if s.fixed {
+			taM, twM = s.fixAirC, s.fixWaterC
+		}
+		var dq, cw float64
+		for pc := 0; pc < 2; pc++ {
+			ua := g.localUA(mAir, taM, mc, twM, s.faults)
+			cw = mc * waterCp(twM)
+			rr := cSeg / cw
+			p := -math.Expm1(-rr*(-math.Expm1(-ua/cSeg))) / rr
+			dq = p * cSeg * (tw - in)
+			if s.fixed {
+				break
+			}
+			taM, twM = in+0.5*dq/cSeg, tw-0.5*dq/cw
+		}
+		s.ta[base+sg] = in + dq/cSeg
+		tw -= dq / cw
+		q += dq
+	}
+	return tw, q
 }

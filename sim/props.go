@@ -58,3 +58,14 @@ func airViscosity(tC float64) float64 {
 // airConductivity is dry-air thermal conductivity (W/(m·K)), from μ·cp/Pr so
 // that the three air properties stay consistent.
 func airConductivity(tC float64) float64 { return airViscosity(tC) * airCp / airPr }
+
+// airPrandtl is μ·cp/k of dry air at tC with the conductivity also by
+// Sutherland's law, k0 = 0.0241 W/(m·K) at 273.15 K and S = 194.4 K (White,
+// Viscous Fluid Flow, 3rd ed., Table 1-3). The rate-inputs physics uses it
+// (coilmodel evaluates Pr the same way); the simulator's own physics keeps
+// the constant airPr.
+func airPrandtl(tC float64) float64 {
+	t := tC + 273.15
+	k := 0.0241 * math.Pow(t/273.15, 1.5) * (273.15 + 194.4) / (t + 194.4)
+	return airViscosity(tC) * airCp / k
+}

@@ -30,14 +30,9 @@ const coilSegments = 3
 // there: 12 in box, 1 row, 10 fpi, 710 cfm standard air at 58 °F, 2.31 gpm
 // of 180 °F water (7.04 kW). Elsewhere the two models differ by their
 // correlations' Reynolds, row and laminar-flow dependences (see
-// TestSimulatorCoilAgainstRate).
+// TestSimulatorCoilAgainstRate). The method cross-check (physicsRateInputs,
+// TestSegmentMethodAgreesWithRate) uses no factor at all.
 const airSideCalibration = 0.927
-
-// wangCheckCalibration is the same kind of single-point factor for the
-// Wang–Chi–Chang variant used only by the method cross-check; it absorbs
-// the fin-efficiency difference (equal-area annular fin here, Schmidt in
-// coilmodel), about 4 % in h at the reference point.
-const wangCheckCalibration = 0.961
 
 // Terminal dynamics (common practice): coil and water thermal lag on heat
 // output, the box airflow loop, and the discharge air without airflow.
