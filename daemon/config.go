@@ -84,7 +84,7 @@ type ReportConfig struct {
 }
 
 // Shard selects part of the site for one daemon process. A terminal
-// belongs to the shard when it matches any selector.
+// belongs to the first shard (in file order) with a matching selector.
 type Shard struct {
 	Name      string   `yaml:"name"`
 	Buildings []string `yaml:"buildings"`

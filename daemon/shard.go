@@ -67,7 +67,10 @@ func SelectShard(s *site.Site, c *Config, name string) (*site.Site, error) {
 		}
 		return false
 	}
-	usesSource := func(t *site.Terminal) bool {
+	matches := func(sh *Shard, t *site.Terminal) bool {
+		if in(sh.Buildings, t.Building) || in(sh.AHUs, t.AHU) || in(sh.Loops, t.Loop) {
+			return true
+		}
 		p := t.Points
 		for _, r := range []site.PointRef{p.Airflow, p.AirflowSetpoint, p.Discharge, p.Valve, p.ZoneTemp, p.ZoneSetpoint} {
 			if r.Source != "" && in(sh.Sources, r.Source) {
@@ -76,12 +79,22 @@ func SelectShard(s *site.Site, c *Config, name string) (*site.Site, error) {
 		}
 		return false
 	}
+	// A terminal belongs to the first shard that selects it, so the shards
+	// partition the site even when selectors overlap.
+	owner := func(t *site.Terminal) *Shard {
+		for i := range c.Shards {
+			if matches(&c.Shards[i], t) {
+				return &c.Shards[i]
+			}
+		}
+		return nil
+	}
 	out := *s
 	out.Terminals = nil
 	loops, ahus := map[string]bool{}, map[string]bool{}
 	for i := range s.Terminals {
 		t := &s.Terminals[i]
-		if in(sh.Buildings, t.Building) || in(sh.AHUs, t.AHU) || in(sh.Loops, t.Loop) || usesSource(t) {
+		if owner(t) == sh {
 			out.Terminals = append(out.Terminals, *t)
 			loops[t.Loop], ahus[t.AHU] = true, true
 		}

@@ -1,0 +1,69 @@
+package daemon
+
+import (
+	"errors"
+	"fmt"
+	"os"
+	"strings"
+	"testing"
+
+	"risewatch/site"
+)
+
+// TestExampleDaemonSection: the example campus's daemon section decodes,
+// and its shards each select terminals.
+func TestExampleDaemonSection(t *testing.T) {
+	s, c, err := Load("../configs/example-campus.yaml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if c.Notify == nil || len(c.Notify.Routes) != 3 || c.Report.Schedule != "0 6 * * MON" {
+		t.Errorf("decoded %+v", c)
+	}
+	total := 0
+	for _, sh := range c.Shards {
+		sub, err := SelectShard(s, c, sh.Name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		total += len(sub.Terminals)
+	}
+	if total != len(s.Terminals) {
+		t.Errorf("shards cover %d terminals, site has %d", total, len(s.Terminals))
+	}
+}
+
+// TestDaemonSectionErrors: mistakes are reported with file:line:col.
+func TestDaemonSectionErrors(t *testing.T) {
+	minimal, err := os.ReadFile("../configs/minimal.yaml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	base := strings.TrimRight(string(minimal), "\n") + "\n"
+	l := strings.Count(base, "\n") + 1 // line of "daemon:"
+	pos := func(line, col int) string { return fmt.Sprintf("t.yaml:%d:%d: ", l+line, col) }
+	cases := []struct{ daemon, want string }{
+		{"daemon:\n  listen: 127.0.0.1:9470\n  lisen: x\n", pos(2, 3) + "daemon: unknown key \"lisen\" (did you mean listen?)"},
+		{"daemon:\n  step: fast\n", pos(1, 1)},
+		{"daemon:\n  step: 1s\n", pos(1, 9) + "daemon: step 1s"},
+		{"daemon:\n  web: {token_env: \"my secret\"}\n", "is not an environment variable name"},
+		{"daemon:\n  report: {schedule: \"61 * * * *\"}\n", "daemon: report: schedule"},
+		{"daemon:\n  mail_spool: /tmp/x\n", "mail_spool needs a notify"},
+		{"daemon:\n  notify: {from: nobody}\n", "daemon: notify: "},
+	}
+	for _, tc := range cases {
+		s, err := site.Parse("t.yaml", []byte(base+tc.daemon))
+		if err != nil {
+			t.Fatalf("site: %v", err)
+		}
+		_, err = DecodeConfig(s)
+		var list site.ErrorList
+		if !errors.As(err, &list) {
+			t.Errorf("%q: err %v, want an ErrorList", tc.daemon, err)
+			continue
+		}
+		if !strings.Contains(err.Error(), tc.want) {
+			t.Errorf("%q: %v\nwant %q", tc.daemon, err, tc.want)
+		}
+	}
+}
