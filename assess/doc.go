@@ -13,12 +13,16 @@
 //
 // Loads come from the site file (Terminal.DesignLoadW) and/or from history
 // (see History): hourly mean heat delivered, Q = ṁ·cp·(DAT − EAT) with
-// ṁ = ρ_std·V (the box reports standard airflow) and cp of moist air
-// (ASHRAE Handbook—Fundamentals ch. 1), over occupied steady hours, then a
-// least-squares line of load against outdoor temperature over the coldest
-// hours evaluated at the site's heating design temperature, with its 95 %
-// prediction interval widened for serial correlation and combined with the
-// sensor uncertainty.
+// ṁ = ρ_std·V (the box reports standard airflow), EAT = AHU supply air +
+// duct gain and cp of moist air (ASHRAE Handbook—Fundamentals ch. 1), over
+// steady occupied hours (the first hour of occupancy, the tail of morning
+// warm-up, excluded). Each day's largest such hour is the day's sustained
+// peak; a least-squares line of the daily peaks against that hour's outdoor
+// temperature (coldest 75 % of days) is evaluated at the site's heating
+// design temperature, with its 95 % prediction interval (widened for
+// serial correlation) combined with the sensor uncertainty. Without an
+// outdoor-air point or a design temperature the estimate is the largest
+// sustained hour observed, not extrapolated, and says so in its Note.
 //
 // The package is pure apart from History's optional reading through the
 // collector: no clocks, no logs, no writes to the building automation

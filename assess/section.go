@@ -10,10 +10,10 @@ import (
 // worst first); the CSV has them all.
 const maxSectionRows = 40
 
-// Section returns the readiness summary for the weekly report: the loop
-// lines as the introduction and the ranked terminals (worst shortfall
-// first, at most 40) as the table, in IP (SI in brackets is the report's
-// convention for its own tables; here one system is used, as chosen).
+// Section returns the readiness summary for the weekly report
+// (publish/report.Input.Sections): the loop lines as the introduction and
+// the ranked terminals (worst shortfall first, at most 40) as the table, in
+// IP units when ip is set, SI otherwise.
 func (a *Assessment) Section(ip bool) report.Section {
 	u := unitSys{ip}
 	s := report.Section{
