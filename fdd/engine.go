@@ -203,7 +203,11 @@ func (en *Engine) finishLearning(st *termState, t *termStatic) {
 	}
 	if err := en.applyBaseline(i, b); err != nil {
 		st.base.Rejected = err.Error()
+		return
 	}
+	// An adopted fit is a coil performing within the band of its rating at
+	// the end of the learning period: the reference for the onset of a loss.
+	st.healthyAt, st.shortSince = b.To, time.Time{}
 }
 
 // Step processes one analysis step: samples for any subset of terminals (in
@@ -280,6 +284,9 @@ func (en *Engine) LoadBaselines(bs []Baseline) error {
 			continue
 		}
 		en.state[i].learn.done = true
+		if b.Source == "learned" {
+			en.state[i].healthyAt, en.state[i].shortSince = b.To, time.Time{}
+		}
 	}
 	return errors.Join(errs...)
 }

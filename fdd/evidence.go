@@ -101,7 +101,8 @@ type Evidence struct {
 	ClosedHeatK        float64 `rule:"closed_heat_k"`         // mean heat-like part s·h̄ of the closed-valve rise (scales as 1/V and with T_hw)
 	ClosedCapacityFrac float64 `rule:"closed_capacity_frac"`  // closed-valve rise / full-open expected rise at the same conditions
 	PerfHighLast       float64 `rule:"perf_high_last"`        // last PerfHigh seen (kept until the command is high again)
-	StarvedShare       float64 `rule:"starved_share"`         // 0..1: how much better a series restriction explains the shortfall than a UA loss
+	StarvedShare       float64 `rule:"starved_share"`         // 0..1: SSR share; near 1 when a flow limit explains the shortfall far better than a UA loss
+	OnsetHours         float64 `rule:"onset_h"`               // hours from the last healthy high-command performance to the first loss (NaN: short since monitoring began)
 	RejectedUAFactor   float64 `rule:"rejected_ua_factor"`    // learned UA factor rejected as unlike the rated coil (NaN if none)
 	ZoneDeficitK       float64 `rule:"zone_deficit_k"`        // smoothed heating setpoint − zone temperature (NaN without zone points)
 }

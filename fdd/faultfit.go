@@ -55,14 +55,19 @@ func (c *faultCompare) explained() (fouled, starved float64) {
 	return
 }
 
-// share is starved/(fouled + starved) of the explained parts, NaN until a
+// share compares the fits by what each leaves unexplained (the smaller
+// residual sum of squares wins): SSR_fouled/(SSR_fouled + SSR_starved),
+// near 1 when a flow limit explains the residuals far better than a UA
+// loss, near 0 for the reverse, 0.5 when they fit alike. NaN until a
 // shortfall is seen.
 func (c *faultCompare) share() float64 {
 	f, s := c.explained()
 	if !(f+s > 0) || c.rr <= 0 {
 		return math.NaN()
 	}
-	return s / (f + s)
+	floor := 1e-3 * c.rr
+	sf, ss := math.Max(c.rr-f, floor), math.Max(c.rr-s, floor)
+	return sf / (sf + ss)
 }
 
 // restrictionSens is ∂f/∂k for the series restriction at k = 0:

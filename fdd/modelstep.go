@@ -212,6 +212,9 @@ func (en *Engine) copyRunning(st *termState, e *Evidence) {
 		e.RejectedUAFactor = st.learnedUA
 	}
 	e.ZoneDeficitK = st.zoneDef.value()
+	if !st.shortSince.IsZero() {
+		e.OnsetHours = st.shortSince.Sub(st.healthyAt).Hours()
+	}
 	if st.leak.ok && st.leakFlowSet() {
 		e.LeakFlowFrac = st.leakFlow
 	}

@@ -37,6 +37,8 @@ const (
 	offsetLoK, offsetHiK       = 1.2, 2.2   // |offset| ≈ 1.5–3 σ of the closed-valve rise with default accuracies
 	huntLo, huntHi             = 8.0, 14.0  // valve reversals per hour
 	datBadLoMin, datBadHiMin   = 30.0, 60.0
+	shapeLo, shapeHi           = 0.55, 0.7   // SSR share: a flow limit fits clearly better
+	abruptLoH, abruptHiH       = 72.0, 240.0 // onset hours: a loss within 3 days is abrupt, beyond 10 days gradual
 )
 
 // scoreSignatures fills e.Scores and e.Best for a usable sample.
@@ -96,18 +98,25 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 			0.8*ramp(e.CUSUMLowK, cusumLo, cusumHi)*ramp(1-p, 0.5*capLossLo, capLossLo))
 		capLoss *= 1 - noHeat
 	}
-	// Which parameter explains the loss: UA (fouled) or water flow (starved).
+	// Which cause explains the loss: UA (fouled) or water flow (starved).
+	//   - The response shape: a flow limit (series restriction, low branch
+	//     pressure) against a UA loss, compared by residuals (faultfit.go).
+	//     It needs a learned flow factor: with the rated flow curve the
+	//     low-command expectation carries the whole flow-model uncertainty,
+	//     larger than the difference between the two shapes.
+	//   - The onset: fouling builds up over months; the same UA-type loss
+	//     appearing within days on a coil that was performing is a lost
+	//     circuit (blocked, air-bound) or a new restriction.
 	fouledShare, starvedShare := 0.5, 0.5
-	if capLoss > 0 && finite(e.StarvedShare) {
-		starvedShare = e.StarvedShare
-		fouledShare = 1 - starvedShare
-	} else if capLoss > 0 && finite(e.UAFactor) && finite(e.FlowFactor) {
-		du := math.Max(0, -math.Log(e.UAFactor))
-		df := math.Max(0, -math.Log(e.FlowFactor))
-		if du+df > 1e-6 {
-			fouledShare = du / (du + df)
-			starvedShare = 1 - fouledShare
+	if capLoss > 0 {
+		var sv float64
+		if finite(e.StarvedShare) && !e.Learning && st.base.Source == "learned" {
+			sv = ramp(e.StarvedShare, shapeLo, shapeHi)
 		}
+		if finite(e.OnsetHours) {
+			sv = math.Max(sv, 1-ramp(e.OnsetHours, abruptLoH, abruptHiH))
+		}
+		starvedShare, fouledShare = sv, 1-sv
 	}
 	sharp := func(x float64) float64 { return ramp(x, 0.35, 0.65) }
 

@@ -2,6 +2,7 @@ package fdd
 
 import (
 	"math"
+	"time"
 
 	"risewatch/collector"
 )
@@ -70,9 +71,10 @@ type termState struct {
 	leakRef      float64   // reference leak flow of the closed fit, m³/s (0 until set)
 	perfHighLast float64   // last valid high-command performance (NaN until seen)
 	cmp          faultCompare
-	learnedUA    float64 // learned UA factor that was rejected (0 if none)
-	zoneDef      ewma    // heating setpoint − zone temperature
-	satAge       int     // heating-steady steps since the valve was last saturated
+	learnedUA    float64   // learned UA factor that was rejected (0 if none)
+	zoneDef      ewma      // heating setpoint − zone temperature
+	healthyAt    time.Time // last time the high-command performance was healthy
+	shortSince   time.Time // first loss of high-command performance after healthyAt
 }
 
 // factorSums are the decayed normal equations of the running apparent
@@ -181,8 +183,16 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 		st.resp.decay(en.respDecay)
 		st.respStats = st.resp.stats()
 		st.respAge = 0
-		if finite(st.respStats.perfHigh) {
-			st.perfHighLast = st.respStats.perfHigh
+		if p := st.respStats.perfHigh; finite(p) {
+			st.perfHighLast = p
+			// Onset of a capacity loss, with hysteresis between the start
+			// of the loss ramp and half of it.
+			switch {
+			case p >= 1-capLossLo/2:
+				st.healthyAt, st.shortSince = s.At, time.Time{}
+			case p < 1-capLossLo && st.shortSince.IsZero() && !st.healthyAt.IsZero():
+				st.shortSince = s.At
+			}
 		}
 	}
 	en.copyResponse(st, e)
@@ -279,5 +289,5 @@ func setNaN(e *Evidence) {
 	e.DATMinusSATK, e.LeakSigmaK, e.ExpectedSpanK, e.DesignPerfIndex, e.ZScore, e.LeakFlowM3s = nan, nan, nan, nan, nan, nan
 	e.PerfAvg, e.PerfHigh, e.PerfLow = nan, nan, nan
 	e.ClosedOffsetK, e.ClosedOffsetSigmaK, e.ClosedHeatK, e.ClosedCapacityFrac = nan, nan, nan, nan
-	e.PerfHighLast, e.StarvedShare, e.RejectedUAFactor, e.ZoneDeficitK = nan, nan, nan, nan
+	e.PerfHighLast, e.StarvedShare, e.RejectedUAFactor, e.ZoneDeficitK, e.OnsetHours = nan, nan, nan, nan, nan
 }
