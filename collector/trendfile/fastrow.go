@@ -1,122 +1,288 @@
 package trendfile
 
 import (
-	"bytes"
 	"encoding/binary"
+	"fmt"
 	"math/bits"
 
 	"risewatch/collector"
 )
 
-// colPoints returns, per header column, the point it feeds or -1, and
-// fills p.colM (column → index in p.cols); built on first use.
-func (p *parser) colPoints() []int32 {
-	if p.colPt == nil {
-		p.colPt, p.colM = make([]int32, p.ncols), make([]int32, p.ncols)
-		for i := range p.colPt {
-			p.colPt[i], p.colM[i] = -1, -1
-		}
-		for k, m := range p.cols {
-			p.colPt[m.col], p.colM[m.col] = m.pt, int32(k)
-		}
-	}
-	return p.colPt
+// fastCol is one mapped column as the wide fast path needs it.
+type fastCol struct {
+	col           int    // header column
+	m             int32  // index in p.cols (and Row)
+	pt            int32  // point index
+	name          string // point name
+	scale, offset float64
+	binary        bool
 }
 
-// wideFast handles the common wide row — no quotes, time in the first
-// column — in one pass: it finds each delimiter and parses a plain decimal
-// cell while scanning it, falling back to parseCell for anything else
-// (exponents, text states, markers, spaces, decimal commas). It computes
-// exactly what parseNumber computes for plain decimals, so both paths give
-// identical values. A bad row appends nothing.
-func (p *parser) wideFast(rec []byte, line int64) {
-	j := bytes.IndexByte(rec, p.f.delim)
-	if j < 0 {
-		p.badRow(line, "1 field, the header has more")
-		return
+// fastCols returns the mapped columns with their conversions, built on
+// first use.
+func (p *parser) fastCols() []fastCol {
+	if p.fcols == nil {
+		p.fcols = make([]fastCol, len(p.cols))
+		for k, m := range p.cols {
+			pi := &p.pts.points[m.pt]
+			p.fcols[k] = fastCol{col: m.col, m: int32(k), pt: m.pt, name: pi.name, scale: pi.scale, offset: pi.offset, binary: pi.binary}
+		}
 	}
-	at, ok := p.rowTime(rec[:j], line)
+	return p.fcols
+}
+
+// wideFast handles the common wide row (no quotes, time in the first
+// column) in two passes. The first finds every delimiter of the row, eight
+// bytes at a time (findDelims); with all cell bounds known, the second
+// parses each mapped cell on its own, so the work on one cell does not wait
+// for the one before it. A plain decimal cell of up to eight characters
+// after its sign is converted without a branch on its digits (plainWord);
+// longer plain decimals take plainDecimal, and anything else (exponents,
+// text states, markers, spaces, decimal commas) parseCell, which gives the
+// same values for plain decimals. Readings go straight into the batch (or
+// the Row in row mode). A bad row adds nothing.
+func (p *parser) wideFast(rec []byte, line int64) {
+	delim := p.f.delim
+	p.delims = findDelims(p.delims, rec, delim)
+	pos := p.delims // pos[c] is the end of cell c; the last entry is len(rec)
+	if nf := len(pos); nf != p.ncols {
+		if nf < p.ncols {
+			p.badRow(line, fmt.Sprintf("%d fields, the header has %d", nf, p.ncols))
+			return
+		}
+		if !allBlank(splitFields(p.fields[:0], rec[pos[p.ncols-1]:], delim)[1:]) {
+			p.badRow(line, fmt.Sprintf("%d fields, the header has %d", nf, p.ncols))
+			return
+		}
+	}
+	at, ok := p.rowTime(rec[:pos[0]], line)
 	if !ok {
 		return
 	}
-	colPt := p.colPoints()
-	p.ensureRow()
-	rowV, rowQ, rowSet := p.rowV, p.rowQ, p.rowSet
-	pts := p.pts.points
-	delim := p.f.delim
-	i, c := j+1, 1
-	for {
-		if c >= len(colPt) {
-			// More fields than the header: fine only if the rest is blank.
-			if !allBlank(splitFields(p.fields[:0], rec[i-1:], delim)[1:]) {
-				p.badRow(line, "more fields than the header")
-				return
+	cols := p.fastCols()
+	if p.rowFn != nil {
+		p.ensureRow()
+		for i := range cols {
+			fc := &cols[i]
+			s, e := int(pos[fc.col-1])+1, int(pos[fc.col])
+			if s == e {
+				p.rowV[fc.m], p.rowQ[fc.m], p.rowSet[fc.m] = 0, collector.Missing, false
+				continue
 			}
-			break
-		}
-		pt := colPt[c]
-		if pt < 0 {
-			k := bytes.IndexByte(rec[i:], delim)
-			if k < 0 {
-				i = len(rec)
-				c++
-				break
-			}
-			i += k + 1
-			c++
-			continue
-		}
-		// Plain decimal [-]digits[.digits], 8 bytes at a time where possible.
-		s := i
-		neg := false
-		if i < len(rec) && rec[i] == '-' {
-			neg = true
-			i++
-		}
-		mant, nd, frac, next := plainDecimal(rec, i)
-		i = next
-		pi := &pts[pt]
-		if nd > 0 && nd <= 15 && (i == len(rec) || rec[i] == delim) {
-			v := float64(mant)
-			if frac > 0 {
-				v /= pow10[frac]
-			}
-			if neg {
-				v = -v
-			}
-			if pi.binary {
+			v, ok := plainWord(rec, s, e)
+			switch {
+			case !ok:
+				p.rowV[fc.m], p.rowQ[fc.m], p.rowSet[fc.m] = p.fastValue(rec, s, e, fc, line)
+				continue
+			case fc.binary:
 				if v != 0 {
 					v = 1
 				}
-			} else {
-				v = v*pi.scale + pi.offset
+			default:
+				v = v*fc.scale + fc.offset
 			}
-			m := p.colM[c]
-			rowV[m], rowQ[m], rowSet[m] = v, collector.Good, true
-		} else {
-			k := bytes.IndexByte(rec[s:], delim)
-			end := len(rec)
-			if k >= 0 {
-				end = s + k
-			}
-			m := p.colM[c]
-			rowV[m], rowQ[m], rowSet[m] = p.cell(rec[s:end], pt, line, c)
-			i = end
+			p.rowV[fc.m], p.rowQ[fc.m], p.rowSet[fc.m] = v, collector.Good, true
 		}
-		c++
-		if i >= len(rec) {
-			break
-		}
-		i++ // past the delimiter
-	}
-	if c < len(colPt) {
-		p.badRow(line, "fewer fields than the header")
+		p.commitRow(at)
 		return
 	}
-	p.commitRow(at)
+	p.ensureBatch(len(cols))
+	memo := p.memo()
+	// Field by field into the batch's spare capacity (ensureBatch leaves
+	// room for a whole row): no Reading is built elsewhere and copied.
+	n := len(p.batch)
+	b := p.batch[:n+len(cols)]
+	for i := range cols {
+		fc := &cols[i]
+		s, e := int(pos[fc.col-1])+1, int(pos[fc.col])
+		if s == e {
+			continue // blank: no sample at this time
+		}
+		var v float64
+		ok := false
+		if n8 := e - s; n8 <= 8 && s+8 <= len(rec) {
+			// Most cells repeat a string seen before: look it up.
+			w := binary.LittleEndian.Uint64(rec[s:]) & keepBytes[n8]
+			me := &memo[(w*memoMul)>>(64-memoBits)]
+			if me.key == w && rec[e-1] != 0 {
+				v, ok = me.val, true
+			} else if v, ok = plainWord(rec, s, e); ok {
+				*me = memoEntry{key: w, val: v}
+			}
+		} else {
+			v, ok = plainWord(rec, s, e)
+		}
+		q := collector.Good
+		switch {
+		case !ok:
+			var set bool
+			if v, q, set = p.fastValue(rec, s, e, fc, line); !set {
+				continue
+			}
+		case fc.binary:
+			if v != 0 {
+				v = 1
+			}
+		default:
+			v = v*fc.scale + fc.offset
+		}
+		r := &b[n]
+		r.Point, r.At, r.Value, r.Quality = fc.name, at, v, q
+		n++
+	}
+	p.batch = b[:n]
+	p.st.Rows++
+}
+
+// memoBits sizes the parsed-cell memo (2^memoBits entries, 24 bytes each).
+const (
+	memoBits = 14
+	memoMul  = 0x9E3779B97F4A7C15 // 2⁶⁴/φ, Fibonacci hashing (Knuth, TAOCP vol. 3, §6.4)
+)
+
+// memoEntry is one remembered plain-decimal cell: its bytes as a word
+// (zero above the cell) and its value before the unit conversion. Plain
+// decimals hold no zero byte, so a key fixes its cell's length; a lookup
+// also checks that the cell's last byte is not zero, so "5\x00" never
+// matches the entry of "5".
+type memoEntry struct {
+	key uint64
+	val float64
+}
+
+// memo returns the parser's direct-mapped cache of parsed cells. Trend
+// values repeat: a sensor logged at 0.01 resolution over its range, a
+// valve in whole percent, a state as 0/1 give a few thousand distinct
+// strings in millions of cells, and a lookup costs a fraction of a parse.
+// A miss parses (plainWord) and replaces the entry; values do not depend
+// on the memo.
+func (p *parser) memo() *[1 << memoBits]memoEntry {
+	if p.cellMemo == nil {
+		p.cellMemo = new([1 << memoBits]memoEntry)
+	}
+	return p.cellMemo
+}
+
+// fastValue converts cell rec[s:e] of column fc when plainWord did not.
+func (p *parser) fastValue(rec []byte, s, e int, fc *fastCol, line int64) (float64, collector.Quality, bool) {
+	v, ok := plainCell(rec, s, e)
+	if !ok {
+		return p.cell(rec[s:e], fc.pt, line, fc.col)
+	}
+	if fc.binary {
+		if v != 0 {
+			v = 1
+		}
+		return v, collector.Good, true
+	}
+	return v*fc.scale + fc.offset, collector.Good, true
+}
+
+// findDelims returns the index of every delim byte in rec followed by
+// len(rec) (the end of each cell), reusing dst. Eight bytes at a time:
+// x = w XOR delim·0x01…01 has a zero byte exactly where w holds delim, and
+// ^(((x & 0x7F…7F) + 0x7F…7F) | x | 0x7F…7F) sets bit 7 of exactly those
+// bytes (no borrow between bytes, unlike the shorter (x - 0x01…01) &^ x
+// test); the set bits are read off with TrailingZeros.
+func findDelims(dst []int32, rec []byte, delim byte) []int32 {
+	dst = dst[:0]
+	pat := uint64(delim) * ones8
+	i := 0
+	for ; i+8 <= len(rec); i += 8 {
+		x := binary.LittleEndian.Uint64(rec[i:]) ^ pat
+		m := ^(((x & low7) + low7) | x | low7)
+		for m != 0 {
+			dst = append(dst, int32(i+bits.TrailingZeros64(m)>>3))
+			m &= m - 1
+		}
+	}
+	for ; i < len(rec); i++ {
+		if rec[i] == delim {
+			dst = append(dst, int32(i))
+		}
+	}
+	return append(dst, int32(len(rec)))
+}
+
+// keepBytes[n] keeps the low n bytes of a word.
+var keepBytes = [9]uint64{0, 0xFF, 0xFFFF, 0xFFFFFF, 0xFFFFFFFF, 0xFFFFFFFFFF, 0xFFFFFFFFFFFF, 0xFFFFFFFFFFFFFF, 0xFFFFFFFFFFFFFFFF}
+
+// plainWord parses rec[s:e] when it is a plain decimal, [-]digits with at
+// most one point (".5" and "5." too) and at most eight characters after
+// the sign, reading it as one 64-bit word (it needs rec[s:s+8] to exist,
+// else it falls back to plainCell). x = w XOR '0'·0x01…01 turns digits into
+// 0..9 and the point into 0x1E; the point is found with the exact zero-byte
+// test, squeezed out of the word (the bytes above it shift down one), the
+// remaining bytes are checked to be digits (nonDigits' test) and combined
+// with swarValue. No step branches on the digits: a word without a point
+// squeezes at byte 8, a no-op, and divides by 10⁰. The value is mantissa /
+// 10^(fraction digits), correctly rounded since both are exact in float64
+// (Clinger's fast path, as parseNumber uses, so the paths agree bit for
+// bit). ok is false for anything else; the caller falls back.
+func plainWord(rec []byte, s, e int) (float64, bool) {
+	neg := rec[s] == '-'
+	if neg {
+		s++
+	}
+	n := e - s
+	if uint(n-1) > 7 || s+8 > len(rec) {
+		return plainCell(rec, s-b2i(neg), e)
+	}
+	keep := keepBytes[n]
+	x := binary.LittleEndian.Uint64(rec[s:]) ^ zeros8
+	d := x ^ (0x1E * ones8)
+	dots := ^(((d & low7) + low7) | d | low7) & keep
+	pt := uint(bits.TrailingZeros64(dots)) >> 3 // 8 when there is no point
+	low := keepBytes[pt]
+	x = x&low | (x>>8)&^low
+	hasDot := b2i(dots != 0)
+	nd := n - hasDot
+	keep >>= 8 * uint(hasDot)
+	frac := (n - 1 - int(pt)) & -hasDot
+	t := ((x &^ high8) + 0x76*ones8) | x
+	if t&high8&keep != 0 || dots&(dots-1) != 0 || nd == 0 {
+		return 0, false
+	}
+	v := float64(swarValue(x, nd)) / pow10[frac&7]
+	if neg {
+		v = -v
+	}
+	return v, true
+}
+
+func b2i(b bool) int {
+	if b {
+		return 1
+	}
+	return 0
+}
+
+// plainCell parses rec[s:e] when it is a plain decimal of up to 15 digits
+// ([-]digits[.digits]) through plainDecimal; ok is false for anything else.
+func plainCell(rec []byte, s, e int) (float64, bool) {
+	neg := s < e && rec[s] == '-'
+	if neg {
+		s++
+	}
+	if s >= e || rec[s] == '.' {
+		return 0, false
+	}
+	mant, nd, frac, next := plainDecimal(rec[:e], s)
+	if nd == 0 || nd > 15 || next != e {
+		return 0, false
+	}
+	v := float64(mant)
+	if frac > 0 {
+		v /= pow10[frac]
+	}
+	if neg {
+		v = -v
+	}
+	return v, true
 }
 
 const (
+	low7   = 0x7F7F7F7F7F7F7F7F
 	ones8  = 0x0101010101010101
 	high8  = 0x8080808080808080
 	zeros8 = 0x3030303030303030

@@ -90,7 +90,7 @@ func FuzzSplitQuoted(f *testing.F) {
 // FuzzNumbers checks both number parsers against strconv.ParseFloat
 // (the reference for correctly rounded decimal conversion).
 func FuzzNumbers(f *testing.F) {
-	for _, s := range []string{"0", "-1.5", "72.25", "1e3", "12345678.123456", ".5", "5.", "0.1", "99999999999999999999", "1.7976931348623157e308"} {
+	for _, s := range []string{"0", "-1.5", "72.25", "1e3", "12345678.123456", ".5", "5.", "-.5", "1.2.3", "-", "7\x00", "12345678", "-1234567.", "0.1", "99999999999999999999", "1.7976931348623157e308"} {
 		f.Add(s)
 	}
 	f.Fuzz(func(t *testing.T, s string) {
@@ -109,6 +109,15 @@ func FuzzNumbers(f *testing.F) {
 		i := 2
 		if neg {
 			i++
+		}
+		// The one-word path, with slack after the cell and without.
+		for _, r := range [][]byte{[]byte("x," + s + ",........"), []byte("x," + s)} {
+			e := 2 + len(s)
+			if v, ok := plainWord(r, 2, e); ok {
+				if rerr != nil || v != ref {
+					t.Fatalf("plainWord(%q) = %v, strconv %v %v", s, v, ref, rerr)
+				}
+			}
 		}
 		mant, nd, frac, next := plainDecimal(rec, i)
 		if nd > 0 && nd <= 15 && rec[next] == ',' && next == len(rec)-1 {

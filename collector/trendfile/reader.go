@@ -36,8 +36,9 @@ type parser struct {
 	timeCol            int
 	pointCol, valueCol int
 	cols               []mapped
-	colPt              []int32 // per column: point index or -1
-	colM               []int32 // per column: index in cols or -1
+	fcols              []fastCol // cols with their conversions (wide fast path)
+	delims             []int32   // delimiter positions of the current row
+	cellMemo           *[1 << memoBits]memoEntry
 
 	fields  [][]byte
 	scratch []byte
@@ -268,9 +269,13 @@ func (p *parser) rowTime(cell []byte, line int64) (time.Time, bool) {
 	return time.Unix(0, ns).UTC(), true
 }
 
+// ensureBatch makes room in the batch for extra more readings.
 func (p *parser) ensureBatch(extra int) {
 	if p.batch == nil {
 		p.batch = make([]collector.Reading, 0, max(p.f.batchReading+extra, extra))
+	}
+	if cap(p.batch)-len(p.batch) < extra {
+		p.batch = append(make([]collector.Reading, 0, len(p.batch)+p.f.batchReading+extra), p.batch...)
 	}
 }
 
