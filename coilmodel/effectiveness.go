@@ -157,6 +157,12 @@ func OneRowEffectiveness(ntuAir, r float64) float64 {
 // accurate; R = 0 gives exactly 1 − e^{−NTU_a} and R → ∞ gives 1/R.
 // Rows outside 1-4 return NaN.
 func SerpentineEffectiveness(rows int, ntuAir, r float64) float64 {
+	return serpentine(rows, ntuAir, ntuAir/float64(rows), r)
+}
+
+// serpentine is SerpentineEffectiveness with the per-row NTU_a/N given (the
+// rating pass multiplies by a stored 1/N instead of dividing).
+func serpentine(rows int, ntuAir, ntuRow, r float64) float64 {
 	if rows == 1 {
 		return OneRowEffectiveness(ntuAir, r)
 	}
@@ -173,7 +179,7 @@ func SerpentineEffectiveness(rows int, ntuAir, r float64) float64 {
 		return 0
 	}
 	n := float64(rows)
-	k := -expm1(-ntuAir / n)
+	k := -expm1(-ntuRow)
 	kr := k * r
 	if n*kr > 600 {
 		return 1 / r // ξ is astronomically large: the water leaves at the air inlet temperature

@@ -62,14 +62,59 @@ func expm1(x float64) float64 {
 }
 
 // tanhOverX is tanh(x)/x for x ≥ 0 (the Schmidt fin efficiency of a fin
-// parameter x): (1 − e^{−2x})/((1 + e^{−2x})·x), and its Taylor series
-// 1 − x²/3 + 2x⁴/15 − 17x⁶/315 below x = 0.02 (truncation below 6e−16),
-// where the difference would cancel. NaN gives NaN.
-func tanhOverX(x float64) float64 {
+// parameter x) as a quotient n/d, so a caller can fold the division into its
+// own: (1 − e^{−2x})/((1 + e^{−2x})·x), and its Taylor series
+// 1 − x²/3 + 2x⁴/15 − 17x⁶/315 (d = 1) below x = 0.02 (truncation below
+// 6e−16), where the difference would cancel. NaN gives NaN.
+func tanhOverX(x float64) (n, d float64) {
 	if x < 0.02 {
 		x2 := x * x
-		return 1 - x2*(1.0/3-x2*(2.0/15-x2*(17.0/315)))
+		return 1 - x2*(1.0/3-x2*(2.0/15-x2*(17.0/315))), 1
 	}
 	e := exp(-2 * x)
-	return (1 - e) / ((1 + e) * x)
+	return 1 - e, (1 + e) * x
 }
+
+// log is ln x for the per-rating logarithms, by the table method of Tang
+// (1990), ACM TOMS 16:378 ("Table-driven implementation of the logarithm
+// function in IEEE floating-point arithmetic"): x = 2^e·m, m ∈ [1, 2),
+// c = 1 + (j + ½)/128 the centre of m's 1/128 interval, ln x = e·ln2 + ln c +
+// ln(1 + u), u = (m − c)/c, |u| ≤ 1/257, ln(1 + u) by its degree-6 Taylor
+// polynomial (truncation below 3e−18). Its absolute error is a few units in
+// the last place of ln x (the tests check 3e−16·max(1, |ln x|)): the callers
+// add it to other logarithms and exponentiate, so absolute error is what
+// counts. Non-positive, subnormal, infinite and NaN arguments go to math.Log.
+func log(x float64) float64 {
+	if !(x >= 0x1p-1022 && x <= math.MaxFloat64) {
+		return math.Log(x)
+	}
+	b := math.Float64bits(x)
+	e := int64(b>>52) - 1023
+	j := (b >> (52 - logTabBits)) & (logTabN - 1)
+	m := math.Float64frombits(b&(1<<52-1) | 1023<<52)
+	t := &logTab[j]
+	u := (m - t.c) * t.invC
+	u2 := u * u
+	p := u - u2*(0.5-u*(1.0/3)) + u2*u2*(-0.25+u*0.2-u2*(1.0/6))
+	fe := float64(e)
+	return fe*ln2Hi + (t.lnC + (p + fe*ln2Lo))
+}
+
+const (
+	// ln2Hi + ln2Lo is ln 2 with ln2Hi's low bits zero, so e·ln2Hi is exact
+	// (the split of the Go math package and FreeBSD's msun).
+	ln2Hi      = 6.93147180369123816490e-01
+	ln2Lo      = 1.90821492927058770002e-10
+	logTabBits = 7
+	logTabN    = 1 << logTabBits
+)
+
+// logTab holds, per interval j, its centre c, 1/c and ln c; written only at
+// initialisation.
+var logTab = func() (t [logTabN]struct{ c, invC, lnC float64 }) {
+	for j := range t {
+		c := 1 + (float64(j)+0.5)/logTabN
+		t[j].c, t[j].invC, t[j].lnC = c, 1/c, math.Log(c)
+	}
+	return t
+}()

@@ -43,13 +43,14 @@ func TestExpMatchesLibrary(t *testing.T) {
 }
 
 func TestTanhOverX(t *testing.T) {
-	if tanhOverX(0) != 1 || tanhOverX(math.Inf(1)) != 0 || !math.IsNaN(tanhOverX(math.NaN())) {
-		t.Errorf("edge values: %v %v %v", tanhOverX(0), tanhOverX(math.Inf(1)), tanhOverX(math.NaN()))
+	q := func(x float64) float64 { n, d := tanhOverX(x); return n / d }
+	if q(0) != 1 || q(math.Inf(1)) != 0 || !math.IsNaN(q(math.NaN())) {
+		t.Errorf("edge values: %v %v %v", q(0), q(math.Inf(1)), q(math.NaN()))
 	}
 	for x := 1e-9; x < 60; x *= 1.003 {
 		want := math.Tanh(x) / x
-		if e := math.Abs(tanhOverX(x)/want - 1); e > 3e-15 {
-			t.Errorf("tanh(x)/x at %g: %.17g vs %.17g (rel %.2g)", x, tanhOverX(x), want, e)
+		if e := math.Abs(q(x)/want - 1); e > 3e-15 {
+			t.Errorf("tanh(x)/x at %g: %.17g vs %.17g (rel %.2g)", x, q(x), want, e)
 		}
 	}
 }
@@ -240,4 +241,32 @@ func TestFastPathMatchesReference(t *testing.T) {
 		}
 	}
 	t.Logf("%d points: largest relative difference from the reference %.2g", n, worst)
+}
+
+func TestLogMatchesLibrary(t *testing.T) {
+	worst := 0.0
+	check := func(x float64) {
+		got, want := log(x), math.Log(x)
+		if math.IsNaN(want) || math.IsInf(want, 0) {
+			if got != want && !(math.IsNaN(got) && math.IsNaN(want)) {
+				t.Errorf("log(%g) = %g, math.Log %g", x, got, want)
+			}
+			return
+		}
+		e := math.Abs(got-want) / math.Max(1, math.Abs(want))
+		worst = math.Max(worst, e)
+		if e > 3e-16 {
+			t.Errorf("log(%.17g) = %.17g, math.Log %.17g", x, got, want)
+		}
+	}
+	for x := 1e-300; x < 1e300; x *= 1.0137 {
+		check(x)
+	}
+	for x := 0.5; x < 2; x += 1.1e-5 {
+		check(x)
+	}
+	for _, x := range []float64{1, 2, 0.5, math.E, 5e-324, 0, -1, math.Inf(1), math.NaN(), math.MaxFloat64} {
+		check(x)
+	}
+	t.Logf("largest difference from math.Log, relative to max(1, |ln x|): %.2g", worst)
 }

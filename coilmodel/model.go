@@ -35,6 +35,7 @@ type model struct {
 	invDi       float64
 	lnDOverL    float64
 	hausen23    float64 // (2300·Di/L)^(2/3), Hausen at the laminar limit
+	invRows     float64
 }
 
 func newModel(c Coil) (model, error) {
@@ -65,6 +66,7 @@ func newModel(c Coil) (model, error) {
 		m.invFF2 = 1 / (m.finFactor * m.finFactor)
 	}
 	m.rSeries = m.rWall + m.rFoulW
+	m.invRows = 1 / float64(c.Rows)
 	m.invDi = 1 / m.path.di
 	m.velDiPerQ = m.invFlowArea * m.path.di
 	m.lnDOverL = math.Log(m.dOverL)
@@ -134,10 +136,10 @@ func (m *model) eval(f flows, uaMult float64, st *state) {
 		st.rise = st.latC - f.eat
 		return
 	}
-	lnM := math.Log(f.mAir)
+	lnM := log(f.mAir)
 	lnCp := lnDryAirCp
 	if f.cpAir != DryAirCp {
-		lnCp = math.Log(f.cpAir)
+		lnCp = log(f.cpAir)
 	}
 	velDi := f.qWater * m.velDiPerQ
 	cAir := f.mAir * f.cpAir
@@ -145,7 +147,7 @@ func (m *model) eval(f flows, uaMult float64, st *state) {
 		lnGDc:   lnM + m.lnDcOverAc,
 		lnGCp13: lnM + m.lnInvAc + lnCp/3,
 		velDi:   velDi,
-		lnVelDi: math.Log(velDi),
+		lnVelDi: log(velDi),
 		cAir:    cAir,
 		invCAir: 1 / cAir,
 		dt:      f.ewt - f.eat,
@@ -181,15 +183,16 @@ func (m *model) pass(f flows, pre *passInputs, uaMult, taC, twC float64, st *sta
 		st.extrap |= ExtrapAirRe
 	}
 	lnH := lj + pre.lnGCp13 - a.a23
-	h, etaF := 0.0, 1.0
+	var h, fn, fd float64 // η_f = fn/fd
 	if m.hasFin {
 		x := exp(0.5*lnH + m.lnFinFactor)
 		h = x * x * m.invFF2
-		etaF = tanhOverX(x)
+		fn, fd = tanhOverX(x)
 	} else {
-		h = exp(lnH)
+		h, fn, fd = exp(lnH), 1, 1
 	}
-	etaO := 1 - m.afFrac*(1-etaF)
+	// η_o = 1 − (A_f/A_o)·(1 − η_f) = e/fd
+	e := fd - m.afFrac*(fd-fn)
 
 	// Water side: Hausen / Gnielinski / VDI blend.
 	w := tables.waterAt(twC)
@@ -202,17 +205,17 @@ func (m *model) pass(f flows, pre *passInputs, uaMult, taC, twC float64, st *sta
 
 	// Overall conductance, Jacobi, Engineering Data Book III, Eq. 6.1.7:
 	// 1/UA = (1/(h·A_o) + R_fa/A_o)/η_o + R_wall + R_fw/A_i + 1/(h_w·A_i),
-	// brought over one denominator.
+	// brought over one denominator with η_o = e/fd.
 	hA := h * m.s.OuterAreaM2
-	he := hA * etaO
+	hE := hA * e // h·A_o·η_o·fd
 	hwA := hw * m.s.InnerAreaM2
-	ua := uaMult * he * hwA / ((1+m.rFoulA*hA)*hwA + m.rSeries*he*hwA + he)
+	ua := uaMult * hE * hwA / (fd*(1+m.rFoulA*hA)*hwA + hE*(m.rSeries*hwA+1))
 
 	cAir := pre.cAir
 	cWater := f.mWater * w.cp
 	ntu := ua * pre.invCAir
 	r := cAir / cWater
-	p := SerpentineEffectiveness(m.rows, ntu, r)
+	p := serpentine(m.rows, ntu, ntu*m.invRows, r)
 
 	st.rise = p * pre.dt
 	st.latC = f.eat + st.rise
@@ -220,7 +223,7 @@ func (m *model) pass(f flows, pre *passInputs, uaMult, taC, twC float64, st *sta
 	st.lwtC = f.ewt - st.rise*r
 	st.ua, st.ntu, st.r, st.p = ua, ntu, r, p
 	st.cAir, st.cWater = cAir, cWater
-	st.hAir, st.etaFin, st.etaO, st.lnReAir = h, etaF, etaO, lnRe
+	st.hAir, st.etaFin, st.etaO, st.lnReAir = h, fn/fd, e/fd, lnRe
 	st.hWater, st.reWater, st.velWater, st.regime = hw, reW, pre.velDi*m.invDi, regime
 	st.heat = true
 }
