@@ -138,12 +138,6 @@ func (tw *trendWriter) row(st *Step) error {
 	return err
 }
 
-// peak tracks a terminal's largest true values over the run.
-type peak struct {
-	coilLoadW, heatW float64
-	coilLoadAt       time.Time
-}
-
 // WriteOutputs runs the simulation and writes, under dir: trends/*.csv (wide
 // CSV per local day), ground_truth.csv, true_peaks.csv and site.yaml.
 func (s *Simulator) WriteOutputs(ctx context.Context, dir string) (WriteResult, error) {
@@ -170,14 +164,13 @@ func (s *Simulator) WriteOutputs(ctx context.Context, dir string) (WriteResult, 
 	peaks := make([]peak, len(s.terms))
 	err = s.Run(ctx, func(step *Step) error {
 		for i := range step.Terminals {
-			tr := &step.Terminals[i].True
-			if tr.CoilLoadW > peaks[i].coilLoadW {
-				peaks[i].coilLoadW, peaks[i].coilLoadAt = tr.CoilLoadW, step.At
-			}
-			peaks[i].heatW = max(peaks[i].heatW, tr.HeatW)
+			peaks[i].add(step, &step.Terminals[i].True, s.sc.step)
 		}
 		return tw.row(step)
 	})
+	for i := range peaks {
+		peaks[i].closeHour(s.sc.step)
+	}
 	if cerr := tw.close(); err == nil {
 		err = cerr
 	}
@@ -201,23 +194,6 @@ func writeGroundTruth(path string, gt []FaultRecord) error {
 	}
 	if err := os.WriteFile(path, b, 0o644); err != nil {
 		return fmt.Errorf("ground truth: %w", err)
-	}
-	return nil
-}
-
-func (s *Simulator) writePeaks(path string, peaks []peak) error {
-	b := []byte("terminal,loop,design_load_w,peak_coil_load_w,peak_coil_load_at,peak_heat_delivered_w,rated_capacity_w\n")
-	for i, p := range peaks {
-		t := &s.terms[i]
-		at := ""
-		if !p.coilLoadAt.IsZero() {
-			at = p.coilLoadAt.Format(time.RFC3339)
-		}
-		b = fmt.Appendf(b, "%s,%s,%.0f,%.0f,%s,%.0f,%.0f\n", t.spec.ID, s.sc.Loops[t.loop].ID, t.design.designLoadW,
-			p.coilLoadW, at, p.heatW, t.design.rated.CapacityW)
-	}
-	if err := os.WriteFile(path, b, 0o644); err != nil {
-		return fmt.Errorf("true peaks: %w", err)
 	}
 	return nil
 }

@@ -108,6 +108,10 @@ type TerminalTruth struct {
 	CoilLoadW      float64 // heat the coil must deliver at the current airflow to hold the heating setpoint, ≥ 0
 	DATSetC        float64
 	BranchDPPa     float64
+	// Occupied is the terminal's air handler in its occupied period (not
+	// warm-up, not setback or night cycling): the hours a load assessment
+	// sizes for.
+	Occupied bool
 }
 
 type terminal struct {

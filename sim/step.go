@@ -150,7 +150,7 @@ func (s *Simulator) stepTerminal(ti int, at time.Time, dt, oat, solar float64) {
 		DischargeC: t.datMeas, ValveCmd: quantPct(out.ValveCmd), ZoneC: t.zoneMeas, ZoneSetC: heatSet,
 		True: TerminalTruth{AirflowM3s: t.airM3s, EnteringAirC: eat, DischargeC: t.datC, ZoneC: t.zone.airC,
 			ValvePos: pos, WaterFlowM3s: q, EnteringWaterC: twIn, LeavingWaterC: lwt, HeatW: t.heatW,
-			ZoneLoadW: zoneLoad, CoilLoadW: coilLoad, DATSetC: out.DATSetC, BranchDPPa: branch},
+			ZoneLoadW: zoneLoad, CoilLoadW: coilLoad, DATSetC: out.DATSetC, BranchDPPa: branch, Occupied: occ},
 		Faults: t.mods.mask,
 	}
 }
