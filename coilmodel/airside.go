@@ -17,6 +17,8 @@ const (
 	// below, a turbulent-like slope above), so h stays finite and monotone.
 	wangLowReSlope  = -0.5
 	wangHighReSlope = -0.2
+	lnWangReMin     = 5.703782474656201 // ln 300
+	lnWangReMax     = 9.903487552536127 // ln 20 000
 )
 
 // Extrapolation flags: which parts of the model are outside the range their
@@ -80,7 +82,7 @@ func SurfacesOf(c Coil) Surfaces {
 	fp := 1 / c.Fin.PerM
 	gap := c.TransversePitchM - dc
 	if c.Layout == Staggered {
-		diag := 2 * (math.Hypot(c.TransversePitchM/2, c.LongitudinalPitchM) - dc)
+		diag := 2 * (diagonalPitch(c) - dc)
 		gap = math.Min(gap, diag)
 	}
 	sigma := gap * (fp - c.Fin.ThicknessM) / (c.TransversePitchM * fp)
@@ -102,7 +104,6 @@ type wang struct {
 	p3geo                 float64 // 0.158·ln[N·(Fp/Dc)^0.41]
 	plDh142               float64 // (Pl/Dh)^1.42
 	f1                    float64 // F1 = −0.764 + 0.739·Pt/Pl + 0.177·Fp/Dc − 0.00758/N
-	jLo, jHi, fLo, fHi    float64 // j and f at the Re bounds
 	lnReMin, lnReMax      float64
 	geometryOutsideFitted bool
 	// The exponents of both correlations are linear in ln Re and 1/ln Re with
@@ -120,14 +121,14 @@ func newWang(c Coil, s Surfaces) wang {
 	fp := 1 / c.Fin.PerM
 	pt, pl := c.TransversePitchM, c.LongitudinalPitchM
 	w := wang{
-		n: n, lnN: math.Log(n),
-		lnPtPl: math.Log(pt / pl), lnFpDc: math.Log(fp / dc),
-		lnFpDh: math.Log(fp / s.HydDiaM), lnFpPt: math.Log(fp / pt),
-		p3geo:   0.158 * math.Log(n*math.Pow(fp/dc, 0.41)),
-		plDh142: math.Pow(pl/s.HydDiaM, 1.42),
+		n: n, lnN: log(n),
+		lnPtPl: log(pt / pl), lnFpDc: log(fp / dc),
+		lnFpDh: log(fp / s.HydDiaM), lnFpPt: log(fp / pt),
+		plDh142: exp(1.42 * log(pl/s.HydDiaM)),
 		f1:      -0.764 + 0.739*pt/pl + 0.177*fp/dc - 0.00758/n,
-		lnReMin: math.Log(wangReMin), lnReMax: math.Log(wangReMax),
+		lnReMin: lnWangReMin, lnReMax: lnWangReMax,
 	}
+	w.p3geo = 0.158 * (w.lnN + 0.41*w.lnFpDc) // 0.158·ln[N·(Fp/Dc)^0.41]
 	if n < 1.5 {
 		w.jA = ln0108 + 1.9*w.lnPtPl - 1.084*w.lnFpDc - 0.786*w.lnFpDh - 0.236*w.lnFpPt
 		w.jB = -0.29 - 0.23*w.lnPtPl + 0.126*w.lnFpPt
@@ -141,8 +142,6 @@ func newWang(c Coil, s Surfaces) wang {
 	w.fC = 64.021*w.lnPtPl - 15.695*w.lnFpDc
 	w.ljLo, w.lfLo = w.lnJIn(w.lnReMin), w.lnFIn(w.lnReMin)
 	w.ljHi, w.lfHi = w.lnJIn(w.lnReMax), w.lnFIn(w.lnReMax)
-	w.jLo, w.fLo = math.Exp(w.ljLo), math.Exp(w.lfLo)
-	w.jHi, w.fHi = math.Exp(w.ljHi), math.Exp(w.lfHi)
 	const tol = 1.02 // 2 % slack on the Shah & Sekulić ranges
 	w.geometryOutsideFitted = dc < 6.9e-3/tol || dc > 13.6e-3*tol ||
 		s.HydDiaM < 1.30e-3/tol || s.HydDiaM > 9.37e-3*tol ||
@@ -230,12 +229,19 @@ func (w *wang) lnF(lnRe float64) float64 {
 // colburnJ is the Wang j factor at Re_Dc, extended beyond the fitted range by
 // the power-law slopes above; outside reports the extension.
 func (w *wang) colburnJ(re float64) (j float64, outside bool) {
-	lj, outside := w.lnJ(math.Log(re))
-	return math.Exp(lj), outside
+	lj, outside := w.lnJ(log(re))
+	return exp(lj), outside
 }
 
 // fanning is the Wang friction factor at Re_Dc with the same extension.
-func (w *wang) fanning(re float64) float64 { return math.Exp(w.lnF(math.Log(re))) }
+func (w *wang) fanning(re float64) float64 { return exp(w.lnF(log(re))) }
+
+// diagonalPitch is the staggered diagonal tube pitch √((Pt/2)² + Pl²)
+// (pitches are validated below 0.2 m, so the squares cannot overflow).
+func diagonalPitch(c Coil) float64 {
+	a, b := c.TransversePitchM/2, c.LongitudinalPitchM
+	return math.Sqrt(a*a + b*b)
+}
 
 // SchmidtPhi is the Schmidt (1949) equivalent-circular-fin parameter
 // φ = (Req/r − 1)·[1 + 0.35·ln(Req/r)] for a plate fin on tubes of collar
@@ -250,11 +256,11 @@ func SchmidtPhi(c Coil) float64 {
 		xl := c.LongitudinalPitchM / 2
 		ratio = 1.28 * xm / r * math.Sqrt(math.Max(xl/xm-0.2, 1e-6))
 	} else {
-		xl := 0.5 * math.Hypot(c.TransversePitchM/2, c.LongitudinalPitchM)
+		xl := 0.5 * diagonalPitch(c)
 		ratio = 1.27 * xm / r * math.Sqrt(math.Max(xl/xm-0.3, 1e-6))
 	}
 	ratio = math.Max(ratio, 1)
-	return (ratio - 1) * (1 + 0.35*math.Log(ratio))
+	return (ratio - 1) * (1 + 0.35*log(ratio))
 }
 
 // FinEfficiency is η_f = tanh(m·r·φ)/(m·r·φ), m = √(2h/(k_f·δf)) (Schmidt 1949).

@@ -107,10 +107,10 @@ func TestWangCollectedForm(t *testing.T) {
 				// Extension: the power law from the bound values, as before the rewrite.
 				for _, re := range []float64{50, 150, 299, 20001, 40000} {
 					j, outside := w.colburnJ(re)
-					jb, fb, slope := w.jLo, w.fLo, wangLowReSlope
+					jb, fb, slope := math.Exp(w.ljLo), math.Exp(w.lfLo), wangLowReSlope
 					ref := wangReMin
 					if re > wangReMax {
-						jb, fb, slope, ref = w.jHi, w.fHi, wangHighReSlope, wangReMax
+						jb, fb, slope, ref = math.Exp(w.ljHi), math.Exp(w.lfHi), wangHighReSlope, wangReMax
 					}
 					if !outside || relErr(j, jb*math.Pow(re/ref, slope)) > 1e-12 || relErr(w.fanning(re), fb*math.Pow(re/ref, slope)) > 1e-12 {
 						t.Fatalf("extension at Re %g: j %g, f %g", re, j, w.fanning(re))
@@ -162,9 +162,9 @@ func refEval(m *model, f flows, uaMult float64) float64 {
 		var j float64
 		switch {
 		case re < wangReMin:
-			j = m.w.jLo * math.Pow(re/wangReMin, wangLowReSlope)
+			j = m.w.jOnly(math.Log(wangReMin)) * math.Pow(re/wangReMin, wangLowReSlope)
 		case re > wangReMax:
-			j = m.w.jHi * math.Pow(re/wangReMax, wangHighReSlope)
+			j = m.w.jOnly(math.Log(wangReMax)) * math.Pow(re/wangReMax, wangHighReSlope)
 		default:
 			j = m.w.jOnly(math.Log(re))
 		}
@@ -269,4 +269,20 @@ func TestLogMatchesLibrary(t *testing.T) {
 		check(x)
 	}
 	t.Logf("largest difference from math.Log, relative to max(1, |ln x|): %.2g", worst)
+}
+
+func TestChurchillMatchesPublishedForm(t *testing.T) {
+	// Churchill (1977), Chem. Eng. 84(24):91, spelled out with math.Pow.
+	lit := func(re, rr float64) float64 {
+		a := math.Pow(-2.457*math.Log(math.Pow(7/re, 0.9)+0.27*rr), 16)
+		b := math.Pow(37530/re, 16)
+		return 8 * math.Pow(math.Pow(8/re, 12)+math.Pow(a+b, -1.5), 1.0/12)
+	}
+	for _, rr := range []float64{0, 1e-5, 1.3e-4, 1e-3, 0.01} {
+		for re := 1.0; re < 1e8; re *= 1.05 {
+			if got, want := ChurchillFriction(re, rr), lit(re, rr); relErr(got, want) > 1e-13 {
+				t.Fatalf("Re %g ε/D %g: %.15g vs %.15g", re, rr, got, want)
+			}
+		}
+	}
 }

@@ -150,7 +150,7 @@ func (c Coil) Validate() error {
 		bad("longitudinal pitch %g m: must be between 2 mm and 0.2 m", c.LongitudinalPitchM)
 	} else if c.Layout == Inline && !(c.LongitudinalPitchM > dc) {
 		bad("longitudinal pitch %g m: inline tubes overlap (collar diameter %g m)", c.LongitudinalPitchM, dc)
-	} else if c.Layout == Staggered && !(math.Hypot(c.TransversePitchM/2, c.LongitudinalPitchM) > dc) {
+	} else if c.Layout == Staggered && !(diagonalPitch(c) > dc) {
 		bad("longitudinal pitch %g m: staggered tubes overlap on the diagonal (collar diameter %g m)", c.LongitudinalPitchM, dc)
 	}
 	if c.Layout != Staggered && c.Layout != Inline {

@@ -55,21 +55,21 @@ func newModel(c Coil) (model, error) {
 	m.invFlowArea = 1 / (m.circuits * m.path.areaM2)
 	m.finFactor = math.Sqrt(2/(c.finK()*c.Fin.ThicknessM)) * (m.dc / 2) * SchmidtPhi(c)
 	m.afFrac = s.FinAreaM2 / s.OuterAreaM2
-	m.rWall = math.Log(c.Tube.OuterDiaM/c.InnerDiaM()) / (2 * math.Pi * c.tubeK() * s.Tubes * c.FaceWidthM)
+	m.rWall = log(c.Tube.OuterDiaM/c.InnerDiaM()) / (2 * math.Pi * c.tubeK() * s.Tubes * c.FaceWidthM)
 	m.rFoulW = c.FoulingWaterM2KW / s.InnerAreaM2
 	m.rFoulA = c.FoulingAirM2KW / s.OuterAreaM2
-	m.lnInvAc = -math.Log(s.MinFlowAreaM2)
-	m.lnDcOverAc = math.Log(m.dc) + m.lnInvAc
+	m.lnInvAc = -log(s.MinFlowAreaM2)
+	m.lnDcOverAc = log(m.dc) + m.lnInvAc
 	if m.finFactor > 0 && !math.IsInf(m.finFactor, 0) {
 		m.hasFin = true
-		m.lnFinFactor = math.Log(m.finFactor)
+		m.lnFinFactor = log(m.finFactor)
 		m.invFF2 = 1 / (m.finFactor * m.finFactor)
 	}
 	m.rSeries = m.rWall + m.rFoulW
 	m.invRows = 1 / float64(c.Rows)
 	m.invDi = 1 / m.path.di
 	m.velDiPerQ = m.invFlowArea * m.path.di
-	m.lnDOverL = math.Log(m.dOverL)
+	m.lnDOverL = log(m.dOverL)
 	g := m.dOverL * ReLaminarMax
 	m.hausen23 = math.Cbrt(g * g)
 	if m.w.geometryOutsideFitted {

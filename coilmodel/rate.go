@@ -70,10 +70,10 @@ func (m *model) rate(op Operating) (Rating, error) {
 		g := f.mAir / m.s.MinFlowAreaM2
 		lnRe := st.lnReAir
 		if !st.heat {
-			lnRe = math.Log(g * m.dc / AirViscosity(op.EnteringAirC))
+			lnRe = log(g * m.dc / AirViscosity(op.EnteringAirC))
 		}
-		rt.ReAirDc = math.Exp(lnRe)
-		fan := math.Exp(m.w.lnF(lnRe))
+		rt.ReAirDc = exp(lnRe)
+		fan := exp(m.w.lnF(lnRe))
 		vm := 0.5 * (1/rhoIn + 1/rhoOut)
 		rt.AirDropPa = g * g / 2 * (fan*m.s.OuterAreaM2/m.s.MinFlowAreaM2*vm + 2*(1/rhoOut-1/rhoIn))
 		rt.AirDropPa = math.Max(rt.AirDropPa, 0)

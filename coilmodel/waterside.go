@@ -37,9 +37,26 @@ func ChurchillFriction(re, relRough float64) float64 {
 	if re < 1 {
 		return 64 / re
 	}
-	a := math.Pow(-2.457*math.Log(math.Pow(7/re, 0.9)+0.27*relRough), 16)
-	b := math.Pow(37530/re, 16)
-	return 8 * math.Pow(math.Pow(8/re, 12)+math.Pow(a+b, -1.5), 1.0/12)
+	// The integer powers by repeated squaring, x^−1.5 = 1/(x·√x), and the
+	// two fractional powers through one logarithm and exponential each.
+	lnRe := log(re)
+	a := pow16(-2.457 * log(exp(0.9*(ln7-lnRe))+0.27*relRough))
+	b := pow16(37530 / re)
+	s := a + b
+	c := 8 / re
+	c4 := c * c
+	c4 *= c4
+	return 8 * exp(log(c4*c4*c4+1/(s*math.Sqrt(s)))*(1.0/12))
+}
+
+const ln7 = 1.9459101490553132 // ln 7
+
+// pow16 is x¹⁶ by four squarings.
+func pow16(x float64) float64 {
+	x *= x
+	x *= x
+	x *= x
+	return x * x
 }
 
 // NusseltGnielinski is the turbulent tube Nusselt number of Gnielinski (1976),
