@@ -167,8 +167,9 @@ func (g *coilGeom) grayWebbJ(reD float64) float64 {
 	return j4 * 0.991 * math.Pow(2.24*math.Pow(reD, -0.092)*math.Pow(n/4, -0.031), 0.607*(4-n))
 }
 
-// airSideConductance is η_o·h·A_o of one segment (W/K) at air mass flow
-// mAir (kg/s, whole coil) and air temperature tC, with an air-side fouling
+// airSideConductance is η_o·h·A_o of one segment (W/K) in the simulator's
+// own physics (Gray & Webb j, annular fin) at air mass flow mAir (kg/s,
+// whole coil) and air temperature tC, with an air-side fouling
 // resistance rfa (m²·K/W on A_o) in series with convection at every point of
 // the fin (so the fin efficiency uses the reduced h), and a calibration
 // factor on h.

@@ -102,7 +102,9 @@ func relClose(a, b float64) bool { return math.Abs(a-b) <= cacheFlowRel*math.Abs
 // "Cmax mixed / Cmin unmixed" with the roles written air-side). Local UA per
 // segment is 1/UA = 1/(η_o·h_a·A_o) + R_wall + (R_fw + 1/h_w)/A_i with h_a
 // per row (its mean air temperature) and h_w per circuit and row (its entering
-// water temperature and the circuit's own flow), water cp per pass.
+// water temperature and the circuit's own flow), water cp per pass, in the
+// simulator's own physics; the rate-inputs physics takes every segment's UA
+// and cp from its own mean temperatures instead (localPass).
 func (s *coilSolver) solveExact(mAir, taIn float64, circKgS []float64, twIn float64) coilResult {
 	g := s.g
 	nCell := g.tubes * g.segs

@@ -5,7 +5,10 @@
 // model (package coilmodel): each coil is solved segment by segment along
 // every water circuit and row, with its own air- and water-side
 // correlations and the water split over circuits by their hydraulic
-// resistance.
+// resistance. A second set of inputs for the same segment march
+// (physicsRateInputs: the detector's correlations, coded here and evaluated
+// per segment) exists only to cross-check the two solution methods; the
+// simulation itself always runs on the simulator's own physics.
 //
 // The simulator is deterministic: a scenario and its seed give the same
 // output bit for bit. Each entity draws from its own random stream, so the
