@@ -102,6 +102,7 @@ type Evidence struct {
 	ClosedCapacityFrac float64 `rule:"closed_capacity_frac"`  // closed-valve rise / full-open expected rise at the same conditions
 	PerfHighLast       float64 `rule:"perf_high_last"`        // last PerfHigh seen (kept until the command is high again)
 	StarvedShare       float64 `rule:"starved_share"`         // 0..1: SSR share; near 1 when a flow limit explains the shortfall far better than a UA loss
+	ClosedRiseK        float64 `rule:"closed_rise_k"`         // raw steady rise with the valve commanded closed (LeakRiseK takes off the heat a command up to the closed threshold gives)
 	OnsetHours         float64 `rule:"onset_h"`               // hours from the last healthy high-command performance to the first loss (NaN: short since monitoring began)
 	RejectedUAFactor   float64 `rule:"rejected_ua_factor"`    // learned UA factor rejected as unlike the rated coil (NaN if none)
 	ZoneDeficitK       float64 `rule:"zone_deficit_k"`        // smoothed heating setpoint − zone temperature (NaN without zone points)

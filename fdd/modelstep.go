@@ -107,8 +107,11 @@ func (en *Engine) updateFactors(st *termState, gU, gF, res, s2 float64) {
 	st.facOut = factorOut{ua: ua, uaSig: ua * math.Sqrt(cu), fl: fl, flSig: fl * math.Sqrt(cf)}
 }
 
-// leakFlow runs, every few steps of steady closed-valve operation with heat
-// available, the closed-valve evidence that needs the coil model:
+// leakFlow runs, every few steps of steady operation at zero command held
+// for the closed time with heat available (between 0 and the closed
+// threshold a valve with a small dead band may already pass water, and that
+// heat follows the command, not the operating point), the closed-valve
+// evidence that needs the coil model:
 //
 //   - the reference leak flow that explains the raw rise (bisection on water
 //     flow), smoothed; it only shapes the closed-valve fit (closedfit.go);
@@ -154,14 +157,8 @@ func (en *Engine) leakFlow(st *termState, t *termStatic, in inputs, eat float64)
 	} else {
 		st.leakRef += (ref - st.leakRef) / closedFitTau
 	}
-	// The fit takes only samples at zero command held for the closed time:
-	// between 0 and the closed threshold a valve with a small dead band may
-	// already pass water, and that heat follows the command, not the
-	// operating point.
-	if st.zeroRun >= en.closedSteps {
-		op.WaterFlowM3s = st.leakRef
-		st.closed.add(st.r.ExpectedRise(op), rise)
-	}
+	op.WaterFlowM3s = st.leakRef
+	st.closed.add(st.r.ExpectedRise(op), rise)
 
 	heat := rise
 	heat -= en.offsetUsed(st)
@@ -201,6 +198,7 @@ func (en *Engine) offsetUsed(st *termState) float64 {
 // copyRunning copies the running statistics into e.
 func (en *Engine) copyRunning(st *termState, e *Evidence) {
 	e.LeakRiseK = st.leak.value()
+	e.ClosedRiseK = st.closedRaw.value()
 	e.OffsetK = st.offset.value()
 	if a, sig, heat, ok := st.closed.estimate(en.cfg.Accuracy.ModelFrac); ok {
 		e.ClosedOffsetK, e.ClosedOffsetSigmaK, e.ClosedHeatK = a, sig, heat

@@ -126,7 +126,7 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 	sc[KindStarvedCoil] = capLoss * sharp(starvedShare) * (1 - unresp)
 	sc[KindReversedValve] = rev
 	sc[KindHunting] = ramp(e.ReversalsPerHour, huntLo, huntHi)
-	neg := ramp(-e.LeakRiseK, offsetLoK, offsetHiK) // DAT below SAT with the fan on: impossible
+	neg := ramp(-e.ClosedRiseK, offsetLoK, offsetHiK) // DAT below SAT with the fan on and the valve closed: impossible
 	sc[KindDATOffset] = math.Max(ramp(math.Abs(off), offsetLoK, offsetHiK), neg)
 	if finite(e.DATSetC) && e.PlantOn {
 		// Guideline 36 §5.6.6 low-DAT alarm: ≥ 8 K (15 °F) below setpoint.

@@ -67,6 +67,7 @@ type termState struct {
 	perf       ewma
 
 	closed       closedFit // closed-valve rise = a + s·h (offset versus heat)
+	closedRaw    ewma      // raw steady closed-valve rise (no model correction)
 	closedCap    ewma      // closed-valve rise / full-open rise
 	leakRef      float64   // reference leak flow of the closed fit, m³/s (0 until set)
 	perfHighLast float64   // last valid high-command performance (NaN until seen)
@@ -217,12 +218,30 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	if datSteady && noHeat && (closedLong || in.hw-eat < offsetNoHeatK) {
 		st.offset.add(obs, en.offAlpha)
 	}
-	if datSteady && in.plantOn && !noHeat && closedLong {
-		st.leak.add(obs, en.leakAlpha)
-		en.leakFlow(st, t, in, eat)
-	}
 	if steady && in.plantOn && !noHeat && t.modelErr == nil {
 		en.modelSample(st, t, in, eat, obs, e)
+	}
+	// Leak: heat beyond what the commanded opening gives. At zero command
+	// that is the whole rise; between zero and the closed threshold a valve
+	// may pass water by design, so the model's rise at the command is taken
+	// off (and without a model value the sample says nothing).
+	if datSteady && in.plantOn && !noHeat && closedLong {
+		st.closedRaw.add(obs, en.leakAlpha)
+		x := obs
+		if in.u > zeroCommandFrac && t.modelErr == nil {
+			x = nan
+			if finite(e.ExpectedRiseK) {
+				// Take off the commanded heat, but no more than the rise
+				// itself (a dead band makes the model over-predict).
+				x = obs - math.Min(math.Max(0, e.ExpectedRiseK), math.Max(0, obs))
+			}
+		}
+		if finite(x) {
+			st.leak.add(x, en.leakAlpha)
+		}
+		if st.zeroRun >= en.closedSteps {
+			en.leakFlow(st, t, in, eat)
+		}
 	}
 	if st.perfAge < perfExpireSteps {
 		st.perfAge++
@@ -289,5 +308,5 @@ func setNaN(e *Evidence) {
 	e.DATMinusSATK, e.LeakSigmaK, e.ExpectedSpanK, e.DesignPerfIndex, e.ZScore, e.LeakFlowM3s = nan, nan, nan, nan, nan, nan
 	e.PerfAvg, e.PerfHigh, e.PerfLow = nan, nan, nan
 	e.ClosedOffsetK, e.ClosedOffsetSigmaK, e.ClosedHeatK, e.ClosedCapacityFrac = nan, nan, nan, nan
-	e.PerfHighLast, e.StarvedShare, e.RejectedUAFactor, e.ZoneDeficitK, e.OnsetHours = nan, nan, nan, nan, nan
+	e.PerfHighLast, e.StarvedShare, e.RejectedUAFactor, e.ZoneDeficitK, e.OnsetHours, e.ClosedRiseK = nan, nan, nan, nan, nan, nan
 }
