@@ -199,7 +199,17 @@ func (d *decoder) bacnetSource(m *mapReader, what string) *BACnetConfig {
 				d.e.at(dv.Content[i+1], "%s: devices: %d: expected an address such as 10.1.2.31:47808", what, inst)
 				continue
 			}
-			c.Devices[uint32(inst)] = d.hostPort(v, what+": devices: "+k.Value, v.Value, true)
+			// A device behind a BACnet router: "ip[:port]/NET:MAC" (MAC in hex),
+			// the form collector/bacnet.ParseAddress reads.
+			host, route, routed := strings.Cut(v.Value, "/")
+			addr := d.hostPort(v, what+": devices: "+k.Value, host, true)
+			if routed {
+				if !validRoute(route) {
+					d.e.at(v, "%s: devices: %s: route %q: expected /NET:MAC with NET 1 to 65534 and a MAC of 1 to 7 octets in hex, e.g. 10.1.2.31:47808/2001:0a", what, k.Value, route)
+				}
+				addr += "/" + route
+			}
+			c.Devices[uint32(inst)] = addr
 		}
 	}
 	return c
@@ -216,6 +226,18 @@ func (d *decoder) hostPort(n *yaml.Node, what, s string, addPort bool) string {
 		d.e.at(n, "%s: %q: expected address:port such as 10.1.2.31:47808", what, s)
 	}
 	return s
+}
+
+var routeRE = regexp.MustCompile(`^([0-9]{1,5}):((?:[0-9A-Fa-f]{2}){1,7})$`)
+
+// validRoute checks the NET:MAC part of a routed device address.
+func validRoute(r string) bool {
+	m := routeRE.FindStringSubmatch(r)
+	if m == nil {
+		return false
+	}
+	n, err := strconv.Atoi(m[1])
+	return err == nil && n >= 1 && n <= 65534
 }
 
 var hostRE = regexp.MustCompile(`^[A-Za-z0-9]([A-Za-z0-9.-]{0,252})$`)
