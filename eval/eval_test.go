@@ -12,33 +12,50 @@ import (
 	"risewatch/sim"
 )
 
-// evalDays is the simulated period: 7 days by default (test time), any
-// number with RISEWATCH_EVAL_DAYS (30 = the whole demo scenario), -short: 3.
+// evalDays is the simulated period: the whole demo scenario (30 days, every
+// injected fault) by default, 7 days with -short, any number with
+// RISEWATCH_EVAL_DAYS.
 func evalDays(t *testing.T, sc *sim.Scenario) int {
 	if v := os.Getenv("RISEWATCH_EVAL_DAYS"); v != "" {
 		d, err := strconv.Atoi(v)
-		if err != nil {
-			t.Fatal(err)
+		if err != nil || d < 1 {
+			t.Fatalf("RISEWATCH_EVAL_DAYS=%q: want a positive number of days", v)
 		}
 		return d
 	}
 	if testing.Short() {
-		return 3
+		return 7
 	}
-	return 7
+	return sc.Days
 }
 
+// Project targets for the detector (project targets, not published values).
+const (
+	targetDetection   = 0.95 // share of injected faults detected
+	targetIsolation   = 0.90 // share isolated as the right kind
+	targetFalsePer1kW = 1.0  // false alarms per 1,000 terminal-weeks
+	targetLeakTTDh    = 6.0  // median time to detect a leak, hours of heating operation
+	targetSlowTTDh    = 72.0 // fouling and starvation, hours of heating operation
+	// isolationFloor guards against regressions while the isolation target
+	// is not met: on the 30-day demo campus the detector isolates 15 of 17
+	// (a +2.5 K DAT offset present from day 0 with the plant always on reads
+	// as a leak, and a reversed valve whose command never leaves 0 % reads as
+	// stuck open). RISEWATCH_EVAL_STRICT=1 asserts the 90 % target instead.
+	isolationFloor = 0.85
+)
+
 // TestEvaluateDemoCampus runs the demo campus and its fault-free twin
-// through the engine and the built-in rules and checks the targets set for
-// the detector (they are project targets, not published values): ≥ 95 %
-// detection, ≥ 90 % isolation, ≤ 1 false alarm per 1,000 terminal-weeks,
-// median time to detect ≤ 6 h of heating operation for leaks and ≤ 3 days
-// for fouling and starvation.
+// through the engine and the built-in rules, prints the evaluation table
+// (the README's) and checks the targets: ≥ 95 % detection, ≥ 90 %
+// isolation, ≤ 1 false alarm per 1,000 terminal-weeks on the unfaulted
+// terminals and on the twin, median time to detect ≤ 6 h of heating
+// operation for leaks and ≤ 3 days for fouling and starvation.
 func TestEvaluateDemoCampus(t *testing.T) {
 	sc, err := sim.DemoScenario()
 	if err != nil {
 		t.Fatal(err)
 	}
+	full := sc.Days
 	if d := evalDays(t, sc); d != sc.Days {
 		if sc, err = sc.With(d, 0); err != nil {
 			t.Fatal(err)
@@ -57,38 +74,44 @@ func TestEvaluateDemoCampus(t *testing.T) {
 	if f.TotalFaults == 0 {
 		t.Fatal("no injected faults in the scenario")
 	}
-	// Always: the injected leaking valve (VAV-L-104 from 72 h, demo scenario)
-	// is detected and isolated, and the twin raises no more alarms than the
-	// faulted campus's unfaulted terminals per terminal-week plus a margin.
-	for _, row := range f.Rows {
-		if row.Kind == fdd.KindLeakingValve && (row.Detected != row.Faults || row.Isolated != row.Faults) {
-			t.Errorf("leaking valves: %d of %d detected, %d isolated", row.Detected, row.Faults, row.Isolated)
+	if r := float64(f.TotalDetected) / float64(f.TotalFaults); r < targetDetection {
+		t.Errorf("detection rate %.2f, target ≥ %.2f", r, targetDetection)
+	}
+	iso, isoWant := float64(f.TotalIsolated)/float64(f.TotalFaults), isolationFloor
+	switch {
+	case os.Getenv("RISEWATCH_EVAL_STRICT") != "":
+		isoWant = targetIsolation
+	case sc.Days != full:
+		// The floor is measured on the whole scenario; a shorter run sees
+		// the day-0 faults that are hardest to isolate with fewer others.
+		isoWant = 0
+		t.Logf("isolation %.2f over %d days (floor checked over the full %d days)", iso, sc.Days, full)
+	case iso < targetIsolation:
+		t.Logf("isolation %.2f is below the %.2f target (asserted with RISEWATCH_EVAL_STRICT=1); regression floor %.2f", iso, targetIsolation, isolationFloor)
+	}
+	if iso < isoWant {
+		t.Errorf("isolation rate %.2f, want ≥ %.2f", iso, isoWant)
+	}
+	for name, res := range map[string]Result{"unfaulted terminals": f, "fault-free twin": rep.Twin} {
+		if res.TerminalWeeks <= 0 {
+			t.Errorf("%s: no fault-free terminal time observed", name)
 		}
-	}
-	if os.Getenv("RISEWATCH_EVAL_STRICT") == "" {
-		t.Log("project targets checked only with RISEWATCH_EVAL_STRICT=1 (see the table)")
-		return
-	}
-	if r := float64(f.TotalDetected) / float64(f.TotalFaults); r < 0.95 {
-		t.Errorf("detection rate %.2f, target ≥ 0.95", r)
-	}
-	if r := float64(f.TotalIsolated) / float64(f.TotalFaults); r < 0.90 {
-		t.Errorf("isolation rate %.2f, target ≥ 0.90", r)
-	}
-	for _, res := range []Result{f, rep.Twin} {
-		if res.FalsePer1000TW > 1 {
-			t.Errorf("%.2f false alarms per 1,000 terminal-weeks, target ≤ 1", res.FalsePer1000TW)
+		if res.FalsePer1000TW > targetFalsePer1kW {
+			t.Errorf("%s: %.2f false alarms per 1,000 terminal-weeks, target ≤ %.0f: %v", name, res.FalsePer1000TW, targetFalsePer1kW, res.FalseAlarmList)
 		}
 	}
 	for _, row := range f.Rows {
 		limit := math.Inf(1)
 		switch row.Kind {
 		case fdd.KindLeakingValve:
-			limit = 6
+			limit = targetLeakTTDh
 		case fdd.KindFouledCoil, fdd.KindStarvedCoil:
-			limit = 72
+			limit = targetSlowTTDh
 		}
-		if row.MedianTTDOpH > limit || (math.IsNaN(row.MedianTTDOpH) && !math.IsInf(limit, 1)) {
+		if math.IsInf(limit, 1) {
+			continue
+		}
+		if math.IsNaN(row.MedianTTDOpH) || row.MedianTTDOpH > limit {
 			t.Errorf("%s: median time to detect %.1f h of heating operation, target ≤ %.0f h", row.Kind, row.MedianTTDOpH, limit)
 		}
 	}

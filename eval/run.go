@@ -2,8 +2,10 @@ package eval
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
+	"sync"
 	"time"
 
 	"risewatch/collector"
@@ -17,7 +19,8 @@ import (
 type Options struct {
 	Rules  *rules.Ruleset // nil: built-in rules
 	Engine fdd.Config
-	// Progress, when set, is called with the fraction done after each day.
+	// Progress, when set, is called with the fraction done after each
+	// simulated day (from either run; calls are serialised).
 	Progress func(done float64)
 }
 
@@ -33,27 +36,54 @@ type Report struct {
 }
 
 // RunScenario simulates sc and its fault-free twin through the engine and
-// rules and scores both.
+// rules and scores both. The two runs share nothing and go in parallel.
 func RunScenario(ctx context.Context, sc *sim.Scenario, opt Options) (*Report, error) {
 	t0 := time.Now()
 	truths, err := FromSim(sc.GroundTruth())
 	if err != nil {
 		return nil, err
 	}
-	rep := &Report{Days: sc.Days}
-	faulted, n1, name, err := runOne(ctx, sc, truths, opt, 0)
-	if err != nil {
+	var mu sync.Mutex
+	var frac [2]float64
+	progress := func(run int) func(float64) {
+		if opt.Progress == nil {
+			return nil
+		}
+		return func(f float64) {
+			mu.Lock()
+			defer mu.Unlock()
+			frac[run] = f
+			opt.Progress((frac[0] + frac[1]) / 2)
+		}
+	}
+	type out struct {
+		res  Result
+		n    int64
+		name string
+		err  error
+	}
+	var runs [2]out
+	var wg sync.WaitGroup
+	for i, c := range []struct {
+		sc     *sim.Scenario
+		truths []Truth
+	}{{sc, truths}, {sc.WithoutFaults(), nil}} {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			r := &runs[i]
+			r.res, r.n, r.name, r.err = runOne(ctx, c.sc, c.truths, opt, progress(i))
+		}()
+	}
+	wg.Wait()
+	if err := errors.Join(runs[0].err, runs[1].err); err != nil {
 		return nil, err
 	}
-	twin, n2, _, err := runOne(ctx, sc.WithoutFaults(), nil, opt, 0.5)
-	if err != nil {
-		return nil, err
-	}
-	rep.Site, rep.Faulted, rep.Twin, rep.Samples, rep.Elapsed = name, faulted, twin, n1+n2, time.Since(t0)
-	return rep, nil
+	return &Report{Days: sc.Days, Site: runs[0].name, Faulted: runs[0].res, Twin: runs[1].res,
+		Samples: runs[0].n + runs[1].n, Elapsed: time.Since(t0)}, nil
 }
 
-func runOne(ctx context.Context, sc *sim.Scenario, truths []Truth, opt Options, progBase float64) (Result, int64, string, error) {
+func runOne(ctx context.Context, sc *sim.Scenario, truths []Truth, opt Options, progress func(float64)) (Result, int64, string, error) {
 	sm, err := sim.New(sc)
 	if err != nil {
 		return Result{}, 0, "", err
@@ -84,10 +114,10 @@ func runOne(ctx context.Context, sc *sim.Scenario, truths []Truth, opt Options, 
 		trs = ev.Step(evid, eng.Loops(), trs[:0])
 		scorer.Observe(st.At, evid, eng.Loops(), trs)
 		n += int64(len(samples))
-		if opt.Progress != nil {
+		if progress != nil {
 			if d := int(st.At.Sub(sc.StartTime()).Hours() / 24); d != lastDay {
 				lastDay = d
-				opt.Progress(progBase + 0.5*st.At.Sub(sc.StartTime()).Hours()/total)
+				progress(st.At.Sub(sc.StartTime()).Hours() / total)
 			}
 		}
 		return nil
