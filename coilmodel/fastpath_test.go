@@ -286,3 +286,17 @@ func TestChurchillMatchesPublishedForm(t *testing.T) {
 		}
 	}
 }
+
+func TestFinEfficiencyTable(t *testing.T) {
+	worst := 0.0
+	for y := finTabY0 - 2; y < finTabY1+2; y += 0.00137 {
+		x := math.Exp(y)
+		want := math.Tanh(x) / x
+		e := relErr(finEfficiency(y), want)
+		worst = math.Max(worst, e)
+		if e > 1e-9 {
+			t.Fatalf("η_f at ln x = %g: %.15g vs tanh(x)/x %.15g", y, finEfficiency(y), want)
+		}
+	}
+	t.Logf("largest relative error %.2g", worst)
+}

@@ -183,16 +183,12 @@ func (m *model) pass(f flows, pre *passInputs, uaMult, taC, twC float64, st *sta
 		st.extrap |= ExtrapAirRe
 	}
 	lnH := lj + pre.lnGCp13 - a.a23
-	var h, fn, fd float64 // η_f = fn/fd
+	h := exp(lnH)
+	etaF := 1.0
 	if m.hasFin {
-		x := exp(0.5*lnH + m.lnFinFactor)
-		h = x * x * m.invFF2
-		fn, fd = tanhOverX(x)
-	} else {
-		h, fn, fd = exp(lnH), 1, 1
+		etaF = finEfficiency(0.5*lnH + m.lnFinFactor)
 	}
-	// η_o = 1 − (A_f/A_o)·(1 − η_f) = e/fd
-	e := fd - m.afFrac*(fd-fn)
+	etaO := 1 - m.afFrac*(1-etaF)
 
 	// Water side: Hausen / Gnielinski / VDI blend.
 	w := tables.waterAt(twC)
@@ -205,11 +201,11 @@ func (m *model) pass(f flows, pre *passInputs, uaMult, taC, twC float64, st *sta
 
 	// Overall conductance, Jacobi, Engineering Data Book III, Eq. 6.1.7:
 	// 1/UA = (1/(h·A_o) + R_fa/A_o)/η_o + R_wall + R_fw/A_i + 1/(h_w·A_i),
-	// brought over one denominator with η_o = e/fd.
+	// brought over one denominator.
 	hA := h * m.s.OuterAreaM2
-	hE := hA * e // h·A_o·η_o·fd
+	hE := hA * etaO
 	hwA := hw * m.s.InnerAreaM2
-	ua := uaMult * hE * hwA / (fd*(1+m.rFoulA*hA)*hwA + hE*(m.rSeries*hwA+1))
+	ua := uaMult * hE * hwA / ((1+m.rFoulA*hA)*hwA + hE*(m.rSeries*hwA+1))
 
 	cAir := pre.cAir
 	cWater := f.mWater * w.cp
@@ -223,7 +219,7 @@ func (m *model) pass(f flows, pre *passInputs, uaMult, taC, twC float64, st *sta
 	st.lwtC = f.ewt - st.rise*r
 	st.ua, st.ntu, st.r, st.p = ua, ntu, r, p
 	st.cAir, st.cWater = cAir, cWater
-	st.hAir, st.etaFin, st.etaO, st.lnReAir = h, fn/fd, e/fd, lnRe
+	st.hAir, st.etaFin, st.etaO, st.lnReAir = h, etaF, etaO, lnRe
 	st.hWater, st.reWater, st.velWater, st.regime = hw, reW, pre.velDi*m.invDi, regime
 	st.heat = true
 }
