@@ -24,7 +24,12 @@ type AssembleConfig struct {
 	// Sources names every source that will feed Add; a step is emitted once
 	// all of them have passed it (or Lateness). Run fills it in.
 	Sources []string
-	Logger  *slog.Logger
+	// Progress, when set, makes the run restartable without losing or
+	// repeating steps: steps before its watermark (accepted before the
+	// last commit) are rebuilt but not emitted, and the consumer calls
+	// Progress.Accept for each step it has handled. See Progress.
+	Progress *Progress
+	Logger   *slog.Logger
 }
 
 // AssembleStats counts what the assembler could not use.
@@ -35,6 +40,7 @@ type AssembleStats struct {
 	ForcedSteps   int64 // steps emitted before every source had passed them (Lateness)
 	EmittedSteps  int64
 	EmittedSample int64
+	SkippedSteps  int64 // steps before the Progress watermark, already accepted before a restart
 }
 
 // field addresses one Sample field's value: a point index, a constant, or
@@ -83,6 +89,7 @@ type Assembler struct {
 	last    int64 // newest step touched
 	started bool
 	emitted bool
+	skip    int64 // steps starting before this (ns) are not emitted (Progress watermark)
 
 	sources map[string]*sourceMark
 	samples []Sample
@@ -137,7 +144,11 @@ func NewAssembler(s *site.Site, cfg AssembleConfig) (*Assembler, error) {
 		cfg.Logger = slog.Default()
 	}
 	a := &Assembler{site: s, cfg: cfg, interval: int64(cfg.Resample.Interval), log: cfg.Logger,
-		index: map[string]int32{}, sources: map[string]*sourceMark{}, unknown: map[string]struct{}{}}
+		index: map[string]int32{}, sources: map[string]*sourceMark{}, unknown: map[string]struct{}{}, skip: math.MinInt64}
+	if cfg.Progress != nil {
+		cfg.Progress.setGrid(cfg.Resample)
+		a.skip = cfg.Progress.skipBefore()
+	}
 	pts := Points(s)
 	a.res = make([]Resampler, len(pts))
 	a.sinks = make([]binFunc, len(pts))
@@ -377,15 +388,19 @@ func (a *Assembler) emitThrough(last int64, forced bool, emit func([]Sample)) {
 			a.res[p].advance(end, a.sinks[p])
 		}
 		base := (k % a.ring) * np
-		a.build(k, a.vals[base:base+np], a.quals[base:base+np])
-		if emit != nil {
-			emit(a.samples)
+		if k*a.interval < a.skip {
+			a.stats.SkippedSteps++ // accepted before a restart: rebuilt only for the resamplers' state
+		} else {
+			a.build(k, a.vals[base:base+np], a.quals[base:base+np])
+			if emit != nil {
+				emit(a.samples)
+			}
+			a.stats.EmittedSteps++
+			a.stats.EmittedSample += int64(len(a.samples))
 		}
 		for i := base; i < base+np; i++ {
 			a.quals[i] = Missing
 		}
-		a.stats.EmittedSteps++
-		a.stats.EmittedSample += int64(len(a.samples))
 		if forced {
 			a.stats.ForcedSteps++
 		}

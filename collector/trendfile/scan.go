@@ -29,6 +29,7 @@ type scanner struct {
 	offset     int64 // stream offset of buf[start]
 	line       int64 // line number of the next record, 1-based
 	quote      byte
+	open       bool // the last record returned had no line terminator (final, at EOF)
 }
 
 func newScanner(r io.Reader, offset, line int64, final bool) *scanner {
@@ -63,6 +64,7 @@ func (s *scanner) next() (rec []byte, line int64, quoted bool, err error) {
 			if s.final && s.end > s.start {
 				rec = s.buf[s.start:s.end]
 				quoted = bytes.IndexByte(rec, s.quote) >= 0
+				s.open = true
 				return s.take(s.end, rec, quoted)
 			}
 			return nil, s.line, false, io.EOF

@@ -36,7 +36,13 @@ type Config struct {
 	// CheckpointEvery bounds how often a checkpoint is written while a file
 	// is read (one is always written at the end and when ctx ends).
 	CheckpointEvery time.Duration
-	Logger          *slog.Logger
+	// Progress, when set, ties the checkpoints to the steps the consumer
+	// accepted instead of the batches the channel took, so that a restart
+	// or a crash neither loses nor repeats a step (collector.Progress; give
+	// the same Progress to collector.AssembleConfig). Files are then moved
+	// to ProcessedDir, or marked done, once a commit covers their last row.
+	Progress *collector.Progress
+	Logger   *slog.Logger
 }
 
 // Source reads exported CSV trend files: one file, or every file in a
@@ -50,6 +56,12 @@ type Source struct {
 
 	mu    sync.Mutex
 	stats Stats
+
+	fmu   sync.Mutex            // guards files (ingest and Progress commits)
+	files map[string]*fileState // per checkpoint key, Progress mode only
+	// pending holds drop-folder files read to their end that wait for a
+	// commit before they are moved (Progress mode; the watch goroutine's).
+	pending map[string]bool
 }
 
 var _ collector.Source = (*Source)(nil)
@@ -85,7 +97,24 @@ func New(cfg Config) (*Source, error) {
 	if cfg.Checkpoints == nil {
 		cfg.Checkpoints = &MemCheckpoints{}
 	}
-	return &Source{cfg: cfg, fmt: f, pts: pts, log: cfg.Logger}, nil
+	s := &Source{cfg: cfg, fmt: f, pts: pts, log: cfg.Logger}
+	if cfg.Progress != nil {
+		s.files = map[string]*fileState{}
+		cfg.Progress.Register(cfg.Name, s.commit)
+	}
+	return s, nil
+}
+
+// FromSiteWith builds the source named name from the site's source list
+// with the rest of cfg (Checkpoints, Progress, timings, Logger) as given.
+func FromSiteWith(s *site.Site, name string, cfg Config) (*Source, error) {
+	for _, sc := range s.Sources {
+		if sc.Name == name && sc.Trendfile != nil {
+			cfg.Name, cfg.Site, cfg.File = name, s, *sc.Trendfile
+			return New(cfg)
+		}
+	}
+	return nil, fmt.Errorf("site %s: no trend-file source %q", s.Name, name)
 }
 
 // FromSite builds the source named name from the site's source list.
@@ -119,7 +148,7 @@ func (s *Source) Run(ctx context.Context, out chan<- []collector.Reading) error 
 	if st.IsDir() || s.cfg.File.Watch {
 		return s.watch(ctx, out)
 	}
-	_, err = s.ingest(ctx, s.cfg.File.Path, true, out)
+	_, err = s.ingest(ctx, s.cfg.File.Path, true, true, out)
 	return err
 }
 

@@ -54,10 +54,11 @@ func (s *Source) watch(ctx context.Context, out chan<- []collector.Reading) erro
 		}
 	}
 	obs := map[string]*observation{}
+	s.pending = map[string]bool{}
 	tick := time.NewTicker(s.cfg.PollInterval)
 	defer tick.Stop()
 	for {
-		if err := s.poll(ctx, obs, out); err != nil {
+		if err := s.poll(ctx, obs, out, time.Now()); err != nil {
 			return err
 		}
 		if !c.Watch {
@@ -115,14 +116,13 @@ func (s *Source) list() ([]candidate, error) {
 	return cs, nil
 }
 
-// poll lists the folder once and reads what is ready.
-func (s *Source) poll(ctx context.Context, obs map[string]*observation, out chan<- []collector.Reading) error {
+// poll lists the folder once, at time now, and reads what is ready.
+func (s *Source) poll(ctx context.Context, obs map[string]*observation, out chan<- []collector.Reading, now time.Time) error {
 	c := s.cfg.File
 	cs, err := s.list()
 	if err != nil {
 		return fmt.Errorf("trend source %s: %w", s.cfg.Name, err)
 	}
-	now := time.Now()
 	present := map[string]bool{}
 	for _, f := range cs {
 		if ctx.Err() != nil {
@@ -144,8 +144,11 @@ func (s *Source) poll(ctx context.Context, obs map[string]*observation, out chan
 		if !settled || o.done || o.readAt == f.size {
 			continue
 		}
-		final := !c.Watch || c.ProcessedDir != ""
-		res, err := s.ingest(ctx, f.path, final, out)
+		// A settled file is read to its end, an unterminated last line
+		// too (see afterOpenLine for one that grows again). It is done
+		// when it will not grow: read once, or moved to ProcessedDir.
+		finish := !c.Watch || c.ProcessedDir != ""
+		res, err := s.ingest(ctx, f.path, true, finish, out)
 		if err != nil {
 			if ctx.Err() != nil {
 				return nil
@@ -160,6 +163,11 @@ func (s *Source) poll(ctx context.Context, obs map[string]*observation, out chan
 			continue
 		case readSome:
 			o.readAt = f.size
+		case readToEnd:
+			o.readAt, o.done = f.size, true
+			if c.ProcessedDir != "" {
+				s.pending[f.path] = true
+			}
 		case complete:
 			o.readAt, o.done = f.size, true
 			if c.ProcessedDir != "" {
@@ -176,7 +184,31 @@ func (s *Source) poll(ctx context.Context, obs map[string]*observation, out chan
 			delete(obs, p)
 		}
 	}
+	s.movePending(ctx, obs, out)
 	return nil
+}
+
+// movePending moves the files read to their end (Progress mode) whose
+// checkpoint a commit has since marked done.
+func (s *Source) movePending(ctx context.Context, obs map[string]*observation, out chan<- []collector.Reading) {
+	for path := range s.pending {
+		res, err := s.ingest(ctx, path, true, true, out) // answers from the file's state: nothing is read again
+		if err != nil || res != complete {
+			if err != nil {
+				delete(s.pending, path)
+			}
+			continue
+		}
+		delete(s.pending, path)
+		if id, ok := s.identityOf(path); ok {
+			s.committedDone(s.key(id))
+		}
+		if err := moveProcessed(path, s.cfg.File.ProcessedDir); err != nil {
+			s.log.Error("processed trend file not moved (its checkpoint marks it done)", "source", s.cfg.Name, "file", path, "err", err)
+		} else {
+			delete(obs, path)
+		}
+	}
 }
 
 // moveProcessed renames path into dir, adding -1, -2, … when the name is taken.
