@@ -3,6 +3,7 @@ package rules
 import (
 	"fmt"
 	"math"
+	"sort"
 	"strconv"
 	"strings"
 	"time"
@@ -240,6 +241,18 @@ func compileCond(c *Cond, s *schema, useClear bool) (pred, error) {
 			ps[i] = p
 		}
 		if isAll {
+			// Three-valued AND is commutative: test first what is false
+			// most of the time, so a healthy terminal costs one compare.
+			order := make([]int, len(kids))
+			for i := range order {
+				order[i] = i
+			}
+			sort.SliceStable(order, func(i, j int) bool { return selectivity(&kids[order[i]]) < selectivity(&kids[order[j]]) })
+			sorted := make([]pred, len(ps))
+			for i, k := range order {
+				sorted[i] = ps[k]
+			}
+			ps = sorted
 			return allOf(ps), nil
 		}
 		return anyOf(ps), nil
@@ -251,6 +264,19 @@ func compileCond(c *Cond, s *schema, useClear bool) (pred, error) {
 		return notOf(p), nil
 	}
 	return compileLeaf(c, s, useClear)
+}
+
+// selectivity orders the children of an all-group: comparisons on the
+// engine's signature scores (near 0 on a healthy terminal) first, then other
+// comparisons, then nested groups.
+func selectivity(c *Cond) int {
+	switch {
+	case c.Field != "" && strings.HasPrefix(c.Field, "score."):
+		return 0
+	case c.Field != "":
+		return 1
+	}
+	return 2
 }
 
 func allOf(ps []pred) pred {
@@ -450,4 +476,61 @@ func checkKeys(n *yaml.Node, what string, allowed []string) error {
 		}
 	}
 	return nil
+}
+
+// guard is one plain comparison that must hold for a rule's condition to
+// hold: the condition itself when it is a comparison, or the first child of
+// a top-level all-group in selectivity order. The evaluator tests it inline
+// before calling the compiled condition; it only short-cuts a false result.
+type guard struct {
+	ok  bool
+	op  cmpOp
+	off uintptr
+	v   float64
+}
+
+// isFalse reports whether the guard comparison is false at p (a NaN field
+// is unknown, not false).
+func (g *guard) isFalse(p unsafe.Pointer) bool {
+	x := *(*float64)(unsafe.Add(p, g.off))
+	return x == x && !g.op.cmp(x, g.v)
+}
+
+// guardOf finds the guard of condition c (zero when there is none).
+func guardOf(c *Cond, s *schema) guard {
+	if c.All != nil {
+		best, rank := -1, 3
+		for i := range c.All {
+			if r := selectivity(&c.All[i]); r < rank && plainLeaf(&c.All[i], s) {
+				best, rank = i, r
+			}
+		}
+		if best < 0 {
+			return guard{}
+		}
+		c = &c.All[best]
+	}
+	if !plainLeaf(c, s) {
+		return guard{}
+	}
+	a, _ := s.lookup(c.Field)
+	op, _ := parseOp(c.Op)
+	v, err := parseValue(c.Value, a.dim, c.Field)
+	if err != nil {
+		return guard{}
+	}
+	return guard{ok: true, op: op, off: a.off, v: v}
+}
+
+// plainLeaf: a comparison of one float field with a constant.
+func plainLeaf(c *Cond, s *schema) bool {
+	if c.Field == "" || c.Is != nil || c.Minus != "" || c.Ref != "" || c.Abs || c.Value == "" {
+		return false
+	}
+	a, err := s.lookup(c.Field)
+	if err != nil || a.kind != fieldFloat {
+		return false
+	}
+	_, ok := parseOp(c.Op)
+	return ok
 }

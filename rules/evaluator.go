@@ -310,6 +310,10 @@ func (e *Evaluator) pend(tk *tracker, c *compiled, gatesOK bool, p unsafe.Pointe
 		}
 		return false
 	}
+	if c.guard.ok && c.guard.isFalse(p) {
+		tk.since = 0
+		return false
+	}
 	switch c.when(p) {
 	case triTrue:
 		if tk.since == 0 || at-tk.last > e.maxGapNs {

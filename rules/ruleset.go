@@ -257,6 +257,7 @@ type compiled struct {
 	need, forbid gateMask
 	gates        pred // extra truth-valued gates, may be nil
 	when, clear  pred
+	guard        guard // a comparison whose falsity makes `when` false (hot-path shortcut)
 	forNs        int64
 	clearForNs   int64
 	suppress     uint32 // kinds explained (bit per fdd.Kind)
@@ -322,6 +323,7 @@ func compileRule(r *Rule, sch *schemas) (*compiled, error) {
 	if c.when, err = compileCond(r.When, s, false); err != nil {
 		return nil, fmt.Errorf("when: %w", err)
 	}
+	c.guard = guardOf(r.When, s)
 	if r.ClearWhen != nil {
 		if c.clear, err = compileCond(r.ClearWhen, s, false); err != nil {
 			return nil, fmt.Errorf("clear_when: %w", err)
