@@ -217,6 +217,14 @@ func (s *Source) checkUnits(ctx context.Context) {
 	s.mu.Unlock()
 }
 
+// Client is the started client (nil before Start and after Close). Its
+// Stats count requests, retries, timeouts and malformed or unmatched answers.
+func (s *Source) Client() *Client {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	return s.client
+}
+
 // Close releases the client.
 func (s *Source) Close() error {
 	s.mu.Lock()
@@ -326,51 +334,6 @@ func (s *Source) pollDevice(ctx context.Context, inst uint32, idx []int, now tim
 // Reading makes a Missing reading for point at t.
 func Reading(point string, t time.Time) collector.Reading {
 	return collector.Reading{Point: point, At: t, Quality: collector.Missing}
-}
-
-// SweepTrends backfills every configured trend log from its checkpoint and
-// passes the readings to emit, one page at a time; the checkpoint moves only
-// after emit returns nil.
-func (s *Source) SweepTrends(ctx context.Context, emit func([]collector.Reading) error) ([]TrendResult, error) {
-	s.mu.Lock()
-	c := s.client
-	s.mu.Unlock()
-	if c == nil {
-		return nil, fmt.Errorf("source %s: not started", s.name)
-	}
-	tr := &TrendReader{Client: c, Checkpoints: s.cp, Location: s.loc}
-	var results []TrendResult
-	var errs []error
-	for i := range s.points {
-		p := &s.points[i]
-		d := s.devices[p.device]
-		if p.trend == nil || d == nil {
-			continue
-		}
-		res, err := tr.Backfill(ctx, d, *p.trend, func(recs []TrendRecord) error {
-			rs := make([]collector.Reading, 0, len(recs))
-			for _, rec := range recs {
-				r := Reading(p.ref.Name, rec.At)
-				switch {
-				case rec.Numeric():
-					r.Value, r.Quality = p.convert(rec.Value, rec.Flags, rec.HasFlags)
-				case rec.Kind == wire.LogTimeChange:
-					continue // a clock change marker, not a value
-				}
-				rs = append(rs, r)
-			}
-			return emit(rs)
-		})
-		if res.Lost > 0 || res.Reset {
-			s.log.Warn("bacnet: trend log lost records before they were read", "source", s.name, "point", p.ref.Name,
-				"device", p.device, "trend_log", *p.trend, "lost", res.Lost, "renumbered", res.Reset)
-		}
-		results = append(results, res)
-		if err != nil {
-			errs = append(errs, fmt.Errorf("point %s: %w", p.ref.Name, err))
-		}
-	}
-	return results, errors.Join(errs...)
 }
 
 // Run starts the source, backfills trend logs, then polls every
