@@ -241,7 +241,9 @@ func TestSoakTenThousandTerminals(t *testing.T) {
 		t.Errorf("live heap grew from %.1f MiB to %.1f MiB over the run (tolerance %.1f MiB): a leak", h1/(1<<20), h3/(1<<20), htol/(1<<20))
 	}
 	sort.Slice(sweepTimes, func(i, j int) bool { return sweepTimes[i] < sweepTimes[j] })
-	pct := func(p float64) time.Duration { return sweepTimes[min(len(sweepTimes)-1, int(p*float64(len(sweepTimes))))] }
+	pct := func(p float64) time.Duration {
+		return sweepTimes[min(len(sweepTimes)-1, int(p*float64(len(sweepTimes))))]
+	}
 	kinds := fmt.Sprint(opened)
 	t.Logf("soak: %d terminals, %d points on %d routers; start-up (bind, resolve, units check) %s", nT, nP, groups, startUp.Round(time.Millisecond))
 	t.Logf("soak: %d sweeps measured over %s after %d warm-up sweeps, interval %s, %d started late; %d analysis steps, opened %s",
