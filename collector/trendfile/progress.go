@@ -75,7 +75,7 @@ func (fs *fileState) begin(m fileMark) {
 func (s *Source) addMark(fs *fileState, f *os.File, m posMark, force bool) error {
 	s.fmu.Lock()
 	n := len(fs.marks)
-	skip := n > 0 && !force && m.off-fs.marks[n-1].off < markBytes
+	skip := n > 0 && !force && m.off-fs.marks[n-1].off < s.markEvery
 	same := n > 0 && fs.marks[n-1].off == m.off && fs.marks[n-1].open == m.open
 	s.fmu.Unlock()
 	if skip || same {

@@ -114,3 +114,50 @@ func TestSettledLineThatGrowsAgainIsSkipped(t *testing.T) {
 	h.poll(31 * time.Second)
 	exactlyOnce(t, h.got, 13)
 }
+
+func TestProgressMovesFileOnlyAfterCommitCoversIt(t *testing.T) {
+	ck := &MemCheckpoints{}
+	prog, err := collector.OpenProgress(ck, "assembler", time.Hour)
+	if err != nil {
+		t.Fatal(err)
+	}
+	h := newSettleHarness(t, ck)
+	processed := filepath.Join(t.TempDir(), "done")
+	os.MkdirAll(processed, 0o755)
+	src, err := New(Config{Name: srcName, Site: genSite(1), File: site.TrendfileConfig{Path: filepath.Dir(h.path), Watch: true, ProcessedDir: processed},
+		Checkpoints: ck, SettleTime: 10 * time.Second, Progress: prog, Logger: quietLog()})
+	if err != nil {
+		t.Fatal(err)
+	}
+	src.pending = map[string]bool{}
+	h.src = src
+	h.write(header1+rowsText(0, 10), 0)
+	h.poll(time.Second)
+	if n := len(h.poll(11 * time.Second)); n != 10 {
+		t.Fatalf("%d readings, want 10", n)
+	}
+	last := time.Date(2024, 1, 15, 0, 9, 0, 0, time.UTC)
+	// The consumer accepted steps up to 00:20: readFrom = 00:20 − 21 min is
+	// before the last row, so the file stays and is not read again.
+	if err := prog.Accept(last.Add(10 * time.Minute)); err != nil {
+		t.Fatal(err)
+	}
+	if err := prog.Commit(); err != nil {
+		t.Fatal(err)
+	}
+	if n := len(h.poll(12 * time.Second)); n != 0 {
+		t.Fatalf("read again: %d readings", n)
+	}
+	if _, err := os.Stat(h.path); err != nil {
+		t.Fatalf("moved before a commit covered its last row: %v", err)
+	}
+	// Accepted far enough: the next poll moves it.
+	prog.Accept(last.Add(time.Hour))
+	if err := prog.Commit(); err != nil {
+		t.Fatal(err)
+	}
+	h.poll(13 * time.Second)
+	if _, err := os.Stat(filepath.Join(processed, "export.csv")); err != nil {
+		t.Fatalf("not moved after the commit: %v", err)
+	}
+}

@@ -62,6 +62,8 @@ type Source struct {
 	// pending holds drop-folder files read to their end that wait for a
 	// commit before they are moved (Progress mode; the watch goroutine's).
 	pending map[string]bool
+	// markEvery is the least input between two resume marks (tests set it low).
+	markEvery int64
 }
 
 var _ collector.Source = (*Source)(nil)
@@ -97,7 +99,7 @@ func New(cfg Config) (*Source, error) {
 	if cfg.Checkpoints == nil {
 		cfg.Checkpoints = &MemCheckpoints{}
 	}
-	s := &Source{cfg: cfg, fmt: f, pts: pts, log: cfg.Logger}
+	s := &Source{cfg: cfg, fmt: f, pts: pts, log: cfg.Logger, markEvery: markBytes}
 	if cfg.Progress != nil {
 		s.files = map[string]*fileState{}
 		cfg.Progress.Register(cfg.Name, s.commit)
