@@ -100,103 +100,162 @@ type TrendReader struct {
 // read are counted in TrendResult.Lost. Without a checkpoint the whole
 // buffer is read.
 func (r *TrendReader) Backfill(ctx context.Context, d *Device, tl uint32, deliver func([]TrendRecord) error) (TrendResult, error) {
-	res := TrendResult{Device: d.Instance, Log: tl}
-	obj := wire.ObjectID{Type: wire.ObjectTrendLog, Instance: tl}
-	key := TrendKey(d.Instance, tl)
-	loc := r.Location
-	if loc == nil {
-		loc = time.UTC
+	c, err := r.open(ctx, d, tl)
+	if err != nil {
+		return c.res, err
 	}
-	page := r.Page
-	if page <= 0 {
-		page = 100
+	for !c.done {
+		recs, err := c.fetch(ctx)
+		if err != nil {
+			return c.res, err
+		}
+		if len(recs) == 0 {
+			continue
+		}
+		if err := deliver(recs); err != nil {
+			return c.res, err
+		}
+		if err := c.commit(recs); err != nil {
+			return c.res, err
+		}
 	}
-	// Record count and total record count (ASHRAE 135 clause 12.25.16/17).
+	return c.res, nil
+}
+
+// trendCursor walks one trend log by sequence number: open reads the
+// record counts and the checkpoint, fetch reads the next page, commit moves
+// the checkpoint past delivered records. The checkpoint never moves in
+// fetch, so records fetched but not delivered are read again next time.
+type trendCursor struct {
+	r      *TrendReader
+	d      *Device
+	tl     uint32
+	obj    wire.ObjectID
+	key    string
+	loc    *time.Location
+	page   int32
+	next   uint32 // sequence number of the next record to fetch
+	newest uint32
+	done   bool // nothing more to fetch in this sweep
+	res    TrendResult
+}
+
+// open reads the log's record count and total record count (ASHRAE 135
+// clause 12.25.16/17) and its checkpoint.
+func (r *TrendReader) open(ctx context.Context, d *Device, tl uint32) (*trendCursor, error) {
+	c := &trendCursor{r: r, d: d, tl: tl, obj: wire.ObjectID{Type: wire.ObjectTrendLog, Instance: tl},
+		key: TrendKey(d.Instance, tl), loc: r.Location, page: r.Page, res: TrendResult{Device: d.Instance, Log: tl}}
+	if c.loc == nil {
+		c.loc = time.UTC
+	}
+	if c.page <= 0 {
+		c.page = 100
+	}
 	st := r.Client.ReadMany(ctx, d, []Read{
-		{obj, wire.PropertyRef{Prop: wire.PropRecordCount, Index: wire.NoIndex}},
-		{obj, wire.PropertyRef{Prop: wire.PropTotalRecordCount, Index: wire.NoIndex}},
+		{c.obj, wire.PropertyRef{Prop: wire.PropRecordCount, Index: wire.NoIndex}},
+		{c.obj, wire.PropertyRef{Prop: wire.PropTotalRecordCount, Index: wire.NoIndex}},
 	})
 	for _, s := range st {
 		if s.Err != nil {
-			return res, fmt.Errorf("device %d trend-log %d: %w", d.Instance, tl, s.Err)
+			c.done = true
+			return c, fmt.Errorf("device %d trend-log %d: %w", d.Instance, tl, s.Err)
 		}
 		if len(s.Values) != 1 || s.Values[0].Tag != wire.TagUnsigned {
-			return res, fmt.Errorf("device %d trend-log %d: record counts are not Unsigned", d.Instance, tl)
+			c.done = true
+			return c, fmt.Errorf("device %d trend-log %d: record counts are not Unsigned", d.Instance, tl)
 		}
 	}
 	count, total := uint32(st[0].Values[0].U), uint32(st[1].Values[0].U)
 	if count == 0 {
-		return res, nil
+		c.done = true
+		return c, nil
 	}
-	newest := total
+	c.newest = total
 	oldest := total - count + 1 // modulo 2^32, like the device's counter
-	next := oldest
-	raw, ok, err := r.Checkpoints.Get(key)
+	c.next = oldest
+	raw, ok, err := r.Checkpoints.Get(c.key)
 	if err != nil {
-		return res, fmt.Errorf("%s: checkpoint: %w", key, err)
+		c.done = true
+		return c, fmt.Errorf("%s: checkpoint: %w", c.key, err)
 	}
 	if ok {
 		pos, err := decodePosition(raw)
 		if err != nil {
-			return res, fmt.Errorf("%s: %w", key, err)
+			c.done = true
+			return c, fmt.Errorf("%s: %w", c.key, err)
 		}
-		next = pos.Seq + 1
+		c.next = pos.Seq + 1
 		switch {
-		case int32(next-(newest+1)) > 0:
+		case int32(c.next-(c.newest+1)) > 0:
 			// Checkpoint ahead of the newest record: numbering restarted.
-			res.Reset, next = true, oldest
-		case int32(oldest-next) > 0:
-			res.Lost += uint64(oldest - next) // overwritten while we were away
-			next = oldest
+			c.res.Reset, c.next = true, oldest
+		case int32(oldest-c.next) > 0:
+			c.res.Lost += uint64(oldest - c.next) // overwritten while we were away
+			c.next = oldest
 		}
 	}
-	for int32(newest-next) >= 0 {
-		ack, err := r.Client.ReadRange(ctx, d, wire.ReadRangeRequest{Object: obj,
-			PropertyRef: wire.PropertyRef{Prop: wire.PropLogBuffer, Index: wire.NoIndex},
-			Kind:        wire.RangeBySequence, Ref: next, Count: page})
+	c.done = int32(c.newest-c.next) < 0
+	return c, nil
+}
+
+// fetch reads the next page (at least one record unless it sets done).
+func (c *trendCursor) fetch(ctx context.Context) ([]TrendRecord, error) {
+	d, tl := c.d, c.tl
+	ack, err := c.r.Client.ReadRange(ctx, d, wire.ReadRangeRequest{Object: c.obj,
+		PropertyRef: wire.PropertyRef{Prop: wire.PropLogBuffer, Index: wire.NoIndex},
+		Kind:        wire.RangeBySequence, Ref: c.next, Count: c.page})
+	if err != nil {
+		c.done = true
+		return nil, err
+	}
+	if ack.ItemCount == 0 {
+		c.done = true
+		if !ack.Flags.More {
+			// The records from next on are gone (overwritten between the count read and now).
+			return nil, nil
+		}
+		return nil, fmt.Errorf("device %d trend-log %d: empty answer with more-items set", d.Instance, tl)
+	}
+	first := c.next
+	if ack.HasFirstSeq {
+		first = ack.FirstSeq
+	}
+	if int32(first-c.next) > 0 {
+		c.res.Lost += uint64(first - c.next) // wrapped past us between reads
+	} else if first != c.next {
+		c.done = true
+		return nil, fmt.Errorf("device %d trend-log %d: asked from record %d, answer starts at %d", d.Instance, tl, c.next, first)
+	}
+	recs := make([]TrendRecord, 0, len(ack.Records))
+	for i, l := range ack.Records {
+		at, err := wire.ToTime(l.Date, l.Time, c.loc)
 		if err != nil {
-			return res, err
+			c.done = true
+			return nil, fmt.Errorf("device %d trend-log %d record %d: %w", d.Instance, tl, first+uint32(i), err)
 		}
-		if ack.ItemCount == 0 {
-			if !ack.Flags.More {
-				// The records from next on are gone (overwritten between the count read and now).
-				break
-			}
-			return res, fmt.Errorf("device %d trend-log %d: empty answer with more-items set", d.Instance, tl)
-		}
-		first := next
-		if ack.HasFirstSeq {
-			first = ack.FirstSeq
-		}
-		if int32(first-next) > 0 {
-			res.Lost += uint64(first - next) // wrapped past us between reads
-		} else if first != next {
-			return res, fmt.Errorf("device %d trend-log %d: asked from record %d, answer starts at %d", d.Instance, tl, next, first)
-		}
-		recs := make([]TrendRecord, 0, len(ack.Records))
-		for i, l := range ack.Records {
-			at, err := wire.ToTime(l.Date, l.Time, loc)
-			if err != nil {
-				return res, fmt.Errorf("device %d trend-log %d record %d: %w", d.Instance, tl, first+uint32(i), err)
-			}
-			recs = append(recs, TrendRecord{Seq: first + uint32(i), At: at, LogRecord: l})
-		}
-		if err := deliver(recs); err != nil {
-			return res, err
-		}
-		last := first + uint32(len(recs)) - 1
-		if err := r.Checkpoints.Put(key, trendPosition{Seq: last}.encode()); err != nil {
-			return res, fmt.Errorf("%s: checkpoint: %w", key, err)
-		}
-		if res.Records == 0 {
-			res.FirstSeq = first
-		}
-		res.Records += len(recs)
-		res.LastSeq = last
-		next = last + 1
-		if !ack.Flags.More && ack.Flags.Last {
-			break
-		}
+		recs = append(recs, TrendRecord{Seq: first + uint32(i), At: at, LogRecord: l})
 	}
-	return res, nil
+	c.next = first + uint32(len(recs))
+	if (!ack.Flags.More && ack.Flags.Last) || int32(c.newest-c.next) < 0 {
+		c.done = true
+	}
+	return recs, nil
+}
+
+// commit records that recs (a prefix of what fetch returned, in order)
+// were delivered and moves the checkpoint past the last of them.
+func (c *trendCursor) commit(recs []TrendRecord) error {
+	if len(recs) == 0 {
+		return nil
+	}
+	last := recs[len(recs)-1].Seq
+	if err := c.r.Checkpoints.Put(c.key, trendPosition{Seq: last}.encode()); err != nil {
+		return fmt.Errorf("%s: checkpoint: %w", c.key, err)
+	}
+	if c.res.Records == 0 {
+		c.res.FirstSeq = recs[0].Seq
+	}
+	c.res.Records += len(recs)
+	c.res.LastSeq = last
+	return nil
 }
