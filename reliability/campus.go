@@ -41,6 +41,9 @@ type CampusConfig struct {
 	PollInterval time.Duration
 	Timeout      time.Duration
 	Retries      int
+	// Tweak, when set, may change each controller's configuration before it
+	// is added (maximum APDU, segmentation, misbehaviour).
+	Tweak func(id string, c *bacnetdev.DeviceConfig)
 }
 
 // Device is one simulated controller of the campus.
@@ -99,7 +102,11 @@ func StartCampus(cfg CampusConfig) (*Campus, error) {
 		c.Servers = append(c.Servers, srv)
 		netw := uint16(networkBase + g)
 		add := func(id string, inst uint32, mac byte, objs []bacnetdev.Object) (Device, error) {
-			d, err := srv.AddDevice(bacnetdev.DeviceConfig{Instance: inst, Name: id, Network: netw, MAC: mac, Segmentation: wire.SegmentedBoth})
+			dc := bacnetdev.DeviceConfig{Instance: inst, Name: id, Network: netw, MAC: mac, Segmentation: wire.SegmentedBoth}
+			if cfg.Tweak != nil {
+				cfg.Tweak(id, &dc)
+			}
+			d, err := srv.AddDevice(dc)
 			if err != nil {
 				return Device{}, fmt.Errorf("campus: %s: %w", id, err)
 			}
