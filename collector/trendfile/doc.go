@@ -33,21 +33,38 @@
 // the rows around them are kept.
 //
 // Reading is streaming with one reusable buffer: memory does not grow with
-// the file. Records without quotes take a fast path (byte search for line
-// breaks and delimiters, a no-allocation number and time parser); a record
+// the file. Records without quotes take a fast path: a word-at-a-time scan
+// finds all delimiters of the row first, then each cell is parsed on its
+// own (one 64-bit word for a plain decimal of up to eight characters, a
+// small memo of recently parsed cell strings, no allocation); a record
 // with a quote takes an RFC 4180 path (quoted delimiters, doubled quotes,
 // line breaks inside quotes).
 //
 // Drop folder. A directory with Watch is polled. A file is read when its
 // size and modification time have held for SettleTime (files often arrive
-// by transfer; names ending .part, .tmp, … and dot-files are skipped). A
-// checkpoint per file, keyed by a hash of its first lines (so a renamed
-// copy is recognised) and holding the byte offset of the last record sent
-// plus a hash of the bytes before it, lets a growing file continue where
-// it stopped and a restart neither lose nor repeat rows: the checkpoint
-// only moves past batches the consumer took, and is written at most every
-// CheckpointEvery and always at the end or when ctx ends (a crash may
-// repeat at most that interval's batches). With ProcessedDir a settled file
-// is read to its end and moved there; without one only complete lines are
-// read and the file stays, its checkpoint marking how far it was read.
+// by transfer; names ending .part, .tmp, … and dot-files are skipped); a
+// settled file is read to its end, an unterminated last line included. If
+// such a file grows again, what follows is checked: a late line break is
+// skipped; text continuing the line means the writer had paused mid-line
+// longer than SettleTime, and the rest of that line is skipped with a
+// warning. A file that keeps growing faster than SettleTime is not read
+// until it pauses. A checkpoint per file, keyed by a hash of its first
+// lines (so a renamed copy is recognised) and holding a byte offset on a
+// record boundary, the time of the row before it and a hash of the bytes
+// before it, lets a growing file continue where it stopped. With
+// ProcessedDir a file read to its end is moved there; without one it
+// stays, its checkpoint marking how far it was read.
+//
+// Restarts. Without Config.Progress the checkpoint moves past the batches
+// the consumer's channel took, written at most every CheckpointEvery and at
+// the end; readings still inside the assembler's lateness window at a stop
+// are then lost, and a crash repeats up to CheckpointEvery of batches. With
+// a collector.Progress shared with the assembler, a checkpoint only covers
+// readings the accepted steps no longer need: the source keeps resume
+// marks and each commit stores, per file, the last mark whose earlier rows
+// all lie at or before watermark − lookback; a file is done (and moved)
+// once that passes its last row. A restart, after a clean stop or kill -9
+// at any moment, re-reads from there and the assembler skips the steps
+// already accepted, so the steps after the watermark come out exactly as
+// in an uninterrupted run (restart_test.go).
 package trendfile
