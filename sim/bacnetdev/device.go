@@ -62,10 +62,42 @@ type TrendLogConfig struct {
 }
 
 type trendLog struct {
-	cfg     TrendLogConfig
-	records []wire.LogRecord // ring: oldest at start
-	total   uint32           // total-record-count: sequence number of the newest record
-	last    time.Time
+	cfg   TrendLogConfig
+	ring  []logRec // circular buffer of up to BufferSize records
+	head  int      // index in ring of the oldest record once the ring is full
+	total uint32   // total-record-count: sequence number of the newest record
+	last  time.Time
+}
+
+// logRec is one stored record, 16 octets: a log buffer of a week of
+// one-minute records is 160 KB. The value is kept as the REAL it is on the
+// wire (ASHRAE 135 clause 20.2.6: IEEE 754 single precision).
+type logRec struct {
+	at    int64 // Unix nanoseconds
+	value float32
+	flags uint8 // status flags, bit i = flag i
+	kind  uint8 // wire.LogReal or wire.LogEnumerated
+}
+
+// count is record-count.
+func (l *trendLog) count() int { return len(l.ring) }
+
+// rec returns the i-th oldest record.
+func (l *trendLog) rec(i int) *logRec {
+	j := l.head + i
+	if j >= len(l.ring) {
+		j -= len(l.ring)
+	}
+	return &l.ring[j]
+}
+
+// record returns the i-th oldest record in wire form, stamped in loc.
+func (l *trendLog) record(i int, loc *time.Location) wire.LogRecord {
+	r := l.rec(i)
+	dt, tm := wire.DateTimeOf(time.Unix(0, r.at).In(loc))
+	f := r.flags
+	return wire.LogRecord{Date: dt, Time: tm, Kind: r.kind, Value: float64(r.value), HasFlags: true,
+		Flags: wire.NewBitString(f&1 != 0, f&2 != 0, f&4 != 0, f&8 != 0)}
 }
 
 // Device is one simulated device. Its methods are safe for concurrent use.
@@ -195,17 +227,23 @@ func (d *Device) Record(trendLog uint32, at time.Time, v float64, flags [4]bool)
 }
 
 func (d *Device) appendRecord(l *trendLog, at time.Time, v float64, flags [4]bool) {
-	dt, tm := wire.DateTimeOf(at.In(d.cfg.Location))
-	r := wire.LogRecord{Date: dt, Time: tm, Kind: wire.LogReal, Value: v, HasFlags: true,
-		Flags: wire.NewBitString(flags[0], flags[1], flags[2], flags[3])}
+	r := logRec{at: at.UnixNano(), value: float32(v), kind: wire.LogReal}
+	for i, f := range flags {
+		if f {
+			r.flags |= 1 << i
+		}
+	}
 	if l.cfg.Logged.Type.IsBinary() {
-		r.Kind = wire.LogEnumerated
+		r.kind = wire.LogEnumerated
 	}
-	if len(l.records) >= l.cfg.BufferSize {
-		copy(l.records, l.records[1:])
-		l.records = l.records[:len(l.records)-1]
+	if len(l.ring) < l.cfg.BufferSize {
+		l.ring = append(l.ring, r)
+	} else {
+		l.ring[l.head] = r // overwrite the oldest
+		if l.head++; l.head == len(l.ring) {
+			l.head = 0
+		}
 	}
-	l.records = append(l.records, r)
 	l.total++ // wraps at 2^32 like the device's Unsigned32
 }
 

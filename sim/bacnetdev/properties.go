@@ -173,7 +173,7 @@ func readTrendLog(id wire.ObjectID, l *trendLog, p wire.PropertyID) ([]wire.Valu
 	case wire.PropBufferSize:
 		return []wire.Value{wire.Unsigned(uint64(l.cfg.BufferSize))}, nil
 	case wire.PropRecordCount:
-		return []wire.Value{wire.Unsigned(uint64(len(l.records)))}, nil
+		return []wire.Value{wire.Unsigned(uint64(l.count()))}, nil
 	case wire.PropTotalRecordCount:
 		return []wire.Value{wire.Unsigned(uint64(l.total))}, nil
 	case wire.PropLogInterval:

@@ -1,6 +1,8 @@
 package bacnetdev
 
 import (
+	"slices"
+
 	"risewatch/collector/bacnet/wire"
 )
 
@@ -24,7 +26,7 @@ func (d *Device) readRange(q wire.ReadRangeRequest, budget int) (wire.ReadRangeA
 	if q.Prop != wire.PropLogBuffer {
 		return wire.ReadRangeACK{}, errUnknownProperty
 	}
-	n := len(l.records)
+	n := l.count()
 	oldest := l.total - uint32(n) + 1
 	lo, hi := 0, -1 // inclusive index range, empty when hi < lo
 	switch q.Kind {
@@ -38,20 +40,21 @@ func (d *Device) readRange(q wire.ReadRangeRequest, budget int) (wire.ReadRangeA
 			lo, hi = span(int64(off), q.Count, n)
 		}
 	case wire.RangeByTime:
-		ref, err := wire.ToTime(q.RefDate, q.RefTime, d.cfg.Location)
+		refT, err := wire.ToTime(q.RefDate, q.RefTime, d.cfg.Location)
 		if err != nil {
 			return wire.ReadRangeACK{}, &wire.PropertyError{Class: wire.ErrClassServices, Code: 37} // value-out-of-range
 		}
+		ref := refT.UnixNano()
 		if q.Count > 0 {
-			for i, r := range l.records {
-				if at, _ := wire.ToTime(r.Date, r.Time, d.cfg.Location); at.After(ref) {
+			for i := 0; i < n; i++ {
+				if l.rec(i).at > ref {
 					lo, hi = span(int64(i), q.Count, n)
 					break
 				}
 			}
 		} else {
 			for i := n - 1; i >= 0; i-- {
-				if at, _ := wire.ToTime(l.records[i].Date, l.records[i].Time, d.cfg.Location); at.Before(ref) {
+				if l.rec(i).at < ref {
 					lo, hi = span(int64(i), q.Count, n)
 					break
 				}
@@ -62,21 +65,23 @@ func (d *Device) readRange(q wire.ReadRangeRequest, budget int) (wire.ReadRangeA
 	if hi < lo {
 		return ack, nil
 	}
-	sel := l.records[lo : hi+1]
 	// Cut to fit: forward counts keep the oldest, backward counts the newest.
-	size, keep := 0, 0
-	for k := range sel {
-		i := k
+	var sel []wire.LogRecord
+	var scratch []byte
+	size, total := 0, hi-lo+1
+	for k := 0; k < total; k++ {
+		i := lo + k
 		if q.Count < 0 {
-			i = len(sel) - 1 - k
+			i = hi - k
 		}
-		size += len(wire.AppendLogRecord(nil, sel[i]))
-		if size > budget {
+		r := l.record(i, d.cfg.Location)
+		scratch = wire.AppendLogRecord(scratch[:0], r)
+		if size += len(scratch); size > budget {
 			break
 		}
-		keep++
+		sel = append(sel, r)
 	}
-	if keep < len(sel) {
+	if keep := len(sel); keep < total {
 		ack.Flags.More = true
 		if q.Count < 0 {
 			lo = hi - keep + 1
@@ -87,7 +92,10 @@ func (d *Device) readRange(q wire.ReadRangeRequest, budget int) (wire.ReadRangeA
 			return ack, nil
 		}
 	}
-	ack.Records = append([]wire.LogRecord(nil), l.records[lo:hi+1]...)
+	if q.Count < 0 {
+		slices.Reverse(sel)
+	}
+	ack.Records = sel
 	ack.ItemCount = uint32(len(ack.Records))
 	ack.Flags.First, ack.Flags.Last = lo == 0, hi == n-1
 	if q.Kind == wire.RangeBySequence || q.Kind == wire.RangeByTime {
