@@ -35,6 +35,12 @@ const (
 	closedFitSigmaMax = 0.4 // intercept standard error below which it counts as identified, K
 )
 
+// closedEstimate is the cached result of closedFit.estimate.
+type closedEstimate struct {
+	a, sig, heat float64
+	ok           bool
+}
+
 func (c *closedFit) add(h, y float64) {
 	d := 1 - 1.0/closedFitTau
 	c.n = d*c.n + 1

@@ -37,6 +37,8 @@ type Engine struct {
 	loops    []loopAcc
 	loopOut  []LoopEvidence
 	lastStep time.Time
+	blank    Evidence  // every computed value NaN: the start of each sample's evidence
+	learn    []learner // learning reservoirs, apart from the hot per-sample state
 }
 
 // NewEngine builds the engine for s with cfg (zero fields take defaults).
@@ -74,9 +76,12 @@ func newEngine(s *site.Site, cfg Config, pf physicsFactory) (*Engine, error) {
 	en.perfAlpha = alphaFor(float64(c.stepsFor(30)))
 	en.facAlpha = alphaFor(c.FactorHours * en.stepsPerHour)
 	en.respDecay = math.Exp(-respStatsEvery / (c.ResponseHours * en.stepsPerHour))
+	setNaN(&en.blank)
+	en.blank.EWMALimit = en.ewmaLim
 
 	en.terms = make([]termStatic, len(s.Terminals))
 	en.state = make([]termState, len(s.Terminals))
+	en.learn = make([]learner, len(s.Terminals))
 	en.loops = make([]loopAcc, len(s.Loops))
 	en.loopOut = make([]LoopEvidence, 0, len(s.Loops))
 	for i := range s.Terminals {
@@ -116,16 +121,14 @@ func (en *Engine) initTerminal(i int, pf physicsFactory) {
 		ts.fanOnM3s = t.MinAirflowM3s / 3
 	}
 	st := &en.state[i]
-	st.valve.init(en.cfg.SteadyWindow)
-	st.air.init(en.cfg.SteadyWindow)
-	st.sat.init(en.cfg.SteadyWindow)
-	st.hw.init(en.cfg.SteadyWindow)
+	st.in.init(en.cfg.SteadyWindow)
 	st.dat.init(max(en.cfg.SteadyWindow/2, 2))
 	st.leakFlow = -1
 	st.perfHighLast = nan
+	st.cmpShare = nan
 	st.base = ratedBaseline(t.ID)
 	if en.cfg.LearnMinPoints == 0 {
-		st.learn.done = true
+		st.learnDone = true
 	}
 	phys, fc, err := pf(t, loop)
 	if err == nil {
@@ -170,10 +173,12 @@ func (en *Engine) applyBaseline(i int, b Baseline) error {
 		return fmt.Errorf("terminal %s: coil model at UA factor %.3g: %w", ts.id, b.UAFactor*uaStep, err)
 	}
 	st.r, st.rUA, st.flowScale, st.base = r, rUA, b.FlowFactor, b
+	st.learnedBase = b.Source == "learned"
 	st.designFlow = ts.flow.design() * b.FlowFactor
 	st.eval = evaluation{}
 	st.fac, st.facOut = factorSums{}, factorOut{}
-	st.cmp = faultCompare{}
+	st.secU, st.secF, st.secAge = 1, 1, 0
+	st.cmp, st.cmpShare = faultCompare{}, nan
 	st.chart = chart{}
 	st.resp = response{}
 	st.respStats = st.resp.stats()
@@ -183,9 +188,11 @@ func (en *Engine) applyBaseline(i int, b Baseline) error {
 // finishLearning fits the baseline from the learning reservoir and adopts it
 // when plausible.
 func (en *Engine) finishLearning(st *termState, t *termStatic) {
-	st.learn.done = true
+	st.learnDone = true
 	i := t.idx
-	b, err := fitBaseline(t.phys, &t.flow, &st.learn)
+	l := &en.learn[i]
+	l.done = true
+	b, err := fitBaseline(t.phys, &t.flow, l)
 	if err != nil {
 		st.base.Rejected = err.Error()
 		return
@@ -231,7 +238,7 @@ func (en *Engine) StepTerminals(samples []collector.Sample, out []Evidence) []Ev
 		if i < 0 || i >= len(en.terms) {
 			continue
 		}
-		out = append(out, Evidence{})
+		out = append(out, en.blank)
 		en.process(s, &en.terms[i], &en.state[i], &out[len(out)-1])
 	}
 	return out
@@ -283,7 +290,8 @@ func (en *Engine) LoadBaselines(bs []Baseline) error {
 			errs = append(errs, err)
 			continue
 		}
-		en.state[i].learn.done = true
+		en.state[i].learnDone = true
+		en.learn[i].done = true
 		if b.Source == "learned" {
 			en.state[i].healthyAt, en.state[i].shortSince = b.To, time.Time{}
 		}

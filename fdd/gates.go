@@ -1,8 +1,6 @@
 package fdd
 
 import (
-	"math"
-
 	"risewatch/collector"
 )
 
@@ -33,9 +31,9 @@ type inputs struct {
 // Fan and plant status fall back to inference when the site defines no point:
 // fan on when airflow exceeds a third of the box minimum, plant on when the
 // hot water is at least 8 K above the supply air [I].
-func gate(s *collector.Sample, t *termStatic) (Gate, inputs) {
+func gate(s *collector.Sample, t *termStatic, in *inputs) Gate {
 	var g Gate
-	in := inputs{v: s.AirflowM3s, dat: s.DischargeC, sat: s.SupplyC, u: s.ValveFrac, hw: s.HotWaterC}
+	*in = inputs{v: s.AirflowM3s, dat: s.DischargeC, sat: s.SupplyC, u: s.ValveFrac, hw: s.HotWaterC}
 	f := s.Flags
 	if f&(collector.FlagAirflow|collector.FlagDischarge|collector.FlagValve) != 0 {
 		g |= GateMissing
@@ -79,7 +77,7 @@ func gate(s *collector.Sample, t *termStatic) (Gate, inputs) {
 		case in.u < valveMin || in.u > valveMax:
 			g |= GateRange
 		default:
-			in.u = math.Max(0, math.Min(1, in.u))
+			in.u = fmax(0, fmin(1, in.u))
 		}
 	}
 	// Fan.
@@ -102,5 +100,5 @@ func gate(s *collector.Sample, t *termStatic) (Gate, inputs) {
 	default:
 		in.plantOn = finite(in.hw) && finite(in.sat) && in.hw-in.sat >= 8
 	}
-	return g, in
+	return g
 }

@@ -15,6 +15,9 @@ func (en *Engine) modelSample(st *termState, t *termStatic, in inputs, eat, obs 
 	if !st.eval.near(in.v, eat, mw, in.hw) {
 		st.eval = evaluate(st.r, st.rUA, in.v, eat, mw, in.hw)
 		st.evalSteps++
+		if st.eval.ok {
+			en.relinearise(st, &st.eval)
+		}
 	}
 	ev := &st.eval
 	if !ev.ok {
@@ -50,9 +53,11 @@ func (en *Engine) modelSample(st *termState, t *termStatic, in inputs, eat, obs 
 	}
 	en.updateFactors(st, ev.dLU, ev.dM*mw, res, s2)
 	st.cmp.add(res, ev.dLU, ev.dM*mw, restrictionSens(ev.dM, mw, st.designFlow), 1/s2, en.facAlpha)
+	st.cmpShare = st.cmp.share()
 	if e.Learning {
-		st.learn.add(learnPoint{at: e.At, v: in.v, eat: eat, u: in.u, thw: in.hw, obsRise: obs})
-		if st.learn.ready(cfg.LearnMinPoints, time.Duration(cfg.LearnMinHours*float64(time.Hour)), e.At) {
+		l := &en.learn[t.idx]
+		l.add(learnPoint{at: e.At, v: in.v, eat: eat, u: in.u, thw: in.hw, obsRise: obs})
+		if l.ready(cfg.LearnMinPoints, time.Duration(cfg.LearnMinHours*float64(time.Hour)), e.At) {
 			en.finishLearning(st, t)
 		}
 	}
@@ -79,11 +84,15 @@ func (en *Engine) residualVar(ev *evaluation, in inputs, f, mw, baseSig float64)
 func sq(x float64) float64 { return x * x }
 
 // updateFactors adds one linearised observation r ≈ g_U·δlnUA + g_F·δlnF
-// (weight 1/σ²) to the exponentially forgotten normal equations and solves
-// the 2×2 system with the weak prior of the baseline fit. This is one
-// Gauss-Newton step from the baseline, re-solved per sample; the covariance
-// is inflated by ChartBlock for the serial correlation of 1-min samples.
+// (weight 1/σ²) to the exponentially forgotten normal equations. The slopes
+// are secants through the running estimate rather than tangents at the
+// baseline (st.secU, st.secF, see relinearise), so a large fault is not
+// distorted by the curvature of the rise in ln UA and ln F: the
+// least-squares estimate is then a fixed point of Gauss-Newton iterations
+// spread over the samples (Bard 1974, ch. 5).
 func (en *Engine) updateFactors(st *termState, gU, gF, res, s2 float64) {
+	gU *= st.secU
+	gF *= st.secF
 	fs := &st.fac
 	d := 1 - en.facAlpha
 	w := 1 / s2
@@ -93,6 +102,17 @@ func (en *Engine) updateFactors(st *termState, gU, gF, res, s2 float64) {
 	fs.b0 = d*fs.b0 + w*gU*res
 	fs.b1 = d*fs.b1 + w*gF*res
 	fs.n = d*fs.n + 1
+}
+
+// solveFactors solves the 2×2 normal equations with the weak prior of the
+// baseline fit; the covariance is inflated by ChartBlock for the serial
+// correlation of 1-min samples. Called on the response cadence: the factors
+// move on the FactorHours time scale.
+func (en *Engine) solveFactors(st *termState) {
+	fs := &st.fac
+	if fs.n == 0 {
+		return
+	}
 	p := 1 / (priorSigmaLog * priorSigmaLog)
 	m00, m01, m11 := fs.a00+p, fs.a01, fs.a11+p
 	det := m00*m11 - m01*m01
@@ -105,6 +125,48 @@ func (en *Engine) updateFactors(st *termState, gU, gF, res, s2 float64) {
 	cu, cf := infl*m11/det, infl*m00/det
 	ua, fl := math.Exp(du), math.Exp(df)
 	st.facOut = factorOut{ua: ua, uaSig: ua * math.Sqrt(cu), fl: fl, flSig: fl * math.Sqrt(cf)}
+}
+
+// relinearise updates the secant-to-tangent slope ratios at the current
+// model evaluation: ρ_U = (f(UA·e^δu) − f)/(δu·∂f/∂lnUA) and likewise for
+// the flow factor, each at the running estimate (1 while the estimate is
+// within secantMinLog of the baseline). Two model evaluations, done every
+// secantEvery evaluations.
+func (en *Engine) relinearise(st *termState, ev *evaluation) {
+	st.secAge++
+	if st.secAge < secantEvery || !(st.facOut.ua > 0) {
+		return
+	}
+	st.secAge = 0
+	op := coilOp(ev.v, ev.eat, ev.mw, ev.thw)
+	if du := math.Log(st.facOut.ua); math.Abs(du) > secantMinLog && math.Abs(ev.dLU) > 1e-6 {
+		fU := st.r.ExpectedRiseWith(op, st.r.UAMultiplier()*st.facOut.ua, 1)
+		st.secU = clampRatio((fU - ev.f) / (du * ev.dLU))
+	} else {
+		st.secU = 1
+	}
+	if df := math.Log(st.facOut.fl); math.Abs(df) > secantMinLog && math.Abs(ev.dM*ev.mw) > 1e-6 {
+		fF := st.r.ExpectedRiseWith(op, st.r.UAMultiplier(), st.facOut.fl)
+		st.secF = clampRatio((fF - ev.f) / (df * ev.dM * ev.mw))
+	} else {
+		st.secF = 1
+	}
+}
+
+// Secant re-linearisation cadence and limits [I].
+const (
+	secantEvery  = 4    // model evaluations between secant updates
+	secantMinLog = 0.03 // |ln factor| below which the tangent is used
+)
+
+func clampRatio(x float64) float64 {
+	if !(x > 0.2) {
+		return 0.2
+	}
+	if x > 5 {
+		return 5
+	}
+	return x
 }
 
 // leakFlow runs, every few steps of steady operation at zero command held
@@ -142,12 +204,13 @@ func (en *Engine) leakFlow(st *termState, t *termStatic, in inputs, eat float64)
 	// Reference leak flow from the raw rise (no offset removed: the fit's
 	// shape must not depend on its own result).
 	ref := leakRefMin * design
+	rawM := 0.0
 	if rise > 0.3 {
-		m := invertFlow(st.r, in.v, eat, in.hw, rise, design)
-		if !finite(m) {
-			m = design
+		rawM = invertFlow(st.r, in.v, eat, in.hw, rise, design)
+		if !finite(rawM) {
+			rawM = design
 		}
-		ref = math.Max(ref, m)
+		ref = math.Max(ref, rawM)
 	}
 	// Slow: h must follow the operating point, not the rise it is fitted
 	// to (a reference tracking each rise would make h ≈ rise and hide an
@@ -159,11 +222,17 @@ func (en *Engine) leakFlow(st *termState, t *termStatic, in inputs, eat float64)
 	}
 	op.WaterFlowM3s = st.leakRef
 	st.closed.add(st.r.ExpectedRise(op), rise)
+	ce := &st.closedEst
+	ce.a, ce.sig, ce.heat, ce.ok = st.closed.estimate(en.cfg.Accuracy.ModelFrac)
 
-	heat := rise
-	heat -= en.offsetUsed(st)
+	off := en.offsetUsed(st)
+	heat := rise - off
 	frac := 0.0
-	if heat > 0.3 {
+	switch {
+	case heat <= 0.3:
+	case math.Abs(off) < 0.05 && rawM > 0: // no offset: the raw inversion is the answer
+		frac = rawM / design
+	default:
 		m := invertFlow(st.r, in.v, eat, in.hw, heat, design)
 		frac = 1 // more than the open valve gives: reported as full flow
 		if finite(m) {
@@ -189,8 +258,8 @@ func (en *Engine) offsetUsed(st *termState) float64 {
 	if off := st.offset.value(); finite(off) {
 		return off
 	}
-	if a, sig, _, ok := st.closed.estimate(en.cfg.Accuracy.ModelFrac); ok && sig <= closedFitSigmaMax {
-		return a
+	if ce := &st.closedEst; ce.ok && ce.sig <= closedFitSigmaMax {
+		return ce.a
 	}
 	return 0
 }
@@ -200,12 +269,12 @@ func (en *Engine) copyRunning(st *termState, e *Evidence) {
 	e.LeakRiseK = st.leak.value()
 	e.ClosedRiseK = st.closedRaw.value()
 	e.OffsetK = st.offset.value()
-	if a, sig, heat, ok := st.closed.estimate(en.cfg.Accuracy.ModelFrac); ok {
-		e.ClosedOffsetK, e.ClosedOffsetSigmaK, e.ClosedHeatK = a, sig, heat
+	if ce := &st.closedEst; ce.ok {
+		e.ClosedOffsetK, e.ClosedOffsetSigmaK, e.ClosedHeatK = ce.a, ce.sig, ce.heat
 	}
 	e.ClosedCapacityFrac = st.closedCap.value()
 	e.PerfHighLast = st.perfHighLast
-	e.StarvedShare = st.cmp.share()
+	e.StarvedShare = st.cmpShare
 	if st.learnedUA > 0 {
 		e.RejectedUAFactor = st.learnedUA
 	}

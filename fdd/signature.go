@@ -61,7 +61,7 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 	// capacity and no heat at high command is what only a reversed valve
 	// (or reversed signal) does; a valve stuck open also heats at high command.
 	if finite(e.ClosedCapacityFrac) && finite(e.PerfHighLast) {
-		rev = math.Max(rev, ramp(e.ClosedCapacityFrac, revCapLo, revCapHi)*(1-ramp(e.PerfHighLast, noHeatPerfLo, noHeatPerfHi)))
+		rev = fmax(rev, ramp(e.ClosedCapacityFrac, revCapLo, revCapHi)*(1-ramp(e.PerfHighLast, noHeatPerfLo, noHeatPerfHi)))
 	}
 	unresp *= 1 - rev
 
@@ -94,7 +94,7 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 	var noHeat, capLoss float64
 	if finite(p) {
 		noHeat = 1 - ramp(p, noHeatPerfLo, noHeatPerfHi)
-		capLoss = math.Max(ramp(1-p, capLossLo, capLossHi),
+		capLoss = fmax(ramp(1-p, capLossLo, capLossHi),
 			0.8*ramp(e.CUSUMLowK, cusumLo, cusumHi)*ramp(1-p, 0.5*capLossLo, capLossLo))
 		capLoss *= 1 - noHeat
 	}
@@ -110,24 +110,24 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 	fouledShare, starvedShare := 0.5, 0.5
 	if capLoss > 0 {
 		var sv float64
-		if finite(e.StarvedShare) && !e.Learning && st.base.Source == "learned" {
+		if finite(e.StarvedShare) && !e.Learning && st.learnedBase {
 			sv = ramp(e.StarvedShare, shapeLo, shapeHi)
 		}
 		if finite(e.OnsetHours) {
-			sv = math.Max(sv, 1-ramp(e.OnsetHours, abruptLoH, abruptHiH))
+			sv = fmax(sv, 1-ramp(e.OnsetHours, abruptLoH, abruptHiH))
 		}
 		starvedShare, fouledShare = sv, 1-sv
 	}
 	sharp := func(x float64) float64 { return ramp(x, 0.35, 0.65) }
 
 	sc[KindLeakingValve] = leak
-	sc[KindStuckValve] = math.Max(math.Max(unresp, stuckOpen), noHeat)
+	sc[KindStuckValve] = fmax(fmax(unresp, stuckOpen), noHeat)
 	sc[KindFouledCoil] = capLoss * sharp(fouledShare) * (1 - unresp)
 	sc[KindStarvedCoil] = capLoss * sharp(starvedShare) * (1 - unresp)
 	sc[KindReversedValve] = rev
 	sc[KindHunting] = ramp(e.ReversalsPerHour, huntLo, huntHi)
 	neg := ramp(-e.ClosedRiseK, offsetLoK, offsetHiK) // DAT below SAT with the fan on and the valve closed: impossible
-	sc[KindDATOffset] = math.Max(ramp(math.Abs(off), offsetLoK, offsetHiK), neg)
+	sc[KindDATOffset] = fmax(ramp(math.Abs(off), offsetLoK, offsetHiK), neg)
 	if finite(e.DATSetC) && e.PlantOn {
 		// Guideline 36 §5.6.6 low-DAT alarm: ≥ 8 K (15 °F) below setpoint.
 		sc[KindLowDischarge] = ramp(e.DATSetC-e.DischargeC, 0.5*cfg.LowDischargeK, cfg.LowDischargeK)
@@ -145,7 +145,7 @@ func datFailedScore(e *Evidence, st *termState, flatMin float64) float64 {
 	if moved {
 		flat = ramp(e.DATFlatMinutes, 0.25*flatMin, 0.5*flatMin)
 	}
-	return math.Max(flat, ramp(e.DATBadMinutes, datBadLoMin, datBadHiMin))
+	return fmax(flat, ramp(e.DATBadMinutes, datBadLoMin, datBadHiMin))
 }
 
 // scoreDataQuality scores a sample with a data gate: only data-quality kinds.

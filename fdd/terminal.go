@@ -27,12 +27,16 @@ type termStatic struct {
 // termState is the bounded running state of one terminal. Its size does not
 // depend on how long the engine runs.
 type termState struct {
-	r, rUA    riser   // calibrated coil at the baseline UA (and UA × uaStep)
-	flowScale float64 // baseline flow factor
-	base      Baseline
-	learn     learner
+	r, rUA      riser   // calibrated coil at the baseline UA (and UA × uaStep)
+	flowScale   float64 // baseline flow factor
+	base        Baseline
+	learnedBase bool    // base.Source == "learned"
+	learnDone   bool    // learning finished (or off)
+	secU, secF  float64 // secant/tangent slope ratios of the running factor fit
+	secAge      int     // model evaluations since the last secant update
 
-	valve, air, sat, hw, dat window // dat holds the last half window
+	in  window4 // valve, airflow, SAT, HW temperature over the steady window
+	dat window  // DAT over the last half window
 
 	steps      int // samples processed
 	lastDAT    float64
@@ -67,10 +71,12 @@ type termState struct {
 	perf       ewma
 
 	closed       closedFit // closed-valve rise = a + s·h (offset versus heat)
-	closedRaw    ewma      // raw steady closed-valve rise (no model correction)
-	closedCap    ewma      // closed-valve rise / full-open rise
-	leakRef      float64   // reference leak flow of the closed fit, m³/s (0 until set)
-	perfHighLast float64   // last valid high-command performance (NaN until seen)
+	closedEst    closedEstimate
+	cmpShare     float64 // cached cmp.share()
+	closedRaw    ewma    // raw steady closed-valve rise (no model correction)
+	closedCap    ewma    // closed-valve rise / full-open rise
+	leakRef      float64 // reference leak flow of the closed fit, m³/s (0 until set)
+	perfHighLast float64 // last valid high-command performance (NaN until seen)
 	cmp          faultCompare
 	learnedUA    float64   // learned UA factor that was rejected (0 if none)
 	zoneDef      ewma      // heating setpoint − zone temperature
@@ -100,16 +106,16 @@ const (
 // nan is a quiet NaN.
 var nan = math.NaN()
 
-// process turns one sample into evidence e for terminal t with state st.
+// process turns one sample into evidence e (a copy of en.blank) for
+// terminal t with state st.
 func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *Evidence) {
 	cfg := &en.cfg
 	st.steps++
-	*e = Evidence{Terminal: s.Terminal, At: s.At}
-	setNaN(e)
-	e.Learning = st.base.Source != "learned" && cfg.LearnMinPoints > 0 && !st.learn.done
-	e.EWMALimit = en.ewmaLim
+	e.Terminal, e.At = s.Terminal, s.At
+	e.Learning = !st.learnedBase && cfg.LearnMinPoints > 0 && !st.learnDone
 
-	g, in := gate(s, t)
+	var in inputs
+	g := gate(s, t, &in)
 	e.FanOn, e.PlantOn, e.Occupied = in.fanOn, in.plantOn, s.Occupied
 	e.ValveFrac, e.AirflowM3s, e.SupplyC, e.DischargeC, e.HotWaterC = in.u, in.v, in.sat, in.dat, in.hw
 
@@ -174,16 +180,14 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	e.ObservedRiseK = obs
 	e.DATMinusSATK = in.dat - in.sat
 
-	st.valve.push(in.u)
-	st.air.push(in.v)
-	st.sat.push(in.sat)
-	st.hw.push(in.hw)
+	st.in.push([nCh]float64{chValve: in.u, chAir: in.v, chSAT: in.sat, chHW: in.hw})
 	st.dat.push(in.dat)
 	st.respAge++
 	if st.respAge >= respStatsEvery {
 		st.resp.decay(en.respDecay)
 		st.respStats = st.resp.stats()
 		st.respAge = 0
+		en.solveFactors(st)
 		if p := st.respStats.perfHigh; finite(p) {
 			st.perfHighLast = p
 			// Onset of a capacity loss, with hysteresis between the start
@@ -254,22 +258,23 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 // inputsSteady checks the full-window steadiness of valve, airflow, SAT and
 // HW temperature.
 func (en *Engine) inputsSteady(st *termState) bool {
-	if !st.valve.full() {
+	w4 := &st.in
+	if !w4.full() {
 		return false
 	}
-	w := float64(st.valve.n - 1)
-	if math.Abs(st.valve.slope())*w > en.cfg.SteadyValveSpan || st.valve.variance() > en.valveVar {
+	w := float64(w4.n - 1)
+	if math.Abs(w4.slope(chValve))*w > en.cfg.SteadyValveSpan || w4.variance(chValve) > en.valveVar {
 		return false
 	}
-	ma := st.air.mean()
-	if st.air.variance() > (en.cfg.SteadyAirflowFrac*ma)*(en.cfg.SteadyAirflowFrac*ma)+1e-6 ||
-		math.Abs(st.air.slope())*w > 2*en.cfg.SteadyAirflowFrac*ma+1e-3 {
+	ma := w4.mean(chAir)
+	if w4.variance(chAir) > (en.cfg.SteadyAirflowFrac*ma)*(en.cfg.SteadyAirflowFrac*ma)+1e-6 ||
+		math.Abs(w4.slope(chAir))*w > 2*en.cfg.SteadyAirflowFrac*ma+1e-3 {
 		return false
 	}
-	if math.Abs(st.sat.slope()) > en.tempSlope || st.sat.variance() > en.tempVar {
+	if math.Abs(w4.slope(chSAT)) > en.tempSlope || w4.variance(chSAT) > en.tempVar {
 		return false
 	}
-	return math.Abs(st.hw.slope()) <= en.hwSlope
+	return math.Abs(w4.slope(chHW)) <= en.hwSlope
 }
 
 // trackFlat follows how long the DAT has repeated exactly the same value and
@@ -289,10 +294,7 @@ func (en *Engine) trackFlat(st *termState, in inputs) {
 }
 
 func (st *termState) resetWindows() {
-	st.valve.reset()
-	st.air.reset()
-	st.sat.reset()
-	st.hw.reset()
+	st.in.reset()
 	st.dat.reset()
 	st.rev.reset()
 }

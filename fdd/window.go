@@ -132,3 +132,118 @@ func (w *window) ago(k int) float64 {
 	}
 	return w.ring[i]
 }
+
+// Channels of the input window (valve, airflow, SAT, HW temperature).
+const (
+	chValve = iota
+	chAir
+	chSAT
+	chHW
+	nCh
+)
+
+// window4 is four sliding windows of the same length that are always pushed
+// and reset together (the steady-state inputs), with shared indexing so one
+// push costs one ring update. Same sums and formulas as window.
+type window4 struct {
+	ring   [maxWindow][nCh]float64
+	n      int
+	count  int
+	head   int
+	pushes int
+	sum    [nCh]float64
+	sumSq  [nCh]float64
+	sumJ   [nCh]float64
+}
+
+func (w *window4) init(n int) { *w = window4{n: n} }
+
+func (w *window4) reset() {
+	w.count, w.head = 0, 0
+	w.sum, w.sumSq, w.sumJ = [nCh]float64{}, [nCh]float64{}, [nCh]float64{}
+}
+
+func (w *window4) full() bool { return w.count == w.n }
+
+// push appends one sample per channel (see window.push for the sliding Σj·x).
+func (w *window4) push(x [nCh]float64) {
+	slot := &w.ring[w.head]
+	if w.count < w.n {
+		c := float64(w.count)
+		for k := 0; k < nCh; k++ {
+			v := x[k]
+			w.sumJ[k] += c * v
+			w.sum[k] += v
+			w.sumSq[k] += v * v
+		}
+		*slot = x
+		w.count++
+	} else {
+		n1 := float64(w.n - 1)
+		for k := 0; k < nCh; k++ {
+			v, old := x[k], slot[k]
+			w.sumJ[k] = w.sumJ[k] - (w.sum[k] - old) + n1*v
+			w.sum[k] += v - old
+			w.sumSq[k] += v*v - old*old
+		}
+		*slot = x
+		w.pushes++
+	}
+	w.head++
+	if w.head == w.n {
+		w.head = 0
+	}
+	if w.pushes >= rebuildEvery {
+		w.rebuild()
+	}
+}
+
+func (w *window4) rebuild() {
+	w.pushes = 0
+	w.sum, w.sumSq, w.sumJ = [nCh]float64{}, [nCh]float64{}, [nCh]float64{}
+	start := w.head - w.count
+	if start < 0 {
+		start += w.n
+	}
+	for j := 0; j < w.count; j++ {
+		i := start + j
+		if i >= w.n {
+			i -= w.n
+		}
+		for k := 0; k < nCh; k++ {
+			v := w.ring[i][k]
+			w.sum[k] += v
+			w.sumSq[k] += v * v
+			w.sumJ[k] += float64(j) * v
+		}
+	}
+}
+
+func (w *window4) mean(k int) float64 {
+	if w.count == 0 {
+		return 0
+	}
+	return w.sum[k] / float64(w.count)
+}
+
+func (w *window4) variance(k int) float64 {
+	if w.count < 2 {
+		return 0
+	}
+	c := float64(w.count)
+	v := (w.sumSq[k] - w.sum[k]*w.sum[k]/c) / c
+	if v < 0 {
+		return 0
+	}
+	return v
+}
+
+func (w *window4) slope(k int) float64 {
+	if w.count < 2 {
+		return 0
+	}
+	c := float64(w.count)
+	sj := c * (c - 1) / 2
+	sjj := (c - 1) * c * (2*c - 1) / 6
+	return (c*w.sumJ[k] - sj*w.sum[k]) / (c*sjj - sj*sj)
+}
