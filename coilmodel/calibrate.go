@@ -88,7 +88,9 @@ var (
 )
 
 // solveLogMonotone finds x in [lo, hi] with g(x) = 0 for g increasing in x,
-// working on ln x with Brent's method to a relative tolerance of 1e−12.
+// working on ln x with Brent's method to a relative tolerance on x of about
+// 1e−13 (an absolute one on ln x, so that a root at x = 1 converges as fast
+// as any other).
 func solveLogMonotone(g func(float64) float64, lo, hi float64) (float64, error) {
 	glo, ghi := g(lo), g(hi)
 	if glo > 0 {
@@ -98,7 +100,7 @@ func solveLogMonotone(g func(float64) float64, lo, hi float64) (float64, error) 
 		return hi, errAbove
 	}
 	h := func(y float64) float64 { return g(math.Exp(y)) }
-	y, ok := brentRoot(h, math.Log(lo), math.Log(hi), glo, ghi, 1e-13, 200)
+	y, ok := brentRoot(h, math.Log(lo), math.Log(hi), glo, ghi, 0, 1e-13, 200)
 	if !ok {
 		return 0, fmt.Errorf("%w: solver found no bracket", ErrNotIdentifiable)
 	}

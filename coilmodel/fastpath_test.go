@@ -300,3 +300,36 @@ func TestFinEfficiencyTable(t *testing.T) {
 	}
 	t.Logf("largest relative error %.2g", worst)
 }
+
+func TestInversionAtUnitMultiplierConverges(t *testing.T) {
+	// A root at x = 1 is ln x = 0; the solver's tolerance must not shrink to
+	// nothing there (it used to step between adjacent floats until the
+	// residual happened to round to zero).
+	for rows := 1; rows <= MaxRows; rows++ {
+		c, err := Preset(12, rows, 10, false)
+		if err != nil {
+			t.Fatal(err)
+		}
+		k, err := NewCalibrated(c)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, gpm := range []float64{0.2, 1.5, 6} {
+			op := benchOp
+			op.WaterFlowM3s = gpm * 6.30901964e-5 // 1 US gpm = 6.30901964e-5 m³/s (NIST SP 811)
+			r, _ := k.Rate(op)
+			rise := r.LeavingAirC - op.EnteringAirC
+			f := toFlows(op, 1)
+			n := 0
+			x, err := solveLogMonotone(func(x float64) float64 {
+				n++
+				var st state
+				k.m.eval(f, x, &st)
+				return st.rise/rise - 1
+			}, minUAMult, maxUAMult)
+			if err != nil || math.Abs(x-1) > 1e-12 || n > 40 {
+				t.Errorf("%d rows %g gpm: multiplier %.15g after %d evaluations (%v)", rows, gpm, x, n, err)
+			}
+		}
+	}
+}

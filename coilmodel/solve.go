@@ -6,9 +6,11 @@ import "math"
 // opposite signs (or one is zero), by Brent's method (Brent 1973, Algorithms
 // for Minimization without Derivatives, ch. 4): inverse quadratic
 // interpolation and secant steps, safeguarded by bisection, so it never leaves
-// the bracket. It stops when the bracket is narrower than xtol·|x| + 1e−300 or
-// after maxIter evaluations; ok is false if the bracket was not valid.
-func brentRoot(f func(float64) float64, a, b, fa, fb, xtol float64, maxIter int) (x float64, ok bool) {
+// the bracket. It stops when the bracket is narrower than xtol·|x| + atol
+// (+ 1e−300) or after maxIter evaluations; ok is false if the bracket was not
+// valid. A root near zero needs atol > 0: the relative part alone shrinks to
+// nothing there, and the iteration would step between adjacent floats.
+func brentRoot(f func(float64) float64, a, b, fa, fb, xtol, atol float64, maxIter int) (x float64, ok bool) {
 	if fa == 0 {
 		return a, true
 	}
@@ -31,7 +33,7 @@ func brentRoot(f func(float64) float64, a, b, fa, fb, xtol float64, maxIter int)
 			a, b, c = b, c, b
 			fa, fb, fc = fb, fc, fb
 		}
-		tol := 2*2.2e-16*math.Abs(b) + 0.5*xtol*math.Abs(b) + 1e-300
+		tol := 2*2.2e-16*math.Abs(b) + 0.5*(xtol*math.Abs(b)+atol) + 1e-300
 		m := 0.5 * (c - b)
 		if math.Abs(m) <= tol || fb == 0 {
 			return b, true

@@ -169,7 +169,7 @@ func InstalledFlowM3s(v Valve, c Coil, cmdFrac, branchDPPa, waterC float64) (flo
 		dpc, _, _ := c.waterDrop(p, q, w)
 		return v.DropPa(cmdFrac, q, w.rho) + dpc - branchDPPa
 	}
-	q, ok := brentRoot(g, 0, hi, -branchDPPa, g(hi), 1e-10, 200)
+	q, ok := brentRoot(g, 0, hi, -branchDPPa, g(hi), 1e-10, 0, 200)
 	if !ok {
 		return 0, fmt.Errorf("installed flow: no solution between 0 and %g m³/s", hi)
 	}
