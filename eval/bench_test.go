@@ -50,6 +50,7 @@ func BenchmarkAnalyze(b *testing.B) {
 	n := len(steps[0])
 	b.ReportAllocs()
 	b.ResetTimer()
+	cpu0 := cpuTime()
 	done, i := 0, 0
 	for done < b.N {
 		// Replay the day with a shifted clock so time keeps moving forward.
@@ -65,6 +66,9 @@ func BenchmarkAnalyze(b *testing.B) {
 		trs = ev.Step(evid, eng.Loops(), trs[:0])
 		done += n
 		i++
+	}
+	if cpu := cpuTime() - cpu0; cpu > 0 {
+		b.ReportMetric(float64(cpu.Nanoseconds())/float64(done), "cpu-ns/sample")
 	}
 	b.ReportMetric(float64(done)/b.Elapsed().Seconds(), "samples/s")
 }

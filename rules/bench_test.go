@@ -20,6 +20,7 @@ func BenchmarkStep(b *testing.B) {
 	out := make([]Transition, 0, 16)
 	b.ReportAllocs()
 	b.ResetTimer()
+	cpu0 := cpuTime()
 	steps := 0
 	for done := 0; done < b.N; done += n {
 		at := minute(steps)
@@ -28,6 +29,9 @@ func BenchmarkStep(b *testing.B) {
 		}
 		out = e.Step(ev, nil, out[:0])
 		steps++
+	}
+	if cpu := cpuTime() - cpu0; cpu > 0 {
+		b.ReportMetric(float64(cpu.Nanoseconds())/float64(steps*n), "cpu-ns/sample")
 	}
 	b.ReportMetric(float64(steps*n)/b.Elapsed().Seconds(), "samples/s")
 }

@@ -7,7 +7,6 @@ import (
 	"strconv"
 	"strings"
 	"time"
-	"unsafe"
 
 	"gopkg.in/yaml.v3"
 
@@ -127,9 +126,6 @@ const (
 	triUnknown
 )
 
-// pred is a compiled condition over a pointer to an evidence struct.
-type pred func(p unsafe.Pointer) tri
-
 type cmpOp uint8
 
 const (
@@ -202,9 +198,18 @@ func parseValue(s string, d units.Dimension, fieldName string) (float64, error) 
 	return units.Parse(s, d)
 }
 
-// compileCond turns a tree into a predicate. useClear selects each
+// compileCond turns a tree into a flat program. useClear selects each
 // comparison's clear threshold (falling back to its open threshold).
-func compileCond(c *Cond, s *schema, useClear bool) (pred, error) {
+func compileCond(c *Cond, s *schema, useClear bool) (program, error) {
+	var pr program
+	if err := emitCond(&pr, c, s, useClear); err != nil {
+		return nil, err
+	}
+	return pr, nil
+}
+
+// emitCond appends the pre-order nodes of c to pr.
+func emitCond(pr *program, c *Cond, s *schema, useClear bool) error {
 	pos := func(err error) error { return fmt.Errorf("line %d: %w", c.Line, err) }
 	groups := 0
 	if c.Field != "" {
@@ -220,50 +225,54 @@ func compileCond(c *Cond, s *schema, useClear bool) (pred, error) {
 		groups++
 	}
 	if groups != 1 {
-		return nil, pos(fmt.Errorf("a condition needs exactly one of field, all, any, not"))
+		return pos(fmt.Errorf("a condition needs exactly one of field, all, any, not"))
 	}
-	switch {
-	case c.All != nil || c.Any != nil:
-		kids := c.All
-		isAll := c.All != nil
-		if !isAll {
-			kids = c.Any
-		}
-		if len(kids) == 0 {
-			return nil, pos(fmt.Errorf("empty condition group"))
-		}
-		ps := make([]pred, len(kids))
-		for i := range kids {
-			p, err := compileCond(&kids[i], s, useClear)
-			if err != nil {
-				return nil, err
-			}
-			ps[i] = p
-		}
-		if isAll {
-			// Three-valued AND is commutative: test first what is false
-			// most of the time, so a healthy terminal costs one compare.
-			order := make([]int, len(kids))
-			for i := range order {
-				order[i] = i
-			}
-			sort.SliceStable(order, func(i, j int) bool { return selectivity(&kids[order[i]]) < selectivity(&kids[order[j]]) })
-			sorted := make([]pred, len(ps))
-			for i, k := range order {
-				sorted[i] = ps[k]
-			}
-			ps = sorted
-			return allOf(ps), nil
-		}
-		return anyOf(ps), nil
-	case c.Not != nil:
-		p, err := compileCond(c.Not, s, useClear)
+	if c.Field != "" {
+		n, err := compileLeaf(c, s, useClear)
 		if err != nil {
-			return nil, err
+			return err
 		}
-		return notOf(p), nil
+		n.end = int32(len(*pr) + 1)
+		*pr = append(*pr, n)
+		return nil
 	}
-	return compileLeaf(c, s, useClear)
+	if c.Not != nil {
+		at := len(*pr)
+		*pr = append(*pr, node{kind: nNot})
+		if err := emitCond(pr, c.Not, s, useClear); err != nil {
+			return err
+		}
+		(*pr)[at].end = int32(len(*pr))
+		return nil
+	}
+	kids, kind := c.All, nAll
+	if c.All == nil {
+		kids, kind = c.Any, nAny
+	}
+	if len(kids) == 0 {
+		return pos(fmt.Errorf("empty condition group"))
+	}
+	order := make([]int, len(kids))
+	for i := range order {
+		order[i] = i
+	}
+	if kind == nAll {
+		// Three-valued AND is commutative: test first what is false most
+		// of the time, so a healthy terminal costs one compare.
+		sort.SliceStable(order, func(i, j int) bool { return selectivity(&kids[order[i]]) < selectivity(&kids[order[j]]) })
+	}
+	if len(kids) == 1 {
+		return emitCond(pr, &kids[0], s, useClear)
+	}
+	at := len(*pr)
+	*pr = append(*pr, node{kind: kind})
+	for _, k := range order {
+		if err := emitCond(pr, &kids[k], s, useClear); err != nil {
+			return err
+		}
+	}
+	(*pr)[at].end = int32(len(*pr))
+	return nil
 }
 
 // selectivity orders the children of an all-group: comparisons on the
@@ -279,87 +288,31 @@ func selectivity(c *Cond) int {
 	return 2
 }
 
-func allOf(ps []pred) pred {
-	if len(ps) == 1 {
-		return ps[0]
-	}
-	return func(p unsafe.Pointer) tri {
-		r := triTrue
-		for _, q := range ps {
-			switch q(p) {
-			case triFalse:
-				return triFalse
-			case triUnknown:
-				r = triUnknown
-			}
-		}
-		return r
-	}
-}
-
-func anyOf(ps []pred) pred {
-	if len(ps) == 1 {
-		return ps[0]
-	}
-	return func(p unsafe.Pointer) tri {
-		r := triFalse
-		for _, q := range ps {
-			switch q(p) {
-			case triTrue:
-				return triTrue
-			case triUnknown:
-				r = triUnknown
-			}
-		}
-		return r
-	}
-}
-
-func notOf(q pred) pred {
-	return func(p unsafe.Pointer) tri {
-		switch q(p) {
-		case triTrue:
-			return triFalse
-		case triFalse:
-			return triTrue
-		}
-		return triUnknown
-	}
-}
-
-func compileLeaf(c *Cond, s *schema, useClear bool) (pred, error) {
+// compileLeaf compiles one comparison (end is set by the caller).
+func compileLeaf(c *Cond, s *schema, useClear bool) (node, error) {
 	pos := func(err error) error { return fmt.Errorf("line %d: field %s: %w", c.Line, c.Field, err) }
 	a, err := s.lookup(c.Field)
 	if err != nil {
-		return nil, pos(err)
+		return node{}, pos(err)
 	}
 	if c.Is != nil {
 		if !a.isBool() {
-			return nil, pos(fmt.Errorf("'is' needs a truth-valued field"))
+			return node{}, pos(fmt.Errorf("'is' needs a truth-valued field"))
 		}
 		if c.Op != "" || c.Value != "" || c.Minus != "" || c.Ref != "" || c.Clear != "" || c.Abs {
-			return nil, pos(fmt.Errorf("'is' takes no op, value, minus, ref, clear or abs"))
+			return node{}, pos(fmt.Errorf("'is' takes no op, value, minus, ref, clear or abs"))
 		}
-		fa, want := *a, 0.0
-		if *c.Is {
-			want = 1
-		}
-		return func(p unsafe.Pointer) tri {
-			if fa.read(p) == want {
-				return triTrue
-			}
-			return triFalse
-		}, nil
+		return node{kind: nIs, a: *a, want: *c.Is}, nil
 	}
 	op, ok := parseOp(c.Op)
 	if !ok {
-		return nil, pos(fmt.Errorf("op %q: want one of > >= < <= == !=", c.Op))
+		return node{}, pos(fmt.Errorf("op %q: want one of > >= < <= == !=", c.Op))
 	}
 	dim := a.dim
 	var b, ref *field
 	if c.Minus != "" {
 		if b, err = s.lookup(c.Minus); err != nil {
-			return nil, pos(err)
+			return node{}, pos(err)
 		}
 		if dim == units.Temperature {
 			dim = units.TempDiff
@@ -367,10 +320,10 @@ func compileLeaf(c *Cond, s *schema, useClear bool) (pred, error) {
 	}
 	if c.Ref != "" {
 		if ref, err = s.lookup(c.Ref); err != nil {
-			return nil, pos(err)
+			return node{}, pos(err)
 		}
 		if c.Times == 0 || math.IsNaN(c.Times) || math.IsInf(c.Times, 0) {
-			return nil, pos(fmt.Errorf("ref %s needs a finite non-zero 'times'", c.Ref))
+			return node{}, pos(fmt.Errorf("ref %s needs a finite non-zero 'times'", c.Ref))
 		}
 	}
 	text := c.Value
@@ -382,79 +335,24 @@ func compileLeaf(c *Cond, s *schema, useClear bool) (pred, error) {
 	}
 	v, err := parseValue(text, dim, c.Field)
 	if err != nil {
-		return nil, pos(err)
+		return node{}, pos(err)
 	}
 	if c.Clear != "" {
 		if _, err := parseValue(c.Clear, dim, c.Field); err != nil {
-			return nil, pos(fmt.Errorf("clear: %w", err))
+			return node{}, pos(fmt.Errorf("clear: %w", err))
 		}
 	}
 	if b == nil && ref == nil && !c.Abs && a.kind == fieldFloat {
-		return floatLeaf(a.off, op, v), nil
+		return node{kind: nFloat, op: op, off: a.off, v: v, a: *a}, nil
 	}
-	fa := *a
-	var fb, fr field
+	n := node{kind: nExpr, op: op, a: *a, v: v, abs: c.Abs, times: c.Times}
 	if b != nil {
-		fb = *b
+		n.hasB, n.b = true, *b
 	}
 	if ref != nil {
-		fr = *ref
+		n.hasR, n.r = true, *ref
 	}
-	hasB, hasRef, abs, times := b != nil, ref != nil, c.Abs, c.Times
-	return func(p unsafe.Pointer) tri {
-		x := fa.read(p)
-		if hasB {
-			x -= fb.read(p)
-		}
-		if abs {
-			x = math.Abs(x)
-		}
-		t := v
-		if hasRef {
-			t += times * fr.read(p)
-		}
-		if x != x || t != t {
-			return triUnknown
-		}
-		if op.cmp(x, t) {
-			return triTrue
-		}
-		return triFalse
-	}, nil
-}
-
-// floatLeaf is the common case, specialised per operator: one load, one
-// compare.
-func floatLeaf(off uintptr, op cmpOp, v float64) pred {
-	ld := func(p unsafe.Pointer) float64 { return *(*float64)(unsafe.Add(p, off)) }
-	res := func(ok bool, x float64) tri {
-		if ok {
-			return triTrue
-		}
-		if x != x {
-			return triUnknown
-		}
-		return triFalse
-	}
-	switch op {
-	case opGT:
-		return func(p unsafe.Pointer) tri { x := ld(p); return res(x > v, x) }
-	case opGE:
-		return func(p unsafe.Pointer) tri { x := ld(p); return res(x >= v, x) }
-	case opLT:
-		return func(p unsafe.Pointer) tri { x := ld(p); return res(x < v, x) }
-	case opLE:
-		return func(p unsafe.Pointer) tri { x := ld(p); return res(x <= v, x) }
-	case opEQ:
-		return func(p unsafe.Pointer) tri { x := ld(p); return res(x == v, x) }
-	}
-	return func(p unsafe.Pointer) tri {
-		x := ld(p)
-		if x != x {
-			return triUnknown
-		}
-		return res(x != v, x)
-	}
+	return n, nil
 }
 
 // checkKeys rejects mapping keys not in allowed, naming the line.
@@ -476,61 +374,4 @@ func checkKeys(n *yaml.Node, what string, allowed []string) error {
 		}
 	}
 	return nil
-}
-
-// guard is one plain comparison that must hold for a rule's condition to
-// hold: the condition itself when it is a comparison, or the first child of
-// a top-level all-group in selectivity order. The evaluator tests it inline
-// before calling the compiled condition; it only short-cuts a false result.
-type guard struct {
-	ok  bool
-	op  cmpOp
-	off uintptr
-	v   float64
-}
-
-// isFalse reports whether the guard comparison is false at p (a NaN field
-// is unknown, not false).
-func (g *guard) isFalse(p unsafe.Pointer) bool {
-	x := *(*float64)(unsafe.Add(p, g.off))
-	return x == x && !g.op.cmp(x, g.v)
-}
-
-// guardOf finds the guard of condition c (zero when there is none).
-func guardOf(c *Cond, s *schema) guard {
-	if c.All != nil {
-		best, rank := -1, 3
-		for i := range c.All {
-			if r := selectivity(&c.All[i]); r < rank && plainLeaf(&c.All[i], s) {
-				best, rank = i, r
-			}
-		}
-		if best < 0 {
-			return guard{}
-		}
-		c = &c.All[best]
-	}
-	if !plainLeaf(c, s) {
-		return guard{}
-	}
-	a, _ := s.lookup(c.Field)
-	op, _ := parseOp(c.Op)
-	v, err := parseValue(c.Value, a.dim, c.Field)
-	if err != nil {
-		return guard{}
-	}
-	return guard{ok: true, op: op, off: a.off, v: v}
-}
-
-// plainLeaf: a comparison of one float field with a constant.
-func plainLeaf(c *Cond, s *schema) bool {
-	if c.Field == "" || c.Is != nil || c.Minus != "" || c.Ref != "" || c.Abs || c.Value == "" {
-		return false
-	}
-	a, err := s.lookup(c.Field)
-	if err != nil || a.kind != fieldFloat {
-		return false
-	}
-	_, ok := parseOp(c.Op)
-	return ok
 }

@@ -3,6 +3,7 @@ package rules
 import (
 	"errors"
 	"fmt"
+	"math/bits"
 	"time"
 	"unsafe"
 
@@ -29,6 +30,17 @@ type Evaluator struct {
 	loopExplain []uint32 // len nL+1; slot nL is always 0 (terminals without a loop)
 
 	ops []operating // per terminal heating-operation time
+
+	// Hot path (see prefilter.go): per terminal and prefilter word, the
+	// rules that apply to the terminal (en) and those whose tracker may not
+	// be idle (busy: pending, clearing or holding a fault; a stale bit only
+	// costs a look), at bit 2k for rule k of the word; gateOK[m*nW+w] the
+	// rules whose need/forbid gates hold under gate mask m.
+	pf          prefilter
+	nW          int
+	en, busy    []uint64
+	gateOK      []uint64
+	noPrefilter bool // tests: look at every rule, as without the prefilter
 
 	termIdx map[string]int
 	loopIdx map[string]int
@@ -121,6 +133,24 @@ func NewEvaluator(s *site.Site, rs *Ruleset) (*Evaluator, error) {
 	for t, term := range s.Terminals {
 		for r, c := range e.term {
 			e.trk[t*len(e.term)+r].off = !c.appliesTo(term.ID)
+		}
+	}
+	e.pf = buildPrefilter(e.term, rs.sch.terminal)
+	e.nW = len(e.pf.words)
+	e.en = make([]uint64, e.nT*e.nW)
+	e.busy = make([]uint64, e.nT*e.nW)
+	e.gateOK = make([]uint64, (gateMaskMax+1)*e.nW)
+	for r, c := range e.term {
+		w, bit := r/rulesPerWord, uint64(1)<<(2*uint(r%rulesPerWord))
+		for m := 0; m <= gateMaskMax; m++ {
+			if g := gateMask(m); g&c.need == c.need && g&c.forbid == 0 {
+				e.gateOK[m*e.nW+w] |= bit
+			}
+		}
+		for t := range s.Terminals {
+			if !e.trk[t*len(e.term)+r].off {
+				e.en[t*e.nW+w] |= bit
+			}
 		}
 	}
 	e.ltrk = make([]tracker, e.nL*len(e.loop))
@@ -220,46 +250,90 @@ func (e *Evaluator) stepTerminal(ev *fdd.Evidence, out []Transition) []Transitio
 	at := ev.At.UnixNano()
 	mask := e.terminalMask(ev, at)
 	e.accumulateOperating(t, at, mask)
-	l := e.termLoop[t]
-	if l < 0 {
-		l = e.nL
-	}
-	explained := e.explain[t] | e.loopExplain[l]
-	n := len(e.term)
-	trks := e.trk[t*n : t*n+n]
 	p := unsafe.Pointer(ev)
-	for r, c := range e.term {
-		tk := &trks[r]
-		if tk.off {
-			continue
-		}
-		gatesOK := mask&c.need == c.need && mask&c.forbid == 0 && (c.gates == nil || c.gates(p) == triTrue)
-		if tk.f == nil {
-			if gatesOK && explained&(1<<uint(c.kind)) != 0 {
-				tk.since = 0
-				continue
+	for w := 0; w < e.nW; w++ {
+		i := t*e.nW + w
+		set := e.busy[i]
+		if m := e.gateOK[int(mask)*e.nW+w] & e.en[i]; m&^set != 0 {
+			if e.noPrefilter {
+				set |= m
+			} else {
+				set |= m & e.pf.words[w].pass(p)
 			}
-			if e.pend(tk, c, gatesOK, p, at) {
-				out = e.activate(EntityTerminal, t, c, tk, p, ev.At, out)
-				explained = e.explain[t] | e.loopExplain[l]
-			}
-			continue
 		}
-		f := tk.f
-		if f.lastEnergyAt != at {
-			f.observe(ev, at, mask)
-		}
-		if e.release(tk, c, gatesOK, p, at) {
-			out = e.deactivate(EntityTerminal, t, c, tk, ev.At, out)
-			explained = e.explain[t] | e.loopExplain[l]
-		} else if gatesOK && f.lastTrueAt != at && c.when(p) == triTrue {
-			f.lastTrueAt = at
-			f.lastTerm = *ev
-			f.hasLast = true
-			f.confidence = c.confidenceAt(p)
+		if set != 0 {
+			out = e.stepRules(t, w, set, ev, p, at, mask, out)
 		}
 	}
 	return out
+}
+
+// stepRules runs the rules of prefilter word w whose bits are in set on
+// terminal t, in rule order. Rules outside set are idle and cannot change
+// at this step (gates or a necessary clause fail).
+func (e *Evaluator) stepRules(t, w int, set uint64, ev *fdd.Evidence, p unsafe.Pointer, at int64, mask gateMask, out []Transition) []Transition {
+	n := len(e.term)
+	trks := e.trk[t*n : t*n+n]
+	busy := &e.busy[t*e.nW+w]
+	for ; set != 0; set &= set - 1 {
+		k := bits.TrailingZeros64(set) &^ 1
+		r := w*rulesPerWord + k/2
+		tk := &trks[r]
+		if !tk.off {
+			out = e.stepRule(t, e.term[r], tk, ev, p, at, mask, out)
+		}
+		if tk.since != 0 || tk.f != nil {
+			*busy |= 1 << uint(k)
+		} else {
+			*busy &^= 1 << uint(k)
+		}
+	}
+	return out
+}
+
+// stepRule advances rule c on terminal t.
+func (e *Evaluator) stepRule(t int, c *compiled, tk *tracker, ev *fdd.Evidence, p unsafe.Pointer, at int64, mask gateMask, out []Transition) []Transition {
+	gatesOK := mask&c.need == c.need && mask&c.forbid == 0 && c.gates.eval(p) == triTrue
+	if tk.f == nil {
+		l := e.termLoop[t]
+		if l < 0 {
+			l = e.nL
+		}
+		if gatesOK && (e.explain[t]|e.loopExplain[l])&(1<<uint(c.kind)) != 0 {
+			tk.since = 0
+			return out
+		}
+		if e.pend(tk, c, gatesOK, p, at) {
+			out = e.activate(EntityTerminal, t, c, tk, p, ev.At, out)
+		}
+		return out
+	}
+	f := tk.f
+	if f.lastEnergyAt != at {
+		f.observe(ev, at, mask)
+	}
+	if e.release(tk, c, gatesOK, p, at) {
+		out = e.deactivate(EntityTerminal, t, c, tk, ev.At, out)
+	} else if gatesOK && f.lastTrueAt != at && c.when.eval(p) == triTrue {
+		f.lastTrueAt = at
+		f.lastTerm = *ev
+		f.hasLast = true
+		f.confidence = c.confidenceAt(p)
+	}
+	return out
+}
+
+// rebuildBusy marks every terminal tracker that is not idle (after Import).
+func (e *Evaluator) rebuildBusy() {
+	n := len(e.term)
+	for t := 0; t < e.nT; t++ {
+		for r := 0; r < n; r++ {
+			tk := &e.trk[t*n+r]
+			if tk.since != 0 || tk.f != nil {
+				e.busy[t*e.nW+r/rulesPerWord] |= 1 << (2 * uint(r%rulesPerWord))
+			}
+		}
+	}
 }
 
 func (e *Evaluator) stepLoop(lv *fdd.LoopEvidence, out []Transition) []Transition {
@@ -283,7 +357,7 @@ func (e *Evaluator) stepLoop(lv *fdd.LoopEvidence, out []Transition) []Transitio
 		if tk.off {
 			continue
 		}
-		gatesOK := mask&c.need == c.need && mask&c.forbid == 0 && (c.gates == nil || c.gates(p) == triTrue)
+		gatesOK := mask&c.need == c.need && mask&c.forbid == 0 && c.gates.eval(p) == triTrue
 		if tk.f == nil {
 			if e.pend(tk, c, gatesOK, p, at) {
 				out = e.activate(EntityLoop, l, c, tk, p, lv.At, out)
@@ -292,7 +366,7 @@ func (e *Evaluator) stepLoop(lv *fdd.LoopEvidence, out []Transition) []Transitio
 		}
 		if e.release(tk, c, gatesOK, p, at) {
 			out = e.deactivate(EntityLoop, l, c, tk, lv.At, out)
-		} else if gatesOK && c.when(p) == triTrue {
+		} else if gatesOK && c.when.eval(p) == triTrue {
 			tk.f.lastLoop = *lv
 			tk.f.hasLast = true
 		}
@@ -310,11 +384,7 @@ func (e *Evaluator) pend(tk *tracker, c *compiled, gatesOK bool, p unsafe.Pointe
 		}
 		return false
 	}
-	if c.guard.ok && c.guard.isFalse(p) {
-		tk.since = 0
-		return false
-	}
-	switch c.when(p) {
+	switch c.when.eval(p) {
 	case triTrue:
 		if tk.since == 0 || at-tk.last > e.maxGapNs {
 			tk.since = at
@@ -341,7 +411,7 @@ func (e *Evaluator) release(tk *tracker, c *compiled, gatesOK bool, p unsafe.Poi
 		}
 		return false
 	}
-	switch c.clear(p) {
+	switch c.clear.eval(p) {
 	case triTrue:
 		if tk.clrSince == 0 || at-tk.clrLast > e.maxGapNs {
 			tk.clrSince = at

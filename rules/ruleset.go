@@ -239,6 +239,8 @@ const (
 	gFan
 	gOccupied
 	gSeason
+
+	gateMaskMax = 1<<6 - 1 // largest gateMask value
 )
 
 var gateNames = map[string]gateMask{
@@ -255,9 +257,8 @@ type compiled struct {
 	loop         bool
 	disabled     bool
 	need, forbid gateMask
-	gates        pred // extra truth-valued gates, may be nil
-	when, clear  pred
-	guard        guard // a comparison whose falsity makes `when` false (hot-path shortcut)
+	gates        program // extra truth-valued gates (empty: none)
+	when, clear  program
 	forNs        int64
 	clearForNs   int64
 	suppress     uint32 // kinds explained (bit per fdd.Kind)
@@ -288,7 +289,7 @@ func compileRule(r *Rule, sch *schemas) (*compiled, error) {
 		return nil, fmt.Errorf("severity %d: want 1 (most urgent) to 5", r.Severity)
 	}
 	c.severity = Severity(r.Severity)
-	var extra []pred
+	var extra []Cond
 	for _, g := range r.Gates {
 		name, neg := strings.CutPrefix(strings.TrimSpace(g), "!")
 		if m, ok := gateNames[name]; ok && !(c.loop && (m == gUsable || m == gSteady || m == gFan || m == gOccupied)) {
@@ -307,14 +308,13 @@ func compileRule(r *Rule, sch *schemas) (*compiled, error) {
 			return nil, fmt.Errorf("gate %q: field is not a truth value", g)
 		}
 		want := !neg
-		p, err := compileLeaf(&Cond{Field: name, Is: &want, Line: r.Line}, s, false)
-		if err != nil {
-			return nil, err
-		}
-		extra = append(extra, p)
+		extra = append(extra, Cond{Field: name, Is: &want, Line: r.Line})
 	}
 	if len(extra) > 0 {
-		c.gates = allOf(extra)
+		var err error
+		if c.gates, err = compileCond(&Cond{All: extra, Line: r.Line}, s, false); err != nil {
+			return nil, err
+		}
 	}
 	if r.When == nil {
 		return nil, fmt.Errorf("missing 'when'")
@@ -323,7 +323,6 @@ func compileRule(r *Rule, sch *schemas) (*compiled, error) {
 	if c.when, err = compileCond(r.When, s, false); err != nil {
 		return nil, fmt.Errorf("when: %w", err)
 	}
-	c.guard = guardOf(r.When, s)
 	if r.ClearWhen != nil {
 		if c.clear, err = compileCond(r.ClearWhen, s, false); err != nil {
 			return nil, fmt.Errorf("clear_when: %w", err)
@@ -333,7 +332,7 @@ func compileRule(r *Rule, sch *schemas) (*compiled, error) {
 		if err != nil {
 			return nil, fmt.Errorf("when (clear thresholds): %w", err)
 		}
-		c.clear = notOf(p)
+		c.clear = p.negated()
 	}
 	c.forNs, c.clearForNs = int64(r.For), int64(r.ClearFor)
 	if c.clearForNs == 0 {

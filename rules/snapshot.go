@@ -206,6 +206,7 @@ func (e *Evaluator) Import(s Snapshot) (ImportStats, error) {
 		}
 		st.Faults++
 	}
+	e.rebuildBusy()
 	for t := 0; t < e.nT; t++ {
 		e.recomputeExplain(EntityTerminal, t)
 	}
