@@ -1,0 +1,5 @@
+//go:build !linux
+
+package fdd
+
+func threadCPU() int64 { return -1 }
