@@ -35,6 +35,16 @@ func gate(s *collector.Sample, t *termStatic, in *inputs) Gate {
 	var g Gate
 	*in = inputs{v: s.AirflowM3s, dat: s.DischargeC, sat: s.SupplyC, u: s.ValveFrac, hw: s.HotWaterC}
 	f := s.Flags
+	// Fast path: every point present and in range (a NaN or ±Inf fails
+	// the range comparisons and takes the full path).
+	if f == 0 && in.sat >= satMinC && in.sat <= satMaxC && in.hw >= hwMinC && in.hw <= hwMaxC &&
+		in.dat >= datMinC && in.dat <= datMaxC && in.v >= airflowNegM3s && in.v <= t.maxAirM3s &&
+		in.u >= valveMin && in.u <= valveMax {
+		in.datOK, in.fanOn, in.plantOn = true, s.FanOn, s.PlantOn
+		in.v = fmax(in.v, 0)
+		in.u = fmax(0, fmin(1, in.u))
+		return 0
+	}
 	if f&(collector.FlagAirflow|collector.FlagDischarge|collector.FlagValve) != 0 {
 		g |= GateMissing
 	}

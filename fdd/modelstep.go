@@ -53,7 +53,6 @@ func (en *Engine) modelSample(st *termState, t *termStatic, in inputs, eat, obs 
 	}
 	en.updateFactors(st, ev.dLU, ev.dM*mw, res, s2)
 	st.cmp.add(res, ev.dLU, ev.dM*mw, restrictionSens(ev.dM, mw, st.designFlow), 1/s2, en.facAlpha)
-	st.cmpShare = st.cmp.share()
 	if e.Learning {
 		l := &en.learn[t.idx]
 		l.add(learnPoint{at: e.At, v: in.v, eat: eat, u: in.u, thw: in.hw, obsRise: obs})

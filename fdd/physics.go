@@ -135,9 +135,9 @@ type evaluation struct {
 // 8 % is under 0.3 % of the rise.
 const (
 	trustAirFrac   = 0.08
-	trustEATK      = 1.5
-	trustWaterFrac = 0.05
-	trustHWK       = 2.0
+	trustEATK      = 2.0
+	trustWaterFrac = 0.10
+	trustHWK       = 3.0
 )
 
 // near reports whether inputs are inside the trust region of e.

@@ -188,6 +188,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 		st.respStats = st.resp.stats()
 		st.respAge = 0
 		en.solveFactors(st)
+		st.cmpShare = st.cmp.share()
 		if p := st.respStats.perfHigh; finite(p) {
 			st.perfHighLast = p
 			// Onset of a capacity loss, with hysteresis between the start

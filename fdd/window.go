@@ -24,6 +24,9 @@ func (w *window) init(n int) { *w = window{n: n} }
 
 // reset empties the window (after a gap or a gated sample).
 func (w *window) reset() {
+	if w.count == 0 && w.head == 0 {
+		return
+	}
 	w.count, w.head, w.sum, w.sumSq, w.sumJ = 0, 0, 0, 0, 0
 }
 
@@ -159,6 +162,9 @@ type window4 struct {
 func (w *window4) init(n int) { *w = window4{n: n} }
 
 func (w *window4) reset() {
+	if w.count == 0 && w.head == 0 {
+		return
+	}
 	w.count, w.head = 0, 0
 	w.sum, w.sumSq, w.sumJ = [nCh]float64{}, [nCh]float64{}, [nCh]float64{}
 }
