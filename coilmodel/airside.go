@@ -236,8 +236,9 @@ func (w *wang) colburnJ(re float64) (j float64, outside bool) {
 // fanning is the Wang friction factor at Re_Dc with the same extension.
 func (w *wang) fanning(re float64) float64 { return exp(w.lnF(log(re))) }
 
-// diagonalPitch is the staggered diagonal tube pitch √((Pt/2)² + Pl²)
-// (pitches are validated below 0.2 m, so the squares cannot overflow).
+// diagonalPitch is the staggered diagonal tube pitch √((Pt/2)² + Pl²),
+// without math.Hypot's overflow guard (a coil pitch would need to exceed
+// 1e150 m to overflow; Validate bounds pitches below 0.2 m).
 func diagonalPitch(c Coil) float64 {
 	a, b := c.TransversePitchM/2, c.LongitudinalPitchM
 	return math.Sqrt(a*a + b*b)

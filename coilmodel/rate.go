@@ -14,11 +14,12 @@ import (
 // the air-side effectiveness of the row arrangement (OneRowEffectiveness,
 // SerpentineEffectiveness); properties at the mean stream temperatures (two
 // passes), interpolated from tables of the property functions (relative
-// error below 2e−5; see proptable.go). The air mass flow is AirflowM3s × AirDensityKgM3; the water mass
-// flow is WaterFlowM3s at the entering-water density. Each circuit is a
-// serpentine through all rows, water entering the leaving-air row; identical
-// parallel circuits share one effectiveness. The laminar (Hausen) entry length
-// is one straight tube: each return bend is taken to remix the flow.
+// error below 2e−5; see proptable.go). The air mass flow is AirflowM3s ×
+// AirDensityKgM3; the water mass flow is WaterFlowM3s at the entering-water
+// density. Each circuit is a serpentine through all rows, water entering the
+// leaving-air row; identical parallel circuits share one effectiveness. The
+// laminar (Hausen) entry length is one straight tube: each return bend is
+// taken to remix the flow.
 //
 // Air pressure drop is the Kays & London core friction plus flow
 // acceleration, ΔP = G²/2·[f·(A_o/A_c)/ρ_m + 2(1/ρ_out − 1/ρ_in)] (Jacobi, Data
