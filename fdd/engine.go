@@ -175,7 +175,7 @@ func (en *Engine) applyBaseline(i int, b Baseline) error {
 	st.r, st.rUA, st.flowScale, st.base = r, rUA, b.FlowFactor, b
 	st.learnedBase = b.Source == "learned"
 	st.designFlow = ts.flow.design() * b.FlowFactor
-	st.eval = evaluation{}
+	st.evals, st.evalCur, st.evalNext = [evalCache]evaluation{}, 0, 0
 	st.fac, st.facOut = factorSums{}, factorOut{}
 	st.secU, st.secF, st.secAge = 1, 1, 0
 	st.cmp, st.cmpShare = faultCompare{}, nan

@@ -90,6 +90,13 @@ func (en *Engine) aggregateLoops(ev []Evidence) {
 		en.loopOut = append(en.loopOut, le)
 	}
 	// Isolation: shortfall on a cold loop belongs to the loop.
+	anyCold := false
+	for li := range en.loops {
+		anyCold = anyCold || en.loops[li].score > 0
+	}
+	if !anyCold {
+		return
+	}
 	for k := range ev {
 		e := &ev[k]
 		li := en.terms[e.Terminal].loop

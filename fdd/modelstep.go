@@ -12,14 +12,7 @@ import (
 func (en *Engine) modelSample(st *termState, t *termStatic, in inputs, eat, obs float64, e *Evidence) {
 	cfg := &en.cfg
 	mw := t.flow.at(in.u) * st.flowScale
-	if !st.eval.near(in.v, eat, mw, in.hw) {
-		st.eval = evaluate(st.r, st.rUA, in.v, eat, mw, in.hw)
-		st.evalSteps++
-		if st.eval.ok {
-			en.relinearise(st, &st.eval)
-		}
-	}
-	ev := &st.eval
+	ev := en.evaluationNear(st, in.v, eat, mw, in.hw)
 	if !ev.ok {
 		return
 	}
@@ -61,6 +54,36 @@ func (en *Engine) modelSample(st *termState, t *termStatic, in inputs, eat, obs 
 		}
 	}
 }
+
+// evaluationNear returns a model evaluation whose trust region holds the
+// inputs: the current one, else one of the few kept from recent operating
+// points (a box returns to the same few: closed, minimum, full open, the
+// morning warm-up), else a new evaluation replacing the oldest.
+func (en *Engine) evaluationNear(st *termState, v, eat, mw, thw float64) *evaluation {
+	if ev := &st.evals[st.evalCur]; ev.near(v, eat, mw, thw) {
+		return ev
+	}
+	for k := range st.evals {
+		if st.evals[k].near(v, eat, mw, thw) {
+			st.evalCur = k
+			return &st.evals[k]
+		}
+	}
+	k := st.evalNext
+	st.evalNext = (k + 1) % evalCache
+	st.evalCur = k
+	ev := &st.evals[k]
+	*ev = evaluate(st.r, st.rUA, v, eat, mw, thw)
+	st.evalSteps++
+	if ev.ok {
+		en.relinearise(st, ev)
+	}
+	return ev
+}
+
+// evalCache is the number of model evaluations kept per terminal: one per
+// response command bin and two spare (airflow or temperatures apart) [I].
+const evalCache = nBins + 2
 
 // residualVar is the variance of the residual r = DAT − SAT − g − f(V, SAT+g,
 // ṁ, T_hw), first-order propagation of independent input errors (GUM, JCGM

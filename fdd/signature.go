@@ -158,6 +158,15 @@ func scoreDataQuality(e *Evidence, en *Engine, st *termState) {
 // bestKind is the kind with the highest score at or above threshold; the
 // sensor kinds win ties (a failed sensor explains everything else).
 func bestKind(sc *[kindCount]float64, threshold float64) Kind {
+	hi := 0.0
+	for _, s := range sc {
+		if s > hi {
+			hi = s
+		}
+	}
+	if hi < threshold || hi == 0 {
+		return KindNone
+	}
 	best, bs := KindNone, threshold
 	for _, k := range [...]Kind{KindDATFailed, KindDATOffset, KindColdLoop, KindReversedValve, KindStuckValve,
 		KindLeakingValve, KindStarvedCoil, KindFouledCoil, KindHunting, KindLowDischarge, KindDataQuality} {

@@ -50,9 +50,11 @@ type termState struct {
 	plantRun   int // steps since the plant last changed state
 	lastPlant  bool
 	closedRun  int
-	zeroRun    int // consecutive steps at zero command (≤ zeroCommandFrac)
-	eval       evaluation
-	evalSteps  int // full model evaluations (diagnostic)
+	zeroRun    int                   // consecutive steps at zero command (≤ zeroCommandFrac)
+	evals      [evalCache]evaluation // recent model evaluations (Taylor anchors)
+	evalCur    int                   // index of the one in use
+	evalNext   int                   // next slot to replace
+	evalSteps  int                   // full model evaluations (diagnostic)
 	leak       ewma
 	offset     ewma
 	leakFlow   float64 // leak flow / design flow; −1 until estimated
