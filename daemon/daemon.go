@@ -43,6 +43,12 @@ type Options struct {
 	// DataClock makes Now the newest analysed step instead of the wall clock
 	// (the demo runs simulated time).
 	DataClock bool
+	// Clock, when set, stamps polled values (default: Now). The demo
+	// passes the simulator's time, so polls carry simulated timestamps.
+	Clock func() time.Time
+	// SourcesAfter, when set, holds the sources back until it is closed
+	// (the demo fills its devices' trend logs with the history first).
+	SourcesAfter <-chan struct{}
 	// Sender overrides how mail leaves (tests); default SMTP, or the
 	// mail_spool directory.
 	Sender notify.Sender

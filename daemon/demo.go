@@ -1,14 +1,12 @@
 package daemon
 
 import (
-	"bufio"
 	"context"
 	"errors"
 	"fmt"
 	"log/slog"
 	"os"
 	"path/filepath"
-	"strconv"
 	"time"
 
 	"risewatch/publish/notify"
@@ -21,7 +19,7 @@ import (
 type DemoOptions struct {
 	DataDir string  // "" = a fresh directory under the OS temp dir
 	Listen  string  // default 127.0.0.1:9470
-	Days    int     // history written at once (default 7)
+	Days    int     // history simulated at once into the devices' trend logs (default 7)
 	Forward int     // simulated days after the history (default 21)
 	Speed   float64 // simulated seconds per wall second after the history (default 60)
 	Logger  *slog.Logger
@@ -31,10 +29,14 @@ type DemoOptions struct {
 
 // DemoInfo says where the demo's outputs are.
 type DemoInfo struct {
-	DataDir, DropDir, MailSpool, Reports, SiteFile string
-	URL                                            string
-	Terminals                                      int
-	HistoryFrom, HistoryTo                         time.Time
+	DataDir, MailSpool, Reports, SiteFile string
+	URL                                   string
+	Terminals                             int
+	// Devices lists the simulated BACnet/IP device groups ("plant 127.0.0.1:40123", ...).
+	Devices                []string
+	DeviceCount            int
+	HistoryFrom, HistoryTo time.Time
+	Poll                   time.Duration // wall-clock poll interval
 }
 
 // Demo addresses: the reserved .example domain (RFC 2606), invented people.
@@ -44,9 +46,14 @@ const (
 	demoContractor = "service@mechanical-contractor.example"
 )
 
-// RunDemo simulates the built-in demo campus into a drop folder (the
-// history at once, then forward at Speed) and runs the daemon on it with
-// the store, /metrics, the dashboard and a local mail spool, until ctx ends.
+// RunDemo serves the built-in demo campus as simulated BACnet/IP devices on
+// loopback and runs the daemon on them with the store, /metrics, the
+// dashboard and a local mail spool, until ctx ends. The history (Days) is
+// simulated at once into the devices' one-minute trend logs, which the
+// daemon backfills (in time order across points) before it starts polling;
+// then the simulation runs forward at Speed, writing each step into the
+// objects' present values and trend logs, and the daemon polls them once
+// per simulated minute.
 func RunDemo(ctx context.Context, o DemoOptions) error {
 	if o.Days <= 0 {
 		o.Days = 7
@@ -82,18 +89,30 @@ func RunDemo(ctx context.Context, o DemoOptions) error {
 	if err != nil {
 		return err
 	}
-	info := DemoInfo{DataDir: o.DataDir, DropDir: filepath.Join(o.DataDir, "drop"), MailSpool: filepath.Join(o.DataDir, "mail-spool"),
+	step := sc.StepDuration()
+	pace := time.Duration(float64(step) / o.Speed)
+	poll := max(pace, 50*time.Millisecond)
+	info := DemoInfo{DataDir: o.DataDir, MailSpool: filepath.Join(o.DataDir, "mail-spool"),
 		Reports: filepath.Join(o.DataDir, "reports"), SiteFile: filepath.Join(o.DataDir, "site.yaml"), Terminals: sm.Terminals(),
-		HistoryFrom: sc.StartTime(), HistoryTo: sc.StartTime().AddDate(0, 0, o.Days)}
-	done := filepath.Join(o.DataDir, "drop-done")
-	for _, d := range []string{info.DropDir, done, info.MailSpool} {
-		if err := os.MkdirAll(d, 0o755); err != nil {
-			return err
-		}
+		HistoryFrom: sc.StartTime(), HistoryTo: sc.StartTime().AddDate(0, 0, o.Days), Poll: poll}
+	if err := os.MkdirAll(info.MailSpool, 0o755); err != nil {
+		return err
 	}
-	s := sm.Site(info.DropDir)
-	s.Sources[0].Trendfile.Watch = true
-	s.Sources[0].Trendfile.ProcessedDir = done
+	s := sm.Site("")
+	// The trend logs hold the history and a day more; later records overwrite the oldest.
+	bas, err := newDemoBAS(s, (o.Days+1)*int(24*time.Hour/step), poll, 60*poll)
+	if err != nil {
+		return err
+	}
+	defer bas.close()
+	for i, srv := range bas.servers {
+		name := "plant"
+		if i > 0 {
+			name = s.AHUs[i-1].ID
+		}
+		info.Devices = append(info.Devices, name+" "+srv.Addr().String())
+	}
+	info.DeviceCount = len(s.Sources[0].BACnet.Devices)
 	s.File = info.SiteFile
 	if y, err := site.Marshal(s); err == nil {
 		_ = os.WriteFile(info.SiteFile, y, 0o644)
@@ -108,7 +127,8 @@ func RunDemo(ctx context.Context, o DemoOptions) error {
 	if err := el.err(); err != nil {
 		return err
 	}
-	d, first, err := New(Options{Site: s, Config: cfg, DataClock: true, ReportOnStart: true, DropSettle: 500 * time.Millisecond,
+	histDone := make(chan struct{})
+	d, first, err := New(Options{Site: s, Config: cfg, DataClock: true, ReportOnStart: true, Clock: bas.Now, SourcesAfter: histDone,
 		NotifyEvery: 2 * time.Second, AckPoll: time.Second, SnapshotEvery: 5 * time.Second, Logger: o.Logger})
 	if err != nil {
 		return err
@@ -116,7 +136,7 @@ func RunDemo(ctx context.Context, o DemoOptions) error {
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
 	simErr := make(chan error, 1)
-	go func() { simErr <- writeDemoTrends(ctx, sm, s, info.DropDir, done, info.HistoryTo, o.Speed) }()
+	go func() { simErr <- runDemoSim(ctx, sm, bas, info.HistoryTo, pace, histDone, o.Logger) }()
 	go func() {
 		select {
 		case <-d.Ready():
@@ -133,6 +153,42 @@ func RunDemo(ctx context.Context, o DemoOptions) error {
 		runErr = fmt.Errorf("simulation: %w", err)
 	}
 	return runErr
+}
+
+// runDemoSim runs the simulation into the devices: up to histTo as fast as
+// it goes (then closes histDone), after that one step per pace.
+func runDemoSim(ctx context.Context, sm *sim.Simulator, bas *demoBAS, histTo time.Time, pace time.Duration, histDone chan struct{}, log *slog.Logger) error {
+	t0 := time.Now()
+	var next time.Time
+	opened := false
+	err := sm.Run(ctx, func(st *sim.Step) error {
+		if !st.At.Before(histTo) && !opened {
+			opened = true
+			log.Info("demo: history in the trend logs", "until", histTo, "took", time.Since(t0).Round(time.Millisecond))
+			close(histDone)
+		}
+		bas.feed(st)
+		if !opened {
+			return nil
+		}
+		now := time.Now()
+		if next.IsZero() {
+			next = now
+		}
+		next = next.Add(pace)
+		if d := next.Sub(now); d > 0 {
+			select {
+			case <-ctx.Done():
+				return ctx.Err()
+			case <-time.After(d):
+			}
+		}
+		return nil
+	})
+	if !opened {
+		close(histDone)
+	}
+	return err
 }
 
 // demoColumn is one exported column: where its value comes from in a step.
@@ -186,149 +242,4 @@ func demoColumns(s *site.Site) ([]demoColumn, error) {
 		add(p.ZoneSetpoint, func(st *sim.Step) (float64, bool) { return st.Terminals[i].ZoneSetC, true })
 	}
 	return cols, errors.Join(errs...)
-}
-
-// chunkWriter writes wide CSV export files into a drop folder: each file is
-// written under a ".part" name (which the drop-folder reader skips) and
-// renamed when complete.
-type chunkWriter struct {
-	dir, done string
-	cols      []demoColumn
-	units     []func(float64) float64
-	f         *os.File
-	w         *bufio.Writer
-	name      string
-	skip      bool
-	buf       []byte
-}
-
-func newChunkWriter(dir, done string, cols []demoColumn) *chunkWriter {
-	cw := &chunkWriter{dir: dir, done: done, cols: cols}
-	for _, c := range cols {
-		if c.binary {
-			cw.units = append(cw.units, nil)
-			continue
-		}
-		u, _ := units.ParseUnit(c.unit)
-		if c.unit == "%" {
-			cw.units = append(cw.units, func(v float64) float64 { return v * 100 })
-			continue
-		}
-		cw.units = append(cw.units, u.FromSI)
-	}
-	return cw
-}
-
-// open starts the file name (a file already read by an earlier run is skipped).
-func (cw *chunkWriter) open(name string) error {
-	if err := cw.close(); err != nil {
-		return err
-	}
-	cw.name = name
-	if _, err := os.Stat(filepath.Join(cw.done, name)); err == nil {
-		cw.skip = true
-		return nil
-	}
-	cw.skip = false
-	f, err := os.Create(filepath.Join(cw.dir, name+".part"))
-	if err != nil {
-		return err
-	}
-	cw.f, cw.w = f, bufio.NewWriterSize(f, 1<<20)
-	cw.w.WriteString("timestamp")
-	for _, c := range cw.cols {
-		cw.w.WriteByte(',')
-		cw.w.WriteString(c.name)
-	}
-	cw.w.WriteByte('\n')
-	return nil
-}
-
-func (cw *chunkWriter) row(st *sim.Step) error {
-	if cw.skip || cw.f == nil {
-		return nil
-	}
-	b := st.At.AppendFormat(cw.buf[:0], time.RFC3339)
-	for i, c := range cw.cols {
-		v, _ := c.value(st)
-		b = append(b, ',')
-		if c.binary {
-			if v != 0 {
-				b = append(b, "On"...)
-			} else {
-				b = append(b, "Off"...)
-			}
-			continue
-		}
-		b = strconv.AppendFloat(b, cw.units[i](v), 'f', 2, 64)
-	}
-	b = append(b, '\n')
-	cw.buf = b
-	_, err := cw.w.Write(b)
-	return err
-}
-
-func (cw *chunkWriter) close() error {
-	if cw.f == nil {
-		return nil
-	}
-	err := cw.w.Flush()
-	if cerr := cw.f.Close(); err == nil {
-		err = cerr
-	}
-	part := cw.f.Name()
-	cw.f = nil
-	if err == nil {
-		err = os.Rename(part, filepath.Join(cw.dir, cw.name))
-	}
-	return err
-}
-
-// writeDemoTrends runs the simulation: one export file per simulated day
-// up to histTo as fast as it goes, then one file per ten simulated minutes
-// paced at speed.
-func writeDemoTrends(ctx context.Context, sm *sim.Simulator, s *site.Site, dir, done string, histTo time.Time, speed float64) error {
-	cols, err := demoColumns(s)
-	if err != nil {
-		return err
-	}
-	cw := newChunkWriter(dir, done, cols)
-	step := sm.Scenario().StepDuration()
-	pace := time.Duration(float64(step) / speed)
-	var next time.Time
-	err = sm.Run(ctx, func(st *sim.Step) error {
-		var name string
-		if st.At.Before(histTo) {
-			name = st.At.Format("2006-01-02") + ".csv"
-		} else {
-			name = st.At.Truncate(10*time.Minute).Format("2006-01-02T1504") + ".csv"
-		}
-		if name != cw.name {
-			if err := cw.open(name); err != nil {
-				return err
-			}
-		}
-		if err := cw.row(st); err != nil {
-			return err
-		}
-		if !st.At.Before(histTo) {
-			now := time.Now()
-			if next.IsZero() {
-				next = now
-			}
-			next = next.Add(pace)
-			if d := next.Sub(now); d > 0 {
-				select {
-				case <-ctx.Done():
-					return ctx.Err()
-				case <-time.After(d):
-				}
-			}
-		}
-		return nil
-	})
-	if cerr := cw.close(); err == nil {
-		err = cerr
-	}
-	return err
 }

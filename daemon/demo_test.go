@@ -106,7 +106,7 @@ func browse(t *testing.T, base, terminal string) {
 	}{
 		{"demo-overview", "/", "#faults", []string{terminal}},
 		{"demo-terminal", "/terminals/" + terminal, "main", []string{terminal}},
-		{"demo-sources", "/sources", "#sources", []string{"sim-trends", "trendfile"}},
+		{"demo-sources", "/sources", "#sources", []string{DemoSourceName, "bacnet"}},
 	}
 	for _, p := range pages {
 		if err := chromedp.Do(ctx, chromedp.Navigate(base+strings.TrimPrefix(p.path, "/")), chromedp.WaitVisible(chromedp.CSS(p.sel))); err != nil {

@@ -183,9 +183,12 @@ func buildSources(s *site.Site, st *store.Store, m *metrics.Metrics, clock func(
 }
 
 // bacnetCron runs a BACnet source on robfig/cron/v3 schedules: a present-
-// value poll every PollInterval and a trend-log sweep every TrendSweep
-// ("@every" specs), one at a time. The first sweep runs at start, before
-// polling, so backfilled history reaches the assembler ahead of live values.
+// value poll every PollInterval and a trend-log sweep every TrendSweep, one
+// at a time. At start, before the first poll, trend logs are swept until
+// caught up, so backfilled history reaches the assembler ahead of live
+// values (the sweep delivers it in time order across points). Later
+// sweeps deliver only what is newer than the last poll: older records are
+// what the polls already gave the assembler.
 type bacnetCron struct {
 	src   *bacnet.Source
 	cfg   site.BACnetConfig
@@ -193,7 +196,18 @@ type bacnetCron struct {
 	clock func() time.Time // stamps polled values (the daemon's clock)
 	log   *slog.Logger
 	mu    sync.Mutex
+	last  time.Time // stamp of the newest poll delivered
 }
+
+// every is a cron.Schedule firing at a fixed interval, sub-second allowed
+// (cron's own "@every" rounds to whole seconds).
+type every time.Duration
+
+func (e every) Next(t time.Time) time.Time { return t.Add(time.Duration(e)) }
+
+// catchUpSweeps bounds the sweeps at start (each reads what arrived during
+// the one before).
+const catchUpSweeps = 3
 
 func (b *bacnetCron) Name() string { return b.src.Name() }
 
@@ -214,7 +228,11 @@ func (b *bacnetCron) Run(ctx context.Context, out chan<- []collector.Reading) er
 			return ctx.Err()
 		}
 	}
-	b.sweep(ctx, emit)
+	for i := 0; i < catchUpSweeps; i++ {
+		if n := b.sweep(ctx, emit); n == 0 || ctx.Err() != nil {
+			break
+		}
+	}
 	poll, sweep := b.cfg.PollInterval, b.cfg.TrendSweep
 	if poll <= 0 {
 		poll = time.Minute
@@ -223,12 +241,8 @@ func (b *bacnetCron) Run(ctx context.Context, out chan<- []collector.Reading) er
 		sweep = 15 * time.Minute
 	}
 	c := cron.New(cron.WithChain(cron.SkipIfStillRunning(cron.DiscardLogger)))
-	if _, err := c.AddFunc(fmt.Sprintf("@every %s", poll), func() { b.poll(ctx, emit) }); err != nil {
-		return fmt.Errorf("source %s: poll schedule: %w", b.Name(), err)
-	}
-	if _, err := c.AddFunc(fmt.Sprintf("@every %s", sweep), func() { b.sweep(ctx, emit) }); err != nil {
-		return fmt.Errorf("source %s: sweep schedule: %w", b.Name(), err)
-	}
+	c.Schedule(every(poll), cron.FuncJob(func() { b.poll(ctx, emit) }))
+	c.Schedule(every(sweep), cron.FuncJob(func() { b.sweep(ctx, emit) }))
 	b.poll(ctx, emit)
 	c.Start()
 	<-ctx.Done()
@@ -239,6 +253,10 @@ func (b *bacnetCron) Run(ctx context.Context, out chan<- []collector.Reading) er
 func (b *bacnetCron) poll(ctx context.Context, emit func([]collector.Reading) error) {
 	b.mu.Lock()
 	defer b.mu.Unlock()
+	stamp := b.clock()
+	if stamp.IsZero() || !stamp.After(b.last) {
+		return // the clock has not moved since the last poll (simulated time)
+	}
 	t0 := time.Now()
 	rs, err := b.src.PollOnce(ctx)
 	if ctx.Err() != nil {
@@ -248,7 +266,6 @@ func (b *bacnetCron) poll(ctx context.Context, emit func([]collector.Reading) er
 		b.h.failed(err, time.Since(t0))
 		b.log.Warn("bacnet: poll incomplete", "source", b.Name(), "err", err)
 	}
-	stamp := b.clock()
 	stale := 0
 	for i := range rs {
 		rs[i].At = stamp
@@ -260,22 +277,44 @@ func (b *bacnetCron) poll(ctx context.Context, emit func([]collector.Reading) er
 	if err == nil {
 		b.h.ok(time.Since(t0), len(rs))
 	}
-	_ = emit(rs)
+	if emit(rs) == nil {
+		b.last = stamp
+	}
 }
 
-func (b *bacnetCron) sweep(ctx context.Context, emit func([]collector.Reading) error) {
+// sweep reads the trend logs and returns how many readings it delivered.
+func (b *bacnetCron) sweep(ctx context.Context, emit func([]collector.Reading) error) int {
 	b.mu.Lock()
 	defer b.mu.Unlock()
 	t0 := time.Now()
 	n := 0
-	_, err := b.src.SweepTrends(ctx, func(rs []collector.Reading) error { n += len(rs); return emit(rs) })
+	_, err := b.src.SweepTrends(ctx, func(rs []collector.Reading) error {
+		if !b.last.IsZero() {
+			k := 0
+			for _, r := range rs {
+				if r.At.After(b.last) {
+					rs[k] = r
+					k++
+				}
+			}
+			rs = rs[:k]
+		}
+		n += len(rs)
+		return emit(rs)
+	})
 	if ctx.Err() != nil {
-		return
+		return n
 	}
 	if err != nil {
 		b.h.failed(err, time.Since(t0))
 		b.log.Warn("bacnet: trend sweep incomplete", "source", b.Name(), "err", err)
-		return
+		return n
 	}
 	b.h.ok(time.Since(t0), n)
+	lv := slog.LevelDebug
+	if n > 0 {
+		lv = slog.LevelInfo
+	}
+	b.log.Log(ctx, lv, "bacnet: trend sweep", "source", b.Name(), "readings", n, "took", time.Since(t0).Round(time.Millisecond))
+	return n
 }

@@ -309,6 +309,9 @@ func (c *Client) Discover(ctx context.Context, targets []netip.AddrPort, low, hi
 		case d := <-ch:
 			if low < 0 || (int(d.Instance) >= low && int(d.Instance) <= high) {
 				seen[d.Instance] = d
+				if low >= 0 && low == high {
+					return []*Device{d}, nil // one instance asked for: it answered
+				}
 			}
 		case <-timer.C:
 			out := make([]*Device, 0, len(seen))

@@ -146,7 +146,8 @@ func (s *Source) Start(ctx context.Context) error {
 	for _, p := range s.points {
 		need[p.device] = true
 	}
-	var missing []uint32
+	var missing, known []uint32
+	addrs := map[uint32]Address{}
 	for inst := range need {
 		addrText, ok := s.cfg.Devices[inst]
 		if !ok {
@@ -157,11 +158,37 @@ func (s *Source) Start(ctx context.Context) error {
 		if err != nil {
 			return fmt.Errorf("source %s: device %d: %w", s.name, inst, err)
 		}
-		d, err := c.Resolve(ctx, inst, a)
-		if err != nil {
-			return fmt.Errorf("source %s: device %d: %w", s.name, inst, err)
-		}
-		s.devices[inst] = d
+		addrs[inst] = a
+		known = append(known, inst)
+	}
+	// Resolve the configured devices in parallel (each may wait for its I-Am).
+	var rmu sync.Mutex
+	var rerrs []error
+	jobs := make(chan uint32)
+	var wg sync.WaitGroup
+	for w := 0; w < max(1, min(s.Workers, len(known))); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for inst := range jobs {
+				d, err := c.Resolve(ctx, inst, addrs[inst])
+				rmu.Lock()
+				if err != nil {
+					rerrs = append(rerrs, fmt.Errorf("source %s: device %d: %w", s.name, inst, err))
+				} else {
+					s.devices[inst] = d
+				}
+				rmu.Unlock()
+			}
+		}()
+	}
+	for _, inst := range known {
+		jobs <- inst
+	}
+	close(jobs)
+	wg.Wait()
+	if err := errors.Join(rerrs...); err != nil {
+		return err
 	}
 	if len(missing) > 0 {
 		bcast := netip.AddrPortFrom(netip.AddrFrom4([4]byte{255, 255, 255, 255}), DefaultPort)

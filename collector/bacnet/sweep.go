@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"strings"
 	"sync"
 
 	"risewatch/collector"
@@ -102,7 +103,12 @@ func (s *Source) SweepTrends(ctx context.Context, emit func([]collector.Reading)
 		if len(batch) == 0 && lead < 0 {
 			break // every log caught up (or failed)
 		}
-		slices.SortStableFunc(batch, func(a, b collector.Reading) int { return a.At.Compare(b.At) })
+		slices.SortFunc(batch, func(a, b collector.Reading) int {
+			if c := a.At.Compare(b.At); c != 0 {
+				return c
+			}
+			return strings.Compare(a.Point, b.Point)
+		})
 		if len(batch) > 0 {
 			if err := emit(batch); err != nil {
 				return s.results(logs), err
