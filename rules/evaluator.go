@@ -49,10 +49,11 @@ type Evaluator struct {
 	byID     map[string]*fault
 	suppress map[string]time.Time
 
-	maxGapNs  int64
-	seasonDay int64
-	seasonOK  bool
-	now       time.Time
+	maxGapNs int64
+	seasonLo int64 // site-local day [seasonLo, seasonHi) of the cached answer (Unix ns)
+	seasonHi int64
+	seasonOK bool
+	now      time.Time
 }
 
 // tracker is the persistence state of one rule on one entity.
@@ -66,9 +67,9 @@ type tracker struct {
 // operating accumulates how long a terminal's heating is in operation (fan
 // and plant on), to turn a fault's power into a weekly energy.
 type operating struct {
-	lastAt   int64
-	totalSec float64
-	opSec    float64
+	lastAt  int64
+	totalNs int64 // observed time
+	opNs    int64 // of it, in heating operation
 }
 
 type faultKey struct {
@@ -91,7 +92,7 @@ func NewEvaluator(s *site.Site, rs *Ruleset) (*Evaluator, error) {
 	e := &Evaluator{
 		site: s, rs: rs, nT: len(s.Terminals), nL: len(s.Loops),
 		faults: map[faultKey]*fault{}, byID: map[string]*fault{}, suppress: map[string]time.Time{},
-		maxGapNs: int64(rs.maxGap), seasonDay: -1 << 62,
+		maxGapNs: int64(rs.maxGap),
 	}
 	for _, c := range rs.rules {
 		if c.loop {
@@ -187,82 +188,89 @@ func (e *Evaluator) Step(ev []fdd.Evidence, loops []fdd.LoopEvidence, out []Tran
 	for i := range loops {
 		out = e.stepLoop(&loops[i], out)
 	}
-	for i := range ev {
-		out = e.stepTerminal(&ev[i], out)
-	}
-	return out
+	return e.stepTerminals(ev, out)
 }
 
-// heatingSeason reports whether at lies in the configured season, caching
-// the answer per day.
+// heatingSeason reports whether at (ns its Unix nanoseconds) lies in the
+// configured season, caching the answer for the site-local day it falls in.
 func (e *Evaluator) heatingSeason(at time.Time, ns int64) bool {
-	if !e.rs.seasonOn {
-		return true
-	}
-	day := ns / int64(24*time.Hour)
-	if day == e.seasonDay {
+	if ns >= e.seasonLo && ns < e.seasonHi {
 		return e.seasonOK
 	}
+	return e.seasonDay(at)
+}
+
+// seasonDay computes and caches the heating-season answer for the local day
+// of at (its bounds follow the site's time zone, daylight saving included).
+func (e *Evaluator) seasonDay(at time.Time) bool {
 	loc := e.site.Location
 	if loc == nil {
 		loc = time.UTC
 	}
 	lt := at.In(loc)
+	start := time.Date(lt.Year(), lt.Month(), lt.Day(), 0, 0, 0, 0, loc)
+	e.seasonLo, e.seasonHi = start.UnixNano(), start.AddDate(0, 0, 1).UnixNano()
 	md := int(lt.Month())*100 + lt.Day()
 	lo, hi := e.rs.seasonLo, e.rs.seasonHi
-	if lo <= hi {
+	switch {
+	case !e.rs.seasonOn:
+		e.seasonOK = true
+	case lo <= hi:
 		e.seasonOK = md >= lo && md <= hi
-	} else {
+	default:
 		e.seasonOK = md >= lo || md <= hi
 	}
-	e.seasonDay = day
 	return e.seasonOK
 }
 
+// terminalMask is the gate mask of one evidence record.
 func (e *Evaluator) terminalMask(ev *fdd.Evidence, ns int64) gateMask {
-	var m gateMask
-	if ev.Usable {
-		m |= gUsable
-	}
-	if ev.Steady {
-		m |= gSteady
-	}
-	if ev.PlantOn {
-		m |= gPlant
-	}
-	if ev.FanOn {
-		m |= gFan
-	}
-	if ev.Occupied {
-		m |= gOccupied
-	}
-	if e.heatingSeason(ev.At, ns) {
+	m := gateMask(b2u(ev.Usable)) | gateMask(b2u(ev.Steady))<<1 | gateMask(b2u(ev.PlantOn))<<2 |
+		gateMask(b2u(ev.FanOn))<<3 | gateMask(b2u(ev.Occupied))<<4
+	if (ns >= e.seasonLo && ns < e.seasonHi && e.seasonOK) || e.seasonDay(ev.At) {
 		m |= gSeason
 	}
 	return m
 }
 
-func (e *Evaluator) stepTerminal(ev *fdd.Evidence, out []Transition) []Transition {
-	t := ev.Terminal
-	if t < 0 || t >= e.nT {
-		return out
-	}
-	at := ev.At.UnixNano()
-	mask := e.terminalMask(ev, at)
-	e.accumulateOperating(t, at, mask)
-	p := unsafe.Pointer(ev)
-	for w := 0; w < e.nW; w++ {
-		i := t*e.nW + w
-		set := e.busy[i]
-		if m := e.gateOK[int(mask)*e.nW+w] & e.en[i]; m&^set != 0 {
-			if e.noPrefilter {
-				set |= m
-			} else {
-				set |= m & e.pf.words[w].pass(p)
-			}
+// b2u is 1 for true, 0 for false, without a branch.
+func b2u(b bool) uint8 { return *(*uint8)(unsafe.Pointer(&b)) }
+
+// stepTerminals evaluates the terminal rules over ev. This is the hot
+// path: per record a gate mask, the operating-time sum and, when a rule
+// could be affected at all, the prefilter; rules are looked at one by one
+// only when the prefilter lets them through or their tracker is busy.
+func (e *Evaluator) stepTerminals(ev []fdd.Evidence, out []Transition) []Transition {
+	nW, nT := e.nW, e.nT
+	busy, en, gateOK, words := e.busy, e.en, e.gateOK, e.pf.words
+	for i := range ev {
+		x := &ev[i]
+		t := x.Terminal
+		if t < 0 || t >= nT {
+			continue
 		}
-		if set != 0 {
-			out = e.stepRules(t, w, set, ev, p, at, mask, out)
+		at := x.At.UnixNano()
+		// terminalMask, inlined.
+		mask := gateMask(b2u(x.Usable)) | gateMask(b2u(x.Steady))<<1 | gateMask(b2u(x.PlantOn))<<2 |
+			gateMask(b2u(x.FanOn))<<3 | gateMask(b2u(x.Occupied))<<4
+		if (at >= e.seasonLo && at < e.seasonHi && e.seasonOK) || e.seasonDay(x.At) {
+			mask |= gSeason
+		}
+		e.accumulateOperating(t, at, mask)
+		p := unsafe.Pointer(x)
+		for w := 0; w < nW; w++ {
+			j := t*nW + w
+			set := busy[j]
+			if m := gateOK[int(mask)*nW+w] & en[j]; m&^set != 0 {
+				if e.noPrefilter {
+					set |= m
+				} else {
+					set |= m & words[w].pass(p)
+				}
+			}
+			if set != 0 {
+				out = e.stepRules(t, w, set, x, p, at, mask, out)
+			}
 		}
 	}
 	return out
@@ -432,10 +440,9 @@ func (e *Evaluator) accumulateOperating(t int, at int64, mask gateMask) {
 	o := &e.ops[t]
 	if o.lastAt != 0 {
 		if dt := at - o.lastAt; dt > 0 && dt <= e.maxGapNs {
-			s := float64(dt) / 1e9
-			o.totalSec += s
+			o.totalNs += dt
 			if mask&(gFan|gPlant) == gFan|gPlant {
-				o.opSec += s
+				o.opNs += dt
 			}
 		}
 	}
@@ -452,10 +459,10 @@ func (e *Evaluator) operatingHoursPerWeek(t int) float64 {
 		return 60
 	}
 	o := e.ops[t]
-	if o.totalSec < 24*3600 {
+	if o.totalNs < int64(24*time.Hour) {
 		return 60
 	}
-	return 168 * o.opSec / o.totalSec
+	return 168 * float64(o.opNs) / float64(o.totalNs)
 }
 
 // confidenceAt is the rule's confidence for the evidence at p.

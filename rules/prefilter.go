@@ -19,9 +19,10 @@ import (
 // any-group some child true, and a true comparison has no NaN in it). A
 // clause is an OR of at most clauseMax literals, and a literal is one
 // comparison of a float field (or a difference of two) with a constant,
-// written in the single form "holds when s·x ≥ t", which a NaN fails. All
-// literals of up to rulesPerWord rules are evaluated by one short loop
-// that sets one bit per holding clause. Only rules whose clauses all hold
+// written as x ≥ t or x ≤ t (strict comparisons move t by one ulp), which
+// a NaN fails. All literals of up to rulesPerWord rules are evaluated by
+// short loops, sorted by field offset, that set one bit per holding
+// clause. Only rules whose clauses all hold
 // and whose gates hold, or whose tracker is not idle, are looked at one by
 // one; on a healthy terminal that is none of them.
 //
@@ -40,8 +41,8 @@ const rulesPerWord = 32
 // evenBits has bit 2k set for every k: the per-rule bit of a prefilter word.
 const evenBits = 0x5555555555555555
 
-// lit is one prefilter literal over (a − b) or a: it holds when s·x ≥ t,
-// for s = ±1; it is false for NaN.
+// lit is one prefilter literal over x = (a − b) or x = a: it holds when
+// x ≥ t (s = 1) or x ≤ t (s = −1); it is false for NaN.
 type lit struct {
 	off, offB uintptr
 	hasB      bool
@@ -78,7 +79,7 @@ func litOf(c *Cond, s *schema) (lit, bool) {
 	if err != nil {
 		return lit{}, false
 	}
-	// x > v is x ≥ nextUp(v) and x < v is −x ≥ nextUp(−v), exactly, for
+	// x > v is x ≥ nextUp(v) and x < v is x ≤ nextDown(v), exactly, for
 	// every float x.
 	switch op {
 	case opGE:
@@ -86,9 +87,9 @@ func litOf(c *Cond, s *schema) (lit, bool) {
 	case opGT:
 		l.s, l.t = 1, math.Nextafter(v, math.Inf(1))
 	case opLE:
-		l.s, l.t = -1, -v
+		l.s, l.t = -1, v
 	case opLT:
-		l.s, l.t = -1, math.Nextafter(-v, math.Inf(1))
+		l.s, l.t = -1, math.Nextafter(v, math.Inf(-1))
 	default:
 		return lit{}, false
 	}
@@ -124,7 +125,11 @@ next:
 	for _, l := range d {
 		for i := range out {
 			if o := &out[i]; o.off == l.off && o.hasB == l.hasB && (!l.hasB || o.offB == l.offB) && o.s == l.s {
-				o.t = min(o.t, l.t)
+				if l.s > 0 {
+					o.t = min(o.t, l.t)
+				} else {
+					o.t = max(o.t, l.t)
+				}
 				continue next
 			}
 		}
@@ -174,15 +179,15 @@ func necessary(c *Cond, s *schema) []clause {
 // pfLit is a literal placed in a prefilter word.
 type pfLit struct {
 	off, offB uint32
-	s, t      float64
+	t         float64
 	bit       uint64
 }
 
 // pfWord is the prefilter for up to rulesPerWord rules.
 type pfWord struct {
-	lits   []pfLit // literals on one field
-	diffs  []pfLit // literals on a difference of two fields
-	preset uint64  // bits of clauses a rule does not have (always hold)
+	ge, le   []pfLit // a ≥ t, a ≤ t
+	geD, leD []pfLit // a − b ≥ t, a − b ≤ t
+	preset   uint64  // bits of clauses a rule does not have (always hold)
 }
 
 // prefilter is the compiled prefilter of a scope's rules.
@@ -213,33 +218,68 @@ func buildPrefilter(rules []*compiled, s *schema) prefilter {
 				continue
 			}
 			for _, l := range cls[j] {
-				pl := pfLit{off: uint32(l.off), offB: uint32(l.offB), s: l.s, t: l.t, bit: bit}
-				if l.hasB {
-					pw.diffs = append(pw.diffs, pl)
-				} else {
-					pw.lits = append(pw.lits, pl)
+				pl := pfLit{off: uint32(l.off), offB: uint32(l.offB), t: l.t, bit: bit}
+				switch {
+				case l.hasB && l.s > 0:
+					pw.geD = append(pw.geD, pl)
+				case l.hasB:
+					pw.leD = append(pw.leD, pl)
+				case l.s > 0:
+					pw.ge = append(pw.ge, pl)
+				default:
+					pw.le = append(pw.le, pl)
 				}
 			}
+		}
+	}
+	for w := range pf.words {
+		pw := &pf.words[w]
+		for _, ls := range [][]pfLit{pw.ge, pw.le, pw.geD, pw.leD} {
+			// Evidence read in address order.
+			sort.SliceStable(ls, func(i, j int) bool { return ls[i].off < ls[j].off })
 		}
 	}
 	return pf
 }
 
 // pass returns the bits (2k) of the rules of word w whose clauses all hold
-// at the evidence struct p.
+// at the evidence struct p. The loops branch on each literal; on a healthy
+// terminal every literal fails and the branches are predicted (measured
+// faster than branch-free selects).
 func (w *pfWord) pass(p unsafe.Pointer) uint64 {
 	m := w.preset
-	for i := range w.lits {
-		l := &w.lits[i]
-		if l.s**(*float64)(unsafe.Add(p, l.off)) >= l.t {
+	for i := range w.ge {
+		l := &w.ge[i]
+		if *(*float64)(unsafe.Add(p, l.off)) >= l.t {
 			m |= l.bit
 		}
 	}
-	for i := range w.diffs {
-		l := &w.diffs[i]
-		if l.s*(*(*float64)(unsafe.Add(p, l.off))-*(*float64)(unsafe.Add(p, l.offB))) >= l.t {
+	for i := range w.le {
+		l := &w.le[i]
+		if *(*float64)(unsafe.Add(p, l.off)) <= l.t {
 			m |= l.bit
 		}
+	}
+	if len(w.geD)+len(w.leD) != 0 {
+		m |= w.passDiff(p)
 	}
 	return m & (m >> 1) & evenBits
+}
+
+// passDiff evaluates the literals on differences of two fields.
+func (w *pfWord) passDiff(p unsafe.Pointer) uint64 {
+	var m uint64
+	for i := range w.geD {
+		l := &w.geD[i]
+		if *(*float64)(unsafe.Add(p, l.off))-*(*float64)(unsafe.Add(p, l.offB)) >= l.t {
+			m |= l.bit
+		}
+	}
+	for i := range w.leD {
+		l := &w.leD[i]
+		if *(*float64)(unsafe.Add(p, l.off))-*(*float64)(unsafe.Add(p, l.offB)) <= l.t {
+			m |= l.bit
+		}
+	}
+	return m
 }

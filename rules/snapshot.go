@@ -2,6 +2,7 @@ package rules
 
 import (
 	"fmt"
+	"math"
 	"sort"
 	"time"
 )
@@ -120,7 +121,7 @@ func (e *Evaluator) Export() Snapshot {
 	for t := 0; t < e.nT; t++ {
 		addT(EntityTerminal, e.site.Terminals[t].ID, e.term, e.trackers(EntityTerminal, t))
 		if o := e.ops[t]; o.lastAt != 0 {
-			s.Operating = append(s.Operating, OperatingRecord{Terminal: e.site.Terminals[t].ID, LastAt: tm(o.lastAt), TotalSec: o.totalSec, OpSec: o.opSec})
+			s.Operating = append(s.Operating, OperatingRecord{Terminal: e.site.Terminals[t].ID, LastAt: tm(o.lastAt), TotalSec: float64(o.totalNs) / 1e9, OpSec: float64(o.opNs) / 1e9})
 		}
 	}
 	for l := 0; l < e.nL; l++ {
@@ -226,7 +227,7 @@ func (e *Evaluator) Import(s Snapshot) (ImportStats, error) {
 		if t < 0 {
 			continue
 		}
-		e.ops[t] = operating{lastAt: ns(r.LastAt), totalSec: r.TotalSec, opSec: r.OpSec}
+		e.ops[t] = operating{lastAt: ns(r.LastAt), totalNs: secNs(r.TotalSec), opNs: secNs(r.OpSec)}
 	}
 	return st, nil
 }
@@ -243,4 +244,13 @@ func (e *Evaluator) entityIndex(ek EntityKind, id string) int {
 		return i
 	}
 	return -1
+}
+
+// secNs converts saved seconds to nanoseconds (negative, NaN or absurd
+// values read as 0).
+func secNs(s float64) int64 {
+	if !(s > 0) || s > 1e9 {
+		return 0
+	}
+	return int64(math.Round(s * 1e9))
 }
