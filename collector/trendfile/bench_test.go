@@ -7,6 +7,7 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"strconv"
 	"testing"
 	"time"
 
@@ -16,8 +17,20 @@ import (
 
 // benchFile writes the benchmark's trend file: 100 terminals × 30 days at
 // 1-min rows in the simulator's wide layout (timestamp then 404 point
-// columns), about 100 MB.
+// columns), about 80 MB. Its values repeat (temperatures at 0.01, valves
+// in whole percent, airflow in whole cfm, states 0/1).
 func benchFile(b *testing.B) (string, *site.Site, int64) {
+	return benchFileWith(b, writeWide)
+}
+
+// benchFileDistinct is the same site and size with values as many
+// exports give them: analog values with three decimals and sensor noise,
+// so nearly every cell string differs from the ones before it.
+func benchFileDistinct(b *testing.B) (string, *site.Site, int64) {
+	return benchFileWith(b, writeWideDistinct)
+}
+
+func benchFileWith(b *testing.B, write func(io.Writer, *site.Site, time.Time, time.Duration, int) error) (string, *site.Site, int64) {
 	b.Helper()
 	s := genSite(100)
 	path := filepath.Join(b.TempDir(), "campus-30d.csv")
@@ -25,12 +38,46 @@ func benchFile(b *testing.B) (string, *site.Site, int64) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	if err := writeWide(f, s, start, time.Minute, 30*24*60); err != nil {
+	if err := write(f, s, start, time.Minute, 30*24*60); err != nil {
 		b.Fatal(err)
 	}
 	st, _ := f.Stat()
 	f.Close()
 	return path, s, st.Size()
+}
+
+// writeWideDistinct writes writeWide's layout with rawValue plus a
+// deterministic noise of up to ±0.5 in the file's unit, three decimals
+// (binary points stay 0/1).
+func writeWideDistinct(w io.Writer, s *site.Site, start time.Time, step time.Duration, rows int) error {
+	bw := bufio.NewWriterSize(w, 1<<16)
+	pts := columns(s)
+	bw.WriteString("timestamp")
+	for _, p := range pts {
+		bw.WriteString("," + p.Column)
+	}
+	bw.WriteString("\n")
+	var num []byte
+	x := uint64(0x9E3779B97F4A7C15)
+	for r := 0; r < rows; r++ {
+		bw.WriteString(start.Add(time.Duration(r) * step).Format(time.RFC3339))
+		for k, p := range pts {
+			bw.WriteByte(',')
+			v := rawValue(p, k, r)
+			if !p.Binary {
+				x ^= x << 13 // xorshift64 (G. Marsaglia, "Xorshift RNGs", J. Stat. Softw. 8(14), 2003)
+				x ^= x >> 7
+				x ^= x << 17
+				v += float64(x>>11)/(1<<53) - 0.5
+				num = strconv.AppendFloat(num[:0], v, 'f', 3, 64)
+			} else {
+				num = strconv.AppendFloat(num[:0], v, 'f', -1, 64)
+			}
+			bw.Write(num)
+		}
+		bw.WriteByte('\n')
+	}
+	return bw.Flush()
 }
 
 // BenchmarkTrendIngest reads the whole file into readings (SI, with their
@@ -153,7 +200,35 @@ func readStream(src *Source, path string) (int64, error) {
 // benchmarks can run under different load, the alternation cannot.
 func BenchmarkTrendIngestVsCSV(b *testing.B) {
 	path, s, size := benchFile(b)
-	src := newSource(b, s, site.TrendfileConfig{Path: path})
+	vsCSV(b, path, s, size, 0)
+}
+
+// BenchmarkTrendIngestVsCSVSequential is the same with the sequential
+// reader (Workers 1): the single-core ratio.
+func BenchmarkTrendIngestVsCSVSequential(b *testing.B) {
+	path, s, size := benchFile(b)
+	vsCSV(b, path, s, size, 1)
+}
+
+// BenchmarkTrendIngestVsCSVDistinct is BenchmarkTrendIngestVsCSV on the
+// file with nearly all-distinct values.
+func BenchmarkTrendIngestVsCSVDistinct(b *testing.B) {
+	path, s, size := benchFileDistinct(b)
+	vsCSV(b, path, s, size, 0)
+}
+
+// BenchmarkTrendIngestVsCSVDistinctSequential is the sequential reader on
+// the all-distinct file.
+func BenchmarkTrendIngestVsCSVDistinctSequential(b *testing.B) {
+	path, s, size := benchFileDistinct(b)
+	vsCSV(b, path, s, size, 1)
+}
+
+func vsCSV(b *testing.B, path string, s *site.Site, size int64, workers int) {
+	src, err := New(Config{Name: srcName, Site: s, File: site.TrendfileConfig{Path: path}, Workers: workers, Logger: quietLog()})
+	if err != nil {
+		b.Fatal(err)
+	}
 	b.SetBytes(2 * size)
 	var tCSV, tOurs, cCSV, cOurs time.Duration
 	for b.Loop() {

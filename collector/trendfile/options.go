@@ -38,6 +38,8 @@ type format struct {
 	loc          *time.Location
 	final        bool // consume an unterminated last line at EOF
 	batchReading int  // readings per batch sent
+	workers      int  // goroutines parsing a wide file (0: GOMAXPROCS; 1: sequential)
+	chunkBytes   int  // input per chunk of the parallel reader (0: default)
 }
 
 // resolveFormat checks c and fills defaults. A time zone missing from c

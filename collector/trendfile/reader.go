@@ -49,6 +49,11 @@ type parser struct {
 	unknownSeen map[string]struct{}
 	reuse       bool // the batch is reused after emit returns (ReadStream)
 
+	// out is set in a worker of the parallel reader (parallel.go): rows,
+	// warnings and readings of the chunk being parsed go there, and the
+	// ordered merge judges time order and logs.
+	out *chunk
+
 	// Row mode (ReadRows): one callback per row instead of Readings.
 	rowFn    func(Row) error
 	rowErr   error
@@ -86,6 +91,17 @@ func (p *parser) ensureRow() {
 // commitRow hands a parsed wide row on: to the row callback, or as
 // Readings into the batch.
 func (p *parser) commitRow(at time.Time) {
+	if o := p.out; o != nil && p.rowFn != nil {
+		n := 0
+		for _, ok := range p.rowSet {
+			n += b2i(ok)
+		}
+		o.rows[len(o.rows)-1].nset = n
+		o.vals = append(o.vals, p.rowV...)
+		o.qual = append(o.qual, p.rowQ...)
+		o.set = append(o.set, p.rowSet...)
+		return
+	}
 	p.st.Rows++
 	if p.rowFn != nil {
 		for _, ok := range p.rowSet {
@@ -205,6 +221,9 @@ var errNoHeader = errors.New("no complete header line yet")
 // readRows parses records until EOF (or ctx ends), sending batches to emit
 // on record boundaries. A bad row is counted, warned and skipped.
 func (p *parser) readRows(ctx context.Context, sc *scanner, emit emitFunc) error {
+	if w := p.workerCount(sc); w > 1 {
+		return p.readRowsParallel(ctx, sc, emit, w)
+	}
 	n := 0
 	for {
 		rec, line, quoted, err := sc.next()
@@ -212,7 +231,8 @@ func (p *parser) readRows(ctx context.Context, sc *scanner, emit emitFunc) error
 			break
 		}
 		if err != nil {
-			return fmt.Errorf("%s: %w", p.file, err)
+			// Deliver the rows read before the error, then report it.
+			return errors.Join(p.flush(sc, emit), fmt.Errorf("%s: %w", p.file, err))
 		}
 		if len(rec) == 0 {
 			continue
@@ -250,8 +270,22 @@ func (p *parser) flush(sc *scanner, emit emitFunc) error {
 }
 
 func (p *parser) badRow(line int64, msg string) {
+	if o := p.out; o != nil {
+		o.events = append(o.events, event{row: len(o.rows), bad: true, line: line, msg: msg})
+		return
+	}
 	p.st.BadRows++
 	p.warn.warn(line, "row skipped: "+msg)
+}
+
+// badCell counts and warns a cell that is sent as bad.
+func (p *parser) badCell(line int64, msg string) {
+	if o := p.out; o != nil {
+		o.events = append(o.events, event{row: len(o.rows) - 1, line: line, msg: msg})
+		return
+	}
+	p.st.BadCells++
+	p.warn.warn(line, msg)
 }
 
 // rowTime parses and checks the row's timestamp.
@@ -260,6 +294,14 @@ func (p *parser) rowTime(cell []byte, line int64) (time.Time, bool) {
 	if err != nil {
 		p.badRow(line, err.Error())
 		return time.Time{}, false
+	}
+	if o := p.out; o != nil {
+		// A worker cannot know the previous chunk's last time: the merge
+		// checks the order and parses the time again in file order.
+		t0 := len(o.tcells)
+		o.tcells = append(o.tcells, cell...)
+		o.rows = append(o.rows, rowMeta{line: line, ns: ns, t0: t0, t1: len(o.tcells), r0: len(p.batch)})
+		return time.Unix(0, ns).UTC(), true
 	}
 	if p.hasT && ns < p.lastT {
 		p.badRow(line, fmt.Sprintf("time %s is before the previous row's %s (rows must be in time order)", formatNs(ns), formatNs(p.lastT)))
@@ -273,6 +315,11 @@ func (p *parser) rowTime(cell []byte, line int64) (time.Time, bool) {
 func (p *parser) ensureBatch(extra int) {
 	if p.batch == nil {
 		p.batch = make([]collector.Reading, 0, max(p.f.batchReading+extra, extra))
+	}
+	if p.out != nil && cap(p.batch)-len(p.batch) < extra {
+		// A worker's batch holds its whole chunk: grow it geometrically.
+		p.batch = append(make([]collector.Reading, 0, 2*cap(p.batch)+extra), p.batch...)
+		return
 	}
 	if cap(p.batch)-len(p.batch) < extra {
 		p.batch = append(make([]collector.Reading, 0, len(p.batch)+p.f.batchReading+extra), p.batch...)
@@ -298,8 +345,7 @@ func (p *parser) cell(b []byte, pt int32, line int64, col int) (v float64, q col
 		}
 		return v, collector.Good, true
 	case cellInvalid:
-		p.st.BadCells++
-		p.warn.warn(line, fmt.Sprintf("column %d (%s): %q is not a number or a known state; sent as bad", col+1, pi.name, b))
+		p.badCell(line, fmt.Sprintf("column %d (%s): %q is not a number or a known state; sent as bad", col+1, pi.name, b))
 	}
 	return 0, kind.quality(), true
 }

@@ -30,6 +30,7 @@ type scanner struct {
 	line       int64 // line number of the next record, 1-based
 	quote      byte
 	open       bool // the last record returned had no line terminator (final, at EOF)
+	readErr    error
 }
 
 func newScanner(r io.Reader, offset, line int64, final bool) *scanner {
@@ -95,6 +96,10 @@ func (s *scanner) take(stop int, rec []byte, quoted bool) ([]byte, int64, bool, 
 // fill moves unconsumed bytes to the front (growing the buffer when one
 // record fills it) and reads more.
 func (s *scanner) fill() error {
+	if err := s.readErr; err != nil {
+		s.readErr = nil
+		return err
+	}
 	if s.start > 0 {
 		n := copy(s.buf, s.buf[s.start:s.end])
 		s.start, s.end = 0, n
@@ -115,6 +120,10 @@ func (s *scanner) fill() error {
 			return nil
 		}
 		if err != nil {
+			if n > 0 {
+				s.readErr = err // return what was read first
+				return nil
+			}
 			return err
 		}
 		if n > 0 {

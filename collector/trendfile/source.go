@@ -42,7 +42,11 @@ type Config struct {
 	// the same Progress to collector.AssembleConfig). Files are then moved
 	// to ProcessedDir, or marked done, once a commit covers their last row.
 	Progress *collector.Progress
-	Logger   *slog.Logger
+	// Workers is how many goroutines parse a wide file: 0 means one per
+	// CPU (GOMAXPROCS), 1 the sequential reader. Results do not depend on
+	// it (parallel.go).
+	Workers int
+	Logger  *slog.Logger
 }
 
 // Source reads exported CSV trend files: one file, or every file in a
@@ -99,6 +103,10 @@ func New(cfg Config) (*Source, error) {
 	if cfg.Checkpoints == nil {
 		cfg.Checkpoints = &MemCheckpoints{}
 	}
+	if cfg.Workers < 0 {
+		return nil, fmt.Errorf("trend source %s: workers %d: want 0 (one per CPU) or more", cfg.Name, cfg.Workers)
+	}
+	f.workers = cfg.Workers
 	s := &Source{cfg: cfg, fmt: f, pts: pts, log: cfg.Logger, markEvery: markBytes}
 	if cfg.Progress != nil {
 		s.files = map[string]*fileState{}

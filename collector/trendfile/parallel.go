@@ -1,0 +1,407 @@
+package trendfile
+
+import (
+	"bytes"
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"runtime"
+	"sync"
+	"time"
+
+	"risewatch/collector"
+)
+
+// The parallel reader of wide files. One goroutine reads the stream into
+// chunks of about chunkBytes that end on a record boundary; workers (one
+// per CPU) parse chunks independently; the caller's goroutine takes the
+// chunks back in file order (the ordered merge) and does everything that
+// depends on the rows before: the time-order check, the repeated-hour
+// choice (it parses each row's time again with the one sequential time
+// parser; a row whose instant differs from the worker's gets it patched),
+// line numbers, counts, warnings and their rate limit, batches and their
+// stream offsets. The output is what the sequential reader gives, reading
+// for reading and warning for warning; batch boundaries may differ (a
+// batch ends at the end of a chunk, and before a row the merge rejects).
+//
+// A chunk ends at the last line break outside quotes: with no quote in
+// the chunk that is its last line break; otherwise quotes are counted
+// line by line and a line break ends a record exactly when the quotes
+// since the chunk's start are even (the scanner's rule, applied from a
+// record start, is additive), so records with quoted line breaks are
+// never cut. A record longer than the chunk grows it, up to
+// MaxRecordBytes. Memory is bounded by the fixed number of chunk slots.
+
+// defaultChunkBytes is the input of one chunk: large enough that the
+// hand-over costs little, small enough that a chunk's readings (about 12×
+// its bytes) stay near the workers' caches.
+const defaultChunkBytes = 64 << 10
+
+// rowMeta is one row a worker parsed (its time read, its cells converted).
+type rowMeta struct {
+	line    int64 // line of the record, relative to the chunk's first
+	endOff  int64 // offset just after the record, relative to the chunk
+	endLine int64 // line after the record, relative
+	ns      int64 // the worker's instant for the row's time
+	t0, t1  int   // the time cell in chunk.tcells
+	r0      int   // first reading in chunk.readings
+	nset    int   // cells set (row mode)
+}
+
+// event is a warning a worker deferred to the merge: a skipped row (bad,
+// before rows[row]) or a bad cell of rows[row].
+type event struct {
+	row  int
+	bad  bool
+	line int64 // relative to the chunk
+	msg  string
+}
+
+// chunk is one slot of the pipeline: input bytes and what a worker made
+// of them. Slots are reused; their buffers keep their capacity.
+type chunk struct {
+	buf   []byte
+	data  []byte // whole records (the last chunk: the rest of the stream)
+	final bool   // the last chunk of the stream
+	err   error  // a read error after data
+	ready chan struct{}
+
+	rows     []rowMeta
+	events   []event
+	tcells   []byte
+	readings []collector.Reading
+	lastN    int // readings of this slot's previous chunk (capacity hint)
+	vals     []float64
+	qual     []collector.Quality
+	set      []bool
+	consumed int64 // bytes of data read as records
+	lines    int64 // lines consumed
+	open     bool  // the last record had no terminator
+}
+
+type pipe struct {
+	free, work, order chan *chunk
+	done              chan struct{}
+}
+
+// workerCount is how many goroutines parse chunks for this stream, or 1
+// for the sequential reader: long files (their rows are short and the
+// point-name lookup is per row), one CPU, or a stream already read whole
+// into the scanner that fits one chunk.
+func (p *parser) workerCount(sc *scanner) int {
+	if p.f.layout != LayoutWide {
+		return 1
+	}
+	w := p.f.workers
+	if w <= 0 {
+		w = runtime.GOMAXPROCS(0)
+	}
+	if w > 1 && !sc.eof && sc.end-sc.start <= p.chunkSize() {
+		// A small file ends here. An error is kept for the sequential
+		// reader's next fill.
+		if err := sc.fill(); err != nil {
+			sc.readErr = err
+			return 1
+		}
+	}
+	if sc.eof && sc.end-sc.start <= p.chunkSize() {
+		return 1
+	}
+	return w
+}
+
+func (p *parser) chunkSize() int {
+	if p.f.chunkBytes > 0 {
+		return p.f.chunkBytes
+	}
+	return defaultChunkBytes
+}
+
+// readRowsParallel is readRows with workers goroutines parsing.
+func (p *parser) readRowsParallel(ctx context.Context, sc *scanner, emit emitFunc, workers int) error {
+	slots := 2*workers + 2
+	pl := &pipe{free: make(chan *chunk, slots), work: make(chan *chunk, slots),
+		order: make(chan *chunk, slots), done: make(chan struct{})}
+	for range slots {
+		pl.free <- &chunk{ready: make(chan struct{}, 1)}
+	}
+	var wg sync.WaitGroup
+	wg.Add(1)
+	go func() { defer wg.Done(); pl.read(sc, p.chunkSize()) }()
+	for range workers {
+		w := p.worker()
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for c := range pl.work {
+				select {
+				case <-pl.done:
+				default:
+					w.parseChunk(c, sc.final)
+				}
+				c.ready <- struct{}{}
+			}
+		}()
+	}
+	err := p.merge(ctx, sc, pl, emit)
+	close(pl.done)
+	wg.Wait()
+	return err
+}
+
+// worker returns a parser for one worker goroutine: the header's mapping,
+// its own buffers, memo and time parser.
+func (p *parser) worker() *parser {
+	tp, _ := newTimeParser(p.f.timeFormat, p.f.loc) // the format was checked by newParser
+	w := &parser{f: p.f, pts: p.pts, file: p.file, tp: tp, ncols: p.ncols, timeCol: p.timeCol,
+		cols: p.cols, reuse: p.reuse}
+	if p.rowFn != nil {
+		w.rowFn = func(Row) error { return nil } // row mode; commitRow fills the chunk
+	}
+	return w
+}
+
+// read is the reader goroutine: it cuts the stream, starting with what the
+// scanner holds after the header, into chunks sent in order.
+func (pl *pipe) read(sc *scanner, size int) {
+	defer close(pl.work)
+	defer close(pl.order)
+	// What the scanner holds after the header comes first, then sc.r.
+	held, heldEOF := sc.buf[sc.start:sc.end], sc.eof
+	more := func(b []byte) (int, error) {
+		switch {
+		case len(held) > 0:
+			n := copy(b, held)
+			held = held[n:]
+			return n, nil
+		case heldEOF:
+			return 0, io.EOF
+		}
+		return sc.r.Read(b)
+	}
+	var carry, spare []byte // the start of the next chunk's first record
+	eof := false
+	for {
+		var c *chunk
+		select {
+		case c = <-pl.free:
+		case <-pl.done:
+			return
+		}
+		c.err, c.final = nil, false
+		buf := c.buf[:cap(c.buf)]
+		if len(buf) < size || len(buf) < len(carry) {
+			buf = make([]byte, max(size, len(carry)))
+		}
+		n := copy(buf, carry)
+		cut := 0
+		for {
+			for n < len(buf) && !eof && c.err == nil {
+				m, err := more(buf[n:])
+				n += m
+				if err == io.EOF {
+					eof = true
+				} else if err != nil {
+					c.err = err
+				}
+			}
+			if eof && c.err == nil {
+				cut, c.final = n, true
+				break
+			}
+			if cut = recordsEnd(buf[:n], sc.quote); cut > 0 || c.err != nil {
+				break
+			}
+			if len(buf) >= MaxRecordBytes {
+				c.err = errRecordTooLong
+				break
+			}
+			nb := make([]byte, min(2*len(buf), MaxRecordBytes))
+			copy(nb, buf[:n])
+			buf = nb
+		}
+		c.buf, c.data = buf, buf[:cut]
+		// The rest starts the next chunk; copied, as this buffer goes to a worker.
+		spare = append(spare[:0], buf[cut:n]...)
+		carry = spare
+		pl.order <- c // never blocks: the channels hold every slot
+		pl.work <- c
+		if c.final || c.err != nil {
+			return
+		}
+	}
+}
+
+// recordsEnd returns the length of the longest prefix of b made of whole
+// records (ending in a line break outside quotes), 0 if there is none.
+func recordsEnd(b []byte, quote byte) int {
+	if bytes.IndexByte(b, quote) < 0 {
+		return bytes.LastIndexByte(b, '\n') + 1
+	}
+	end, odd, pos := 0, false, 0
+	for {
+		i := bytes.IndexByte(b[pos:], '\n')
+		if i < 0 {
+			return end
+		}
+		if bytes.Count(b[pos:pos+i], []byte{quote})%2 == 1 {
+			odd = !odd
+		}
+		pos += i + 1
+		if !odd {
+			end = pos
+		}
+	}
+}
+
+// parseChunk parses c's records: rows into c (see parser.out), nothing
+// judged that needs earlier rows.
+func (p *parser) parseChunk(c *chunk, final bool) {
+	c.rows, c.events, c.tcells = c.rows[:0], c.events[:0], c.tcells[:0]
+	c.vals, c.qual, c.set = c.vals[:0], c.qual[:0], c.set[:0]
+	if p.reuse {
+		p.batch = c.readings[:0]
+	} else {
+		p.batch = make([]collector.Reading, 0, c.lastN+c.lastN/8+len(p.cols))
+	}
+	if p.rowFn != nil {
+		p.ensureRow()
+	}
+	p.out = c
+	// Each chunk starts without a previous time, so what a worker gives a
+	// repeated hour depends on the chunk only (the merge corrects it).
+	p.tp.hasPrev, p.tp.lastRaw = false, nil
+	sc := &scanner{buf: c.data, end: len(c.data), eof: true, final: final || !c.final, quote: '"'}
+	for {
+		rec, line, quoted, err := sc.next()
+		if err != nil {
+			break // io.EOF: a slice scanner never reads
+		}
+		if len(rec) == 0 {
+			continue
+		}
+		n := len(c.rows)
+		p.wideRow(rec, line, quoted)
+		if len(c.rows) > n {
+			r := &c.rows[n]
+			r.endOff, r.endLine = sc.consumed(), sc.line
+		}
+	}
+	p.out = nil
+	c.readings, c.lastN = p.batch, len(p.batch)
+	p.batch = nil
+	c.consumed, c.lines, c.open = sc.consumed(), sc.line, sc.open
+}
+
+// merge takes the chunks back in order and delivers their rows as the
+// sequential reader would.
+func (p *parser) merge(ctx context.Context, sc *scanner, pl *pipe, emit emitFunc) error {
+	for c := range pl.order {
+		<-c.ready
+		err := p.mergeChunk(c, sc.offset, sc.line, emit)
+		if err == nil && c.err != nil {
+			if errors.Is(c.err, errRecordTooLong) {
+				err = fmt.Errorf("%s: line %d: %w", p.file, sc.line+c.lines, c.err)
+			} else {
+				err = fmt.Errorf("%s: %w", p.file, c.err)
+			}
+		}
+		sc.offset, sc.line, sc.open = sc.offset+c.consumed, sc.line+c.lines, c.open
+		if !p.reuse {
+			c.readings = nil // the consumer owns them
+		}
+		pl.free <- c
+		if err != nil {
+			return err
+		}
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+	}
+	p.st.DSTGapTimes, p.st.RepeatedTimes = p.tp.gaps, p.tp.repeated
+	return nil
+}
+
+// mergeChunk delivers one chunk; base and line are the stream offset and
+// line number of its start.
+func (p *parser) mergeChunk(c *chunk, base, line int64, emit emitFunc) error {
+	ev := c.events
+	e := 0
+	rowMode := p.rowFn != nil
+	n := len(p.cols)
+	if rowMode {
+		p.ensureRow()
+	}
+	bs := 0                     // start of the pending batch in c.readings
+	var lastEnd, lastLine int64 // end of the last row delivered, relative
+	send := func(b []collector.Reading, off, ln int64) error {
+		p.st.Readings += int64(len(b))
+		return emit(b, base+off, line+ln)
+	}
+	for i := range c.rows {
+		rm := &c.rows[i]
+		r1 := len(c.readings)
+		if i+1 < len(c.rows) {
+			r1 = c.rows[i+1].r0
+		}
+		for ; e < len(ev) && ev[e].row == i && ev[e].bad; e++ {
+			p.badRow(line+ev[e].line, ev[e].msg)
+		}
+		// The worker parsed these bytes, so this parse succeeds; it keeps
+		// the time parser's state (repeated hours, counts) in file order.
+		ns, err := p.tp.parse(c.tcells[rm.t0:rm.t1])
+		ok := err == nil
+		switch {
+		case !ok:
+			p.badRow(line+rm.line, err.Error())
+		case p.hasT && ns < p.lastT:
+			p.badRow(line+rm.line, fmt.Sprintf("time %s is before the previous row's %s (rows must be in time order)", formatNs(ns), formatNs(p.lastT)))
+			ok = false
+		}
+		if !ok {
+			for ; e < len(ev) && ev[e].row == i; e++ {
+			}
+			if !rowMode && rm.r0 > bs {
+				if err := send(c.readings[bs:rm.r0:rm.r0], lastEnd, lastLine); err != nil {
+					return err
+				}
+			}
+			bs = r1
+			continue
+		}
+		p.lastT, p.hasT = ns, true
+		p.st.Rows++
+		for ; e < len(ev) && ev[e].row == i; e++ {
+			p.badCell(line+ev[e].line, ev[e].msg)
+		}
+		lastEnd, lastLine = rm.endOff, rm.endLine
+		if rowMode {
+			p.st.Readings += int64(rm.nset)
+			k := i * n
+			p.rowErr = p.rowFn(Row{At: time.Unix(0, ns).UTC(), Points: p.rowNames, Values: c.vals[k : k+n : k+n],
+				Quality: c.qual[k : k+n : k+n], Set: c.set[k : k+n : k+n]})
+			if p.rowErr != nil {
+				return p.rowErr
+			}
+			continue
+		}
+		if ns != rm.ns {
+			at := time.Unix(0, ns).UTC()
+			for k := rm.r0; k < r1; k++ {
+				c.readings[k].At = at
+			}
+		}
+		if r1-bs >= p.f.batchReading {
+			if err := send(c.readings[bs:r1:r1], rm.endOff, rm.endLine); err != nil {
+				return err
+			}
+			bs = r1
+		}
+	}
+	for ; e < len(ev); e++ {
+		p.badRow(line+ev[e].line, ev[e].msg)
+	}
+	end := len(c.readings)
+	return send(c.readings[bs:end:end], c.consumed, c.lines)
+}
