@@ -104,6 +104,7 @@ daemon:
 // an event, every opened fault reached the mailbox, and no message arrived
 // twice (by Message-ID).
 func TestDaemonOutagesAndKill9(t *testing.T) {
+	t.Parallel()
 	ifx := influxtest.Start(t)
 	ifx.Stop()
 	smtpPort := freePort(t)

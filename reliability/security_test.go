@@ -38,6 +38,7 @@ func TestDefaultListenIsLoopback(t *testing.T) {
 // 0.0.0.0:PORT` without a token or basic-auth password does not start;
 // with a token it starts and answers only requests that carry it.
 func TestRunRefusesOpenListenWithoutCredentials(t *testing.T) {
+	t.Parallel()
 	c := startCampus(t, CampusConfig{Groups: 1, PerGroup: 2, PollInterval: 10 * time.Second, Timeout: time.Second, Retries: 1})
 	dir := t.TempDir()
 	data := filepath.Join(dir, "data")
