@@ -16,11 +16,23 @@ type window struct {
 	sum    float64 // Σ x_j
 	sumSq  float64 // Σ x_j²
 	sumJ   float64 // Σ j·x_j, j = 0 for the oldest sample
+	fullK  slopeConst
+}
+
+// slopeConst holds the slope formula's constants for a full window of n:
+// Σj = n(n−1)/2 and the denominator n·Σj² − (Σj)².
+type slopeConst struct{ n, sj, den float64 }
+
+func newSlopeConst(n int) slopeConst {
+	c := float64(n)
+	sj := c * (c - 1) / 2
+	sjj := (c - 1) * c * (2*c - 1) / 6
+	return slopeConst{n: c, sj: sj, den: c*sjj - sj*sj}
 }
 
 const rebuildEvery = 256
 
-func (w *window) init(n int) { *w = window{n: n} }
+func (w *window) init(n int) { *w = window{n: n, fullK: newSlopeConst(n)} }
 
 // reset empties the window (after a gap or a gated sample).
 func (w *window) reset() {
@@ -109,6 +121,10 @@ func (w *window) variance() float64 {
 // slope is the ordinary least-squares slope per step over the samples held:
 // b = (c·Σjx − Σj·Σx) / (c·Σj² − (Σj)²), j = 0..c−1.
 func (w *window) slope() float64 {
+	if w.count == w.n {
+		k := &w.fullK
+		return (k.n*w.sumJ - k.sj*w.sum) / k.den
+	}
 	if w.count < 2 {
 		return 0
 	}
@@ -157,9 +173,10 @@ type window4 struct {
 	sum    [nCh]float64
 	sumSq  [nCh]float64
 	sumJ   [nCh]float64
+	fullK  slopeConst
 }
 
-func (w *window4) init(n int) { *w = window4{n: n} }
+func (w *window4) init(n int) { *w = window4{n: n, fullK: newSlopeConst(n)} }
 
 func (w *window4) reset() {
 	if w.count == 0 && w.head == 0 {
@@ -245,6 +262,10 @@ func (w *window4) variance(k int) float64 {
 }
 
 func (w *window4) slope(k int) float64 {
+	if w.count == w.n {
+		c := &w.fullK
+		return (c.n*w.sumJ[k] - c.sj*w.sum[k]) / c.den
+	}
 	if w.count < 2 {
 		return 0
 	}
