@@ -81,6 +81,8 @@ type ReportConfig struct {
 	To       []string `yaml:"to"`       // contractor recipients (needs notify for the mail server)
 	IP       bool     `yaml:"ip_units"`
 	Disabled bool     `yaml:"disabled"`
+	// Readiness, when set, adds the low-temperature readiness section.
+	Readiness *ReadinessConfig `yaml:"readiness"`
 }
 
 // Shard selects part of the site for one daemon process. A terminal
@@ -207,6 +209,15 @@ func (c *Config) validate(el *errList) {
 	for i, a := range c.Report.To {
 		if !strings.Contains(a, "@") || strings.ContainsAny(a, "\r\n<>") {
 			el.at(nodeAt(c.node, fmt.Sprintf("report.to.%d", i)), "daemon: report: to: %q is not an e-mail address", a)
+		}
+	}
+	if r := c.Report.Readiness; r != nil {
+		for _, e := range r.parse() {
+			n := at("report.readiness." + e.key)
+			if e.key == "" || n == nil {
+				n = at("report.readiness")
+			}
+			el.at(n, "daemon: report: readiness: %s", e.msg)
 		}
 	}
 	if len(c.Report.To) > 0 && c.Notify == nil {

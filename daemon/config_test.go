@@ -50,6 +50,9 @@ func TestDaemonSectionErrors(t *testing.T) {
 		{"daemon:\n  report: {schedule: \"61 * * * *\"}\n", "daemon: report: schedule"},
 		{"daemon:\n  mail_spool: /tmp/x\n", "mail_spool needs a notify"},
 		{"daemon:\n  notify: {from: nobody}\n", "daemon: notify: "},
+		{"daemon:\n  report:\n    readiness: {supply: 300 F}\n", "daemon: report: readiness: supply 300 F: must be 77 to 230"},
+		{"daemon:\n  report:\n    readiness: {delta_t: 20 F}\n", "readiness: supply is required"},
+		{"daemon:\n  report:\n    readiness:\n      supply: 120 F\n      branch_dp: 5 cfm\n", pos(4, 18) + "daemon: report: readiness: branch_dp: "},
 	}
 	for _, tc := range cases {
 		s, err := site.Parse("t.yaml", []byte(base+tc.daemon))

@@ -158,10 +158,12 @@ func (pl *pipeline) run(parent context.Context) (*plan, error) {
 	if err := pl.restore(parent); err != nil {
 		return nil, err
 	}
-	ctx, cancel := context.WithCancel(parent)
-	defer cancel()
+	// Deferred in this order so that cancel runs first and the goroutines
+	// waited for see it (a reload returns with parent still live).
 	var wg sync.WaitGroup
 	defer wg.Wait()
+	ctx, cancel := context.WithCancel(parent)
+	defer cancel()
 
 	ln, err := net.Listen("tcp", pl.p.cfg.Listen)
 	if err != nil {

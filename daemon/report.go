@@ -206,6 +206,9 @@ func (pl *pipeline) runReport(ctx context.Context, at time.Time, mail, current b
 		pl.d.log.Error("weekly report: gather", "err", err)
 		return
 	}
+	if err := AddReadiness(ctx, &in, s, cfg); err != nil {
+		pl.d.log.Error("weekly report: readiness section left out", "err", err)
+	}
 	rf, err := WriteReport(filepath.Join(cfg.DataDir, "reports"), in)
 	if err != nil {
 		pl.d.log.Error("weekly report: write", "err", err)

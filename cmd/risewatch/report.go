@@ -58,6 +58,9 @@ func runReport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	if err != nil {
 		return err
 	}
+	if err := daemon.AddReadiness(ctx, &in, s, cfg); err != nil {
+		return err
+	}
 	dir := *out
 	if dir == "" {
 		dir = filepath.Join(cfg.DataDir, "reports")
