@@ -9,7 +9,6 @@ import (
 	"fmt"
 	"mime"
 	"mime/multipart"
-	"mime/quotedprintable"
 	"net/textproto"
 	"strings"
 	"time"
@@ -72,18 +71,7 @@ func (n *Notifier) QueueAttachments(ctx context.Context, id string, to []string,
 func (c *Config) composeAttach(k string, to []string, at time.Time, subj, text string, atts []Attachment) ([]byte, error) {
 	var body bytes.Buffer
 	mw := multipart.NewWriter(&body)
-	h := textproto.MIMEHeader{}
-	h.Set("Content-Type", "text/plain; charset=utf-8")
-	h.Set("Content-Transfer-Encoding", "quoted-printable")
-	pw, err := mw.CreatePart(h)
-	if err != nil {
-		return nil, err
-	}
-	qw := quotedprintable.NewWriter(pw)
-	if _, err := qw.Write([]byte(text + "\n\n" + Advisory + "\n")); err != nil {
-		return nil, err
-	}
-	if err := qw.Close(); err != nil {
+	if err := writeQPPart(mw, "text/plain; charset=utf-8", []byte(text+"\n\n"+Advisory+"\n")); err != nil {
 		return nil, err
 	}
 	for _, a := range atts {
@@ -113,18 +101,5 @@ func (c *Config) composeAttach(k string, to []string, at time.Time, subj, text s
 	if err := mw.Close(); err != nil {
 		return nil, err
 	}
-	var msg bytes.Buffer
-	hdr := func(k, v string) { fmt.Fprintf(&msg, "%s: %s\r\n", k, v) }
-	hdr("From", c.From)
-	hdr("To", strings.Join(to, ", "))
-	hdr("Subject", mime.QEncoding.Encode("utf-8", subj))
-	hdr("Date", at.Format(time.RFC1123Z))
-	hdr("Message-ID", "<"+k+"@risewatch>")
-	hdr("MIME-Version", "1.0")
-	hdr("Auto-Submitted", "auto-generated")
-	hdr("X-Risewatch-Key", k)
-	hdr("Content-Type", "multipart/mixed; boundary="+mw.Boundary())
-	msg.WriteString("\r\n")
-	msg.Write(body.Bytes())
-	return msg.Bytes(), nil
+	return c.envelope(k, to, at, subj, "multipart/mixed; boundary="+mw.Boundary(), body.Bytes()), nil
 }

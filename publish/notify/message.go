@@ -239,24 +239,36 @@ func (c *Config) compose(r *renderer, site, key string, to []string, at time.Tim
 		ctype string
 		data  []byte
 	}{{"text/plain; charset=utf-8", text.Bytes()}, {"text/html; charset=utf-8", html.Bytes()}} {
-		h := textproto.MIMEHeader{}
-		h.Set("Content-Type", part.ctype)
-		h.Set("Content-Transfer-Encoding", "quoted-printable")
-		pw, err := mw.CreatePart(h)
-		if err != nil {
-			return nil, err
-		}
-		qw := quotedprintable.NewWriter(pw)
-		if _, err := qw.Write(part.data); err != nil {
-			return nil, err
-		}
-		if err := qw.Close(); err != nil {
+		if err := writeQPPart(mw, part.ctype, part.data); err != nil {
 			return nil, err
 		}
 	}
 	if err := mw.Close(); err != nil {
 		return nil, err
 	}
+	return c.envelope(key, to, at, subj, "multipart/alternative; boundary="+mw.Boundary(), body.Bytes()), nil
+}
+
+// writeQPPart adds a quoted-printable part (RFC 2045 §6.7) to mw.
+func writeQPPart(mw *multipart.Writer, ctype string, data []byte) error {
+	h := textproto.MIMEHeader{}
+	h.Set("Content-Type", ctype)
+	h.Set("Content-Transfer-Encoding", "quoted-printable")
+	pw, err := mw.CreatePart(h)
+	if err != nil {
+		return err
+	}
+	qw := quotedprintable.NewWriter(pw)
+	if _, err := qw.Write(data); err != nil {
+		return err
+	}
+	return qw.Close()
+}
+
+// envelope puts the RFC 5322 headers in front of a MIME body. The
+// Message-ID is derived from the outbox key, so a re-sent message is
+// recognisably the same message.
+func (c *Config) envelope(key string, to []string, at time.Time, subj, contentType string, body []byte) []byte {
 	var msg bytes.Buffer
 	hdr := func(k, v string) { fmt.Fprintf(&msg, "%s: %s\r\n", k, v) }
 	hdr("From", c.From)
@@ -267,8 +279,8 @@ func (c *Config) compose(r *renderer, site, key string, to []string, at time.Tim
 	hdr("MIME-Version", "1.0")
 	hdr("Auto-Submitted", "auto-generated")
 	hdr("X-Risewatch-Key", key)
-	hdr("Content-Type", "multipart/alternative; boundary="+mw.Boundary())
+	hdr("Content-Type", contentType)
 	msg.WriteString("\r\n")
-	msg.Write(body.Bytes())
-	return msg.Bytes(), nil
+	msg.Write(body)
+	return msg.Bytes()
 }
