@@ -23,6 +23,12 @@ const (
 	DefaultSnapshot     = 30 * time.Second // lifecycle state when no fault changed
 	DefaultAckPoll      = 5 * time.Second  // acknowledgements made by `risewatch ack`
 	DefaultNotifyEvery  = 15 * time.Second // group, remind and deliver e-mail
+	// DefaultOutboxKeep is how long sent outbox rows (e-mail, InfluxDB
+	// batches) are kept for de-duplication before they are purged.
+	DefaultOutboxKeep = 30 * 24 * time.Hour
+	// DefaultPurgeEvery is how often sent outbox rows older than
+	// outbox_keep are deleted.
+	DefaultPurgeEvery = time.Hour
 )
 
 // Config is the daemon: section of a site file. Secrets are never held
@@ -37,9 +43,12 @@ type Config struct {
 	Rules    string        `yaml:"rules"` // site rules file (overrides and additions)
 	// PersistEvery is how often baselines and plot series go to the store
 	// (and always at shutdown).
-	PersistEvery time.Duration  `yaml:"persist_every"`
-	Web          WebConfig      `yaml:"web"`
-	Notify       *notify.Config `yaml:"notify"`
+	PersistEvery time.Duration `yaml:"persist_every"`
+	// OutboxKeep is how long a sent e-mail or InfluxDB batch stays in the
+	// outbox (its key de-duplicates a replay) before it is purged.
+	OutboxKeep time.Duration  `yaml:"outbox_keep"`
+	Web        WebConfig      `yaml:"web"`
+	Notify     *notify.Config `yaml:"notify"`
 	// MailSpool, when set, writes each message as an .eml file into this
 	// directory instead of sending it by SMTP (tests, demos, air-gapped sites).
 	MailSpool string       `yaml:"mail_spool"`
@@ -144,6 +153,9 @@ func (c *Config) defaults() {
 	if c.PersistEvery == 0 {
 		c.PersistEvery = DefaultPersistEvery
 	}
+	if c.OutboxKeep == 0 {
+		c.OutboxKeep = DefaultOutboxKeep
+	}
 	if c.Report.Schedule == "" {
 		c.Report.Schedule = report.DefaultSpec
 	}
@@ -159,6 +171,9 @@ func (c *Config) validate(el *errList) {
 	}
 	if c.Lateness < 0 || c.Lateness > 48*time.Hour {
 		el.at(at("lateness"), "daemon: lateness %s: expected 0 to 48h", c.Lateness)
+	}
+	if c.OutboxKeep < time.Hour {
+		el.at(at("outbox_keep"), "daemon: outbox_keep %s: expected at least 1h (sent rows are kept to de-duplicate replays)", c.OutboxKeep)
 	}
 	if c.PersistEvery < time.Second {
 		el.at(at("persist_every"), "daemon: persist_every %s: expected at least 1s", c.PersistEvery)

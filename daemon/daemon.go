@@ -63,6 +63,7 @@ type Options struct {
 	NotifyEvery   time.Duration
 	AckPoll       time.Duration
 	SnapshotEvery time.Duration
+	PurgeEvery    time.Duration // sent outbox rows (default DefaultPurgeEvery)
 
 	Logger *slog.Logger
 }
@@ -102,6 +103,9 @@ func New(opts Options) (*Daemon, *plan, error) {
 	}
 	if opts.SnapshotEvery == 0 {
 		opts.SnapshotEvery = DefaultSnapshot
+	}
+	if opts.PurgeEvery == 0 {
+		opts.PurgeEvery = DefaultPurgeEvery
 	}
 	d := &Daemon{opts: opts, log: opts.Logger, ready: make(chan struct{}), reload: make(chan *plan, 1)}
 	p, err := d.loadPlan()

@@ -220,6 +220,9 @@ func (pl *pipeline) run(parent context.Context) (*plan, error) {
 	defer ackPoll.Stop()
 	snap := time.NewTicker(pl.d.opts.SnapshotEvery)
 	defer snap.Stop()
+	purge := time.NewTicker(pl.d.opts.PurgeEvery)
+	defer purge.Stop()
+	pl.purgeSent(ctx)
 	var evs []fdd.Evidence
 	var trs []rules.Transition
 	dirty := false // lifecycle changed since the last snapshot
@@ -287,6 +290,8 @@ func (pl *pipeline) run(parent context.Context) (*plan, error) {
 			}
 		case <-persist.C:
 			pl.persistAll(ctx, false)
+		case <-purge.C:
+			pl.purgeSent(ctx)
 		case reply := <-pl.applyReq:
 			reply <- pl.applyAcks(ctx)
 		case <-ackPoll.C:
@@ -414,6 +419,18 @@ func (pl *pipeline) persistAll(ctx context.Context, final bool) {
 			pl.d.log.Error("lifecycle state not stored at shutdown", "err", err)
 		}
 		pl.d.log.Info("state stored", "baselines", n, "last_step", pl.Now())
+	}
+}
+
+// purgeSent deletes sent outbox rows older than outbox_keep (wall clock:
+// the outbox stamps sending with it). Pending rows are never touched.
+func (pl *pipeline) purgeSent(ctx context.Context) {
+	n, err := pl.st.PurgeSent(ctx, "", time.Now().Add(-pl.p.cfg.OutboxKeep))
+	switch {
+	case err != nil && ctx.Err() == nil:
+		pl.d.log.Warn("outbox: sent rows not purged", "err", err)
+	case n > 0:
+		pl.d.log.Info("outbox: sent rows purged", "rows", n, "older_than", pl.p.cfg.OutboxKeep)
 	}
 }
 
