@@ -1,7 +1,6 @@
 package web
 
 import (
-	"context"
 	"net/http/httptest"
 	"os"
 	"path/filepath"
@@ -11,38 +10,8 @@ import (
 
 	"github.com/chromedp/chromedp"
 
-	"risewatch/internal/testenv"
+	"risewatch/internal/browsertest"
 )
-
-// browser starts headless Debian chromium (flags as needed on a machine with
-// no outside network) and returns a chromedp context.
-func browser(t *testing.T) context.Context {
-	t.Helper()
-	exe := testenv.LookTool(t, "chromium", "apt-get install chromium")
-	opts := append([]chromedp.ExecAllocatorOption{},
-		chromedp.ExecPath(exe),
-		chromedp.Headless,
-		chromedp.NoSandbox,
-		chromedp.DisableGPU,
-		chromedp.NoFirstRun,
-		chromedp.NoDefaultBrowserCheck,
-		chromedp.UserDataDir(t.TempDir()),
-		chromedp.Flag("disable-quic", true),
-		chromedp.Flag("disable-background-networking", true),
-		chromedp.Flag("disable-component-update", true),
-		chromedp.Flag("disable-sync", true),
-		chromedp.Flag("disable-dev-shm-usage", true),
-		chromedp.WindowSize(1280, 1000),
-	)
-	actx, cancelA := chromedp.NewExecAllocator(context.Background(), opts...)
-	ctx, cancelC := chromedp.NewContext(actx)
-	ctx, cancelT := context.WithTimeout(ctx, 90*time.Second)
-	t.Cleanup(func() { cancelT(); cancelC(); cancelA() })
-	if err := chromedp.Do(ctx); err != nil {
-		t.Fatalf("start chromium: %v", err)
-	}
-	return ctx
-}
 
 // TestDashboardInChromium loads each page in a real browser, checks what a
 // person would read, submits the acknowledge form and keeps screenshots.
@@ -54,11 +23,8 @@ func TestDashboardInChromium(t *testing.T) {
 	}
 	ts := httptest.NewServer(s.Handler())
 	defer ts.Close()
-	ctx := browser(t)
-	shots := t.TempDir()
-	if d := os.Getenv("RISEWATCH_SCREENSHOTS"); d != "" {
-		shots = d
-	}
+	ctx := browsertest.Start(t, 90*time.Second)
+	shots := browsertest.ScreenshotDir(t)
 	pages := []struct {
 		path, sel string
 		want      []string
