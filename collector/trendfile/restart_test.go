@@ -79,7 +79,10 @@ func lineAt(l string) int64 {
 // pipeline runs source → assembler → consumer once. consume handles a
 // step and returns false to stop the run there (a crash: nothing after
 // it is accepted). It returns nil when the input was read to its end.
-func pipeline(t testing.TB, dir string, s *site.Site, ck Checkpoints, every time.Duration,
+//
+// chunk > 0 reads with the parallel reader (two workers) in chunks of
+// that many bytes; 0 with the sequential reader.
+func pipeline(t testing.TB, dir string, s *site.Site, ck Checkpoints, every time.Duration, chunk int,
 	consume func(line string, at time.Time) bool) (*collector.Progress, error) {
 	prog, err := collector.OpenProgress(ck, "assembler", every)
 	if err != nil {
@@ -92,6 +95,10 @@ func pipeline(t testing.TB, dir string, s *site.Site, ck Checkpoints, every time
 	}
 	src.fmt.batchReading = 40 // a few rows per batch,
 	src.markEvery = 1         // a resume mark after each
+	src.fmt.workers, src.fmt.chunkBytes = 1, chunk
+	if chunk > 0 {
+		src.fmt.workers = 2
+	}
 	asm, err := collector.NewAssembler(s, collector.AssembleConfig{Progress: prog, Logger: quietLog()})
 	if err != nil {
 		t.Fatal(err)
@@ -122,7 +129,7 @@ func pipeline(t testing.TB, dir string, s *site.Site, ck Checkpoints, every time
 // cleanRun is the uninterrupted run's steps.
 func cleanRun(t testing.TB, dir string, s *site.Site) []string {
 	var lines []string
-	if _, err := pipeline(t, dir, s, &MemCheckpoints{}, time.Hour, func(l string, _ time.Time) bool {
+	if _, err := pipeline(t, dir, s, &MemCheckpoints{}, time.Hour, 0, func(l string, _ time.Time) bool {
 		lines = append(lines, l)
 		return true
 	}); err != nil {
@@ -177,7 +184,8 @@ func TestRestartAtRandomPointsMatchesCleanRun(t *testing.T) {
 		for ; restarts < 200; restarts++ {
 			stopAfter := rng.IntN(120)
 			n := 0
-			prog, err := pipeline(t, dir, s, ck, time.Duration(rng.IntN(2))*time.Hour, func(l string, at time.Time) bool {
+			// Odd trials read in parallel: restarts must not depend on it.
+			prog, err := pipeline(t, dir, s, ck, time.Duration(rng.IntN(2))*time.Hour, (trial%2)*(200+rng.IntN(2000)), func(l string, at time.Time) bool {
 				if n == stopAfter {
 					return false
 				}
@@ -293,7 +301,7 @@ func killChild(t *testing.T) {
 	}
 	defer f.Close()
 	s := genSite(3)
-	if _, err := pipeline(t, dir, s, ck, 5*time.Millisecond, func(l string, _ time.Time) bool {
+	if _, err := pipeline(t, dir, s, ck, 5*time.Millisecond, 1500, func(l string, _ time.Time) bool {
 		if _, err := f.WriteString(l + "\n"); err != nil {
 			t.Fatal(err)
 		}
