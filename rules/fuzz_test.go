@@ -1,6 +1,7 @@
 package rules
 
 import (
+	"math/rand/v2"
 	"testing"
 
 	"risewatch/fdd"
@@ -16,6 +17,8 @@ func FuzzParseRules(f *testing.F) {
 	f.Add([]byte("rules:\n  - id: l\n    kind: cold-loop\n    scope: loop\n    severity: 2\n    when: {field: hw_c, minus: hw_expected_c, op: '<', value: -15 F, ref: short, times: 0.1}\n"))
 	f.Add([]byte("rules: [{id: a, kind: leaking-valve, severity: 9}]"))
 	f.Add([]byte("{"))
+	f.Add([]byte(extraRules))
+	f.Add([]byte("rules:\n  - id: w\n    kind: hunting\n    severity: 3\n    when: {any: [{field: valve, op: '<', value: 0.1}, {field: rise_k, op: '>', value: 2}, {field: sat_c, minus: dat_c, op: '<=', value: -1 K}, {field: hw_c, op: '<', value: 40 C}, {field: z, op: '>=', value: 3}]}\n"))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		file, err := Parse(data, "fuzz.yaml")
 		if err != nil {
@@ -33,6 +36,15 @@ func FuzzParseRules(f *testing.F) {
 			e.Step(nil, nil, nil)
 			ev := quiet(i%2, minute(i))
 			e.Step([]fdd.Evidence{ev}, []fdd.LoopEvidence{{Loop: 0, At: minute(i), PlantOn: true}}, nil)
+		}
+		// The prefilter never rejects a rule whose condition is true.
+		rng := rand.New(rand.NewPCG(uint64(len(data)), 7))
+		var ev fdd.Evidence
+		for i := 0; i < 50; i++ {
+			randEvidence(rng, &ev, 0.1)
+			if r, ok := prefilterMiss(e, &ev); !ok {
+				t.Fatalf("rule %s: condition true but the prefilter rejects it", r)
+			}
 		}
 	})
 }

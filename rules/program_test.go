@@ -237,28 +237,35 @@ func TestPrefilterSound(t *testing.T) {
 	trues, skipped := 0, 0
 	for i := 0; i < 50000; i++ {
 		randEvidence(rng, &ev, 0.1)
-		for w := range e.pf.words {
-			pass := e.pf.words[w].pass(p)
-			for k := 0; k < rulesPerWord && w*rulesPerWord+k < len(e.term); k++ {
-				c := e.term[w*rulesPerWord+k]
-				bit := pass&(1<<(2*uint(k))) != 0
-				switch c.when.eval(p) {
-				case triTrue:
-					trues++
-					if !bit {
-						t.Fatalf("rule %s: condition true but prefilter rejects it at %+v", c.rule.ID, ev)
-					}
-				default:
-					if !bit {
-						skipped++
-					}
-				}
+		if r, ok := prefilterMiss(e, &ev); !ok {
+			t.Fatalf("rule %s: condition true but prefilter rejects it at %+v", r, ev)
+		}
+		for r, c := range e.term {
+			pass := e.pf.words[r/rulesPerWord].pass(p)&(1<<(2*uint(r%rulesPerWord))) != 0
+			switch {
+			case c.when.eval(p) == triTrue:
+				trues++
+			case !pass:
+				skipped++
 			}
 		}
 	}
 	if trues == 0 || skipped == 0 {
 		t.Errorf("test does not exercise the prefilter: %d true conditions, %d rejections", trues, skipped)
 	}
+}
+
+// prefilterMiss checks every terminal rule of e at ev: ok is false, with
+// the rule's ID, when the condition is true and the prefilter rejects it.
+func prefilterMiss(e *Evaluator, ev *fdd.Evidence) (string, bool) {
+	p := unsafe.Pointer(ev)
+	for r, c := range e.term {
+		pass := e.pf.words[r/rulesPerWord].pass(p)&(1<<(2*uint(r%rulesPerWord))) != 0
+		if !pass && c.when.eval(p) == triTrue {
+			return c.rule.ID, false
+		}
+	}
+	return "", true
 }
 
 // TestPrefilterSameLifecycle runs the same slowly changing random evidence
