@@ -24,11 +24,20 @@
 // core for evidence plus rules, with no allocation per sample. Conditions are
 // therefore compiled once at load time: reflection over the Evidence struct
 // tags resolves every field name to a byte offset and type, and each
-// comparison becomes a small fixed-size record (offset, operator, threshold)
-// evaluated by a tight loop with three-valued logic (NaN is "unknown", which
-// neither opens nor clears a fault). An expression library would add a
-// dependency, an interpreter with its own value boxing on every evaluation,
-// and a second syntax for engineers to learn; the conditions people actually
+// condition becomes a flat pre-order array of fixed-size nodes (offset,
+// operator, threshold; a group's children follow it and each node records
+// where its subtree ends), evaluated by one loop with three-valued logic
+// (NaN is "unknown", which neither opens nor clears a fault) and no
+// closures or interface calls (program.go). Most samples never reach it: a
+// rule whose tracker is idle can only change when its condition is true, so
+// the loader also derives from each condition up to two necessary clauses
+// (ORs of single comparisons, e.g. "score.leaking-valve ≥ 0.5"), and one
+// short loop over those literals tells, per terminal, which rules could be
+// true at all (prefilter.go). On a healthy terminal that is none: the rules
+// layer then costs a gate mask, a table lookup and about fifteen compares.
+// An expression library would add a dependency, an interpreter with its own
+// value boxing on every evaluation (and no way to derive such clauses), and
+// a second syntax for engineers to learn; the conditions people actually
 // write for terminal units are comparisons of a few measured quantities
 // against thresholds, which structured YAML states plainly, validates with
 // line numbers, and lets a site override one threshold by name without
