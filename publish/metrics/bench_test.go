@@ -1,6 +1,7 @@
 package metrics
 
 import (
+	"fmt"
 	"testing"
 	"time"
 
@@ -25,5 +26,26 @@ func BenchmarkObserveEvidence(b *testing.B) {
 	for i := 0; b.Loop(); i++ {
 		ev.Terminal = i % 1000
 		m.ObserveEvidence(&ev)
+	}
+}
+
+// BenchmarkGather is one scrape's gathering of 1,000 terminals' series
+// (12 terminal gauges and the fault kinds each).
+func BenchmarkGather(b *testing.B) {
+	s := &site.Site{Name: "bench", TerminalIndex: map[string]int{}, LoopIndex: map[string]int{}, AHUIndex: map[string]int{}}
+	for i := range 1000 {
+		id := fmt.Sprintf("VAV-%04d", i)
+		s.Terminals = append(s.Terminals, site.Terminal{ID: id, AHU: "AHU-1", Loop: "HW-1"})
+		s.TerminalIndex[id] = i
+	}
+	m, err := New(s, Options{NoRuntime: true})
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, err := m.Registry().Gather(); err != nil {
+			b.Fatal(err)
+		}
 	}
 }

@@ -34,6 +34,14 @@
 // not in the site is counted in risewatch_metrics_unknown_entity_total and not
 // exported, so a bad message can never add a series.
 //
+// # Memory
+//
+// Per-terminal series are not gauge objects: the terminal gauges and
+// risewatch_fault_active are custom collectors that build constant metrics
+// at scrape time from flat arrays (twelve float64 values and two kind bit
+// masks per terminal, 112 octets), with label values taken from the site
+// model. A scrape allocates its series and drops them afterwards.
+//
 // # Metrics
 //
 // Terminal (labels site, terminal, ahu, loop), from fdd.Evidence:

@@ -1,7 +1,10 @@
 package metrics
 
 import (
+	"sync"
+
 	"github.com/prometheus/client_golang/prometheus"
+	dto "github.com/prometheus/client_model/go"
 
 	"risewatch/fdd"
 	"risewatch/rules"
@@ -11,11 +14,32 @@ import (
 // terminal; every other kind is pre-created per terminal.
 var loopKinds = map[fdd.Kind]bool{fdd.KindColdLoop: true}
 
+// kindMask is a set of fault kinds, bit k for fdd.Kind k.
+type kindMask uint64
+
+// faultCollector exports risewatch_fault_active at scrape time from one
+// pair of bit masks per entity: which kinds are active, and which kinds
+// have a series (every terminal kind on every terminal from the start,
+// the cold-loop kind on every loop, anything else once reported). A
+// terminal costs 16 octets instead of a gauge per kind.
+type faultCollector struct {
+	m    *Metrics
+	desc *prometheus.Desc
+	mu   sync.RWMutex
+	term []entityFaults // by terminal index
+	loop []entityFaults // by loop index
+	ahu  []entityFaults // by AHU index
+}
+
+type entityFaults struct{ active, shown kindMask }
+
 func (m *Metrics) newFaultMetrics() {
-	m.faults = prometheus.NewGaugeVec(prometheus.GaugeOpts{
-		Namespace: namespace, Subsystem: "fault", Name: "active",
-		Help: "1 while a fault of this kind is open or acknowledged on the terminal (or loop/AHU), else 0.",
-	}, []string{"site", "terminal", "ahu", "loop", "kind"})
+	fc := &faultCollector{m: m, desc: prometheus.NewDesc(prometheus.BuildFQName(namespace, "fault", "active"),
+		"1 while a fault of this kind is open or acknowledged on the terminal (or loop/AHU), else 0.",
+		[]string{"site", "terminal", "ahu", "loop", "kind"}, nil),
+		term: make([]entityFaults, len(m.site.Terminals)), loop: make([]entityFaults, len(m.site.Loops)),
+		ahu: make([]entityFaults, len(m.site.AHUs))}
+	m.faults = fc
 	m.trans = prometheus.NewCounterVec(prometheus.CounterOpts{
 		Namespace: namespace, Subsystem: "fault", Name: "transitions_total",
 		Help: "Fault lifecycle transitions by fault kind and target state.",
@@ -24,34 +48,72 @@ func (m *Metrics) newFaultMetrics() {
 		Namespace: namespace, Subsystem: "metrics", Name: "unknown_entity_total",
 		Help: "Evidence or transitions naming an entity that is not in the site (not exported).",
 	})
-	m.reg.MustRegister(m.faults, m.trans, m.unknown)
-
-	kinds := fdd.AllKinds()
-	maxKind := 0
-	for _, k := range kinds {
-		maxKind = max(maxKind, int(k))
+	m.reg.MustRegister(fc, m.trans, m.unknown)
+	var termKinds, loopMask kindMask
+	for _, k := range fdd.AllKinds() {
+		if loopKinds[k] {
+			loopMask |= 1 << k
+		} else {
+			termKinds |= 1 << k
+		}
 	}
-	m.termFault = make([][]prometheus.Gauge, len(m.site.Terminals))
-	for i, t := range m.site.Terminals {
-		m.termFault[i] = make([]prometheus.Gauge, maxKind+1)
-		for _, k := range kinds {
-			if loopKinds[k] {
+	for i := range fc.term {
+		fc.term[i].shown = termKinds
+	}
+	for i := range fc.loop {
+		fc.loop[i].shown = loopMask
+	}
+}
+
+// Describe sends the fault gauge's descriptor.
+func (fc *faultCollector) Describe(ch chan<- *prometheus.Desc) { ch <- fc.desc }
+
+// Collect sends one series per shown kind of every entity.
+func (fc *faultCollector) Collect(ch chan<- prometheus.Metric) {
+	s := fc.m.site
+	fc.mu.RLock()
+	defer fc.mu.RUnlock()
+	var kinds [64]*dto.LabelPair // kind label pairs, made once per scrape
+	send := func(e entityFaults, terminal, ahu, loop string) {
+		if e.shown == 0 {
+			return
+		}
+		ls := entityLabels(s.Name, terminal, ahu, loop)
+		for k := fdd.Kind(0); e.shown>>k != 0; k++ {
+			if e.shown&(1<<k) == 0 {
 				continue
 			}
-			g := m.faults.WithLabelValues(m.site.Name, t.ID, t.AHU, t.Loop, k.String())
-			g.Set(0)
-			m.termFault[i][k] = g
+			v := 0.0
+			if e.active&(1<<k) != 0 {
+				v = 1
+			}
+			if kinds[k] == nil {
+				kinds[k] = labelPair(lnKind, ptr(k.String()))
+			}
+			ch <- &gauge{desc: fc.desc, labels: withKind(ls, kinds[k]), value: v}
 		}
 	}
-	m.loopFault = make([][]prometheus.Gauge, len(m.site.Loops))
-	for i, l := range m.site.Loops {
-		m.loopFault[i] = make([]prometheus.Gauge, maxKind+1)
-		for k := range loopKinds {
-			g := m.faults.WithLabelValues(m.site.Name, "", "", l.ID, k.String())
-			g.Set(0)
-			m.loopFault[i][k] = g
-		}
+	for i, e := range fc.term {
+		t := &s.Terminals[i]
+		send(e, t.ID, t.AHU, t.Loop)
 	}
+	for i, e := range fc.loop {
+		send(e, "", "", s.Loops[i].ID)
+	}
+	for i, e := range fc.ahu {
+		send(e, "", s.AHUs[i].ID, "")
+	}
+}
+
+// active returns whether kind k is active on the entity (tests).
+func (fc *faultCollector) active(kind rules.EntityKind, i int, k fdd.Kind) float64 {
+	fc.mu.RLock()
+	defer fc.mu.RUnlock()
+	list := map[rules.EntityKind][]entityFaults{rules.EntityTerminal: fc.term, rules.EntityLoop: fc.loop, rules.EntityAHU: fc.ahu}[kind]
+	if list[i].active&(1<<k) != 0 {
+		return 1
+	}
+	return 0
 }
 
 // activeAfter says whether a fault counts as active after a transition: open
@@ -70,51 +132,47 @@ func activeAfter(tr *rules.Transition) bool {
 // ObserveTransition updates the active-fault gauges and counts the
 // transition. Entities not in the site are counted as unknown and dropped.
 func (m *Metrics) ObserveTransition(tr *rules.Transition) {
-	m.faultMu.Lock()
-	g := m.faultGauge(tr)
-	m.faultMu.Unlock()
-	if g == nil {
+	fc := m.faults
+	fc.mu.Lock()
+	e := fc.entity(tr)
+	if e != nil {
+		bit := kindMask(1) << tr.Kind
+		e.shown |= bit
+		if activeAfter(tr) {
+			e.active |= bit
+		} else {
+			e.active &^= bit
+		}
+	}
+	fc.mu.Unlock()
+	if e == nil {
 		m.unknown.Inc()
 		return
-	}
-	if activeAfter(tr) {
-		g.Set(1)
-	} else {
-		g.Set(0)
 	}
 	m.trans.WithLabelValues(m.site.Name, tr.Kind.String(), tr.To.String()).Inc()
 }
 
-func (m *Metrics) faultGauge(tr *rules.Transition) prometheus.Gauge {
-	k := int(tr.Kind)
-	if tr.Kind.String() == "unknown" || tr.Kind == fdd.KindNone {
+// entity finds the transition's entity (nil: not in the site, or an unknown kind).
+func (fc *faultCollector) entity(tr *rules.Transition) *entityFaults {
+	if tr.Kind.String() == "unknown" || tr.Kind == fdd.KindNone || tr.Kind >= 64 {
 		return nil
 	}
+	s := fc.m.site
+	var idx map[string]int
+	var list []entityFaults
 	switch tr.EntityKind {
 	case rules.EntityTerminal:
-		i, ok := m.site.TerminalIndex[tr.Entity]
-		if !ok || i < 0 || i >= len(m.termFault) || k >= len(m.termFault[i]) {
-			return nil
-		}
-		if m.termFault[i][k] == nil { // a loop kind reported on a terminal
-			t := m.site.Terminals[i]
-			m.termFault[i][k] = m.faults.WithLabelValues(m.site.Name, t.ID, t.AHU, t.Loop, tr.Kind.String())
-		}
-		return m.termFault[i][k]
+		idx, list = s.TerminalIndex, fc.term
 	case rules.EntityLoop:
-		i, ok := m.site.LoopIndex[tr.Entity]
-		if !ok || i < 0 || i >= len(m.loopFault) || k >= len(m.loopFault[i]) {
-			return nil
-		}
-		if m.loopFault[i][k] == nil {
-			m.loopFault[i][k] = m.faults.WithLabelValues(m.site.Name, "", "", tr.Entity, tr.Kind.String())
-		}
-		return m.loopFault[i][k]
+		idx, list = s.LoopIndex, fc.loop
 	case rules.EntityAHU:
-		if _, ok := m.site.AHUIndex[tr.Entity]; !ok {
-			return nil
-		}
-		return m.faults.WithLabelValues(m.site.Name, "", tr.Entity, "", tr.Kind.String())
+		idx, list = s.AHUIndex, fc.ahu
+	default:
+		return nil
 	}
-	return nil
+	i, ok := idx[tr.Entity]
+	if !ok || i < 0 || i >= len(list) {
+		return nil
+	}
+	return &list[i]
 }

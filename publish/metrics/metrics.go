@@ -5,7 +5,6 @@ import (
 	"net/http"
 	"runtime"
 	"runtime/debug"
-	"sync"
 
 	"github.com/prometheus/client_golang/prometheus"
 	"github.com/prometheus/client_golang/prometheus/collectors"
@@ -30,14 +29,11 @@ type Metrics struct {
 	reg  *prometheus.Registry
 	site *site.Site
 
-	term      []terminalGauges // by terminal index
-	loops     []loopGauges     // by loop index
-	faults    *prometheus.GaugeVec
-	faultMu   sync.Mutex           // guards lazy creation in termFault/loopFault
-	termFault [][]prometheus.Gauge // [terminal][kind]
-	loopFault [][]prometheus.Gauge // [loop][kind]
-	trans     *prometheus.CounterVec
-	unknown   prometheus.Counter
+	term    *terminalCollector // by terminal index
+	loops   []loopGauges       // by loop index
+	faults  *faultCollector
+	trans   *prometheus.CounterVec
+	unknown prometheus.Counter
 
 	src *sourceVecs
 	daemonMetrics

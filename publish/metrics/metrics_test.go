@@ -68,14 +68,13 @@ risewatch_terminal_heat_shortfall_watts{ahu="AHU-2",loop="HW-1",site="north-camp
 		"risewatch_terminal_observed_rise_celsius", "risewatch_terminal_heat_shortfall_watts"); err != nil {
 		t.Fatal(err)
 	}
-	g := m.term[1]
-	if v := testutil.ToFloat64(g.flow); !math.IsNaN(v) {
+	if v := m.term.value(1, tFlow); !math.IsNaN(v) {
 		t.Errorf("unavailable flow factor exported as %v, want NaN", v)
 	}
-	if v := testutil.ToFloat64(g.at); v != float64(at.Unix()) {
+	if v := m.term.value(1, tAt); v != float64(at.Unix()) {
 		t.Errorf("evidence timestamp %v, want %d", v, at.Unix())
 	}
-	if v := testutil.ToFloat64(g.usable); v != 1 {
+	if v := m.term.value(1, tUsable); v != 1 {
 		t.Errorf("usable %v, want 1", v)
 	}
 	m.ObserveEvidence(&fdd.Evidence{Terminal: 9})
@@ -95,7 +94,6 @@ func TestFaultActive(t *testing.T) {
 		return &rules.Transition{FaultID: "VAV-2-07/leaking-valve", Entity: "VAV-2-07", EntityKind: rules.EntityTerminal,
 			Kind: fdd.KindLeakingValve, From: from, To: to, At: at}
 	}
-	g := m.termFault[0][fdd.KindLeakingValve]
 	steps := []struct {
 		from, to rules.State
 		want     float64
@@ -108,15 +106,15 @@ func TestFaultActive(t *testing.T) {
 	}
 	for _, s := range steps {
 		m.ObserveTransition(tr(s.from, s.to))
-		if v := testutil.ToFloat64(g); v != s.want {
+		if v := m.faults.active(rules.EntityTerminal, 0, fdd.KindLeakingValve); v != s.want {
 			t.Errorf("%s -> %s: active = %v, want %v", s.from, s.to, v, s.want)
 		}
 	}
-	if v := testutil.ToFloat64(m.termFault[1][fdd.KindLeakingValve]); v != 0 {
+	if v := m.faults.active(rules.EntityTerminal, 1, fdd.KindLeakingValve); v != 0 {
 		t.Errorf("other terminal's gauge moved to %v", v)
 	}
 	m.ObserveTransition(&rules.Transition{Entity: "HW-1", EntityKind: rules.EntityLoop, Kind: fdd.KindColdLoop, From: rules.StatePending, To: rules.StateOpen})
-	if v := testutil.ToFloat64(m.loopFault[0][fdd.KindColdLoop]); v != 1 {
+	if v := m.faults.active(rules.EntityLoop, 0, fdd.KindColdLoop); v != 1 {
 		t.Errorf("loop fault active = %v, want 1", v)
 	}
 	m.ObserveTransition(&rules.Transition{Entity: "AHU-2", EntityKind: rules.EntityAHU, Kind: fdd.KindDataQuality, To: rules.StateOpen})
@@ -124,6 +122,29 @@ func TestFaultActive(t *testing.T) {
 	m.ObserveTransition(&rules.Transition{Entity: "VAV-2-07", EntityKind: rules.EntityTerminal, Kind: fdd.Kind(999), To: rules.StateOpen})
 	if v := testutil.ToFloat64(m.unknown); v != 2 {
 		t.Errorf("unknown entity counter = %v, want 2", v)
+	}
+	var lines []string
+	mfs, err := m.Registry().Gather()
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, mf := range mfs {
+		if mf.GetName() != "risewatch_fault_active" {
+			continue
+		}
+		for _, mt := range mf.GetMetric() {
+			if mt.GetGauge().GetValue() == 1 {
+				var kv []string
+				for _, l := range mt.GetLabel() {
+					kv = append(kv, l.GetName()+"="+l.GetValue())
+				}
+				lines = append(lines, strings.Join(kv, ","))
+			}
+		}
+	}
+	// Active after the transitions above: the loop's cold-loop fault and the AHU's data-quality fault.
+	if want := []string{"ahu=,kind=cold-loop,loop=HW-1,site=north-campus,terminal=", "ahu=AHU-2,kind=data-quality,loop=,site=north-campus,terminal="}; strings.Join(lines, ";") != strings.Join(want, ";") {
+		t.Errorf("active fault series %q, want %q", lines, want)
 	}
 	if v := testutil.ToFloat64(m.trans.WithLabelValues("north-campus", "leaking-valve", "open")); v != 1 {
 		t.Errorf("transitions to open = %v, want 1", v)
