@@ -63,12 +63,14 @@ func BenchmarkAnalyze(b *testing.B) {
 	done, i := 0, 0
 	var rulesCPU, rulesWall time.Duration
 	for done < b.N {
-		// Replay the day with a shifted clock so time keeps moving forward.
+		// Replay the day with a shifted clock so time keeps moving forward
+		// (Add, not AddDate: a calendar computation per sample would cost
+		// about a third as much as the engine step being measured).
 		batch := steps[i%len(steps)]
 		if i > 0 && i%len(steps) == 0 {
 			for _, st := range steps {
 				for k := range st {
-					st[k].At = st[k].At.AddDate(0, 0, 1)
+					st[k].At = st[k].At.Add(24 * time.Hour)
 				}
 			}
 		}
