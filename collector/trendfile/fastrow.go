@@ -4,6 +4,7 @@ import (
 	"encoding/binary"
 	"fmt"
 	"math/bits"
+	"time"
 
 	"risewatch/collector"
 )
@@ -61,33 +62,17 @@ func (p *parser) wideFast(rec []byte, line int64) {
 	}
 	cols := p.fastCols()
 	if p.rowFn != nil {
-		p.ensureRow()
-		for i := range cols {
-			fc := &cols[i]
-			s, e := int(pos[fc.col-1])+1, int(pos[fc.col])
-			if s == e {
-				p.rowV[fc.m], p.rowQ[fc.m], p.rowSet[fc.m] = 0, collector.Missing, false
-				continue
-			}
-			v, ok := plainWord(rec, s, e)
-			switch {
-			case !ok:
-				p.rowV[fc.m], p.rowQ[fc.m], p.rowSet[fc.m] = p.fastValue(rec, s, e, fc, line)
-				continue
-			case fc.binary:
-				if v != 0 {
-					v = 1
-				}
-			default:
-				v = v*fc.scale + fc.offset
-			}
-			p.rowV[fc.m], p.rowQ[fc.m], p.rowSet[fc.m] = v, collector.Good, true
-		}
+		p.rowCells(rec, pos, cols, line)
 		p.commitRow(at)
 		return
 	}
 	p.ensureBatch(len(cols))
 	memo := p.memo()
+	if !p.memoUse.on(len(cols)) {
+		p.wideCells(rec, pos, cols, at, line)
+		return
+	}
+	hits, looked := 0, 0
 	// Field by field into the batch's spare capacity (ensureBatch leaves
 	// room for a whole row): no Reading is built elsewhere and copied.
 	n := len(p.batch)
@@ -104,8 +89,10 @@ func (p *parser) wideFast(rec []byte, line int64) {
 			// Most cells repeat a string seen before: look it up.
 			w := binary.LittleEndian.Uint64(rec[s:]) & keepBytes[n8]
 			me := &memo[(w*memoMul)>>(64-memoBits)]
+			looked++
 			if me.key == w && rec[e-1] != 0 {
 				v, ok = me.val, true
+				hits++
 			} else if v, ok = plainWord(rec, s, e); ok {
 				*me = memoEntry{key: w, val: v}
 			}
@@ -132,6 +119,131 @@ func (p *parser) wideFast(rec []byte, line int64) {
 	}
 	p.batch = b[:n]
 	p.st.Rows++
+	p.memoUse.count(hits, looked)
+}
+
+// rowCells is wideFast's cell loop in row mode: values into p.rowV,
+// p.rowQ and p.rowSet.
+func (p *parser) rowCells(rec []byte, pos []int32, cols []fastCol, line int64) {
+	p.ensureRow()
+	memo := p.memo()
+	use := p.memoUse.on(len(cols))
+	hits, looked := 0, 0
+	for i := range cols {
+		fc := &cols[i]
+		s, e := int(pos[fc.col-1])+1, int(pos[fc.col])
+		if s == e {
+			p.rowV[fc.m], p.rowQ[fc.m], p.rowSet[fc.m] = 0, collector.Missing, false
+			continue
+		}
+		var v float64
+		ok := false
+		if n8 := e - s; use && n8 <= 8 && s+8 <= len(rec) {
+			w := binary.LittleEndian.Uint64(rec[s:]) & keepBytes[n8]
+			me := &memo[(w*memoMul)>>(64-memoBits)]
+			looked++
+			if me.key == w && rec[e-1] != 0 {
+				v, ok = me.val, true
+				hits++
+			} else if v, ok = plainWord(rec, s, e); ok {
+				*me = memoEntry{key: w, val: v}
+			}
+		} else {
+			v, ok = plainWord(rec, s, e)
+		}
+		switch {
+		case !ok:
+			p.rowV[fc.m], p.rowQ[fc.m], p.rowSet[fc.m] = p.fastValue(rec, s, e, fc, line)
+			continue
+		case fc.binary:
+			if v != 0 {
+				v = 1
+			}
+		default:
+			v = v*fc.scale + fc.offset
+		}
+		p.rowV[fc.m], p.rowQ[fc.m], p.rowSet[fc.m] = v, collector.Good, true
+	}
+	if use {
+		p.memoUse.count(hits, looked)
+	}
+}
+
+// wideCells is wideFast's cell loop without the memo.
+func (p *parser) wideCells(rec []byte, pos []int32, cols []fastCol, at time.Time, line int64) {
+	n := len(p.batch)
+	b := p.batch[:n+len(cols)]
+	for i := range cols {
+		fc := &cols[i]
+		s, e := int(pos[fc.col-1])+1, int(pos[fc.col])
+		if s == e {
+			continue
+		}
+		v, ok := plainWord(rec, s, e)
+		q := collector.Good
+		switch {
+		case !ok:
+			var set bool
+			if v, q, set = p.fastValue(rec, s, e, fc, line); !set {
+				continue
+			}
+		case fc.binary:
+			if v != 0 {
+				v = 1
+			}
+		default:
+			v = v*fc.scale + fc.offset
+		}
+		r := &b[n]
+		r.Point, r.At, r.Value, r.Quality = fc.name, at, v, q
+		n++
+	}
+	p.batch = b[:n]
+	p.st.Rows++
+}
+
+// memoUse switches the memo off while it does not pay. A hit saves about
+// a third of a cell's cost and a miss adds about a quarter (measured on
+// BenchmarkTrendIngestVsCSV*), so below one hit in two lookups a file is
+// read faster without it: exports that log every value with sensor noise
+// and three or four decimals repeat few cell strings. After a window of
+// lookups with fewer hits, the memo is left out for a span of cells that
+// doubles with each poor window (up to maxOff) and is tried again.
+type memoUse struct {
+	hits, looked int // in the current window
+	off          int // cells left to read without the memo
+	span         int // next off span
+}
+
+const (
+	memoWindow  = 4096     // lookups judged together
+	memoOffBase = 16 << 10 // cells left out after the first poor window
+	memoOffMax  = 4 << 20
+)
+
+// on says whether the memo is used for a row of cells cells.
+func (m *memoUse) on(cells int) bool {
+	if m.off > 0 {
+		m.off -= cells
+		return false
+	}
+	return true
+}
+
+// count adds a row's lookups and judges a full window.
+func (m *memoUse) count(hits, looked int) {
+	m.hits += hits
+	m.looked += looked
+	if m.looked < memoWindow {
+		return
+	}
+	if 2*m.hits < m.looked {
+		m.span = min(max(2*m.span, memoOffBase), memoOffMax)
+		m.off = m.span
+	} else {
+		m.span = 0
+	}
+	m.hits, m.looked = 0, 0
 }
 
 // memoBits sizes the parsed-cell memo (2^memoBits entries, 24 bytes each).

@@ -44,7 +44,7 @@ func TestWideFastPathMatchesCellParser(t *testing.T) {
 	}
 	buf.WriteString("\n")
 	var cells [][]string
-	for r := 0; r < 400; r++ {
+	for r := 0; r < 2000; r++ { // enough cells for the memo to switch off and on again
 		buf.WriteString(start.Add(time.Duration(r) * time.Minute).Format("2006-01-02T15:04:05Z07:00"))
 		row := make([]string, len(pts))
 		for k := range pts {
@@ -60,14 +60,38 @@ func TestWideFastPathMatchesCellParser(t *testing.T) {
 		buf.WriteString("\n")
 		cells = append(cells, row)
 	}
-	src := newSource(t, s, site.TrendfileConfig{Path: "mixed.csv"})
-	var got []collector.Reading
-	if _, err := src.ReadStream(context.Background(), bytes.NewReader(buf.Bytes()), "mixed.csv", func(b []collector.Reading) error {
-		got = append(got, b...)
-		return nil
-	}); err != nil {
-		t.Fatal(err)
+	for _, mode := range []string{"stream", "parallel", "rows"} {
+		src := newSource(t, s, site.TrendfileConfig{Path: "mixed.csv"})
+		src.fmt.workers = 1
+		if mode == "parallel" {
+			src.fmt.workers, src.fmt.chunkBytes = 2, 4096
+		}
+		var got []collector.Reading
+		var err error
+		if mode == "rows" {
+			_, err = src.ReadRows(context.Background(), bytes.NewReader(buf.Bytes()), "mixed.csv", func(r Row) error {
+				for i, ok := range r.Set {
+					if ok {
+						got = append(got, collector.Reading{Point: r.Points[i], At: r.At, Value: r.Values[i], Quality: r.Quality[i]})
+					}
+				}
+				return nil
+			})
+		} else {
+			_, err = src.ReadStream(context.Background(), bytes.NewReader(buf.Bytes()), "mixed.csv", func(b []collector.Reading) error {
+				got = append(got, b...)
+				return nil
+			})
+		}
+		if err != nil {
+			t.Fatal(err)
+		}
+		checkMixed(t, mode, src, pts, cells, got)
 	}
+}
+
+func checkMixed(t *testing.T, mode string, src *Source, pts []site.PointRef, cells [][]string, got []collector.Reading) {
+	t.Helper()
 	pi := map[string]int{}
 	for k, p := range pts {
 		pi[p.Name] = k
@@ -80,7 +104,7 @@ func TestWideFastPathMatchesCellParser(t *testing.T) {
 				continue
 			}
 			if i >= len(got) {
-				t.Fatalf("row %d: readings end early", r)
+				t.Fatalf("%s: row %d: readings end early", mode, r)
 			}
 			rd := got[i]
 			i++
@@ -104,11 +128,49 @@ func TestWideFastPathMatchesCellParser(t *testing.T) {
 				}
 			}
 			if rd.Quality != kind.quality() || (rd.Quality == collector.Good && rd.Value != want) {
-				t.Fatalf("row %d col %d %q: got %v %v, want %v %v", r, k, c, rd.Value, rd.Quality, want, kind.quality())
+				t.Fatalf("%s: row %d col %d %q: got %v %v, want %v %v", mode, r, k, c, rd.Value, rd.Quality, want, kind.quality())
 			}
 		}
 	}
 	if i != len(got) {
 		t.Fatalf("%d readings, want %d", len(got), i)
+	}
+}
+
+// TestMemoUseSwitchesOff checks the memo's on/off rule: a window with
+// fewer hits than half its lookups leaves the memo out for a span that
+// doubles while windows stay poor, and a good window resets it.
+func TestMemoUseSwitchesOff(t *testing.T) {
+	var m memoUse
+	row := 100
+	poor := func() {
+		for looked := 0; looked < memoWindow; looked += row {
+			if !m.on(row) {
+				t.Fatal("memo off inside a window")
+			}
+			m.count(row/2-1, row)
+		}
+	}
+	offRows := func() int {
+		n := 0
+		for !m.on(row) {
+			n++
+		}
+		return n
+	}
+	poor()
+	if n := offRows(); n != (memoOffBase+row-1)/row {
+		t.Fatalf("off for %d rows, want %d", n, (memoOffBase+row-1)/row)
+	}
+	poor()
+	if n := offRows(); n != (2*memoOffBase+row-1)/row {
+		t.Fatalf("second poor window: off for %d rows, want %d", n, (2*memoOffBase+row-1)/row)
+	}
+	for looked := 0; looked < memoWindow; looked += row {
+		m.on(row)
+		m.count(row/2, row) // half: good enough
+	}
+	if m.span != 0 || !m.on(row) {
+		t.Fatalf("good window: span %d", m.span)
 	}
 }

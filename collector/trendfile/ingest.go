@@ -185,7 +185,7 @@ func (s *Source) ingest(ctx context.Context, path string, final, finish bool, ou
 	}
 	mark.File = filepath.Base(path)
 
-	p, err := newParser(s.fmt, s.pts, path, s.log)
+	p, err := s.parser(path)
 	if err != nil {
 		return notReady, err
 	}

@@ -124,7 +124,8 @@ func (p *parser) readRowsParallel(ctx context.Context, sc *scanner, emit emitFun
 	pl := &pipe{free: make(chan *chunk, slots), work: make(chan *chunk, slots),
 		order: make(chan *chunk, slots), done: make(chan struct{})}
 	for range slots {
-		pl.free <- &chunk{ready: make(chan struct{}, 1)}
+		c, _ := p.getSlot()
+		pl.free <- c
 	}
 	var wg sync.WaitGroup
 	wg.Add(1)
@@ -147,7 +148,30 @@ func (p *parser) readRowsParallel(ctx context.Context, sc *scanner, emit emitFun
 	err := p.merge(ctx, sc, pl, emit)
 	close(pl.done)
 	wg.Wait()
+	if p.slots != nil {
+		// Every slot is free now, or still queued for the merge.
+		for len(pl.free) > 0 {
+			p.slots.Put(<-pl.free)
+		}
+		for c := range pl.order { // parsed (or skipped) but not merged
+			<-c.ready
+			p.slots.Put(c)
+		}
+	}
 	return err
+}
+
+// getSlot returns a pooled chunk slot or a new one.
+func (p *parser) getSlot() (*chunk, bool) {
+	if p.slots != nil {
+		if c, ok := p.slots.Get().(*chunk); ok {
+			if !p.reuse {
+				c.readings = nil
+			}
+			return c, true
+		}
+	}
+	return &chunk{ready: make(chan struct{}, 1)}, false
 }
 
 // worker returns a parser for one worker goroutine: the header's mapping,
@@ -260,9 +284,12 @@ func recordsEnd(b []byte, quote byte) int {
 func (p *parser) parseChunk(c *chunk, final bool) {
 	c.rows, c.events, c.tcells = c.rows[:0], c.events[:0], c.tcells[:0]
 	c.vals, c.qual, c.set = c.vals[:0], c.qual[:0], c.set[:0]
-	if p.reuse {
+	switch {
+	case p.rowFn != nil:
+		p.batch = nil // row mode has no readings
+	case p.reuse:
 		p.batch = c.readings[:0]
-	} else {
+	default:
 		p.batch = make([]collector.Reading, 0, c.lastN+c.lastN/8+len(p.cols))
 	}
 	if p.rowFn != nil {

@@ -259,4 +259,18 @@ func TestParallelRecordTooLongAndCancel(t *testing.T) {
 	if err != stop || calls != 3 {
 		t.Fatalf("error %v after %d calls, want %v after 3", err, calls, stop)
 	}
+	// The stopped read left parsed chunks unmerged; the source reuses its
+	// slots, and a full read after it is still the sequential one.
+	var again []collector.Reading
+	for range 3 {
+		again = again[:0]
+		if _, err := src.ReadStream(context.Background(), bytes.NewReader(big), "p.csv", func(b []collector.Reading) error {
+			again = append(again, b...)
+			return nil
+		}); err != nil {
+			t.Fatal(err)
+		}
+	}
+	want = readWith(t, s, site.TrendfileConfig{Path: "x"}, big, 1, 0, false)
+	sameResult(t, "after a stopped read", streamResult{readings: again, st: want.st, logs: want.logs}, want)
 }

@@ -7,6 +7,7 @@ import (
 	"io"
 	"log/slog"
 	"strings"
+	"sync"
 	"time"
 
 	"risewatch/collector"
@@ -39,6 +40,7 @@ type parser struct {
 	fcols              []fastCol // cols with their conversions (wide fast path)
 	delims             []int32   // delimiter positions of the current row
 	cellMemo           *[1 << memoBits]memoEntry
+	memoUse            memoUse
 
 	fields  [][]byte
 	scratch []byte
@@ -52,7 +54,8 @@ type parser struct {
 	// out is set in a worker of the parallel reader (parallel.go): rows,
 	// warnings and readings of the chunk being parsed go there, and the
 	// ordered merge judges time order and logs.
-	out *chunk
+	out   *chunk
+	slots *sync.Pool // reusable chunks (*chunk), or nil
 
 	// Row mode (ReadRows): one callback per row instead of Readings.
 	rowFn    func(Row) error

@@ -68,6 +68,18 @@ type Source struct {
 	pending map[string]bool
 	// markEvery is the least input between two resume marks (tests set it low).
 	markEvery int64
+	// slots keeps the parallel reader's chunk slots between files.
+	slots sync.Pool
+}
+
+// parser returns a parser for one file of this source.
+func (s *Source) parser(file string) (*parser, error) {
+	p, err := newParser(s.fmt, s.pts, file, s.log)
+	if err != nil {
+		return nil, err
+	}
+	p.slots = &s.slots
+	return p, nil
 }
 
 var _ collector.Source = (*Source)(nil)
@@ -167,7 +179,7 @@ func (s *Source) Run(ctx context.Context, out chan<- []collector.Reading) error 
 // returns: copy what you keep (this is the allocation-free path, e.g. to
 // feed collector.Assembler.Add directly). name is used in messages.
 func (s *Source) ReadStream(ctx context.Context, r io.Reader, name string, emit func([]collector.Reading) error) (Stats, error) {
-	p, err := newParser(s.fmt, s.pts, name, s.log)
+	p, err := s.parser(name)
 	if err != nil {
 		return Stats{}, err
 	}
@@ -194,7 +206,7 @@ func (s *Source) ReadStream(ctx context.Context, r io.Reader, name string, emit 
 // per row with the row's SI values side by side (no Reading per value):
 // the fastest way through a wide file. The Row's slices are reused.
 func (s *Source) ReadRows(ctx context.Context, r io.Reader, name string, fn func(Row) error) (Stats, error) {
-	p, err := newParser(s.fmt, s.pts, name, s.log)
+	p, err := s.parser(name)
 	if err != nil {
 		return Stats{}, err
 	}
