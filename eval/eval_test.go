@@ -36,12 +36,6 @@ const (
 	targetFalsePer1kW = 1.0  // false alarms per 1,000 terminal-weeks
 	targetLeakTTDh    = 6.0  // median time to detect a leak, hours of heating operation
 	targetSlowTTDh    = 72.0 // fouling and starvation, hours of heating operation
-	// isolationFloor guards against regressions while the isolation target
-	// is not met: on the 30-day demo campus the detector isolates 15 of 17
-	// (a +2.5 K DAT offset present from day 0 with the plant always on reads
-	// as a leak, and a reversed valve whose command never leaves 0 % reads as
-	// stuck open). RISEWATCH_EVAL_STRICT=1 asserts the 90 % target instead.
-	isolationFloor = 0.85
 )
 
 // TestEvaluateDemoCampus runs the demo campus and its fault-free twin
@@ -77,20 +71,17 @@ func TestEvaluateDemoCampus(t *testing.T) {
 	if r := float64(f.TotalDetected) / float64(f.TotalFaults); r < targetDetection {
 		t.Errorf("detection rate %.2f, target ≥ %.2f", r, targetDetection)
 	}
-	iso, isoWant := float64(f.TotalIsolated)/float64(f.TotalFaults), isolationFloor
-	switch {
-	case os.Getenv("RISEWATCH_EVAL_STRICT") != "":
-		isoWant = targetIsolation
-	case sc.Days != full:
-		// The floor is measured on the whole scenario; a shorter run sees
-		// the day-0 faults that are hardest to isolate with fewer others.
+	iso, isoWant := float64(f.TotalIsolated)/float64(f.TotalFaults), targetIsolation
+	if sc.Days != full {
+		// Some faults need days of varied operation to be told apart (a
+		// sensor offset with the plant never off needs the closed-valve
+		// rise at several airflows), so the target holds for the whole
+		// scenario only.
 		isoWant = 0
-		t.Logf("isolation %.2f over %d days (floor checked over the full %d days)", iso, sc.Days, full)
-	case iso < targetIsolation:
-		t.Logf("isolation %.2f is below the %.2f target (asserted with RISEWATCH_EVAL_STRICT=1); regression floor %.2f", iso, targetIsolation, isolationFloor)
+		t.Logf("isolation %.2f over %d days (target checked over the full %d days)", iso, sc.Days, full)
 	}
 	if iso < isoWant {
-		t.Errorf("isolation rate %.2f, want ≥ %.2f", iso, isoWant)
+		t.Errorf("isolation rate %.2f, want ≥ %.2f; misclassified: %v", iso, isoWant, misclassified(f))
 	}
 	for name, res := range map[string]Result{"unfaulted terminals": f, "fault-free twin": rep.Twin} {
 		if res.TerminalWeeks <= 0 {
@@ -115,4 +106,15 @@ func TestEvaluateDemoCampus(t *testing.T) {
 			t.Errorf("%s: median time to detect %.1f h of heating operation, target ≤ %.0f h", row.Kind, row.MedianTTDOpH, limit)
 		}
 	}
+}
+
+// misclassified lists "entity: got kind (true kind)" over all rows.
+func misclassified(r Result) []string {
+	var out []string
+	for _, row := range r.Rows {
+		for _, m := range row.Misclassified {
+			out = append(out, m+" (true "+row.Kind.String()+")")
+		}
+	}
+	return out
 }

@@ -172,3 +172,54 @@ func TestColdLoopKeepsOlderTerminalFaults(t *testing.T) {
 		}
 	}
 }
+
+// offsetPlantOn is a closed valve with the plant never off and a +2.5 K
+// discharge sensor offset: the raw DAT − SAT (3.3 K) passes the Guideline 36
+// 3 K leak limit, but the closed-valve fit finds the rise does not change
+// with airflow (intercept 2.5 K ± sigma) and the engine scores an offset.
+func offsetPlantOn(i int, sigma float64) fdd.Evidence {
+	e := quiet(0, minute(i))
+	e.ClosedMinutes = float64(60 + i)
+	e.DATMinusSATK, e.DischargeC = 3.3, e.SupplyC+3.3
+	e.LeakRiseK, e.LeakSigmaK = 2.5, 0.3
+	e.ClosedOffsetK, e.ClosedOffsetSigmaK, e.ClosedHeatK = 2.5, sigma, 0.1
+	e.Scores[fdd.KindDATOffset], e.Scores[fdd.KindLeakingValve] = 0.8, 0.2
+	return e
+}
+
+// With the plant never off, an offset clear of zero by two standard errors
+// opens the sensor fault (after its 2 h) and closes the Guideline 36 leak
+// fault it explains; an intercept within its uncertainty opens no offset.
+func TestOffsetWithPlantOnExplainsLeak(t *testing.T) {
+	for _, c := range []struct {
+		name       string
+		sigma      float64
+		wantOffset bool
+	}{
+		{"certain", 0.3, true},    // 2.5 ≥ 1.5 + 2·0.3
+		{"uncertain", 0.6, false}, // 2.5 < 1.5 + 2·0.6
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			e := mustEval(t, testSite(1, 1))
+			trs := run(e, 0, 180, func(i int) []fdd.Evidence { return []fdd.Evidence{offsetPlantOn(i, c.sigma)} })
+			off, gotOffset := firstOf(trs, "VAV-1-01/dat-offset", StateOpen)
+			if gotOffset != c.wantOffset {
+				t.Fatalf("dat-offset opened %v, want %v", gotOffset, c.wantOffset)
+			}
+			leak, ok := firstOf(trs, leakID, StateOpen)
+			if !ok || leak.Rule != "g36-valve-leak" {
+				t.Fatalf("Guideline 36 leak check did not open: %+v", leak)
+			}
+			if !c.wantOffset {
+				return
+			}
+			if off.At != minute(120) || !strings.Contains(off.Message, "does not change with airflow") {
+				t.Errorf("offset fault: at %v, %q", off.At, off.Message)
+			}
+			clr, ok := firstOf(trs, leakID, StateClear)
+			if !ok || clr.ExplainedBy != "VAV-1-01/dat-offset" || clr.At != off.At {
+				t.Errorf("leak fault not explained by the offset: %+v", clr)
+			}
+		})
+	}
+}

@@ -20,6 +20,7 @@ import (
 //	{{mins .E.closed_min}}    → "45 min" / "3.5 h"
 //	{{money .Impact.WeeklyCost}} → "12.40 USD"
 //	{{num .E.rise_valve_corr 2}}, {{sub a b}}, {{add a b}}, {{mul a b}}, {{abs a}}
+//	{{if known .E.closed_offset_k}}…{{end}} → only when the value is available
 //
 // A missing field reads as NaN and prints as "n/a".
 type msgData struct {
@@ -98,10 +99,11 @@ var msgFuncs = template.FuncMap{
 		}
 		return fmt.Sprintf("%.*f", prec, v)
 	},
-	"sub": func(a, b float64) float64 { return a - b },
-	"add": func(a, b float64) float64 { return a + b },
-	"mul": func(a, b float64) float64 { return a * b },
-	"abs": math.Abs,
+	"known": func(v float64) bool { return !na(v) },
+	"sub":   func(a, b float64) float64 { return a - b },
+	"add":   func(a, b float64) float64 { return a + b },
+	"mul":   func(a, b float64) float64 { return a * b },
+	"abs":   math.Abs,
 }
 
 // parseMessage compiles a rule's message template.
