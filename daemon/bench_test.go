@@ -2,7 +2,11 @@ package daemon
 
 import (
 	"fmt"
+	"os"
 	"runtime"
+	"runtime/debug"
+	"strconv"
+	"strings"
 	"testing"
 	"time"
 
@@ -50,17 +54,35 @@ func heap() uint64 {
 	return m.HeapAlloc
 }
 
-// BenchmarkPipelineStep: one analysis step of 3,000 terminals through the
-// engine, the rules and the daemon's in-memory outputs (metrics, plot ring,
-// newest evidence); reports heap bytes per terminal of the whole pipeline.
+// rss is the process's resident set (VmRSS of /proc/self/status, Linux), bytes.
+func rss() uint64 {
+	b, err := os.ReadFile("/proc/self/status")
+	if err != nil {
+		return 0
+	}
+	for _, l := range strings.Split(string(b), "\n") {
+		if f := strings.Fields(l); len(f) >= 2 && f[0] == "VmRSS:" {
+			kb, _ := strconv.ParseUint(f[1], 10, 64)
+			return kb << 10
+		}
+	}
+	return 0
+}
+
+// BenchmarkPipelineStep: one analysis step of 5,040 terminals (the demo
+// campus 84 times) through the engine, the rules and the daemon's in-memory
+// outputs (metrics, plot ring, newest evidence); reports heap bytes per
+// terminal of the whole pipeline, the process's resident set per terminal
+// (all of it, test binary included) and the resident set the pipeline
+// added per terminal.
 func BenchmarkPipelineStep(b *testing.B) {
-	s := bigSite(b, 50)
+	s := bigSite(b, 84)
 	n := len(s.Terminals)
 	rs, err := rules.Default()
 	if err != nil {
 		b.Fatal(err)
 	}
-	h0 := heap()
+	h0, r0 := heap(), rss()
 	d := &Daemon{log: quietLog(), opts: Options{}}
 	cfg := &Config{Listen: "127.0.0.1:0", Step: time.Minute}
 	cfg.defaults()
@@ -90,10 +112,20 @@ func BenchmarkPipelineStep(b *testing.B) {
 		step(i)
 	}
 	perTerminal := float64(heap()-h0) / float64(n)
+	for ti := range batch { // an hour of plot series and a scrape, as a running daemon has
+		pl.latest[ti].At = t0
+	}
+	if _, err := pl.met.Registry().Gather(); err != nil {
+		b.Fatal(err)
+	}
+	debug.FreeOSMemory()
+	r1 := rss()
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
 		step(60 + i)
 	}
 	b.ReportMetric(float64(n)*float64(b.N)/b.Elapsed().Seconds(), "terminal-steps/s")
 	b.ReportMetric(perTerminal, "heapB/terminal")
+	b.ReportMetric(float64(r1)/float64(n), "rssB/terminal")
+	b.ReportMetric(float64(r1-r0)/float64(n), "addedRssB/terminal")
 }
