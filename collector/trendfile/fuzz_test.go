@@ -23,6 +23,8 @@ func FuzzReadStream(f *testing.F) {
 	f.Add([]byte("\xef\xbb\xbftimestamp,\"VAV-000.DAT col\"\r\n2024-01-15T00:00:00Z,\"7\"\"1\"\r\n2024-01-15T00:00:00Z,\"a\nb\"\r\nx"))
 	f.Add([]byte("timestamp,VAV-000.DAT col\n2024-13-45T99:99:99Z,1e400\n2024-01-15T00:00:00Z,-0.000000000000000000001\n2024-01-15T00:00:01Z,12345678901234567890.5\n"))
 	f.Add([]byte("timestamp,VAV-000.DAT col,VAV-000.VLV col\n2024-01-15T00:00:00Z,1.25,\n2024-01-15T00:00:00Z,12.3456789,99999999.9,extra\n"))
+	f.Add([]byte("timestamp,VAV-000.DAT col,VAV-000.VLV col\n2024-01-15T00:00:00Z,1,2\r\n2024-01-15T00:01:00Z,\"3\n\",4\n" +
+		"2024-01-15T00:00:30Z,5,6\n\n2024-01-15T00:02:00Z,\"\"\"7\",x\n2024-01-15T00:03:00Z,8,9,\n2024-01-15T00:04:00Z,\"1\n0\n\",2"))
 	s := genSite(1)
 	wide := newSource(f, s, site.TrendfileConfig{Path: "x"})
 	long := newSource(f, s, site.TrendfileConfig{Path: "x", Layout: LayoutLong})
@@ -45,6 +47,14 @@ func FuzzReadStream(f *testing.F) {
 			if n != st.Readings || st.Rows+st.BadRows > lines {
 				t.Fatalf("readings %d vs stats %+v, %d lines", n, st, lines)
 			}
+		}
+		// The parallel reader, in chunks of a few bytes, gives what the
+		// sequential one gives: readings, rows, counts and warnings.
+		chunk := 1 + len(data)%61
+		for _, rows := range []bool{false, true} {
+			want := readWith(t, s, site.TrendfileConfig{Path: "x"}, data, 1, 0, rows)
+			got := readWith(t, s, site.TrendfileConfig{Path: "x"}, data, 2, chunk, rows)
+			sameResult(t, fmt.Sprintf("chunk %d rows %t", chunk, rows), got, want)
 		}
 	})
 }
