@@ -32,13 +32,26 @@
 // skipped, counted in Stats and warned with file and line, rate-limited;
 // the rows around them are kept.
 //
-// Reading is streaming with one reusable buffer: memory does not grow with
+// Reading is streaming with reusable buffers: memory does not grow with
 // the file. Records without quotes take a fast path: a word-at-a-time scan
 // finds all delimiters of the row first, then each cell is parsed on its
 // own (one 64-bit word for a plain decimal of up to eight characters, a
 // small memo of recently parsed cell strings, no allocation); a record
 // with a quote takes an RFC 4180 path (quoted delimiters, doubled quotes,
-// line breaks inside quotes).
+// line breaks inside quotes). The memo leaves itself out while fewer than
+// half its lookups hit (exports whose values rarely repeat).
+//
+// Wide files are parsed on every CPU (Config.Workers, default GOMAXPROCS;
+// a file that fits one chunk, a long file or Workers 1 is read by one
+// goroutine). One goroutine cuts the stream into chunks of about 64 KiB at
+// record boundaries (quote-aware, so a quoted line break is never cut),
+// workers parse chunks independently, and an ordered merge in the caller's
+// goroutine does all that depends on earlier rows: the time-order check,
+// the repeated-hour choice, counts, warnings with their line numbers and
+// rate limit, batches with their stream offsets. The readings, rows,
+// counts and warnings are those of the sequential reader (tested, and
+// fuzzed on chunks of a few bytes); only batch boundaries may differ. A
+// fixed number of chunks is in flight, so memory stays constant.
 //
 // Drop folder. A directory with Watch is polled. A file is read when its
 // size and modification time have held for SettleTime (files often arrive
