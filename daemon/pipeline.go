@@ -38,6 +38,10 @@ type pipeline struct {
 	srcs []collector.Source
 	hs   []*health
 	ring *seriesRing
+	// wm ties the sources' read positions to the steps whose lifecycle
+	// state is stored (collector.Progress), so a restart or kill -9
+	// neither loses nor repeats a step; nil in a dry build.
+	wm *collector.Progress
 
 	mu       sync.RWMutex
 	latest   []fdd.Evidence
@@ -67,7 +71,14 @@ func newPipeline(d *Daemon, p *plan, st *store.Store, dry bool) (*pipeline, erro
 	if lat == 0 {
 		lat = collector.DefaultLateness
 	}
-	if pl.asm, err = collector.NewAssembler(s, collector.AssembleConfig{Resample: collector.ResampleConfig{Interval: cfg.Step}, Lateness: lat, Logger: d.log}); err != nil {
+	if st != nil {
+		// Committed only after the lifecycle state is stored (commit), never by Accept alone.
+		if pl.wm, err = collector.OpenProgress(st.Checkpoints(stateKey(p.shard, "")), "watermark", 100*365*24*time.Hour); err != nil {
+			return nil, err
+		}
+	}
+	if pl.asm, err = collector.NewAssembler(s, collector.AssembleConfig{Resample: collector.ResampleConfig{Interval: cfg.Step}, Lateness: lat,
+		Progress: pl.wm, Logger: d.log}); err != nil {
 		return nil, err
 	}
 	if pl.met, err = metrics.New(s, metrics.Options{NoRuntime: dry}); err != nil {
@@ -119,7 +130,7 @@ func newPipeline(d *Daemon, p *plan, st *store.Store, dry bool) (*pipeline, erro
 	if d.opts.Clock != nil {
 		clock = d.opts.Clock
 	}
-	if pl.srcs, pl.hs, err = buildSources(s, st, pl.met, clock, d.opts.DropSettle, d.log); err != nil {
+	if pl.srcs, pl.hs, err = buildSources(s, st, pl.met, clock, pl.wm, d.opts.DropSettle, d.log); err != nil {
 		return nil, err
 	}
 	return pl, nil
@@ -259,6 +270,9 @@ func (pl *pipeline) run(parent context.Context) (*plan, error) {
 			evs = pl.eng.Step(batch, evs[:0])
 			trs = pl.ev.Step(evs, pl.eng.Loops(), trs[:0])
 			pl.publishStep(ctx, evs, trs, batch[0].At)
+			if pl.wm != nil {
+				_ = pl.wm.Accept(batch[0].At) // never commits by itself (see newPipeline)
+			}
 			if len(trs) > 0 {
 				if err := pl.commit(ctx, trs); err != nil {
 					log.Error("step not stored", "at", batch[0].At, "err", err)
@@ -392,6 +406,13 @@ func (pl *pipeline) commit(ctx context.Context, trs []rules.Transition) error {
 	}
 	if lastErr != nil {
 		return lastErr
+	}
+	// The lifecycle state now covers every accepted step: move the
+	// watermark and the sources' read positions up to it.
+	if pl.wm != nil {
+		if err := pl.wm.Commit(); err != nil {
+			pl.d.log.Warn("source positions not stored (a restart re-reads more)", "err", err)
+		}
 	}
 	for i := range trs {
 		pl.met.ObserveTransition(&trs[i])

@@ -128,8 +128,9 @@ func countPoints(s *site.Site, source string) int {
 }
 
 // buildSources makes every configured source, each reading its checkpoints
-// from the store under "<kind>:<name>/".
-func buildSources(s *site.Site, st *store.Store, m *metrics.Metrics, clock func() time.Time, settle time.Duration, log *slog.Logger) ([]collector.Source, []*health, error) {
+// from the store under "<kind>:<name>/". Trend-file sources tie their
+// checkpoints to the watermark wm (nil: to the batches taken).
+func buildSources(s *site.Site, st *store.Store, m *metrics.Metrics, clock func() time.Time, wm *collector.Progress, settle time.Duration, log *slog.Logger) ([]collector.Source, []*health, error) {
 	var out []collector.Source
 	var hs []*health
 	var errs []error
@@ -141,7 +142,7 @@ func buildSources(s *site.Site, st *store.Store, m *metrics.Metrics, clock func(
 		ck := st.Checkpoints(sc.Kind + ":" + sc.Name + "/")
 		switch {
 		case sc.Trendfile != nil:
-			src, err := trendfile.New(trendfile.Config{Name: sc.Name, Site: s, File: *sc.Trendfile, Checkpoints: ck, SettleTime: settle, Logger: log})
+			src, err := trendfile.New(trendfile.Config{Name: sc.Name, Site: s, File: *sc.Trendfile, Checkpoints: ck, SettleTime: settle, Progress: wm, Logger: log})
 			if err != nil {
 				errs = append(errs, err)
 				continue
