@@ -191,23 +191,23 @@ func (e *Evaluator) Step(ev []fdd.Evidence, loops []fdd.LoopEvidence, out []Tran
 	return e.stepTerminals(ev, out)
 }
 
-// heatingSeason reports whether at (ns its Unix nanoseconds) lies in the
+// heatingSeason reports whether ns (Unix nanoseconds) lies in the
 // configured season, caching the answer for the site-local day it falls in.
-func (e *Evaluator) heatingSeason(at time.Time, ns int64) bool {
+func (e *Evaluator) heatingSeason(ns int64) bool {
 	if ns >= e.seasonLo && ns < e.seasonHi {
 		return e.seasonOK
 	}
-	return e.seasonDay(at)
+	return e.seasonDay(ns)
 }
 
 // seasonDay computes and caches the heating-season answer for the local day
 // of at (its bounds follow the site's time zone, daylight saving included).
-func (e *Evaluator) seasonDay(at time.Time) bool {
+func (e *Evaluator) seasonDay(ns int64) bool {
 	loc := e.site.Location
 	if loc == nil {
 		loc = time.UTC
 	}
-	lt := at.In(loc)
+	lt := time.Unix(0, ns).In(loc)
 	start := time.Date(lt.Year(), lt.Month(), lt.Day(), 0, 0, 0, 0, loc)
 	e.seasonLo, e.seasonHi = start.UnixNano(), start.AddDate(0, 0, 1).UnixNano()
 	md := int(lt.Month())*100 + lt.Day()
@@ -224,14 +224,7 @@ func (e *Evaluator) seasonDay(at time.Time) bool {
 }
 
 // terminalMask is the gate mask of one evidence record.
-func (e *Evaluator) terminalMask(ev *fdd.Evidence, ns int64) gateMask {
-	m := gateMask(b2u(ev.Usable)) | gateMask(b2u(ev.Steady))<<1 | gateMask(b2u(ev.PlantOn))<<2 |
-		gateMask(b2u(ev.FanOn))<<3 | gateMask(b2u(ev.Occupied))<<4
-	if (ns >= e.seasonLo && ns < e.seasonHi && e.seasonOK) || e.seasonDay(ev.At) {
-		m |= gSeason
-	}
-	return m
-}
+func (e *Evaluator) terminalMask(ev *fdd.Evidence, ns int64) gateMask { return e.gateMaskOf(ev, ns) }
 
 // b2u is 1 for true, 0 for false, without a branch.
 func b2u(b bool) uint8 { return *(*uint8)(unsafe.Pointer(&b)) }
@@ -241,6 +234,44 @@ func b2u(b bool) uint8 { return *(*uint8)(unsafe.Pointer(&b)) }
 // could be affected at all, the prefilter; rules are looked at one by one
 // only when the prefilter lets them through or their tracker is busy.
 func (e *Evaluator) stepTerminals(ev []fdd.Evidence, out []Transition) []Transition {
+	if e.nW != 1 || e.noPrefilter {
+		return e.stepTerminalsWide(ev, out)
+	}
+	// One prefilter word (up to rulesPerWord terminal rules): no word loop.
+	nT := e.nT
+	busy, en := e.busy[:nT], e.en[:nT]
+	gateOK := e.gateOK[:gateMaskMax+1]
+	w0 := &e.pf.words[0]
+	for i := range ev {
+		x := &ev[i]
+		t := x.Terminal
+		if uint(t) >= uint(nT) {
+			continue
+		}
+		at := x.At.UnixNano()
+		mask := flagMask(x) // gateMaskOf, by hand: the compiler does not inline it
+		if at >= e.seasonLo && at < e.seasonHi {
+			if e.seasonOK {
+				mask |= gSeason
+			}
+		} else if e.seasonDay(at) {
+			mask |= gSeason
+		}
+		e.accumulateOperating(t, at, mask)
+		set := busy[t]
+		if m := gateOK[mask&gateMaskMax] & en[t]; m&^set != 0 {
+			set |= m & w0.pass(unsafe.Pointer(x))
+		}
+		if set != 0 {
+			out = e.stepRules(t, 0, set, x, unsafe.Pointer(x), at, mask, out)
+		}
+	}
+	return out
+}
+
+// stepTerminalsWide is stepTerminals for more than one prefilter word (or
+// with the prefilter off, in tests).
+func (e *Evaluator) stepTerminalsWide(ev []fdd.Evidence, out []Transition) []Transition {
 	nW, nT := e.nW, e.nT
 	busy, en, gateOK, words := e.busy, e.en, e.gateOK, e.pf.words
 	for i := range ev {
@@ -250,12 +281,7 @@ func (e *Evaluator) stepTerminals(ev []fdd.Evidence, out []Transition) []Transit
 			continue
 		}
 		at := x.At.UnixNano()
-		// terminalMask, inlined.
-		mask := gateMask(b2u(x.Usable)) | gateMask(b2u(x.Steady))<<1 | gateMask(b2u(x.PlantOn))<<2 |
-			gateMask(b2u(x.FanOn))<<3 | gateMask(b2u(x.Occupied))<<4
-		if (at >= e.seasonLo && at < e.seasonHi && e.seasonOK) || e.seasonDay(x.At) {
-			mask |= gSeason
-		}
+		mask := e.gateMaskOf(x, at)
 		e.accumulateOperating(t, at, mask)
 		p := unsafe.Pointer(x)
 		for w := 0; w < nW; w++ {
@@ -274,6 +300,22 @@ func (e *Evaluator) stepTerminals(ev []fdd.Evidence, out []Transition) []Transit
 		}
 	}
 	return out
+}
+
+// gateMaskOf is the gate mask of one evidence record (inlined on the hot
+// path).
+func (e *Evaluator) gateMaskOf(x *fdd.Evidence, at int64) gateMask {
+	mask := flagMask(x)
+	if e.heatingSeason(at) {
+		mask |= gSeason
+	}
+	return mask
+}
+
+// flagMask is the gate mask of the record's own truth values.
+func flagMask(x *fdd.Evidence) gateMask {
+	return gateMask(b2u(x.Usable)) | gateMask(b2u(x.Steady))<<1 | gateMask(b2u(x.PlantOn))<<2 |
+		gateMask(b2u(x.FanOn))<<3 | gateMask(b2u(x.Occupied))<<4
 }
 
 // stepRules runs the rules of prefilter word w whose bits are in set on
@@ -354,7 +396,7 @@ func (e *Evaluator) stepLoop(lv *fdd.LoopEvidence, out []Transition) []Transitio
 	if lv.PlantOn {
 		mask |= gPlant
 	}
-	if e.heatingSeason(lv.At, at) {
+	if e.heatingSeason(at) {
 		mask |= gSeason
 	}
 	n := len(e.loop)

@@ -245,7 +245,7 @@ func buildPrefilter(rules []*compiled, s *schema) prefilter {
 // pass returns the bits (2k) of the rules of word w whose clauses all hold
 // at the evidence struct p. The loops branch on each literal; on a healthy
 // terminal every literal fails and the branches are predicted (measured
-// faster than branch-free selects).
+// faster than branch-free selects and than unrolled loops).
 func (w *pfWord) pass(p unsafe.Pointer) uint64 {
 	m := w.preset
 	for i := range w.ge {
