@@ -298,7 +298,7 @@ func (p *parser) parseChunk(c *chunk, final bool) {
 	p.out = c
 	// Each chunk starts without a previous time, so what a worker gives a
 	// repeated hour depends on the chunk only (the merge corrects it).
-	p.tp.hasPrev, p.tp.lastRaw = false, nil
+	p.tp.hasPrev, p.tp.rawOK = false, false
 	sc := &scanner{buf: c.data, end: len(c.data), eof: true, final: final || !c.final, quote: '"'}
 	for {
 		rec, line, quoted, err := sc.next()

@@ -53,6 +53,7 @@ type timeParser struct {
 	segOK            bool
 
 	lastRaw []byte // last cell parsed and its result (long layout repeats times)
+	rawOK   bool   // lastRaw holds a parsed cell
 	lastVal int64
 
 	gaps, repeated int64
@@ -90,7 +91,7 @@ func (p *timeParser) parse(b []byte) (int64, error) {
 	if len(b) > 1 && b[0] == '"' && b[len(b)-1] == '"' {
 		b = b[1 : len(b)-1]
 	}
-	if p.lastRaw != nil && string(p.lastRaw) == string(b) {
+	if p.rawOK && string(p.lastRaw) == string(b) {
 		return p.lastVal, nil
 	}
 	var ns int64
@@ -120,7 +121,7 @@ func (p *timeParser) parse(b []byte) (int64, error) {
 	if err != nil {
 		return 0, err
 	}
-	p.lastRaw = append(p.lastRaw[:0], b...)
+	p.lastRaw, p.rawOK = append(p.lastRaw[:0], b...), true
 	p.lastVal = ns
 	p.prev, p.hasPrev = ns, true
 	return ns, nil
