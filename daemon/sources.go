@@ -149,7 +149,8 @@ func buildSources(s *site.Site, st *store.Store, m *metrics.Metrics, clock func(
 			}
 			out = append(out, observed{src, h})
 		case sc.BACnet != nil:
-			src, err := bacnet.NewSource(sc.Name, *sc.BACnet, bacnet.PointsFor(s, sc.Name), ck, s.Location, log)
+			bck := batchCheckpoints{Checkpoints: ck, st: st, prefix: sc.Kind + ":" + sc.Name + "/"}
+			src, err := bacnet.NewSource(sc.Name, *sc.BACnet, bacnet.PointsFor(s, sc.Name), bck, s.Location, log)
 			if err != nil {
 				errs = append(errs, err)
 				continue
@@ -181,6 +182,27 @@ func buildSources(s *site.Site, st *store.Store, m *metrics.Metrics, clock func(
 		errs = append(errs, fmt.Errorf("site %s has no source", s.Name))
 	}
 	return out, hs, errors.Join(errs...)
+}
+
+// batchCheckpoints adds bacnet.BatchCheckpoints to the store's checkpoint
+// view: a sweep's positions go in one transaction (one fsync) rather than
+// one per trend log.
+type batchCheckpoints struct {
+	*store.Checkpoints
+	st     *store.Store
+	prefix string
+}
+
+func (b batchCheckpoints) PutMany(kv map[string][]byte) error {
+	ctx := context.Background()
+	return b.st.Update(ctx, func(tx *store.Tx) error {
+		for k, v := range kv {
+			if err := tx.PutCheckpoint(ctx, b.prefix+k, v); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
 }
 
 // bacnetCron runs a BACnet source on robfig/cron/v3 schedules: a present-

@@ -115,13 +115,8 @@ func (s *Source) SweepTrends(ctx context.Context, emit func([]collector.Reading)
 			}
 			batch = make([]collector.Reading, 0, cap(batch)) // emit may keep the slice
 		}
-		for i, l := range logs {
-			if recs := delivered[i]; len(recs) > 0 {
-				if err := l.cur.commit(recs); err != nil && l.err == nil {
-					l.err = err
-				}
-				l.pos += len(recs)
-			}
+		if err := s.storePositions(logs, delivered); err != nil {
+			return s.results(logs), err
 		}
 	}
 	var errs []error
@@ -139,6 +134,43 @@ func (s *Source) SweepTrends(ctx context.Context, emit func([]collector.Reading)
 		errs = append(errs, err)
 	}
 	return s.results(logs), errors.Join(errs...)
+}
+
+// storePositions moves the checkpoint of every log that delivered records
+// (in one write when the store supports it).
+func (s *Source) storePositions(logs []*sweepLog, delivered [][]TrendRecord) error {
+	bc, batch := s.cp.(BatchCheckpoints)
+	if !batch {
+		for i, l := range logs {
+			if recs := delivered[i]; len(recs) > 0 {
+				if err := l.cur.commit(recs); err != nil && l.err == nil {
+					l.err = err
+				}
+				l.pos += len(recs)
+			}
+		}
+		return nil
+	}
+	kv := map[string][]byte{}
+	for i, l := range logs {
+		if recs := delivered[i]; len(recs) > 0 {
+			k, v := l.cur.position(recs)
+			kv[k] = v
+		}
+	}
+	if len(kv) == 0 {
+		return nil
+	}
+	if err := bc.PutMany(kv); err != nil {
+		return fmt.Errorf("source %s: trend checkpoints: %w", s.name, err)
+	}
+	for i, l := range logs {
+		if recs := delivered[i]; len(recs) > 0 {
+			l.cur.advance(recs)
+			l.pos += len(recs)
+		}
+	}
+	return nil
 }
 
 func (s *Source) results(logs []*sweepLog) []TrendResult {

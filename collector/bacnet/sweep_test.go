@@ -15,6 +15,17 @@ import (
 // every step has every point, and a second sweep after more records
 // delivers only the new ones.
 func TestSweepInterleavesByTime(t *testing.T) {
+	t.Run("batch-checkpoints", func(t *testing.T) { testSweepInterleaves(t, &MemCheckpoints{}) })
+	t.Run("one-put-per-log", func(t *testing.T) { testSweepInterleaves(t, plainCheckpoints{&MemCheckpoints{}}) })
+}
+
+// plainCheckpoints hides PutMany: the sweep stores each log's position alone.
+type plainCheckpoints struct{ m *MemCheckpoints }
+
+func (p plainCheckpoints) Get(k string) ([]byte, bool, error) { return p.m.Get(k) }
+func (p plainCheckpoints) Put(k string, v []byte) error       { return p.m.Put(k, v) }
+
+func testSweepInterleaves(t *testing.T, cp Checkpoints) {
 	s, devA := newSim(t, bacnetdev.DeviceConfig{Instance: 50, MaxAPDU: 480}, 2)
 	devB, err := s.AddDevice(bacnetdev.DeviceConfig{Instance: 51, Network: 7, MAC: 3, MaxAPDU: 206})
 	if err != nil {
@@ -49,7 +60,6 @@ func TestSweepInterleavesByTime(t *testing.T) {
 		Points: site.TerminalPoints{Discharge: refs[0], ZoneTemp: refs[1]}}},
 		AHUs: []site.AHU{{ID: "AHU-1", SupplyAir: refs[2]}}}
 	st.Index()
-	cp := &MemCheckpoints{}
 	src, err := NewSource("bas", site.BACnetConfig{Bind: "127.0.0.1:0", Timeout: time.Second, Retries: 1,
 		Devices: map[uint32]string{50: s.Addr().String(), 51: s.Addr().String() + "/7:03"}}, refs, cp, time.UTC, quietLogger())
 	if err != nil {

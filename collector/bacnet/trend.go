@@ -19,7 +19,8 @@ type Checkpoints interface {
 	Put(key string, val []byte) error
 }
 
-// MemCheckpoints keeps checkpoints in memory (tests, discovery, demo).
+// MemCheckpoints keeps checkpoints in memory (tests, discovery, demo); it
+// also implements BatchCheckpoints.
 type MemCheckpoints struct {
 	mu sync.Mutex
 	m  map[string][]byte
@@ -41,6 +42,16 @@ func (m *MemCheckpoints) Put(key string, val []byte) error {
 		m.m = map[string][]byte{}
 	}
 	m.m[key] = append([]byte(nil), val...)
+	return nil
+}
+
+// PutMany stores several values at once.
+func (m *MemCheckpoints) PutMany(kv map[string][]byte) error {
+	for k, v := range kv {
+		if err := m.Put(k, v); err != nil {
+			return err
+		}
+	}
 	return nil
 }
 
@@ -252,10 +263,29 @@ func (c *trendCursor) commit(recs []TrendRecord) error {
 	if err := c.r.Checkpoints.Put(c.key, trendPosition{Seq: last}.encode()); err != nil {
 		return fmt.Errorf("%s: checkpoint: %w", c.key, err)
 	}
+	c.advance(recs)
+	return nil
+}
+
+// position is the checkpoint key and value after delivering recs.
+func (c *trendCursor) position(recs []TrendRecord) (string, []byte) {
+	return c.key, trendPosition{Seq: recs[len(recs)-1].Seq}.encode()
+}
+
+// advance counts recs as delivered (their checkpoint is stored).
+func (c *trendCursor) advance(recs []TrendRecord) {
+	last := recs[len(recs)-1].Seq
 	if c.res.Records == 0 {
 		c.res.FirstSeq = recs[0].Seq
 	}
 	c.res.Records += len(recs)
 	c.res.LastSeq = last
-	return nil
+}
+
+// BatchCheckpoints is a Checkpoints that can store several positions in
+// one durable write (the sweep moves every log's checkpoint after each
+// merged batch; one transaction instead of one per log).
+type BatchCheckpoints interface {
+	Checkpoints
+	PutMany(kv map[string][]byte) error
 }
