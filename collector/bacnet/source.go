@@ -121,6 +121,14 @@ func PointsFor(s *site.Site, source string) []site.PointRef {
 	return out
 }
 
+// SetCheckpoints replaces the trend-log checkpoint store (benchmarks, tools
+// that re-read history); not safe during a sweep.
+func (s *Source) SetCheckpoints(cp Checkpoints) {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	s.cp = cp
+}
+
 // Name is the source's configured name.
 func (s *Source) Name() string { return s.name }
 
