@@ -1,9 +1,11 @@
 package rules
 
 import (
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"reflect"
+	"strings"
 	"testing"
 	"time"
 	"unsafe"
@@ -270,16 +272,49 @@ func prefilterMiss(e *Evaluator, ev *fdd.Evidence) (string, bool) {
 
 // TestPrefilterSameLifecycle runs the same slowly changing random evidence
 // through an evaluator with the prefilter and one that looks at every rule
-// at every step: transitions and the exported state must be identical.
+// at every step: transitions and the exported state must be identical. The
+// second rule set has more rules than one prefilter word holds.
 func TestPrefilterSameLifecycle(t *testing.T) {
-	rs, err := Build(mustParse(t, extraRules))
-	if err != nil {
-		t.Fatal(err)
+	var many strings.Builder
+	many.WriteString(extraRules)
+	kinds := []string{"hunting", "dat-failed", "low-discharge", "leaking-valve", "fouled-coil"}
+	for i := 0; i < 30; i++ {
+		fmt.Fprintf(&many, `  - id: x-gen-%d
+    kind: %s
+    severity: %d
+    gates: [fan_on]
+    when:
+      all:
+        - {field: score.%s, op: ">=", value: %.2f}
+        - any:
+            - {field: valve, op: "<", value: %.2f}
+            - {field: rise_k, minus: expected_rise_k, op: ">", value: %d K}
+    for: %dm
+    clear_for: %dm
+`, i, kinds[i%len(kinds)], 1+i%5, kinds[(i+1)%len(kinds)], 0.1*float64(i%8), 0.1*float64(i%10), i%4, 5*(i%6), 5*(i%3))
 	}
+	for _, c := range []struct {
+		name, yaml string
+		words      int
+	}{{"one-word", extraRules, 1}, {"two-words", many.String(), 2}} {
+		t.Run(c.name, func(t *testing.T) {
+			rs, err := Build(mustParse(t, c.yaml))
+			if err != nil {
+				t.Fatal(err)
+			}
+			samePrefilterLifecycle(t, rs, c.words)
+		})
+	}
+}
+
+func samePrefilterLifecycle(t *testing.T, rs *Ruleset, words int) {
 	s := testSite(2, 6)
 	fast, err := NewEvaluator(s, rs)
 	if err != nil {
 		t.Fatal(err)
+	}
+	if fast.nW < words {
+		t.Fatalf("%d prefilter words, want at least %d", fast.nW, words)
 	}
 	slow, err := NewEvaluator(s, rs)
 	if err != nil {
