@@ -11,7 +11,7 @@ import (
 
 	"github.com/chromedp/chromedp"
 
-	"risewatch/internal/testenv"
+	"risewatch/internal/browsertest"
 )
 
 // startDemo runs RunDemo with a short history on a free loopback port.
@@ -71,35 +71,8 @@ func TestDemoSmoke(t *testing.T) {
 // browse loads every page in headless chromium, checks what a person reads
 // there and takes a screenshot (kept in RISEWATCH_SCREENSHOTS when set).
 func browse(t *testing.T, base, terminal string) {
-	exe := testenv.LookTool(t, "chromium", "apt-get install chromium")
-	opts := append([]chromedp.ExecAllocatorOption{},
-		chromedp.ExecPath(exe),
-		chromedp.Headless,
-		chromedp.NoSandbox,
-		chromedp.DisableGPU,
-		chromedp.NoFirstRun,
-		chromedp.NoDefaultBrowserCheck,
-		chromedp.UserDataDir(t.TempDir()),
-		chromedp.Flag("disable-quic", true),
-		chromedp.Flag("disable-background-networking", true),
-		chromedp.Flag("disable-component-update", true),
-		chromedp.Flag("disable-sync", true),
-		chromedp.Flag("disable-dev-shm-usage", true),
-		chromedp.WindowSize(1280, 1000),
-	)
-	actx, cancelA := chromedp.NewExecAllocator(context.Background(), opts...)
-	defer cancelA()
-	ctx, cancelC := chromedp.NewContext(actx)
-	defer cancelC()
-	ctx, cancelT := context.WithTimeout(ctx, 60*time.Second)
-	defer cancelT()
-	if err := chromedp.Do(ctx); err != nil {
-		t.Fatalf("start chromium: %v", err)
-	}
-	shots := t.TempDir()
-	if d := os.Getenv("RISEWATCH_SCREENSHOTS"); d != "" {
-		shots = d
-	}
+	ctx := browsertest.Start(t, 60*time.Second)
+	shots := browsertest.ScreenshotDir(t)
 	pages := []struct {
 		name, path, sel string
 		want            []string

@@ -116,7 +116,7 @@ func checkKeys(el *errList, n *yaml.Node, t reflect.Type, path string) {
 			ft, ok := fields[k.Value]
 			if !ok {
 				hint := ""
-				if c := closestName(k.Value, names); c != "" {
+				if c := site.Closest(k.Value, names); c != "" {
 					hint = fmt.Sprintf(" (did you mean %s?)", c)
 				}
 				sort.Strings(names)
@@ -161,37 +161,4 @@ func nodeAt(n *yaml.Node, path string) *yaml.Node {
 		n = next
 	}
 	return n
-}
-
-func closestName(s string, cands []string) string {
-	best, bestD := "", 3
-	for _, c := range cands {
-		if d := editDist(s, c); d < bestD {
-			best, bestD = c, d
-		}
-	}
-	return best
-}
-
-func editDist(a, b string) int {
-	if len(a) > 64 || len(b) > 64 {
-		return 99
-	}
-	prev := make([]int, len(b)+1)
-	cur := make([]int, len(b)+1)
-	for j := range prev {
-		prev[j] = j
-	}
-	for i := 1; i <= len(a); i++ {
-		cur[0] = i
-		for j := 1; j <= len(b); j++ {
-			cost := 1
-			if a[i-1] == b[j-1] {
-				cost = 0
-			}
-			cur[j] = min(prev[j]+1, cur[j-1]+1, prev[j-1]+cost)
-		}
-		prev, cur = cur, prev
-	}
-	return prev[len(b)]
 }

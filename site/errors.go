@@ -127,8 +127,9 @@ func (e *errs) syntax(err error, data []byte) {
 	e.atPos(line, col, "YAML syntax: "+msg)
 }
 
-// closest returns the candidate nearest to s (edit distance at most 2), or "".
-func closest(s string, candidates []string) string {
+// Closest returns the candidate nearest to s (Levenshtein edit distance at
+// most 2), or "": the "did you mean" of every configuration error message.
+func Closest(s string, candidates []string) string {
 	best, bestD := "", 3
 	for _, c := range candidates {
 		if d := editDistance(s, c); d < bestD {

@@ -80,7 +80,7 @@ func mapping(e *errs, n *yaml.Node, what string, allowed ...string) *mapReader {
 		}
 		if !ok[k.Value] {
 			msg := "unknown key " + strconv.Quote(k.Value) + " in " + what
-			if c := closest(k.Value, allowed); c != "" {
+			if c := Closest(k.Value, allowed); c != "" {
 				msg += "; did you mean " + strconv.Quote(c) + "?"
 			}
 			e.at(k, "%s; expected one of: %s", msg, strings.Join(allowed, ", "))
