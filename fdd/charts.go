@@ -49,11 +49,14 @@ func (c *chart) add(z float64, block int, k, lambda float64) {
 // Saccucci 1990).
 func ewmaLimit(lambda, l float64) float64 { return l * math.Sqrt(lambda/(2-lambda)) }
 
-// ewma is a plain exponentially weighted mean with a validity flag.
+// ewma is a plain exponentially weighted mean with a validity flag; v is
+// NaN until the first value (newEWMA), so it is the published value as is.
 type ewma struct {
 	v  float64
 	ok bool
 }
+
+func newEWMA() ewma { return ewma{v: math.NaN()} }
 
 func (e *ewma) add(x, a float64) {
 	if !e.ok {

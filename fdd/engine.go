@@ -9,6 +9,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"time"
 
 	"risewatch/collector"
@@ -30,7 +31,7 @@ type Engine struct {
 	minPerStep, stepsPerHour                 float64
 	startupSteps, closedSteps, flatSteps     int
 	tempSlope, tempVar, valveVar, hwSlope    float64
-	ewmaLim, sig2Closed                      float64
+	ewmaLim, sig2Closed, leakSigma           float64
 	revAlpha, leakAlpha, offAlpha, perfAlpha float64
 	facAlpha, respDecay                      float64
 
@@ -70,6 +71,7 @@ func newEngine(s *site.Site, cfg Config, pf physicsFactory) (*Engine, error) {
 	en.ewmaLim = ewmaLimit(c.EWMALambda, c.EWMAL)
 	a := c.Accuracy
 	en.sig2Closed = a.DischargeK*a.DischargeK + a.SupplyK*a.SupplyK + a.DuctGainK*a.DuctGainK
+	en.leakSigma = math.Sqrt(en.sig2Closed)
 	en.revAlpha = alphaFor(en.stepsPerHour)
 	en.leakAlpha = alphaFor(float64(c.stepsFor(15)))
 	en.offAlpha = alphaFor(float64(c.stepsFor(60)))
@@ -126,6 +128,10 @@ func (en *Engine) initTerminal(i int, pf physicsFactory) {
 	st.leakFlow = -1
 	st.perfHighLast = nan
 	st.cmpShare = nan
+	st.onsetH = nan
+	for _, w := range []*ewma{&st.leak, &st.offset, &st.closedRaw, &st.perf, &st.designPerf, &st.zoneDef, &st.closedCap} {
+		*w = newEWMA()
+	}
 	st.base = ratedBaseline(t.ID)
 	if en.cfg.LearnMinPoints == 0 {
 		st.learnDone = true
@@ -182,6 +188,7 @@ func (en *Engine) applyBaseline(i int, b Baseline) error {
 	st.chart = chart{}
 	st.resp = response{}
 	st.respStats = st.resp.stats()
+	st.slow.update(st)
 	return nil
 }
 
@@ -215,6 +222,7 @@ func (en *Engine) finishLearning(st *termState, t *termStatic) {
 	// An adopted fit is a coil performing within the band of its rating at
 	// the end of the learning period: the reference for the onset of a loss.
 	st.healthyAt, st.shortSince = b.To, time.Time{}
+	st.setOnset()
 }
 
 // Step processes one analysis step: samples for any subset of terminals (in
@@ -230,18 +238,22 @@ func (en *Engine) Step(samples []collector.Sample, out []Evidence) []Evidence {
 }
 
 // StepTerminals is the per-terminal part of Step, without loop aggregation.
-// Calls for disjoint terminal sets may run concurrently.
+// Calls for disjoint terminal sets may run concurrently. The evidence is
+// written in place in out's backing array (grown once per call).
 func (en *Engine) StepTerminals(samples []collector.Sample, out []Evidence) []Evidence {
+	n := len(out)
+	out = slices.Grow(out, len(samples))[:n+len(samples)]
+	terms, state := en.terms, en.state
 	for k := range samples {
 		s := &samples[k]
 		i := s.Terminal
-		if i < 0 || i >= len(en.terms) {
+		if uint(i) >= uint(len(terms)) {
 			continue
 		}
-		out = append(out, en.blank)
-		en.process(s, &en.terms[i], &en.state[i], &out[len(out)-1])
+		en.process(s, &terms[i], &state[i], &out[n])
+		n++
 	}
-	return out
+	return out[:n]
 }
 
 // Loops returns the loop evidence of the last Step (or AggregateLoops call).
@@ -294,6 +306,7 @@ func (en *Engine) LoadBaselines(bs []Baseline) error {
 		en.learn[i].done = true
 		if b.Source == "learned" {
 			en.state[i].healthyAt, en.state[i].shortSince = b.To, time.Time{}
+			en.state[i].setOnset()
 		}
 	}
 	return errors.Join(errs...)

@@ -3,14 +3,18 @@ package fdd
 import (
 	"math"
 	"time"
+
+	"risewatch/collector"
 )
 
 // modelSample compares a steady sample (plant on, heat available) with the
 // calibrated coil model: expected rise at the measured airflow, EAT and HW
 // temperature and the water flow from the installed valve curve, its
-// uncertainty, the residual and everything that feeds on it.
-func (en *Engine) modelSample(st *termState, t *termStatic, in inputs, eat, obs float64, e *Evidence) {
+// uncertainty, the residual and everything that feeds on it. The sample's
+// values go to v.
+func (en *Engine) modelSample(st *termState, t *termStatic, in inputs, at time.Time, v *stepVals) {
 	cfg := &en.cfg
+	eat, obs := v.eat, v.obs
 	mw := t.flow.at(in.u) * st.flowScale
 	ev := en.evaluationNear(st, in.v, eat, mw, in.hw)
 	if !ev.ok {
@@ -21,14 +25,14 @@ func (en *Engine) modelSample(st *termState, t *termStatic, in inputs, eat, obs 
 	sigma := math.Sqrt(s2)
 	res := obs - f
 	z := res / sigma
-	e.ExpectedRiseK, e.SigmaK, e.ResidualK, e.ZScore = f, sigma, res, z
+	v.f, v.sigma, v.res, v.z = f, sigma, res, z
 	st.resp.add(in.u, obs, f, res, cfg.ClosedValveFrac)
 	if in.u <= heatingMinFrac {
 		return
 	}
 	if f > minExpectedRiseK {
-		e.PerfIndex = obs / f
-		st.perf.add(obs/f, en.perfAlpha)
+		v.pi = obs / f
+		st.perf.add(v.pi, en.perfAlpha)
 		// Rise at the design HW temperature: at fixed flows the e-NTU rise
 		// scales with the inlet temperature difference, ΔT_air = ε·(C_min/C_air)·(T_hw − EAT).
 		if d := in.hw - eat; d > offsetNoHeatK {
@@ -46,10 +50,10 @@ func (en *Engine) modelSample(st *termState, t *termStatic, in inputs, eat, obs 
 	}
 	en.updateFactors(st, ev.dLU, ev.dM*mw, res, s2)
 	st.cmp.add(res, ev.dLU, ev.dM*mw, restrictionSens(ev.dM, mw, st.designFlow), 1/s2, en.facAlpha)
-	if e.Learning {
+	if v.learning {
 		l := &en.learn[t.idx]
-		l.add(learnPoint{at: e.At, v: in.v, eat: eat, u: in.u, thw: in.hw, obsRise: obs})
-		if l.ready(cfg.LearnMinPoints, time.Duration(cfg.LearnMinHours*float64(time.Hour)), e.At) {
+		l.add(learnPoint{at: at, v: in.v, eat: eat, u: in.u, thw: in.hw, obsRise: obs})
+		if l.ready(cfg.LearnMinPoints, time.Duration(cfg.LearnMinHours*float64(time.Hour)), at) {
 			en.finishLearning(st, t)
 		}
 	}
@@ -222,6 +226,7 @@ func (en *Engine) leakFlow(st *termState, t *termStatic, in inputs, eat float64)
 	full := st.r.ExpectedRise(op)
 	if full > minExpectedRiseK {
 		st.closedCap.add(math.Max(0, rise)/full, 0.3)
+		st.slow.update(st)
 	}
 	// Reference leak flow from the raw rise (no offset removed: the fit's
 	// shape must not depend on its own result).
@@ -286,71 +291,96 @@ func (en *Engine) offsetUsed(st *termState) float64 {
 	return 0
 }
 
-// copyRunning copies the running statistics into e.
-func (en *Engine) copyRunning(st *termState, e *Evidence) {
-	e.LeakRiseK = st.leak.value()
-	e.ClosedRiseK = st.closedRaw.value()
-	e.OffsetK = st.offset.value()
-	if ce := &st.closedEst; ce.ok {
-		e.ClosedOffsetK, e.ClosedOffsetSigmaK, e.ClosedHeatK = ce.a, ce.sig, ce.heat
+// publish writes every field of e, in field order, from the sample's
+// values v and the running state (the running statistics include this
+// sample). Scores and Best are left to scoreSignatures. Energy impact and
+// the steady-only values are written past the start-up lockout (v.past).
+func (en *Engine) publish(e *Evidence, s *collector.Sample, st *termState, t *termStatic, in *inputs, v *stepVals) {
+	r := &st.respStats
+	e.Terminal, e.At, e.Gates = s.Terminal, s.At, v.gates
+	e.Usable, e.Steady, e.PlantOn, e.FanOn, e.Occupied = true, v.steady, in.plantOn, in.fanOn, s.Occupied
+	e.ValveFrac, e.AirflowM3s, e.SupplyC, e.DischargeC, e.HotWaterC, e.DATSetC = in.u, in.v, in.sat, in.dat, in.hw, nan
+	e.ObservedRiseK, e.ExpectedRiseK, e.SigmaK, e.ResidualK, e.PerfIndex = v.obs, v.f, v.sigma, v.res, v.pi
+	if fo := &st.facOut; fo.ua > 0 {
+		e.UAFactor, e.UAFactorSigma, e.FlowFactor, e.FlowFactorSigma = fo.ua, fo.uaSig, fo.fl, fo.flSig
+	} else {
+		e.UAFactor, e.UAFactorSigma, e.FlowFactor, e.FlowFactorSigma = nan, nan, nan, nan
 	}
-	e.ClosedCapacityFrac = st.closedCap.value()
-	e.PerfHighLast = st.perfHighLast
-	e.StarvedShare = st.cmpShare
-	if st.learnedUA > 0 {
-		e.RejectedUAFactor = st.learnedUA
-	}
-	e.ZoneDeficitK = st.zoneDef.value()
-	if !st.shortSince.IsZero() {
-		e.OnsetHours = st.shortSince.Sub(st.healthyAt).Hours()
-	}
+	e.ShortfallHighK, e.ShortfallLowK = r.shortHigh, r.shortLow
+	e.LeakRiseK = st.leak.v
+	e.LeakFlowFrac = nan
 	if st.leak.ok && st.leakFlowSet() {
 		e.LeakFlowFrac = st.leakFlow
 	}
-	if st.facOut.ua > 0 {
-		e.UAFactor, e.UAFactorSigma = st.facOut.ua, st.facOut.uaSig
-		e.FlowFactor, e.FlowFactorSigma = st.facOut.fl, st.facOut.flSig
-	}
+	e.ClosedMinutes = float64(st.closedRun) * en.minPerStep
+	e.OffsetK = st.offset.v
+	e.RiseValveCorr, e.RiseSpanK, e.ValveSpan = r.corr, r.riseSpan, r.valveSpan
+	e.ReversalsPerHour = st.rev.rate * en.stepsPerHour
+	e.DATFlatMinutes = float64(st.flatRun) * en.minPerStep
 	if st.chart.started {
 		e.CUSUMLowK, e.EWMAResid = st.chart.cusumLow, st.chart.ewma
+	} else {
+		e.CUSUMLowK, e.EWMAResid = nan, nan
 	}
-	if st.perf.ok {
-		e.PerfAvg = st.perf.v
+	e.WastedHeatW, e.AddedCoolingW, e.ShortfallW = 0, 0, 0
+	e.LeakFlowM3s = nan
+	if v.past {
+		en.energy(st, in, v, e)
 	}
+	e.Learning = v.learning
+	e.DATMinusSATK = in.dat - in.sat
+	e.LeakSigmaK = nan
+	if v.past {
+		e.LeakSigmaK = en.leakSigma
+	}
+	e.ExpectedSpanK = r.expSpan
+	e.DesignPerfIndex, e.LoopShort = nan, false
 	if st.perfAge < perfExpireSteps && st.designPerf.ok {
 		e.DesignPerfIndex = st.designPerf.v
 		// Saturated now, short at the design temperature, and (when zone
 		// points exist) the zone below its heating setpoint: a reset loop
 		// whose boxes still meet their zones is not a cold loop.
 		unmet := !st.zoneDef.ok || st.zoneDef.v > en.cfg.ZoneUnmetK
-		e.LoopShort = st.saturated && e.ValveFrac >= saturatedFrac && unmet && st.designPerf.v < loopShortPerf
+		e.LoopShort = st.saturated && in.u >= saturatedFrac && unmet && st.designPerf.v < loopShortPerf
 	}
+	e.ZScore, e.EWMALimit = v.z, en.ewmaLim
+	e.DATBadMinutes = float64(st.datBadRun) * en.minPerStep
+	e.PerfAvg = st.perf.v
+	e.PerfHigh, e.PerfLow = r.perfHigh, r.perfLow
+	if ce := &st.closedEst; ce.ok {
+		e.ClosedOffsetK, e.ClosedOffsetSigmaK, e.ClosedHeatK = ce.a, ce.sig, ce.heat
+	} else {
+		e.ClosedOffsetK, e.ClosedOffsetSigmaK, e.ClosedHeatK = nan, nan, nan
+	}
+	e.ClosedCapacityFrac = st.closedCap.v
+	e.PerfHighLast = st.perfHighLast
+	e.StarvedShare = st.cmpShare
+	e.ClosedRiseK = st.closedRaw.v
+	e.OnsetHours = st.onsetH
+	e.RejectedUAFactor = nan
+	if st.learnedUA > 0 {
+		e.RejectedUAFactor = st.learnedUA
+	}
+	e.ZoneDeficitK = st.zoneDef.v
 }
 
 func (st *termState) leakFlowSet() bool { return st.leakFlow >= 0 }
 
-// copyResponse copies the latest response-bin statistics into e.
-func (en *Engine) copyResponse(st *termState, e *Evidence) {
-	r := &st.respStats
-	e.RiseValveCorr, e.RiseSpanK, e.ExpectedSpanK, e.ValveSpan = r.corr, r.riseSpan, r.expSpan, r.valveSpan
-	e.ShortfallHighK, e.ShortfallLowK = r.shortHigh, r.shortLow
-	e.PerfHigh, e.PerfLow = r.perfHigh, r.perfLow
-}
-
 // energy fills the energy impact: leak heat (and the cooling spent removing
 // it, taken equal; the box must offset it with cold air) and heating
-// shortfall, Q = ṁ_da·c_p·ΔT with moist-air properties (energy.go).
-func (en *Engine) energy(st *termState, in inputs, eat float64, e *Evidence) {
+// shortfall, Q = ṁ_da·c_p·ΔT with moist-air properties (energy.go). e's
+// LeakRiseK and LeakFlowFrac are written.
+func (en *Engine) energy(st *termState, in *inputs, v *stepVals, e *Evidence) {
 	if st.closedRun >= en.closedSteps && in.plantOn && finite(e.LeakRiseK) && st.dat.full() {
-		ex := st.dat.mean() - eat
+		ex := st.dat.mean() - v.eat
 		ex -= en.offsetUsed(st)
 		if ex > 0 {
 			e.WastedHeatW = en.air.heatW(in.v, ex, in.dat)
 			e.AddedCoolingW = e.WastedHeatW
 		}
 	}
-	if in.u > heatingMinFrac && finite(e.ResidualK) && e.ResidualK < 0 {
-		e.ShortfallW = en.air.heatW(in.v, -e.ResidualK, in.dat)
+	if in.u > heatingMinFrac && finite(v.res) && v.res < 0 {
+		e.ShortfallW = en.air.heatW(in.v, -v.res, in.dat)
 	}
 	if finite(e.LeakFlowFrac) && st.leak.ok {
 		e.LeakFlowM3s = e.LeakFlowFrac * st.designFlow

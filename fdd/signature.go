@@ -41,29 +41,46 @@ const (
 	abruptLoH, abruptHiH       = 72.0, 240.0 // onset hours: a loss within 3 days is abrupt, beyond 10 days gradual
 )
 
-// scoreSignatures fills e.Scores and e.Best for a usable sample.
-func scoreSignatures(e *Evidence, en *Engine, st *termState) {
-	cfg := &en.cfg
-	sc := &e.Scores
+// slowScores are the score terms whose inputs change only on the response
+// cadence (the response statistics, the last high-command performance) or
+// with a leak inversion (the closed-valve capacity): recomputed there, not
+// on every sample.
+type slowScores struct {
+	unresp, rev float64 // unresponsive (stuck) and reversed valve
+}
 
-	// Response to command: unresponsive (stuck) or reversed. A reversed
-	// valve delivers at low command what a healthy one delivers at high
-	// command: the observed span is the expected span with the sign turned.
-	// A stuck valve's span is near zero (only the 1/V effect of the airflow
-	// changing with the command remains).
+// update recomputes the slow terms from st.
+//
+// Response to command: unresponsive (stuck) or reversed. A reversed valve
+// delivers at low command what a healthy one delivers at high command: the
+// observed span is the expected span with the sign turned. A stuck valve's
+// span is near zero (only the 1/V effect of the airflow changing with the
+// command remains).
+func (ss *slowScores) update(st *termState) {
+	r := &st.respStats
 	var unresp, rev float64
-	if e.ValveSpan >= respValveSpanMin && e.ExpectedSpanK >= respExpSpanMinK && finite(e.RiseSpanK) {
-		ratio := e.RiseSpanK / e.ExpectedSpanK
+	if r.valveSpan >= respValveSpanMin && r.expSpan >= respExpSpanMinK && finite(r.riseSpan) {
+		ratio := r.riseSpan / r.expSpan
 		unresp = 1 - ramp(ratio, respRatioLo, respRatioHi)
-		rev = ramp(-e.RiseValveCorr, revCorrLo, revCorrHi) * ramp(-ratio, revRatioLo, revRatioHi)
+		rev = ramp(-r.corr, revCorrLo, revCorrHi) * ramp(-ratio, revRatioLo, revRatioHi)
 	}
 	// Both ends of the command range: heat at 0 % close to the full-open
 	// capacity and no heat at high command is what only a reversed valve
 	// (or reversed signal) does; a valve stuck open also heats at high command.
-	if finite(e.ClosedCapacityFrac) && finite(e.PerfHighLast) {
-		rev = fmax(rev, ramp(e.ClosedCapacityFrac, revCapLo, revCapHi)*(1-ramp(e.PerfHighLast, noHeatPerfLo, noHeatPerfHi)))
+	if c := st.closedCap.v; finite(c) && finite(st.perfHighLast) {
+		rev = fmax(rev, ramp(c, revCapLo, revCapHi)*(1-ramp(st.perfHighLast, noHeatPerfLo, noHeatPerfHi)))
 	}
-	unresp *= 1 - rev
+	ss.unresp, ss.rev = unresp*(1-rev), rev
+}
+
+// sharp turns a 0..1 share into a near step around one half.
+func sharp(x float64) float64 { return ramp(x, 0.35, 0.65) }
+
+// scoreSignatures fills e.Scores (every kind) and e.Best for a usable
+// sample; the response terms come from st.slow.
+func scoreSignatures(e *Evidence, en *Engine, st *termState) {
+	cfg := &en.cfg
+	unresp, rev := st.slow.unresp, st.slow.rev
 
 	// Sensor offset: measured with the plant off, else the intercept of the
 	// closed-valve fit when it is identified.
@@ -107,7 +124,7 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 	//   - The onset: fouling builds up over months; the same UA-type loss
 	//     appearing within days on a coil that was performing is a lost
 	//     circuit (blocked, air-bound) or a new restriction.
-	fouledShare, starvedShare := 0.5, 0.5
+	var fouled, starved float64
 	if capLoss > 0 {
 		var sv float64
 		if finite(e.StarvedShare) && !e.Learning && st.learnedBase {
@@ -116,23 +133,28 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 		if finite(e.OnsetHours) {
 			sv = fmax(sv, 1-ramp(e.OnsetHours, abruptLoH, abruptHiH))
 		}
-		starvedShare, fouledShare = sv, 1-sv
+		fouled = capLoss * sharp(1-sv) * (1 - unresp)
+		starved = capLoss * sharp(sv) * (1 - unresp)
 	}
-	sharp := func(x float64) float64 { return ramp(x, 0.35, 0.65) }
 
+	sc := &e.Scores
+	sc[KindNone] = 0
 	sc[KindLeakingValve] = leak
 	sc[KindStuckValve] = fmax(fmax(unresp, stuckOpen), noHeat)
-	sc[KindFouledCoil] = capLoss * sharp(fouledShare) * (1 - unresp)
-	sc[KindStarvedCoil] = capLoss * sharp(starvedShare) * (1 - unresp)
-	sc[KindReversedValve] = rev
-	sc[KindHunting] = ramp(e.ReversalsPerHour, huntLo, huntHi)
+	sc[KindFouledCoil] = fouled
+	sc[KindStarvedCoil] = starved
+	sc[KindColdLoop] = 0
 	neg := ramp(-e.ClosedRiseK, offsetLoK, offsetHiK) // DAT below SAT with the fan on and the valve closed: impossible
 	sc[KindDATOffset] = fmax(ramp(math.Abs(off), offsetLoK, offsetHiK), neg)
+	sc[KindDATFailed] = datFailedScore(e, st, cfg.FlatlineMinutes)
+	sc[KindReversedValve] = rev
+	sc[KindHunting] = ramp(e.ReversalsPerHour, huntLo, huntHi)
+	sc[KindLowDischarge] = 0
 	if finite(e.DATSetC) && e.PlantOn {
 		// Guideline 36 §5.6.6 low-DAT alarm: ≥ 8 K (15 °F) below setpoint.
 		sc[KindLowDischarge] = ramp(e.DATSetC-e.DischargeC, 0.5*cfg.LowDischargeK, cfg.LowDischargeK)
 	}
-	sc[KindDATFailed] = datFailedScore(e, st, cfg.FlatlineMinutes)
+	sc[KindDataQuality] = 0
 	e.Best = bestKind(sc, cfg.ScoreThreshold)
 }
 

@@ -25,65 +25,74 @@ type termStatic struct {
 }
 
 // termState is the bounded running state of one terminal. Its size does not
-// depend on how long the engine runs.
+// depend on how long the engine runs. Fields are in the order a fan-on
+// sample uses them, the per-sample ones first, so one sample touches few
+// cache lines; what only the response cadence, the leak inversion, a model
+// evaluation or learning needs comes after.
 type termState struct {
-	r, rUA      riser   // calibrated coil at the baseline UA (and UA × uaStep)
-	flowScale   float64 // baseline flow factor
-	base        Baseline
-	learnedBase bool    // base.Source == "learned"
-	learnDone   bool    // learning finished (or off)
-	secU, secF  float64 // secant/tangent slope ratios of the running factor fit
-	secAge      int     // model evaluations since the last secant update
+	steps     int // samples processed
+	flatRun   int
+	datBadRun int
+	fanRun    int // consecutive fan-on steps
+	plantRun  int // steps since the plant last changed state
+	closedRun int
+	zeroRun   int // consecutive steps at zero command (≤ zeroCommandFrac)
+	respAge   int
+	perfAge   int // steps since the last heating-steady sample
+	leakAge   int
+	evalCur   int // index of the evaluation in use
+	lastDAT   float64
+	flatUMin  float64
+	flatUMax  float64
+	flatSMin  float64
+	flatSMax  float64
+	lastPlant bool
+	// learnedBase is base.Source == "learned"; learnDone: learning
+	// finished (or off); saturated: valve ≥ saturatedFrac at the last
+	// heating-steady sample.
+	learnedBase, learnDone, saturated bool
+	flowScale                         float64 // baseline flow factor
+	secU, secF                        float64 // secant/tangent slope ratios of the running factor fit
+	designFlow                        float64 // full-open installed flow at the baseline flow factor, m³/s
+	leakFlow                          float64 // leak flow / design flow; −1 until estimated
+	perfHighLast                      float64 // last valid high-command performance (NaN until seen)
+	cmpShare                          float64 // cached cmp.share()
+	onsetH                            float64 // OnsetHours of shortSince and healthyAt (NaN if no loss)
+	learnedUA                         float64 // learned UA factor that was rejected (0 if none)
+	rev                               reversals
+	leak, offset, closedRaw           ewma // closed-valve rise net of command heat, no-heat offset, raw closed rise
+	perf, designPerf, zoneDef         ewma // performance index, at design HW, heating setpoint − zone temperature
+	closedCap                         ewma // closed-valve rise / full-open rise
+	chart                             chart
+	fac                               factorSums
+	facOut                            factorOut
+	cmp                               faultCompare
+	closedEst                         closedEstimate
+	respStats                         responseStats
+	slow                              slowScores // score terms that change only with the response cadence or the leak inversion
+	in                                window4    // valve, airflow, SAT, HW temperature over the steady window
+	dat                               window     // DAT over the last half window
+	resp                              response
 
-	in  window4 // valve, airflow, SAT, HW temperature over the steady window
-	dat window  // DAT over the last half window
-
-	steps      int // samples processed
-	lastDAT    float64
-	flatRun    int
-	flatUMin   float64
-	flatUMax   float64
-	flatSMin   float64
-	flatSMax   float64
-	datBadRun  int
-	fanRun     int // consecutive fan-on steps
-	plantRun   int // steps since the plant last changed state
-	lastPlant  bool
-	closedRun  int
-	zeroRun    int                   // consecutive steps at zero command (≤ zeroCommandFrac)
+	// Touched by model evaluations, the leak inversion, learning.
 	evals      [evalCache]evaluation // recent model evaluations (Taylor anchors)
-	evalCur    int                   // index of the one in use
 	evalNext   int                   // next slot to replace
 	evalSteps  int                   // full model evaluations (diagnostic)
-	leak       ewma
-	offset     ewma
-	leakFlow   float64 // leak flow / design flow; −1 until estimated
-	designFlow float64 // full-open installed flow at the baseline flow factor, m³/s
-	saturated  bool    // valve ≥ saturatedFrac at the last heating-steady sample
-	leakAge    int
-	chart      chart
-	resp       response
-	respStats  responseStats
-	respAge    int
-	rev        reversals
-	fac        factorSums
-	facOut     factorOut
-	designPerf ewma
-	perfAge    int // steps since the last heating-steady sample
-	perf       ewma
+	secAge     int                   // model evaluations since the last secant update
+	r, rUA     riser                 // calibrated coil at the baseline UA (and UA × uaStep)
+	closed     closedFit             // closed-valve rise = a + s·h (offset versus heat)
+	leakRef    float64               // reference leak flow of the closed fit, m³/s (0 until set)
+	base       Baseline
+	healthyAt  time.Time // last time the high-command performance was healthy
+	shortSince time.Time // first loss of high-command performance after healthyAt
+}
 
-	closed       closedFit // closed-valve rise = a + s·h (offset versus heat)
-	closedEst    closedEstimate
-	cmpShare     float64 // cached cmp.share()
-	closedRaw    ewma    // raw steady closed-valve rise (no model correction)
-	closedCap    ewma    // closed-valve rise / full-open rise
-	leakRef      float64 // reference leak flow of the closed fit, m³/s (0 until set)
-	perfHighLast float64 // last valid high-command performance (NaN until seen)
-	cmp          faultCompare
-	learnedUA    float64   // learned UA factor that was rejected (0 if none)
-	zoneDef      ewma      // heating setpoint − zone temperature
-	healthyAt    time.Time // last time the high-command performance was healthy
-	shortSince   time.Time // first loss of high-command performance after healthyAt
+// setOnset caches OnsetHours after healthyAt or shortSince changed.
+func (st *termState) setOnset() {
+	st.onsetH = nan
+	if !st.shortSince.IsZero() {
+		st.onsetH = st.shortSince.Sub(st.healthyAt).Hours()
+	}
 }
 
 // factorSums are the decayed normal equations of the running apparent
@@ -108,18 +117,26 @@ const (
 // nan is a quiet NaN.
 var nan = math.NaN()
 
-// process turns one sample into evidence e (a copy of en.blank) for
-// terminal t with state st.
+// stepVals are the values of one active sample that are not running state:
+// the published Evidence is written from them and the state in one pass.
+type stepVals struct {
+	gates                Gate
+	learning             bool
+	steady               bool
+	past                 bool    // past the start-up lockout (full evidence)
+	eat, obs             float64 // entering air temperature, observed rise
+	f, sigma, res, z, pi float64 // model expected rise, σ, residual, z, performance index (NaN without a model value)
+}
+
+// process turns one sample into evidence e for terminal t with state st.
+// Every field of e is written (e need not be cleared).
 func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *Evidence) {
 	cfg := &en.cfg
 	st.steps++
-	e.Terminal, e.At = s.Terminal, s.At
-	e.Learning = !st.learnedBase && cfg.LearnMinPoints > 0 && !st.learnDone
+	learning := !st.learnedBase && cfg.LearnMinPoints > 0 && !st.learnDone
 
 	var in inputs
 	g := gate(s, t, &in)
-	e.FanOn, e.PlantOn, e.Occupied = in.fanOn, in.plantOn, s.Occupied
-	e.ValveFrac, e.AirflowM3s, e.SupplyC, e.DischargeC, e.HotWaterC = in.u, in.v, in.sat, in.dat, in.hw
 
 	// DAT health (kept even on gated samples; it is data-quality evidence).
 	othersOK := g&^(GateMissing|GateRange) == 0 && s.Flags&(collector.FlagAirflow|collector.FlagValve) == 0
@@ -134,24 +151,22 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	if t.modelErr != nil {
 		g |= GateNoModel
 	}
-	e.DATBadMinutes = float64(st.datBadRun) * en.minPerStep
-	e.DATFlatMinutes = float64(st.flatRun) * en.minPerStep
 	if st.flatRun >= en.flatSteps {
 		g |= GateStale
 	}
 	if g&dataGates != 0 {
-		e.Gates = g
 		st.resetWindows()
+		en.idle(e, s, st, &in, g, learning)
 		scoreDataQuality(e, en, st)
 		return
 	}
-	e.Usable = true
 
 	// Operating state: fan, start-up, plant changes.
 	if !in.fanOn {
 		st.fanRun = 0
-		e.Gates = g | GateFanOff
 		st.resetWindows()
+		en.idle(e, s, st, &in, g|GateFanOff, learning)
+		e.Usable = true
 		return
 	}
 	st.fanRun++
@@ -170,54 +185,34 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	} else {
 		st.zeroRun = 0
 	}
-	e.ClosedMinutes = float64(st.closedRun) * en.minPerStep
 	st.rev.add(in.u, cfg.HuntingDeadband, en.revAlpha)
-	e.ReversalsPerHour = st.rev.rate * en.stepsPerHour
 
 	if s.Flags&(collector.FlagZone|collector.FlagZoneSet) == 0 && finite(s.ZoneC) && finite(s.ZoneSetC) {
 		st.zoneDef.add(s.ZoneSetC-s.ZoneC, en.leakAlpha)
 	}
+	v := stepVals{learning: learning, f: nan, sigma: nan, res: nan, z: nan, pi: nan}
 	eat := in.sat + t.ductGainK
 	obs := in.dat - eat
-	e.ObservedRiseK = obs
-	e.DATMinusSATK = in.dat - in.sat
+	v.eat, v.obs = eat, obs
 
 	st.in.push([nCh]float64{chValve: in.u, chAir: in.v, chSAT: in.sat, chHW: in.hw})
 	st.dat.push(in.dat)
 	st.respAge++
 	if st.respAge >= respStatsEvery {
-		st.resp.decay(en.respDecay)
-		st.respStats = st.resp.stats()
-		st.respAge = 0
-		en.solveFactors(st)
-		st.cmpShare = st.cmp.share()
-		if p := st.respStats.perfHigh; finite(p) {
-			st.perfHighLast = p
-			// Onset of a capacity loss, with hysteresis between the start
-			// of the loss ramp and half of it.
-			switch {
-			case p >= 1-capLossLo/2:
-				st.healthyAt, st.shortSince = s.At, time.Time{}
-			case p < 1-capLossLo && st.shortSince.IsZero() && !st.healthyAt.IsZero():
-				st.shortSince = s.At
-			}
-		}
+		en.responseCadence(st, s)
 	}
-	en.copyResponse(st, e)
 	if st.fanRun < en.startupSteps || st.plantRun < en.startupSteps {
-		e.Gates = g | GateStartup
-		en.copyRunning(st, e)
+		v.gates = g | GateStartup
+		en.publish(e, s, st, t, &in, &v)
 		scoreSignatures(e, en, st)
 		return
 	}
 	datSteady := st.dat.full() && math.Abs(st.dat.slope()) <= en.tempSlope && st.dat.variance() <= en.tempVar
 	steady := datSteady && en.inputsSteady(st)
-	e.Steady = steady
 	if !steady {
 		g |= GateUnsteady
 	}
-	e.Gates = g
-	e.LeakSigmaK = math.Sqrt(en.sig2Closed)
+	v.gates, v.steady, v.past = g, steady, true
 
 	noHeat := !in.plantOn || in.hw-eat < offsetNoHeatK
 	closedLong := st.closedRun >= en.closedSteps
@@ -226,7 +221,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 		st.offset.add(obs, en.offAlpha)
 	}
 	if steady && in.plantOn && !noHeat && t.modelErr == nil {
-		en.modelSample(st, t, in, eat, obs, e)
+		en.modelSample(st, t, in, s.At, &v)
 	}
 	// Leak: heat beyond what the commanded opening gives. At zero command
 	// that is the whole rise; between zero and the closed threshold a valve
@@ -237,10 +232,10 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 		x := obs
 		if in.u > zeroCommandFrac && t.modelErr == nil {
 			x = nan
-			if finite(e.ExpectedRiseK) {
+			if finite(v.f) {
 				// Take off the commanded heat, but no more than the rise
 				// itself (a dead band makes the model over-predict).
-				x = obs - math.Min(math.Max(0, e.ExpectedRiseK), math.Max(0, obs))
+				x = obs - math.Min(math.Max(0, v.f), math.Max(0, obs))
 			}
 		}
 		if finite(x) {
@@ -253,9 +248,45 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	if st.perfAge < perfExpireSteps {
 		st.perfAge++
 	}
-	en.copyRunning(st, e)
-	en.energy(st, in, eat, e)
+	en.publish(e, s, st, t, &in, &v)
 	scoreSignatures(e, en, st)
+}
+
+// responseCadence runs every respStatsEvery fan-on steps: decay and
+// statistics of the response bins, the running factor solve, the shape
+// share and the onset of a capacity loss.
+func (en *Engine) responseCadence(st *termState, s *collector.Sample) {
+	st.resp.decay(en.respDecay)
+	st.respStats = st.resp.stats()
+	st.respAge = 0
+	en.solveFactors(st)
+	st.cmpShare = st.cmp.share()
+	if p := st.respStats.perfHigh; finite(p) {
+		st.perfHighLast = p
+		// Onset of a capacity loss, with hysteresis between the start
+		// of the loss ramp and half of it.
+		switch {
+		case p >= 1-capLossLo/2:
+			st.healthyAt, st.shortSince = s.At, time.Time{}
+			st.setOnset()
+		case p < 1-capLossLo && st.shortSince.IsZero() && !st.healthyAt.IsZero():
+			st.shortSince = s.At
+			st.setOnset()
+		}
+	}
+	st.slow.update(st)
+}
+
+// idle writes the evidence of a sample that gives no running evidence (a
+// data gate or the fan off): the inputs and the data-quality counters.
+func (en *Engine) idle(e *Evidence, s *collector.Sample, st *termState, in *inputs, g Gate, learning bool) {
+	*e = en.blank
+	e.Terminal, e.At, e.Gates = s.Terminal, s.At, g
+	e.PlantOn, e.FanOn, e.Occupied = in.plantOn, in.fanOn, s.Occupied
+	e.ValveFrac, e.AirflowM3s, e.SupplyC, e.DischargeC, e.HotWaterC = in.u, in.v, in.sat, in.dat, in.hw
+	e.DATFlatMinutes = float64(st.flatRun) * en.minPerStep
+	e.Learning = learning
+	e.DATBadMinutes = float64(st.datBadRun) * en.minPerStep
 }
 
 // inputsSteady checks the full-window steadiness of valve, airflow, SAT and

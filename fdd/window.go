@@ -8,7 +8,6 @@ const maxWindow = 32
 // sample. The sums are recomputed from the ring every rebuildEvery pushes so
 // rounding does not accumulate.
 type window struct {
-	ring   [maxWindow]float64
 	n      int // window length
 	count  int // samples held (≤ n)
 	head   int // index of the next write
@@ -17,17 +16,20 @@ type window struct {
 	sumSq  float64 // Σ x_j²
 	sumJ   float64 // Σ j·x_j, j = 0 for the oldest sample
 	fullK  slopeConst
+	ring   [maxWindow]float64
 }
 
-// slopeConst holds the slope formula's constants for a full window of n:
-// Σj = n(n−1)/2 and the denominator n·Σj² − (Σj)².
-type slopeConst struct{ n, sj, den float64 }
+// slopeConst holds the constants of a full window of n: Σj = n(n−1)/2, the
+// slope denominator n·Σj² − (Σj)², and the reciprocals of n and of the
+// denominator (the steady checks on every sample multiply, not divide).
+type slopeConst struct{ n, sj, den, invN, invDen float64 }
 
 func newSlopeConst(n int) slopeConst {
 	c := float64(n)
 	sj := c * (c - 1) / 2
 	sjj := (c - 1) * c * (2*c - 1) / 6
-	return slopeConst{n: c, sj: sj, den: c*sjj - sj*sj}
+	den := c*sjj - sj*sj
+	return slopeConst{n: c, sj: sj, den: den, invN: 1 / c, invDen: 1 / den}
 }
 
 const rebuildEvery = 256
@@ -99,6 +101,9 @@ func (w *window) rebuild() {
 
 // mean of the samples held.
 func (w *window) mean() float64 {
+	if w.count == w.n {
+		return w.sum * w.fullK.invN
+	}
 	if w.count == 0 {
 		return 0
 	}
@@ -107,11 +112,17 @@ func (w *window) mean() float64 {
 
 // variance (population) of the samples held, clamped at 0.
 func (w *window) variance() float64 {
-	if w.count < 2 {
+	var v float64
+	switch {
+	case w.count == w.n:
+		k := &w.fullK
+		v = (w.sumSq - w.sum*w.sum*k.invN) * k.invN
+	case w.count < 2:
 		return 0
+	default:
+		c := float64(w.count)
+		v = (w.sumSq - w.sum*w.sum/c) / c
 	}
-	c := float64(w.count)
-	v := (w.sumSq - w.sum*w.sum/c) / c
 	if v < 0 {
 		return 0
 	}
@@ -123,7 +134,7 @@ func (w *window) variance() float64 {
 func (w *window) slope() float64 {
 	if w.count == w.n {
 		k := &w.fullK
-		return (k.n*w.sumJ - k.sj*w.sum) / k.den
+		return (k.n*w.sumJ - k.sj*w.sum) * k.invDen
 	}
 	if w.count < 2 {
 		return 0
@@ -165,7 +176,6 @@ const (
 // and reset together (the steady-state inputs), with shared indexing so one
 // push costs one ring update. Same sums and formulas as window.
 type window4 struct {
-	ring   [maxWindow][nCh]float64
 	n      int
 	count  int
 	head   int
@@ -174,6 +184,7 @@ type window4 struct {
 	sumSq  [nCh]float64
 	sumJ   [nCh]float64
 	fullK  slopeConst
+	ring   [maxWindow][nCh]float64
 }
 
 func (w *window4) init(n int) { *w = window4{n: n, fullK: newSlopeConst(n)} }
@@ -243,6 +254,9 @@ func (w *window4) rebuild() {
 }
 
 func (w *window4) mean(k int) float64 {
+	if w.count == w.n {
+		return w.sum[k] * w.fullK.invN
+	}
 	if w.count == 0 {
 		return 0
 	}
@@ -250,11 +264,17 @@ func (w *window4) mean(k int) float64 {
 }
 
 func (w *window4) variance(k int) float64 {
-	if w.count < 2 {
+	var v float64
+	switch {
+	case w.count == w.n:
+		c := &w.fullK
+		v = (w.sumSq[k] - w.sum[k]*w.sum[k]*c.invN) * c.invN
+	case w.count < 2:
 		return 0
+	default:
+		c := float64(w.count)
+		v = (w.sumSq[k] - w.sum[k]*w.sum[k]/c) / c
 	}
-	c := float64(w.count)
-	v := (w.sumSq[k] - w.sum[k]*w.sum[k]/c) / c
 	if v < 0 {
 		return 0
 	}
@@ -264,7 +284,7 @@ func (w *window4) variance(k int) float64 {
 func (w *window4) slope(k int) float64 {
 	if w.count == w.n {
 		c := &w.fullK
-		return (c.n*w.sumJ[k] - c.sj*w.sum[k]) / c.den
+		return (c.n*w.sumJ[k] - c.sj*w.sum[k]) * c.invDen
 	}
 	if w.count < 2 {
 		return 0
