@@ -1,0 +1,171 @@
+package rules
+
+import (
+	"math/bits"
+	"unsafe"
+
+	"risewatch/fdd"
+)
+
+// This file holds the per-sample path of Evaluator.Step for terminal
+// evidence; BenchmarkStep measures it.
+
+// stepTerminals evaluates the terminal rules over ev. This is the hot
+// path: per record a gate mask, the operating-time sum and, when a rule
+// could be affected at all, the prefilter; rules are looked at one by one
+// only when the prefilter lets them through or their tracker is busy.
+func (e *Evaluator) stepTerminals(ev []fdd.Evidence, out []Transition) []Transition {
+	if e.nW != 1 || e.noPrefilter {
+		return e.stepTerminalsWide(ev, out)
+	}
+	// One prefilter word (up to rulesPerWord terminal rules): no word loop.
+	nT := e.nT
+	busy, en := e.busy[:nT], e.en[:nT]
+	gateOK := e.gateOK[:gateMaskMax+1]
+	w0 := &e.pf.words[0]
+	for i := range ev {
+		x := &ev[i]
+		t := x.Terminal
+		if uint(t) >= uint(nT) {
+			continue
+		}
+		at := x.At.UnixNano()
+		mask := flagMask(x) // gateMaskOf, by hand: the compiler does not inline it
+		if at >= e.seasonLo && at < e.seasonHi {
+			if e.seasonOK {
+				mask |= gSeason
+			}
+		} else if e.seasonDay(at) {
+			mask |= gSeason
+		}
+		e.accumulateOperating(t, at, mask)
+		set := busy[t]
+		if m := gateOK[mask&gateMaskMax] & en[t]; m&^set != 0 {
+			set |= m & w0.pass(unsafe.Pointer(x))
+		}
+		if set != 0 {
+			out = e.stepRules(t, 0, set, x, unsafe.Pointer(x), at, mask, out)
+		}
+	}
+	return out
+}
+
+// stepTerminalsWide is stepTerminals for more than one prefilter word (or
+// with the prefilter off, in tests).
+func (e *Evaluator) stepTerminalsWide(ev []fdd.Evidence, out []Transition) []Transition {
+	nW, nT := e.nW, e.nT
+	busy, en, gateOK, words := e.busy, e.en, e.gateOK, e.pf.words
+	for i := range ev {
+		x := &ev[i]
+		t := x.Terminal
+		if t < 0 || t >= nT {
+			continue
+		}
+		at := x.At.UnixNano()
+		mask := e.gateMaskOf(x, at)
+		e.accumulateOperating(t, at, mask)
+		p := unsafe.Pointer(x)
+		for w := 0; w < nW; w++ {
+			j := t*nW + w
+			set := busy[j]
+			if m := gateOK[int(mask)*nW+w] & en[j]; m&^set != 0 {
+				if e.noPrefilter {
+					set |= m
+				} else {
+					set |= m & words[w].pass(p)
+				}
+			}
+			if set != 0 {
+				out = e.stepRules(t, w, set, x, p, at, mask, out)
+			}
+		}
+	}
+	return out
+}
+
+// gateMaskOf is the gate mask of one evidence record (inlined on the hot
+// path).
+func (e *Evaluator) gateMaskOf(x *fdd.Evidence, at int64) gateMask {
+	mask := flagMask(x)
+	if e.heatingSeason(at) {
+		mask |= gSeason
+	}
+	return mask
+}
+
+// flagMask is the gate mask of the record's own truth values.
+func flagMask(x *fdd.Evidence) gateMask {
+	return gateMask(b2u(x.Usable)) | gateMask(b2u(x.Steady))<<1 | gateMask(b2u(x.PlantOn))<<2 |
+		gateMask(b2u(x.FanOn))<<3 | gateMask(b2u(x.Occupied))<<4
+}
+
+// stepRules runs the rules of prefilter word w whose bits are in set on
+// terminal t, in rule order. Rules outside set are idle and cannot change
+// at this step (gates or a necessary clause fail).
+func (e *Evaluator) stepRules(t, w int, set uint64, ev *fdd.Evidence, p unsafe.Pointer, at int64, mask gateMask, out []Transition) []Transition {
+	n := len(e.term)
+	trks := e.trk[t*n : t*n+n]
+	busy := &e.busy[t*e.nW+w]
+	for ; set != 0; set &= set - 1 {
+		k := bits.TrailingZeros64(set) &^ 1
+		r := w*rulesPerWord + k/2
+		tk := &trks[r]
+		if !tk.off {
+			out = e.stepRule(t, e.term[r], tk, ev, p, at, mask, out)
+		}
+		if tk.since != 0 || tk.f != nil {
+			*busy |= 1 << uint(k)
+		} else {
+			*busy &^= 1 << uint(k)
+		}
+	}
+	return out
+}
+
+// stepRule advances rule c on terminal t.
+func (e *Evaluator) stepRule(t int, c *compiled, tk *tracker, ev *fdd.Evidence, p unsafe.Pointer, at int64, mask gateMask, out []Transition) []Transition {
+	gatesOK := mask&c.need == c.need && mask&c.forbid == 0 && c.gates.eval(p) == triTrue
+	if tk.f == nil {
+		l := e.termLoop[t]
+		if l < 0 {
+			l = e.nL
+		}
+		if gatesOK && (e.explain[t]|e.loopExplain[l])&(1<<uint(c.kind)) != 0 {
+			tk.since = 0
+			return out
+		}
+		if e.pend(tk, c, gatesOK, p, at) {
+			out = e.activate(EntityTerminal, t, c, tk, p, ev.At, out)
+		}
+		return out
+	}
+	f := tk.f
+	if f.lastEnergyAt != at {
+		f.observe(ev, at, mask)
+	}
+	if e.release(tk, c, gatesOK, p, at) {
+		out = e.deactivate(EntityTerminal, t, c, tk, ev.At, out)
+	} else if gatesOK && f.lastTrueAt != at && c.when.eval(p) == triTrue {
+		f.lastTrueAt = at
+		f.lastTerm = *ev
+		f.hasLast = true
+		f.confidence = c.confidenceAt(p)
+	}
+	return out
+}
+
+// rebuildBusy marks every terminal tracker that is not idle (after Import).
+func (e *Evaluator) rebuildBusy() {
+	n := len(e.term)
+	for t := 0; t < e.nT; t++ {
+		for r := 0; r < n; r++ {
+			tk := &e.trk[t*n+r]
+			if tk.since != 0 || tk.f != nil {
+				e.busy[t*e.nW+r/rulesPerWord] |= 1 << (2 * uint(r%rulesPerWord))
+			}
+		}
+	}
+}
+
+// b2u is 1 for true, 0 for false, without a branch.
+func b2u(b bool) uint8 { return *(*uint8)(unsafe.Pointer(&b)) }
