@@ -169,15 +169,34 @@ func tail(path string, n int) string {
 // metric sums the samples of a metric at /metrics whose labels contain
 // every given `name="value"`; ok is false when there are none.
 func (c *child) metric(name string, labels ...string) (v float64, ok bool) {
-	resp, err := http.Get(c.url + "/metrics")
+	text, err := c.scrape()
 	if err != nil {
 		return 0, false
 	}
+	return sumMetric(text, name, labels...)
+}
+
+// scrape returns the /metrics text.
+func (c *child) scrape() (string, error) {
+	resp, err := http.Get(c.url + "/metrics")
+	if err != nil {
+		return "", err
+	}
 	defer resp.Body.Close()
-	sc := bufio.NewScanner(resp.Body)
-	sc.Buffer(make([]byte, 1<<20), 1<<20)
-	for sc.Scan() {
-		line := sc.Text()
+	b, err := io.ReadAll(resp.Body)
+	return string(b), err
+}
+
+// sumMetric sums the samples of name in a /metrics text whose labels
+// contain every given `name="value"`.
+func sumMetric(text, name string, labels ...string) (v float64, ok bool) {
+	for len(text) > 0 {
+		line := text
+		if i := strings.IndexByte(text, '\n'); i >= 0 {
+			line, text = text[:i], text[i+1:]
+		} else {
+			text = ""
+		}
 		if !strings.HasPrefix(line, name) || (len(line) > len(name) && line[len(name)] != '{' && line[len(name)] != ' ') {
 			continue
 		}

@@ -66,9 +66,15 @@ func simCampus(t *testing.T, days int, daemonSection string) (cfg, trendDir stri
 	return cfg, trendDir, staged
 }
 
-// drop moves a staged trend file into the watched folder in one rename.
+// drop moves a staged trend file into the watched folder in one rename,
+// dated an hour back: a file that old has long settled, so the drop folder
+// reads it at its next poll instead of watching it for the settle time.
 func drop(t *testing.T, file, trendDir string) {
 	t.Helper()
+	old := time.Now().Add(-time.Hour)
+	if err := os.Chtimes(file, old, old); err != nil {
+		t.Fatal(err)
+	}
 	if err := os.Rename(file, filepath.Join(trendDir, filepath.Base(file))); err != nil {
 		t.Fatal(err)
 	}

@@ -49,11 +49,11 @@ func cpuTime(t testing.TB) time.Duration {
 	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
 }
 
-// soakSize is the campus and run length: 10,000 terminals for about 60 s
+// soakSize is the campus and run length: 10,000 terminals for about 45 s
 // of wall time (-short: 1,000 terminals, about 10 s). RELIABILITY_SOAK
 // overrides the wall time (a Go duration) for a longer manual run.
 func soakSize(t *testing.T) (groups, per int, wall, interval time.Duration) {
-	groups, per, wall, interval = 100, 100, 60*time.Second, 2*time.Second
+	groups, per, wall, interval = 100, 100, 45*time.Second, 2*time.Second
 	if testing.Short() {
 		groups, per, wall, interval = 10, 100, 10*time.Second, time.Second
 	}
