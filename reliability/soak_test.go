@@ -217,9 +217,12 @@ func TestSoakTenThousandTerminals(t *testing.T) {
 	}
 
 	// Flat memory: the mean RSS of the last third of the measured samples
-	// may exceed that of the first third by at most 10 % or 24 MiB,
-	// whichever is larger (common practice for a soak after warm-up: a
-	// leak of one reading per point per sweep would add ~2 MiB a sweep).
+	// may exceed that of the first third by at most 15 % or 24 MiB,
+	// whichever is larger, since RSS also holds garbage the collector has
+	// not yet returned (GOGC lets the heap reach twice the live data); the
+	// live heap after collection is the sharper test: at most 5 % or
+	// 16 MiB (common practice for a soak after warm-up; a leak of one
+	// reading per point per sweep would add about 3 MiB a sweep here).
 	third := len(samples) / 3
 	if third < 2 {
 		t.Fatalf("only %d samples after warm-up", len(samples))
@@ -233,7 +236,7 @@ func TestSoakTenThousandTerminals(t *testing.T) {
 	}
 	r1, h1 := mean(samples[:third])
 	r3, h3 := mean(samples[len(samples)-third:])
-	tol := max(0.10*r1, 24<<20)
+	tol := max(0.15*r1, 24<<20)
 	if r3-r1 > tol {
 		t.Errorf("RSS grew from %.1f MiB to %.1f MiB over the run (tolerance %.1f MiB): a leak", r1/(1<<20), r3/(1<<20), tol/(1<<20))
 	}

@@ -117,7 +117,7 @@ func TestSoakDaemonTenThousandTerminals(t *testing.T) {
 		return s / float64(len(ps))
 	}
 	r1, r3 := mean(pts[:third]), mean(pts[len(pts)-third:])
-	if tol := max(0.10*r1, 24<<20); r3-r1 > tol {
+	if tol := max(0.15*r1, 24<<20); r3-r1 > tol { // see TestSoakTenThousandTerminals
 		t.Errorf("daemon RSS grew from %.1f MiB to %.1f MiB (tolerance %.1f MiB): a leak", r1/(1<<20), r3/(1<<20), tol/(1<<20))
 	}
 	n := len(c.Terminals)
