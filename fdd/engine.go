@@ -32,13 +32,13 @@ type Engine struct {
 	startupSteps, closedSteps, flatSteps     int
 	tempSlope, tempVar, valveVar, hwSlope    float64
 	ewmaLim, sig2Closed, leakSigma           float64
+	thresholdBits                            uint64 // bits of a positive ScoreThreshold (0 for a threshold ≤ 0: see mayReach)
 	revAlpha, leakAlpha, offAlpha, perfAlpha float64
 	facAlpha, respDecay                      float64
 
 	loops    []loopAcc
 	loopOut  []LoopEvidence
 	lastStep time.Time
-	blank    Evidence  // every computed value NaN: the start of each sample's evidence
 	learn    []learner // learning reservoirs, apart from the hot per-sample state
 }
 
@@ -72,14 +72,15 @@ func newEngine(s *site.Site, cfg Config, pf physicsFactory) (*Engine, error) {
 	a := c.Accuracy
 	en.sig2Closed = a.DischargeK*a.DischargeK + a.SupplyK*a.SupplyK + a.DuctGainK*a.DuctGainK
 	en.leakSigma = math.Sqrt(en.sig2Closed)
+	if c.ScoreThreshold > 0 {
+		en.thresholdBits = math.Float64bits(c.ScoreThreshold)
+	}
 	en.revAlpha = alphaFor(en.stepsPerHour)
 	en.leakAlpha = alphaFor(float64(c.stepsFor(15)))
 	en.offAlpha = alphaFor(float64(c.stepsFor(60)))
 	en.perfAlpha = alphaFor(float64(c.stepsFor(30)))
 	en.facAlpha = alphaFor(c.FactorHours * en.stepsPerHour)
 	en.respDecay = math.Exp(-respStatsEvery / (c.ResponseHours * en.stepsPerHour))
-	setNaN(&en.blank)
-	en.blank.EWMALimit = en.ewmaLim
 
 	en.terms = make([]termStatic, len(s.Terminals))
 	en.state = make([]termState, len(s.Terminals))
@@ -232,8 +233,9 @@ func (en *Engine) finishLearning(st *termState, t *termStatic) {
 // skipped.
 func (en *Engine) Step(samples []collector.Sample, out []Evidence) []Evidence {
 	start := len(out)
-	out = en.StepTerminals(samples, out)
-	en.aggregateLoops(out[start:])
+	en.resetLoops()
+	out = en.stepTerminals(samples, out, true)
+	en.finishLoops(out[start:])
 	return out
 }
 
@@ -241,6 +243,13 @@ func (en *Engine) Step(samples []collector.Sample, out []Evidence) []Evidence {
 // Calls for disjoint terminal sets may run concurrently. The evidence is
 // written in place in out's backing array (grown once per call).
 func (en *Engine) StepTerminals(samples []collector.Sample, out []Evidence) []Evidence {
+	return en.stepTerminals(samples, out, false)
+}
+
+// stepTerminals processes samples into out; with loops it adds each
+// evidence to its loop's sums as well (Step only: sharded calls must not
+// share the loop sums).
+func (en *Engine) stepTerminals(samples []collector.Sample, out []Evidence, loops bool) []Evidence {
 	n := len(out)
 	out = slices.Grow(out, len(samples))[:n+len(samples)]
 	terms, state := en.terms, en.state
@@ -250,7 +259,11 @@ func (en *Engine) StepTerminals(samples []collector.Sample, out []Evidence) []Ev
 		if uint(i) >= uint(len(terms)) {
 			continue
 		}
-		en.process(s, &terms[i], &state[i], &out[n])
+		t, e := &terms[i], &out[n]
+		en.process(s, t, &state[i], e)
+		if loops {
+			en.accumulate(e, t)
+		}
 		n++
 	}
 	return out[:n]

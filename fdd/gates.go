@@ -16,6 +16,10 @@ const (
 	airflowNegM3s    = -0.01 // small negative readings are zero-offset noise
 )
 
+// gatedFlags are the sample flags gate looks at.
+const gatedFlags = collector.FlagAirflow | collector.FlagDischarge | collector.FlagSupply | collector.FlagValve |
+	collector.FlagHotWater | collector.FlagPlant | collector.FlagFan
+
 // inputs are a sample's values after gating, with derived states.
 type inputs struct {
 	v, dat, sat, u, hw float64
@@ -32,19 +36,20 @@ type inputs struct {
 // fan on when airflow exceeds a third of the box minimum, plant on when the
 // hot water is at least 8 K above the supply air [I].
 func gate(s *collector.Sample, t *termStatic, in *inputs) Gate {
-	var g Gate
-	*in = inputs{v: s.AirflowM3s, dat: s.DischargeC, sat: s.SupplyC, u: s.ValveFrac, hw: s.HotWaterC}
 	f := s.Flags
-	// Fast path: every point present and in range (a NaN or ±Inf fails
-	// the range comparisons and takes the full path).
-	if f == 0 && in.sat >= satMinC && in.sat <= satMaxC && in.hw >= hwMinC && in.hw <= hwMaxC &&
-		in.dat >= datMinC && in.dat <= datMaxC && in.v >= airflowNegM3s && in.v <= t.maxAirM3s &&
-		in.u >= valveMin && in.u <= valveMax {
-		in.datOK, in.fanOn, in.plantOn = true, s.FanOn, s.PlantOn
-		in.v = fmax(in.v, 0)
-		in.u = fmax(0, fmin(1, in.u))
+	v, dat, sat, u, hw := s.AirflowM3s, s.DischargeC, s.SupplyC, s.ValveFrac, s.HotWaterC
+	// Fast path: every point the gate reads present and in range (a NaN or
+	// ±Inf fails the range comparisons and takes the full path). Zone,
+	// occupancy, airflow setpoint and outdoor flags do not gate.
+	if f&gatedFlags == 0 && sat >= satMinC && sat <= satMaxC && hw >= hwMinC && hw <= hwMaxC &&
+		dat >= datMinC && dat <= datMaxC && v >= airflowNegM3s && v <= t.maxAirM3s &&
+		u >= valveMin && u <= valveMax {
+		*in = inputs{v: fmax(v, 0), dat: dat, sat: sat, u: fmax(0, fmin(1, u)), hw: hw,
+			fanOn: s.FanOn, plantOn: s.PlantOn, datOK: true}
 		return 0
 	}
+	var g Gate
+	*in = inputs{v: v, dat: dat, sat: sat, u: u, hw: hw}
 	if f&(collector.FlagAirflow|collector.FlagDischarge|collector.FlagValve) != 0 {
 		g |= GateMissing
 	}

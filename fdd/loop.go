@@ -30,33 +30,54 @@ const (
 // re-attributes terminal shortfall to a cold loop where the loop score says
 // the loop, not the coil, is short.
 func (en *Engine) aggregateLoops(ev []Evidence) {
+	en.resetLoops()
+	for k := range ev {
+		e := &ev[k]
+		en.accumulate(e, &en.terms[e.Terminal])
+	}
+	en.finishLoops(ev)
+}
+
+func (en *Engine) resetLoops() {
 	for i := range en.loops {
 		en.loops[i] = loopAcc{}
 	}
-	var at = en.lastStep
-	for k := range ev {
-		e := &ev[k]
-		at = e.At
-		li := en.terms[e.Terminal].loop
-		if li < 0 {
-			continue
+}
+
+// accumulate adds one terminal's evidence to its loop's sums (Step calls it
+// right after the evidence is written, while it is in cache).
+func (en *Engine) accumulate(e *Evidence, t *termStatic) {
+	li := t.loop
+	if li < 0 {
+		return
+	}
+	a := &en.loops[li]
+	a.seen = true
+	if e.PlantOn {
+		a.plantOn = true
+	}
+	if !e.Usable {
+		return
+	}
+	if t.hwPoint && finite(e.HotWaterC) {
+		a.hwSum += e.HotWaterC
+		a.hwN++
+	}
+	if finite(e.DesignPerfIndex) {
+		a.n++
+		a.perfSum += e.DesignPerfIndex
+		if e.LoopShort {
+			a.short++
 		}
-		a := &en.loops[li]
-		a.seen = true
-		if e.PlantOn {
-			a.plantOn = true
-		}
-		if e.Usable && en.terms[e.Terminal].hwPoint && finite(e.HotWaterC) {
-			a.hwSum += e.HotWaterC
-			a.hwN++
-		}
-		if e.Usable && finite(e.DesignPerfIndex) {
-			a.n++
-			a.perfSum += e.DesignPerfIndex
-			if e.LoopShort {
-				a.short++
-			}
-		}
+	}
+}
+
+// finishLoops turns the accumulated sums into LoopEvidence and applies the
+// cold-loop isolation to ev.
+func (en *Engine) finishLoops(ev []Evidence) {
+	at := en.lastStep
+	if len(ev) > 0 {
+		at = ev[len(ev)-1].At
 	}
 	en.lastStep = at
 	en.loopOut = en.loopOut[:0]

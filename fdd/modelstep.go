@@ -12,7 +12,7 @@ import (
 // temperature and the water flow from the installed valve curve, its
 // uncertainty, the residual and everything that feeds on it. The sample's
 // values go to v.
-func (en *Engine) modelSample(st *termState, t *termStatic, in inputs, at time.Time, v *stepVals) {
+func (en *Engine) modelSample(st *termState, t *termStatic, in *inputs, at time.Time, v *stepVals) {
 	cfg := &en.cfg
 	eat, obs := v.eat, v.obs
 	mw := t.flow.at(in.u) * st.flowScale
@@ -95,7 +95,7 @@ const evalCache = nBins + 2
 //
 //	σ² = σ_DAT² + (1+∂f/∂EAT)²·(σ_SAT² + σ_g²) + (∂f/∂V·σ_V)² + (∂f/∂T_hw·σ_hw)²
 //	   + (∂f/∂ṁ·ṁ·σ_ṁ,rel)² + (f·σ_model,rel)² + s_baseline²
-func (en *Engine) residualVar(ev *evaluation, in inputs, f, mw, baseSig float64) float64 {
+func (en *Engine) residualVar(ev *evaluation, in *inputs, f, mw, baseSig float64) float64 {
 	a := &en.cfg.Accuracy
 	sV := math.Max(a.AirflowFrac*in.v, a.AirflowFloorM3s)
 	one := 1 + ev.dE
@@ -214,7 +214,7 @@ func clampRatio(x float64) float64 {
 // The rise is the DAT mean over the last half window at the current
 // airflow (the rise scales about as 1/V, so a smoothed rise must not be
 // paired with today's airflow).
-func (en *Engine) leakFlow(st *termState, t *termStatic, in inputs, eat float64) {
+func (en *Engine) leakFlow(st *termState, t *termStatic, in *inputs, eat float64) {
 	st.leakAge++
 	if t.modelErr != nil || st.leakAge < leakInvertEvery {
 		return

@@ -22,13 +22,16 @@ const binMinWeight = 5
 // response accumulates, with exponential forgetting, how the observed and
 // expected rise vary with valve command on steady samples with the plant on:
 // per-bin means (span, shortfall by command) and the moments for the
-// rise–command correlation.
+// rise–command correlation. One bin's sums sit together (one cache line per
+// sample).
 type response struct {
-	w, cmd, obs, exp, res     [nBins]float64 // decayed Σw, Σw·u, Σw·rise, Σw·expected, Σw·residual
-	nExp                      [nBins]float64 // decayed weight of samples with a model value
+	bin                       [nBins]respBin
 	sw, su, sr, suu, srr, sur float64
-	pending                   int // steps since the last decay
 }
+
+// respBin holds one command bin's decayed sums: Σw, Σw·u, Σw·rise,
+// Σw·expected, Σw·residual, and the weight of samples with a model value.
+type respBin struct{ w, cmd, obs, exp, res, nExp float64 }
 
 // binOf returns the command bin of u.
 func binOf(u, closed float64) int {
@@ -45,14 +48,14 @@ func binOf(u, closed float64) int {
 
 // add records one sample; exp and res may be NaN (no model value).
 func (r *response) add(u, obs, exp, res, closed float64) {
-	b := binOf(u, closed)
-	r.w[b]++
-	r.cmd[b] += u
-	r.obs[b] += obs
+	b := &r.bin[binOf(u, closed)]
+	b.w++
+	b.cmd += u
+	b.obs += obs
 	if !math.IsNaN(exp) {
-		r.exp[b] += exp
-		r.res[b] += res
-		r.nExp[b]++
+		b.exp += exp
+		b.res += res
+		b.nExp++
 	}
 	r.sw++
 	r.su += u
@@ -65,13 +68,14 @@ func (r *response) add(u, obs, exp, res, closed float64) {
 // decay applies the forgetting factor f to every sum (called every few steps
 // with f = λ^steps so the per-step cost stays constant).
 func (r *response) decay(f float64) {
-	for i := range r.w {
-		r.w[i] *= f
-		r.cmd[i] *= f
-		r.obs[i] *= f
-		r.exp[i] *= f
-		r.res[i] *= f
-		r.nExp[i] *= f
+	for i := range r.bin {
+		b := &r.bin[i]
+		b.w *= f
+		b.cmd *= f
+		b.obs *= f
+		b.exp *= f
+		b.res *= f
+		b.nExp *= f
 	}
 	r.sw *= f
 	r.su *= f
@@ -108,7 +112,7 @@ func (r *response) stats() responseStats {
 	}
 	lo, hi := -1, -1
 	for b := 0; b < nBins; b++ {
-		if r.w[b] >= binMinWeight {
+		if r.bin[b].w >= binMinWeight {
 			if lo < 0 {
 				lo = b
 			}
@@ -116,22 +120,22 @@ func (r *response) stats() responseStats {
 		}
 	}
 	if lo >= 0 && hi > lo {
-		s.valveSpan = r.cmd[hi]/r.w[hi] - r.cmd[lo]/r.w[lo]
-		s.riseSpan = r.obs[hi]/r.w[hi] - r.obs[lo]/r.w[lo]
-		if r.nExp[hi] >= binMinWeight && r.nExp[lo] >= binMinWeight {
-			s.expSpan = r.exp[hi]/r.nExp[hi] - r.exp[lo]/r.nExp[lo]
+		s.valveSpan = r.bin[hi].cmd/r.bin[hi].w - r.bin[lo].cmd/r.bin[lo].w
+		s.riseSpan = r.bin[hi].obs/r.bin[hi].w - r.bin[lo].obs/r.bin[lo].w
+		if r.bin[hi].nExp >= binMinWeight && r.bin[lo].nExp >= binMinWeight {
+			s.expSpan = r.bin[hi].exp/r.bin[hi].nExp - r.bin[lo].exp/r.bin[lo].nExp
 		}
 	}
-	if r.nExp[binHigh] >= binMinWeight {
-		s.shortHigh = r.res[binHigh] / r.nExp[binHigh]
-		if ex := r.exp[binHigh]; ex > minExpectedRiseK*r.nExp[binHigh] {
-			s.perfHigh = (ex + r.res[binHigh]) / ex
+	if r.bin[binHigh].nExp >= binMinWeight {
+		s.shortHigh = r.bin[binHigh].res / r.bin[binHigh].nExp
+		if ex := r.bin[binHigh].exp; ex > minExpectedRiseK*r.bin[binHigh].nExp {
+			s.perfHigh = (ex + r.bin[binHigh].res) / ex
 		}
 	}
-	if n := r.nExp[binLowA] + r.nExp[binLowB]; n >= binMinWeight {
-		s.shortLow = (r.res[binLowA] + r.res[binLowB]) / n
-		if ex := r.exp[binLowA] + r.exp[binLowB]; ex > minExpectedRiseK*n {
-			s.perfLow = (ex + r.res[binLowA] + r.res[binLowB]) / ex
+	if n := r.bin[binLowA].nExp + r.bin[binLowB].nExp; n >= binMinWeight {
+		s.shortLow = (r.bin[binLowA].res + r.bin[binLowB].res) / n
+		if ex := r.bin[binLowA].exp + r.bin[binLowB].exp; ex > minExpectedRiseK*n {
+			s.perfLow = (ex + r.bin[binLowA].res + r.bin[binLowB].res) / ex
 		}
 	}
 	return s

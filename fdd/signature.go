@@ -155,8 +155,29 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 		sc[KindLowDischarge] = ramp(e.DATSetC-e.DischargeC, 0.5*cfg.LowDischargeK, cfg.LowDischargeK)
 	}
 	sc[KindDataQuality] = 0
-	e.Best = bestKind(sc, cfg.ScoreThreshold)
+	e.Best = KindNone
+	if mayReach(sc, en.thresholdBits) {
+		e.Best = bestKind(sc, cfg.ScoreThreshold)
+	}
 }
+
+// mayReach is a branch-free pre-test for bestKind on scores that are all
+// finite and ≥ 0: their IEEE 754 bit patterns order like the values, and the
+// bitwise OR of several patterns is at least the largest, so an OR below the
+// threshold's pattern (or zero: every score 0) means no score reaches it and
+// Best is KindNone.
+func mayReach(sc *[kindCount]float64, thresholdBits uint64) bool {
+	b := func(k int) uint64 { return math.Float64bits(sc[k]) }
+	or := b(0) | b(1) | b(2) | b(3) | b(4) | b(5) | b(6) | b(7) | b(8) | b(9) | b(10) | b(11)
+	return or != 0 && or >= thresholdBits
+}
+
+// mayReach ORs kindCount = 12 scores by hand: these fail to compile when a
+// kind is added, so the list above is kept complete.
+var (
+	_ [kindCount - 12]struct{}
+	_ [12 - kindCount]struct{}
+)
 
 // datFailedScore: a DAT frozen at one value while the valve or SAT moved, or
 // missing/out of range while the other points are fine.
@@ -178,23 +199,50 @@ func scoreDataQuality(e *Evidence, en *Engine, st *termState) {
 }
 
 // bestKind is the kind with the highest score at or above threshold; the
-// sensor kinds win ties (a failed sensor explains everything else).
+// sensor kinds win ties (a failed sensor explains everything else). One pass
+// in the order of bestOrder keeps the first kind holding the maximum
+// (written out: this runs for every sample with a score near threshold).
 func bestKind(sc *[kindCount]float64, threshold float64) Kind {
-	hi := 0.0
-	for _, s := range sc {
-		if s > hi {
-			hi = s
-		}
+	best, bs := KindNone, 0.0
+	if s := sc[KindDATFailed]; s > bs {
+		best, bs = KindDATFailed, s
 	}
-	if hi < threshold || hi == 0 {
+	if s := sc[KindDATOffset]; s > bs {
+		best, bs = KindDATOffset, s
+	}
+	if s := sc[KindColdLoop]; s > bs {
+		best, bs = KindColdLoop, s
+	}
+	if s := sc[KindReversedValve]; s > bs {
+		best, bs = KindReversedValve, s
+	}
+	if s := sc[KindStuckValve]; s > bs {
+		best, bs = KindStuckValve, s
+	}
+	if s := sc[KindLeakingValve]; s > bs {
+		best, bs = KindLeakingValve, s
+	}
+	if s := sc[KindStarvedCoil]; s > bs {
+		best, bs = KindStarvedCoil, s
+	}
+	if s := sc[KindFouledCoil]; s > bs {
+		best, bs = KindFouledCoil, s
+	}
+	if s := sc[KindHunting]; s > bs {
+		best, bs = KindHunting, s
+	}
+	if s := sc[KindLowDischarge]; s > bs {
+		best, bs = KindLowDischarge, s
+	}
+	if s := sc[KindDataQuality]; s > bs {
+		best, bs = KindDataQuality, s
+	}
+	if bs < threshold {
 		return KindNone
-	}
-	best, bs := KindNone, threshold
-	for _, k := range [...]Kind{KindDATFailed, KindDATOffset, KindColdLoop, KindReversedValve, KindStuckValve,
-		KindLeakingValve, KindStarvedCoil, KindFouledCoil, KindHunting, KindLowDischarge, KindDataQuality} {
-		if s := sc[k]; s >= bs && (best == KindNone || s > bs) {
-			best, bs = k, s
-		}
 	}
 	return best
 }
+
+// bestOrder is the tie-break order of bestKind (every kind but KindNone).
+var bestOrder = [...]Kind{KindDATFailed, KindDATOffset, KindColdLoop, KindReversedValve, KindStuckValve,
+	KindLeakingValve, KindStarvedCoil, KindFouledCoil, KindHunting, KindLowDischarge, KindDataQuality}

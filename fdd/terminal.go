@@ -146,7 +146,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 		st.datBadRun = 0
 	}
 	if in.datOK {
-		en.trackFlat(st, in)
+		en.trackFlat(st, &in)
 	}
 	if t.modelErr != nil {
 		g |= GateNoModel
@@ -195,7 +195,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	obs := in.dat - eat
 	v.eat, v.obs = eat, obs
 
-	st.in.push([nCh]float64{chValve: in.u, chAir: in.v, chSAT: in.sat, chHW: in.hw})
+	st.in.push4(in.u, in.v, in.sat, in.hw)
 	st.dat.push(in.dat)
 	st.respAge++
 	if st.respAge >= respStatsEvery {
@@ -221,7 +221,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 		st.offset.add(obs, en.offAlpha)
 	}
 	if steady && in.plantOn && !noHeat && t.modelErr == nil {
-		en.modelSample(st, t, in, s.At, &v)
+		en.modelSample(st, t, &in, s.At, &v)
 	}
 	// Leak: heat beyond what the commanded opening gives. At zero command
 	// that is the whole rise; between zero and the closed threshold a valve
@@ -242,7 +242,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 			st.leak.add(x, en.leakAlpha)
 		}
 		if st.zeroRun >= en.closedSteps {
-			en.leakFlow(st, t, in, eat)
+			en.leakFlow(st, t, &in, eat)
 		}
 	}
 	if st.perfAge < perfExpireSteps {
@@ -278,15 +278,23 @@ func (en *Engine) responseCadence(st *termState, s *collector.Sample) {
 }
 
 // idle writes the evidence of a sample that gives no running evidence (a
-// data gate or the fan off): the inputs and the data-quality counters.
+// data gate or the fan off): the inputs and the data-quality counters, every
+// computed value NaN or zero, in field order.
 func (en *Engine) idle(e *Evidence, s *collector.Sample, st *termState, in *inputs, g Gate, learning bool) {
-	*e = en.blank
 	e.Terminal, e.At, e.Gates = s.Terminal, s.At, g
-	e.PlantOn, e.FanOn, e.Occupied = in.plantOn, in.fanOn, s.Occupied
-	e.ValveFrac, e.AirflowM3s, e.SupplyC, e.DischargeC, e.HotWaterC = in.u, in.v, in.sat, in.dat, in.hw
-	e.DATFlatMinutes = float64(st.flatRun) * en.minPerStep
-	e.Learning = learning
-	e.DATBadMinutes = float64(st.datBadRun) * en.minPerStep
+	e.Usable, e.Steady, e.PlantOn, e.FanOn, e.Occupied = false, false, in.plantOn, in.fanOn, s.Occupied
+	e.ValveFrac, e.AirflowM3s, e.SupplyC, e.DischargeC, e.HotWaterC, e.DATSetC = in.u, in.v, in.sat, in.dat, in.hw, nan
+	e.ObservedRiseK, e.ExpectedRiseK, e.SigmaK, e.ResidualK, e.PerfIndex = nan, nan, nan, nan, nan
+	e.UAFactor, e.UAFactorSigma, e.FlowFactor, e.FlowFactorSigma, e.ShortfallHighK, e.ShortfallLowK = nan, nan, nan, nan, nan, nan
+	e.LeakRiseK, e.LeakFlowFrac, e.ClosedMinutes, e.OffsetK, e.RiseValveCorr, e.RiseSpanK, e.ValveSpan = nan, nan, 0, nan, nan, nan, nan
+	e.ReversalsPerHour, e.DATFlatMinutes, e.CUSUMLowK, e.EWMAResid = 0, float64(st.flatRun)*en.minPerStep, nan, nan
+	e.Scores, e.Best = [kindCount]float64{}, KindNone
+	e.WastedHeatW, e.AddedCoolingW, e.ShortfallW = 0, 0, 0
+	e.Learning, e.DATMinusSATK, e.LeakSigmaK, e.ExpectedSpanK, e.DesignPerfIndex, e.LoopShort = learning, nan, nan, nan, nan, false
+	e.ZScore, e.EWMALimit, e.DATBadMinutes, e.LeakFlowM3s = nan, en.ewmaLim, float64(st.datBadRun)*en.minPerStep, nan
+	e.PerfAvg, e.PerfHigh, e.PerfLow = nan, nan, nan
+	e.ClosedOffsetK, e.ClosedOffsetSigmaK, e.ClosedHeatK, e.ClosedCapacityFrac, e.PerfHighLast = nan, nan, nan, nan, nan
+	e.StarvedShare, e.ClosedRiseK, e.OnsetHours, e.RejectedUAFactor, e.ZoneDeficitK = nan, nan, nan, nan, nan
 }
 
 // inputsSteady checks the full-window steadiness of valve, airflow, SAT and
@@ -296,25 +304,28 @@ func (en *Engine) inputsSteady(st *termState) bool {
 	if !w4.full() {
 		return false
 	}
+	k, c := &w4.fullK, &en.cfg
 	w := float64(w4.n - 1)
-	if math.Abs(w4.slope(chValve))*w > en.cfg.SteadyValveSpan || w4.variance(chValve) > en.valveVar {
+	cv := &w4.ch[chValve]
+	if math.Abs(k.slope(cv))*w > c.SteadyValveSpan || k.variance(cv) > en.valveVar {
 		return false
 	}
-	ma := w4.mean(chAir)
-	if w4.variance(chAir) > (en.cfg.SteadyAirflowFrac*ma)*(en.cfg.SteadyAirflowFrac*ma)+1e-6 ||
-		math.Abs(w4.slope(chAir))*w > 2*en.cfg.SteadyAirflowFrac*ma+1e-3 {
+	ca := &w4.ch[chAir]
+	fa := c.SteadyAirflowFrac * (ca.sum * k.invN)
+	if k.variance(ca) > fa*fa+1e-6 || math.Abs(k.slope(ca))*w > 2*fa+1e-3 {
 		return false
 	}
-	if math.Abs(w4.slope(chSAT)) > en.tempSlope || w4.variance(chSAT) > en.tempVar {
+	cs := &w4.ch[chSAT]
+	if math.Abs(k.slope(cs)) > en.tempSlope || k.variance(cs) > en.tempVar {
 		return false
 	}
-	return math.Abs(w4.slope(chHW)) <= en.hwSlope
+	return math.Abs(k.slope(&w4.ch[chHW])) <= en.hwSlope
 }
 
 // trackFlat follows how long the DAT has repeated exactly the same value and
 // how far the valve and SAT moved meanwhile (a live sensor always jitters by
 // at least its resolution when its inputs move).
-func (en *Engine) trackFlat(st *termState, in inputs) {
+func (en *Engine) trackFlat(st *termState, in *inputs) {
 	if st.flatRun > 0 && in.dat == st.lastDAT {
 		st.flatRun++
 		st.flatUMin, st.flatUMax = math.Min(st.flatUMin, in.u), math.Max(st.flatUMax, in.u)

@@ -174,17 +174,46 @@ const (
 
 // window4 is four sliding windows of the same length that are always pushed
 // and reset together (the steady-state inputs), with shared indexing so one
-// push costs one ring update. Same sums and formulas as window.
+// push costs one ring update. Same sums and formulas as window; each
+// channel's three sums sit together.
 type window4 struct {
 	n      int
 	count  int
 	head   int
 	pushes int
-	sum    [nCh]float64
-	sumSq  [nCh]float64
-	sumJ   [nCh]float64
+	ch     [nCh]chanSums
 	fullK  slopeConst
 	ring   [maxWindow][nCh]float64
+}
+
+// chanSums are one channel's running sums Σx, Σx², Σj·x.
+type chanSums struct{ sum, sumSq, sumJ float64 }
+
+// fill adds x as sample j of a window that is not full yet.
+func (c *chanSums) fill(x, j float64) {
+	c.sumJ += j * x
+	c.sum += x
+	c.sumSq += x * x
+}
+
+// slide replaces the oldest sample old by x in a full window of n1+1
+// (see window.push for the sliding Σj·x).
+func (c *chanSums) slide(x, old, n1 float64) {
+	c.sumJ = c.sumJ - (c.sum - old) + n1*x
+	c.sum += x - old
+	c.sumSq += x*x - old*old
+}
+
+// slope and variance of a full window from its sums (the full-window
+// branches of window4.slope and window4.variance).
+func (k *slopeConst) slope(c *chanSums) float64 { return (k.n*c.sumJ - k.sj*c.sum) * k.invDen }
+
+func (k *slopeConst) variance(c *chanSums) float64 {
+	v := (c.sumSq - c.sum*c.sum*k.invN) * k.invN
+	if v < 0 {
+		return 0
+	}
+	return v
 }
 
 func (w *window4) init(n int) { *w = window4{n: n, fullK: newSlopeConst(n)} }
@@ -194,35 +223,33 @@ func (w *window4) reset() {
 		return
 	}
 	w.count, w.head = 0, 0
-	w.sum, w.sumSq, w.sumJ = [nCh]float64{}, [nCh]float64{}, [nCh]float64{}
+	w.ch = [nCh]chanSums{}
 }
 
 func (w *window4) full() bool { return w.count == w.n }
 
-// push appends one sample per channel (see window.push for the sliding Σj·x).
-func (w *window4) push(x [nCh]float64) {
+// push appends one sample per channel.
+func (w *window4) push(x [nCh]float64) { w.push4(x[chValve], x[chAir], x[chSAT], x[chHW]) }
+
+// push4 appends valve, airflow, SAT and HW temperature.
+func (w *window4) push4(u, v, sat, hw float64) {
 	slot := &w.ring[w.head]
 	if w.count < w.n {
 		c := float64(w.count)
-		for k := 0; k < nCh; k++ {
-			v := x[k]
-			w.sumJ[k] += c * v
-			w.sum[k] += v
-			w.sumSq[k] += v * v
-		}
-		*slot = x
+		w.ch[chValve].fill(u, c)
+		w.ch[chAir].fill(v, c)
+		w.ch[chSAT].fill(sat, c)
+		w.ch[chHW].fill(hw, c)
 		w.count++
 	} else {
 		n1 := float64(w.n - 1)
-		for k := 0; k < nCh; k++ {
-			v, old := x[k], slot[k]
-			w.sumJ[k] = w.sumJ[k] - (w.sum[k] - old) + n1*v
-			w.sum[k] += v - old
-			w.sumSq[k] += v*v - old*old
-		}
-		*slot = x
+		w.ch[chValve].slide(u, slot[chValve], n1)
+		w.ch[chAir].slide(v, slot[chAir], n1)
+		w.ch[chSAT].slide(sat, slot[chSAT], n1)
+		w.ch[chHW].slide(hw, slot[chHW], n1)
 		w.pushes++
 	}
+	*slot = [nCh]float64{chValve: u, chAir: v, chSAT: sat, chHW: hw}
 	w.head++
 	if w.head == w.n {
 		w.head = 0
@@ -234,7 +261,7 @@ func (w *window4) push(x [nCh]float64) {
 
 func (w *window4) rebuild() {
 	w.pushes = 0
-	w.sum, w.sumSq, w.sumJ = [nCh]float64{}, [nCh]float64{}, [nCh]float64{}
+	w.ch = [nCh]chanSums{}
 	start := w.head - w.count
 	if start < 0 {
 		start += w.n
@@ -246,35 +273,34 @@ func (w *window4) rebuild() {
 		}
 		for k := 0; k < nCh; k++ {
 			v := w.ring[i][k]
-			w.sum[k] += v
-			w.sumSq[k] += v * v
-			w.sumJ[k] += float64(j) * v
+			c := &w.ch[k]
+			c.sum += v
+			c.sumSq += v * v
+			c.sumJ += float64(j) * v
 		}
 	}
 }
 
 func (w *window4) mean(k int) float64 {
 	if w.count == w.n {
-		return w.sum[k] * w.fullK.invN
+		return w.ch[k].sum * w.fullK.invN
 	}
 	if w.count == 0 {
 		return 0
 	}
-	return w.sum[k] / float64(w.count)
+	return w.ch[k].sum / float64(w.count)
 }
 
 func (w *window4) variance(k int) float64 {
-	var v float64
+	c := &w.ch[k]
 	switch {
 	case w.count == w.n:
-		c := &w.fullK
-		v = (w.sumSq[k] - w.sum[k]*w.sum[k]*c.invN) * c.invN
+		return w.fullK.variance(c)
 	case w.count < 2:
 		return 0
-	default:
-		c := float64(w.count)
-		v = (w.sumSq[k] - w.sum[k]*w.sum[k]/c) / c
 	}
+	n := float64(w.count)
+	v := (c.sumSq - c.sum*c.sum/n) / n
 	if v < 0 {
 		return 0
 	}
@@ -282,15 +308,15 @@ func (w *window4) variance(k int) float64 {
 }
 
 func (w *window4) slope(k int) float64 {
+	c := &w.ch[k]
 	if w.count == w.n {
-		c := &w.fullK
-		return (c.n*w.sumJ[k] - c.sj*w.sum[k]) * c.invDen
+		return w.fullK.slope(c)
 	}
 	if w.count < 2 {
 		return 0
 	}
-	c := float64(w.count)
-	sj := c * (c - 1) / 2
-	sjj := (c - 1) * c * (2*c - 1) / 6
-	return (c*w.sumJ[k] - sj*w.sum[k]) / (c*sjj - sj*sj)
+	n := float64(w.count)
+	sj := n * (n - 1) / 2
+	sjj := (n - 1) * n * (2*n - 1) / 6
+	return (n*c.sumJ - sj*c.sum) / (n*sjj - sj*sj)
 }
