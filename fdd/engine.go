@@ -32,7 +32,8 @@ type Engine struct {
 	startupSteps, closedSteps, flatSteps     int
 	tempSlope, tempVar, valveVar, hwSlope    float64
 	ewmaLim, sig2Closed, leakSigma           float64
-	thresholdBits                            uint64 // bits of a positive ScoreThreshold (0 for a threshold ≤ 0: see mayReach)
+	sig2DAT, sig2EAT                         float64 // σ_DAT² and σ_SAT² + σ_g² (residualVar)
+	thresholdBits                            uint64  // bits of a positive ScoreThreshold (0 for a threshold ≤ 0: see mayReach)
 	revAlpha, leakAlpha, offAlpha, perfAlpha float64
 	facAlpha, respDecay                      float64
 
@@ -72,6 +73,8 @@ func newEngine(s *site.Site, cfg Config, pf physicsFactory) (*Engine, error) {
 	a := c.Accuracy
 	en.sig2Closed = a.DischargeK*a.DischargeK + a.SupplyK*a.SupplyK + a.DuctGainK*a.DuctGainK
 	en.leakSigma = math.Sqrt(en.sig2Closed)
+	en.sig2DAT = a.DischargeK * a.DischargeK
+	en.sig2EAT = a.SupplyK*a.SupplyK + a.DuctGainK*a.DuctGainK
 	if c.ScoreThreshold > 0 {
 		en.thresholdBits = math.Float64bits(c.ScoreThreshold)
 	}

@@ -95,15 +95,18 @@ const evalCache = nBins + 2
 //
 //	σ² = σ_DAT² + (1+∂f/∂EAT)²·(σ_SAT² + σ_g²) + (∂f/∂V·σ_V)² + (∂f/∂T_hw·σ_hw)²
 //	   + (∂f/∂ṁ·ṁ·σ_ṁ,rel)² + (f·σ_model,rel)² + s_baseline²
+//
+// The constant parts σ_DAT² and σ_SAT² + σ_g² are the engine's sig2DAT and
+// sig2EAT.
 func (en *Engine) residualVar(ev *evaluation, in *inputs, f, mw, baseSig float64) float64 {
 	a := &en.cfg.Accuracy
-	sV := math.Max(a.AirflowFrac*in.v, a.AirflowFloorM3s)
+	sV := fmax(a.AirflowFrac*in.v, a.AirflowFloorM3s) // airflow is gated finite and ≥ 0
 	one := 1 + ev.dE
 	hwK := a.HotWaterK
 	if in.hwAssumed {
 		hwK = 3 * a.HotWaterK // design value standing in for a measurement [I]
 	}
-	return a.DischargeK*a.DischargeK + one*one*(a.SupplyK*a.SupplyK+a.DuctGainK*a.DuctGainK) +
+	return en.sig2DAT + one*one*en.sig2EAT +
 		sq(ev.dV*sV) + sq(ev.dT*hwK) + sq(ev.dM*mw*a.WaterFlowFrac) + sq(f*a.ModelFrac) + baseSig*baseSig
 }
 

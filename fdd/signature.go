@@ -183,10 +183,9 @@ var (
 // missing/out of range while the other points are fine.
 // The frozen-value ramp runs from a quarter to half of FlatlineMinutes.
 func datFailedScore(e *Evidence, st *termState, flatMin float64) float64 {
-	moved := st.flatUMax-st.flatUMin >= 0.2 || st.flatSMax-st.flatSMin >= 1
-	var flat float64
-	if moved {
-		flat = ramp(e.DATFlatMinutes, 0.25*flatMin, 0.5*flatMin)
+	flat := ramp(e.DATFlatMinutes, 0.25*flatMin, 0.5*flatMin)
+	if flat > 0 && !(st.flatUMax-st.flatUMin >= 0.2 || st.flatSMax-st.flatSMin >= 1) {
+		flat = 0 // neither valve nor SAT moved: a steady DAT may repeat
 	}
 	return fmax(flat, ramp(e.DATBadMinutes, datBadLoMin, datBadHiMin))
 }
