@@ -46,17 +46,39 @@ func (h *health) ok(d time.Duration, n int) {
 }
 
 func (h *health) failed(err error, d time.Duration) {
-	k := metrics.ClassifyError(err)
+	h.failedAs(metrics.ClassifyError(err), err.Error(), d)
+}
+
+// failedAs records a failed read already classified as k; msg is the last
+// error shown on the dashboard.
+func (h *health) failedAs(k metrics.ErrorKind, msg string, d time.Duration) {
 	h.mu.Lock()
 	if h.errs == nil {
 		h.errs = map[string]uint64{}
 	}
 	h.errs[string(k)]++
-	h.lastErr = err.Error()
+	h.lastErr = msg
 	h.mu.Unlock()
 	if h.m != nil {
 		h.m.ReadFailed(k, d)
 	}
+}
+
+// bacnetKinds maps the BACnet source's failure kinds to metric error kinds.
+var bacnetKinds = map[bacnet.FailureKind]metrics.ErrorKind{
+	bacnet.FailTimeout: metrics.ErrTimeout, bacnet.FailError: metrics.ErrBACnetError, bacnet.FailReject: metrics.ErrReject,
+	bacnet.FailAbort: metrics.ErrAbort, bacnet.FailMalformed: metrics.ErrMalformed, bacnet.FailUnreachable: metrics.ErrRefused,
+	bacnet.FailNotFound: metrics.ErrNotFound,
+}
+
+// bacnetFailed records one device's failed read as a failed read of the
+// source, under the kind the BACnet source classified.
+func (h *health) bacnetFailed(f bacnet.ReadFailure) {
+	k, ok := bacnetKinds[f.Kind]
+	if !ok {
+		k = metrics.ErrOther
+	}
+	h.failedAs(k, fmt.Sprintf("device %d %s: %s: %s", f.Device, f.Address, f.Kind, f.Reason), f.Took)
 }
 
 func (h *health) setStale(n int) {
@@ -155,6 +177,7 @@ func buildSources(s *site.Site, st *store.Store, m *metrics.Metrics, clock func(
 				errs = append(errs, err)
 				continue
 			}
+			src.OnReadFailure = func(f bacnet.ReadFailure) { h.bacnetFailed(f) }
 			out = append(out, &bacnetCron{src: src, cfg: *sc.BACnet, h: h, clock: clock, log: log})
 		case sc.Influx != nil:
 			opt := cinflux.Options{Name: sc.Name, Config: *sc.Influx, Token: cinflux.TokenFromEnv(*sc.Influx), Site: s,

@@ -42,8 +42,16 @@ type Source struct {
 	client     *Client
 	devices    map[uint32]*Device
 	unitChecks []UnitCheck
+	fail       failures
 	// Workers bounds how many devices are polled at once (default 64).
 	Workers int
+	// OnReadFailure, when set before Start, is called (from poll workers,
+	// possibly concurrently) for each device whose read failed in a poll,
+	// after retries, and once when a device falls back to ReadProperty.
+	OnReadFailure func(ReadFailure)
+	// FailureLogEvery is the least interval between repeated log lines for
+	// a device that keeps failing the same way (default 10 min).
+	FailureLogEvery time.Duration
 }
 
 // NewSource builds a source from its site configuration and the points that
@@ -232,7 +240,9 @@ func (s *Source) checkUnits(ctx context.Context) {
 		for k, i := range idx {
 			reads[k] = Read{s.points[i].object, wire.PropertyRef{Prop: wire.PropUnits, Index: wire.NoIndex}}
 		}
-		for k, r := range s.client.ReadMany(ctx, d, reads) {
+		res := s.client.ReadMany(ctx, d, reads)
+		s.noteFallback(d)
+		for k, r := range res {
 			p := &s.points[idx[k]]
 			if r.Err != nil || len(r.Values) != 1 || r.Values[0].Tag != wire.TagEnumerated {
 				continue
@@ -329,6 +339,13 @@ func (s *Source) PollOnce(ctx context.Context) ([]collector.Reading, error) {
 
 func (s *Source) pollDevice(ctx context.Context, inst uint32, idx []int, now time.Time, out []collector.Reading) {
 	d := s.devices[inst]
+	if d == nil {
+		for _, i := range idx {
+			out[i] = Reading(s.points[i].ref.Name, now)
+		}
+		s.reportFailure(ReadFailure{Source: s.name, Device: inst, Kind: FailNotFound, Reason: "device not found at start", Points: len(idx)})
+		return
+	}
 	reads := make([]Read, 0, 2*len(idx))
 	for _, i := range idx {
 		p := s.points[i]
@@ -337,33 +354,60 @@ func (s *Source) pollDevice(ctx context.Context, inst uint32, idx []int, now tim
 			reads = append(reads, Read{p.object, wire.PropertyRef{Prop: wire.PropStatusFlags, Index: wire.NoIndex}})
 		}
 	}
-	var res []ReadResult
-	if d != nil {
-		res = s.client.ReadMany(ctx, d, reads)
+	t0 := time.Now()
+	res := s.client.ReadMany(ctx, d, reads)
+	took := time.Since(t0)
+	s.noteFallback(d)
+	var first error
+	var firstKind FailureKind
+	var firstReason string
+	failed := 0
+	fail := func(err error) {
+		kind, reason, ok := ClassifyReadError(err)
+		if !ok {
+			return
+		}
+		failed++
+		if first == nil {
+			first, firstKind, firstReason = err, kind, reason
+		}
 	}
 	k := 0
 	for _, i := range idx {
 		p := &s.points[i]
 		r := Reading(p.ref.Name, now)
-		if d != nil {
-			val := res[k]
-			var flags wire.BitString
-			hasFlags := false
-			if p.prop == wire.PropPresentValue {
-				k++
-				if f := res[k]; f.Err == nil && len(f.Values) == 1 && f.Values[0].Tag == wire.TagBitString {
-					flags, hasFlags = f.Values[0].Bits, true
-				}
+		val := res[k]
+		var flags wire.BitString
+		hasFlags := false
+		if p.prop == wire.PropPresentValue {
+			k++
+			if f := res[k]; f.Err == nil && len(f.Values) == 1 && f.Values[0].Tag == wire.TagBitString {
+				flags, hasFlags = f.Values[0].Bits, true
 			}
-			if val.Err == nil && len(val.Values) == 1 {
-				if f, ok := val.Values[0].Float(); ok {
-					r.Value, r.Quality = p.convert(f, flags, hasFlags)
-				}
+		}
+		switch {
+		case val.Err != nil:
+			fail(val.Err)
+		case len(val.Values) != 1:
+			fail(fmt.Errorf("%s %s: %d values, want 1", p.object, p.prop, len(val.Values)))
+		default:
+			if f, ok := val.Values[0].Float(); ok {
+				r.Value, r.Quality = p.convert(f, flags, hasFlags)
+			} else {
+				fail(fmt.Errorf("%s %s: value of application tag %d is not a number", p.object, p.prop, val.Values[0].Tag))
 			}
 		}
 		k++
 		out[i] = r
 	}
+	if failed == 0 {
+		if ctx.Err() == nil {
+			s.deviceOK(d)
+		}
+		return
+	}
+	s.reportFailure(ReadFailure{Source: s.name, Device: inst, Address: d.Addr.String(), Kind: firstKind, Reason: firstReason,
+		Points: failed, Took: took, Err: first})
 }
 
 // Reading makes a Missing reading for point at t.

@@ -23,7 +23,8 @@
 //	| kind        | fdd.Kind.String() ("leaking-valve", ...)          | fdd.AllKinds()         |
 //	| state       | rules.State.String() (transitions counter only)   | 5                      |
 //	| source      | site.SourceConfig.Name                            | sources in the site    |
-//	| error_kind  | ErrorKind constants ("timeout", "refused", ...)   | 8                      |
+//	| error_kind  | ErrorKind constants ("timeout", "refused",        | 12                     |
+//	|             | "bacnet-error", "reject", "abort", "malformed"...)|                        |
 //	| channel     | outbox channel ("email", "influx")                | sinks in the build     |
 //	| version, revision, goversion | build info (risewatch_build_info) | 1 series        |
 //

@@ -18,15 +18,21 @@ type ErrorKind string
 const (
 	ErrTimeout  ErrorKind = "timeout"  // no answer in time
 	ErrRefused  ErrorKind = "refused"  // connection refused / unreachable
-	ErrProtocol ErrorKind = "protocol" // malformed or rejected message (BACnet reject/abort, HTTP 4xx/5xx)
+	ErrProtocol ErrorKind = "protocol" // rejected message not covered below (HTTP 4xx/5xx)
 	ErrParse    ErrorKind = "parse"    // file or payload could not be decoded
 	ErrAuth     ErrorKind = "auth"     // credentials refused
 	ErrNotFound ErrorKind = "notfound" // object, series or file not there
 	ErrCanceled ErrorKind = "canceled" // context cancelled (shutdown)
 	ErrOther    ErrorKind = "other"    // anything else
+
+	ErrBACnetError ErrorKind = "bacnet-error" // BACnet Error PDU or property error (class/code)
+	ErrReject      ErrorKind = "reject"       // BACnet Reject PDU
+	ErrAbort       ErrorKind = "abort"        // BACnet Abort PDU
+	ErrMalformed   ErrorKind = "malformed"    // answer that could not be decoded or used
 )
 
-var errorKinds = []ErrorKind{ErrTimeout, ErrRefused, ErrProtocol, ErrParse, ErrAuth, ErrNotFound, ErrCanceled, ErrOther}
+var errorKinds = []ErrorKind{ErrTimeout, ErrRefused, ErrProtocol, ErrParse, ErrAuth, ErrNotFound, ErrCanceled, ErrOther,
+	ErrBACnetError, ErrReject, ErrAbort, ErrMalformed}
 
 func validKind(k ErrorKind) ErrorKind {
 	for _, e := range errorKinds {
