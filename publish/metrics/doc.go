@@ -25,13 +25,14 @@
 //	| source      | site.SourceConfig.Name                            | sources in the site    |
 //	| error_kind  | ErrorKind constants ("timeout", "refused",        | 12                     |
 //	|             | "bacnet-error", "reject", "abort", "malformed"...)|                        |
+//	| reason      | FrameReason ("malformed", "unmatched")            | 2                      |
 //	| channel     | outbox channel ("email", "influx")                | sinks in the build     |
 //	| version, revision, goversion | build info (risewatch_build_info) | 1 series        |
 //
 // Series count: terminals × (10 terminal gauges + terminal fault kinds) +
 // loops × (loop gauges + loop fault kinds) + sources × (5 + error kinds +
-// histogram buckets) + a fixed set of daemon series. For a campus of 2,000
-// terminals that is about 44,000 series. A transition naming an entity that is
+// histogram buckets) + BACnet sources × 3 + a fixed set of daemon series.
+// For a campus of 2,000 terminals that is about 44,000 series. A transition naming an entity that is
 // not in the site is counted in risewatch_metrics_unknown_entity_total and not
 // exported, so a bad message can never add a series.
 //
@@ -75,6 +76,11 @@
 //	risewatch_source_reads_total, risewatch_source_readings_total,
 //	risewatch_source_read_errors_total{error_kind}, risewatch_source_read_duration_seconds,
 //	risewatch_source_last_success_timestamp_seconds, risewatch_source_stale_points
+//
+// BACnet sources (label source), from the client's traffic counters:
+//
+//	risewatch_bacnet_frames_dropped_total{reason}  malformed or unmatched (late, duplicated) frames
+//	risewatch_bacnet_retries_total                 requests resent after a timeout
 //
 // Daemon:
 //

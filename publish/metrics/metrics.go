@@ -35,7 +35,8 @@ type Metrics struct {
 	trans   *prometheus.CounterVec
 	unknown prometheus.Counter
 
-	src *sourceVecs
+	src    *sourceVecs
+	bacnet *bacnetVecs
 	daemonMetrics
 }
 
@@ -51,6 +52,7 @@ func New(s *site.Site, opt Options) (*Metrics, error) {
 	m.newTerminalMetrics()
 	m.newFaultMetrics()
 	m.src = newSourceVecs(m.reg)
+	m.bacnet = newBACnetVecs(m.reg)
 	m.newDaemonMetrics(buildLabels(opt))
 	return m, nil
 }
