@@ -178,7 +178,11 @@ func buildSources(s *site.Site, st *store.Store, m *metrics.Metrics, clock func(
 				continue
 			}
 			src.OnReadFailure = func(f bacnet.ReadFailure) { h.bacnetFailed(f) }
-			out = append(out, &bacnetCron{src: src, cfg: *sc.BACnet, h: h, clock: clock, log: log})
+			bc := &bacnetCron{src: src, cfg: *sc.BACnet, h: h, clock: clock, log: log}
+			if m != nil {
+				bc.traffic = m.BACnet(sc.Name)
+			}
+			out = append(out, bc)
 		case sc.Influx != nil:
 			opt := cinflux.Options{Name: sc.Name, Config: *sc.Influx, Token: cinflux.TokenFromEnv(*sc.Influx), Site: s,
 				Start: time.Now().Add(-7 * 24 * time.Hour), Checkpoints: ck, Logger: log,
@@ -243,6 +247,40 @@ type bacnetCron struct {
 	log   *slog.Logger
 	mu    sync.Mutex
 	last  time.Time // stamp of the newest poll delivered
+
+	traffic *metrics.BACnetTraffic // nil without metrics
+	seen    trafficCounts          // client counters already recorded
+	logged  trafficCounts          // client counters at the last log line
+	logAt   time.Time
+}
+
+// trafficCounts are the client counters the daemon watches.
+type trafficCounts struct{ malformed, unmatched, retries uint64 }
+
+// dropLogEvery is the least interval between lines about dropped frames.
+const dropLogEvery = 10 * time.Minute
+
+// recordTraffic moves the client's malformed, unmatched (late or
+// duplicated) and retry counts since the last call into the metrics, and
+// logs dropped frames at most once per dropLogEvery. Called under b.mu.
+func (b *bacnetCron) recordTraffic() {
+	c := b.src.Client()
+	if c == nil {
+		return
+	}
+	now := trafficCounts{c.Stats.Malformed.Load(), c.Stats.Unmatched.Load(), c.Stats.Retries.Load()}
+	if b.traffic != nil {
+		b.traffic.Dropped(metrics.FrameMalformed, now.malformed-b.seen.malformed)
+		b.traffic.Dropped(metrics.FrameUnmatched, now.unmatched-b.seen.unmatched)
+		b.traffic.Retried(now.retries - b.seen.retries)
+	}
+	b.seen = now
+	mal, unm := now.malformed-b.logged.malformed, now.unmatched-b.logged.unmatched
+	if (mal > 0 || unm > 0) && time.Since(b.logAt) >= dropLogEvery {
+		b.log.Warn("bacnet: frames dropped", "source", b.Name(), "malformed", mal, "unmatched", unm,
+			"retries", now.retries-b.logged.retries)
+		b.logged, b.logAt = now, time.Now()
+	}
 }
 
 // every is a cron.Schedule firing at a fixed interval, sub-second allowed
@@ -305,6 +343,7 @@ func (b *bacnetCron) poll(ctx context.Context, emit func([]collector.Reading) er
 	}
 	t0 := time.Now()
 	rs, err := b.src.PollOnce(ctx)
+	b.recordTraffic()
 	if ctx.Err() != nil {
 		return
 	}
@@ -348,6 +387,7 @@ func (b *bacnetCron) sweep(ctx context.Context, emit func([]collector.Reading) e
 		n += len(rs)
 		return emit(rs)
 	})
+	b.recordTraffic()
 	if ctx.Err() != nil {
 		return n
 	}

@@ -93,15 +93,17 @@ func simDevice(t *testing.T, inst uint32, v float64, mb bacnetdev.Misbehaviour) 
 	return s.Addr().String()
 }
 
-// TestBACnetFailuresInMetricsAndLogs polls a healthy device, a silent one
-// and one that rejects ReadPropertyMultiple through the daemon's source
-// wiring, and checks the error counters by kind, the log lines and that
-// the healthy and the fallback devices are still read Good.
+// TestBACnetFailuresInMetricsAndLogs polls a healthy device, a silent one,
+// one that rejects ReadPropertyMultiple and one that sends a malformed frame
+// before and a duplicate after every answer, through the daemon's source
+// wiring, and checks the error and dropped-frame counters, the log lines
+// and that every device but the silent one is still read Good.
 func TestBACnetFailuresInMetricsAndLogs(t *testing.T) {
 	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
 	defer cancel()
-	const healthy, silent, rejecting = 101, 102, 103
+	const healthy, silent, rejecting, noisy = 101, 102, 103, 104
 	devs := map[uint32]string{
+		noisy:     simDevice(t, noisy, 24.5, bacnetdev.Misbehaviour{MalformedFirst: true, Duplicate: true}),
 		healthy:   simDevice(t, healthy, 21.5, bacnetdev.Misbehaviour{}),
 		silent:    simDevice(t, silent, 22.5, bacnetdev.Misbehaviour{Silent: true}),
 		rejecting: simDevice(t, rejecting, 23.5, bacnetdev.Misbehaviour{RejectRPM: true}),
@@ -117,8 +119,9 @@ func TestBACnetFailuresInMetricsAndLogs(t *testing.T) {
 			{ID: "VAV-1", Points: site.TerminalPoints{ZoneTemp: pt("VAV-1", healthy)}},
 			{ID: "VAV-2", Points: site.TerminalPoints{ZoneTemp: pt("VAV-2", silent)}},
 			{ID: "VAV-3", Points: site.TerminalPoints{ZoneTemp: pt("VAV-3", rejecting)}},
+			{ID: "VAV-4", Points: site.TerminalPoints{ZoneTemp: pt("VAV-4", noisy)}},
 		},
-		TerminalIndex: map[string]int{"VAV-1": 0, "VAV-2": 1, "VAV-3": 2},
+		TerminalIndex: map[string]int{"VAV-1": 0, "VAV-2": 1, "VAV-3": 2, "VAV-4": 3},
 	}
 	m, err := metrics.New(s, metrics.Options{NoRuntime: true})
 	if err != nil {
@@ -166,7 +169,8 @@ func TestBACnetFailuresInMetricsAndLogs(t *testing.T) {
 	wantR := map[string]struct {
 		v float64
 		q collector.Quality
-	}{"VAV-1.ZNT": {21.5, collector.Good}, "VAV-2.ZNT": {0, collector.Missing}, "VAV-3.ZNT": {23.5, collector.Good}}
+	}{"VAV-1.ZNT": {21.5, collector.Good}, "VAV-2.ZNT": {0, collector.Missing}, "VAV-3.ZNT": {23.5, collector.Good},
+		"VAV-4.ZNT": {24.5, collector.Good}}
 	if len(got) != len(wantR) {
 		t.Fatalf("%d readings, want %d", len(got), len(wantR))
 	}
@@ -177,20 +181,27 @@ func TestBACnetFailuresInMetricsAndLogs(t *testing.T) {
 		}
 	}
 
-	out := logs.String()
-	lines := func(substr ...string) int {
-		n := 0
-	line:
-		for _, l := range strings.Split(out, "\n") {
-			for _, s := range substr {
-				if !strings.Contains(l, s) {
-					continue line
-				}
-			}
-			n++
+	// The noisy device's malformed and duplicated frames are dropped and
+	// counted; the metrics mirror the client's counters.
+	st0 := &b.src.Client().Stats
+	for _, c := range []struct {
+		reason string
+		n      uint64
+	}{{"malformed", st0.Malformed.Load()}, {"unmatched", st0.Unmatched.Load()}} {
+		v := gauge(t, m, "risewatch_bacnet_frames_dropped_total", map[string]string{"source": "bas", "reason": c.reason})
+		if c.n == 0 || v != float64(c.n) {
+			t.Errorf("frames_dropped_total{reason=%q} = %v, client counted %d (want equal and > 0)", c.reason, v, c.n)
 		}
-		return n
 	}
+	if v := gauge(t, m, "risewatch_bacnet_retries_total", map[string]string{"source": "bas"}); v != float64(st0.Retries.Load()) || v == 0 {
+		t.Errorf("retries_total %v, client counted %d (the silent device is retried)", v, st0.Retries.Load())
+	}
+
+	out := logs.String()
+	if n := lines0(out, `msg="bacnet: frames dropped"`, "source=bas"); n != 1 {
+		t.Errorf("%d dropped-frame lines, want 1 (rate-limited):\n%s", n, out)
+	}
+	lines := func(substr ...string) int { return lines0(out, substr...) }
 	// Rate-limited: one line for the silent device over all polls.
 	if n := lines(`msg="bacnet: device read failed"`, "device=102", "kind=timeout", "address="+devs[silent]); n != 1 {
 		t.Errorf("%d failure lines for the silent device, want 1:\n%s", n, out)
@@ -204,4 +215,19 @@ func TestBACnetFailuresInMetricsAndLogs(t *testing.T) {
 	if n := lines("bacnet: device read failed", "device=103"); n != 0 {
 		t.Errorf("fallback device logged as failing after the fallback:\n%s", out)
 	}
+}
+
+// lines0 counts the lines of out containing every substring.
+func lines0(out string, substr ...string) int {
+	n := 0
+line:
+	for _, l := range strings.Split(out, "\n") {
+		for _, s := range substr {
+			if !strings.Contains(l, s) {
+				continue line
+			}
+		}
+		n++
+	}
+	return n
 }
