@@ -81,6 +81,18 @@ func (h *health) bacnetFailed(f bacnet.ReadFailure) {
 	h.failedAs(k, fmt.Sprintf("device %d %s: %s: %s", f.Device, f.Address, f.Kind, f.Reason), f.Took)
 }
 
+// bacnetErr records a source-level BACnet error (start, trend sweep) under
+// the BACnet kind when the error carries one, else the generic kind.
+func (h *health) bacnetErr(err error, d time.Duration) {
+	if fk, _, ok := bacnet.ClassifyReadError(err); ok && fk != bacnet.FailMalformed {
+		if k, ok := bacnetKinds[fk]; ok {
+			h.failedAs(k, err.Error(), d)
+			return
+		}
+	}
+	h.failed(err, d)
+}
+
 func (h *health) setStale(n int) {
 	h.mu.Lock()
 	h.stale = n
@@ -297,7 +309,7 @@ func (b *bacnetCron) Name() string { return b.src.Name() }
 
 func (b *bacnetCron) Run(ctx context.Context, out chan<- []collector.Reading) error {
 	if err := b.src.Start(ctx); err != nil {
-		b.h.failed(err, 0)
+		b.h.bacnetErr(err, 0)
 		return err
 	}
 	defer b.src.Close()
@@ -392,7 +404,7 @@ func (b *bacnetCron) sweep(ctx context.Context, emit func([]collector.Reading) e
 		return n
 	}
 	if err != nil {
-		b.h.failed(err, time.Since(t0))
+		b.h.bacnetErr(err, time.Since(t0))
 		b.log.Warn("bacnet: trend sweep incomplete", "source", b.Name(), "err", err)
 		return n
 	}

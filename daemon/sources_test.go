@@ -3,6 +3,8 @@ package daemon
 import (
 	"bytes"
 	"context"
+	"errors"
+	"fmt"
 	"log/slog"
 	"strings"
 	"sync"
@@ -230,4 +232,25 @@ line:
 		n++
 	}
 	return n
+}
+
+// TestBACnetSourceErrorKinds checks that source-level BACnet errors (start,
+// trend sweep) are counted under the BACnet kind they carry.
+func TestBACnetSourceErrorKinds(t *testing.T) {
+	s := &site.Site{Name: "test-campus"}
+	m, err := metrics.New(s, metrics.Options{NoRuntime: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	h := &health{name: "bas", m: m.Source("bas")}
+	h.bacnetErr(fmt.Errorf("sweep: trend log 3: %w", bacnet.ErrTimeout), time.Second)
+	h.bacnetErr(fmt.Errorf("sweep: %w", &bacnet.AbortError{Reason: 9, Server: true}), time.Second)
+	h.bacnetErr(fmt.Errorf("sweep: %w", &bacnet.ServiceError{Class: 2, Code: 32}), time.Second)
+	h.bacnetErr(errors.New("checkpoint store: disk full"), time.Second)
+	for k, w := range map[metrics.ErrorKind]float64{metrics.ErrTimeout: 1, metrics.ErrAbort: 1, metrics.ErrBACnetError: 1,
+		metrics.ErrOther: 1, metrics.ErrMalformed: 0} {
+		if n := errCount(t, m, "bas", k); n != w {
+			t.Errorf("read_errors_total{error_kind=%q} = %v, want %v", k, n, w)
+		}
+	}
 }
