@@ -216,13 +216,15 @@ func TestSoakTenThousandTerminals(t *testing.T) {
 		t.Errorf("%d request timeouts on loopback", n)
 	}
 
-	// Flat memory: the mean RSS of the last third of the measured samples
-	// may exceed that of the first third by at most 15 % or 24 MiB,
-	// whichever is larger, since RSS also holds garbage the collector has
-	// not yet returned (GOGC lets the heap reach twice the live data); the
-	// live heap after collection is the sharper test: at most 5 % or
-	// 16 MiB (common practice for a soak after warm-up; a leak of one
-	// reading per point per sweep would add about 3 MiB a sweep here).
+	// Flat memory: the mean of the last third of the measured samples is
+	// compared with the middle third (the first third still holds the
+	// per-terminal state that fills over the engine's first window of
+	// steps). The live heap after collection is the sharp test: at most 5 %
+	// or 16 MiB (common practice for a soak after warm-up; a leak of one
+	// reading per point per sweep would add about 3 MiB a sweep here). RSS
+	// also holds garbage the collector has not yet returned (GOGC lets the
+	// heap reach twice the live data), so it may grow by twice the live-heap
+	// growth plus 20 % or 32 MiB, whichever is larger.
 	third := len(samples) / 3
 	if third < 2 {
 		t.Fatalf("only %d samples after warm-up", len(samples))
@@ -234,9 +236,9 @@ func TestSoakTenThousandTerminals(t *testing.T) {
 		}
 		return rss / float64(len(xs)), heap / float64(len(xs))
 	}
-	r1, h1 := mean(samples[:third])
+	r1, h1 := mean(samples[third : 2*third])
 	r3, h3 := mean(samples[len(samples)-third:])
-	tol := max(0.15*r1, 24<<20)
+	tol := 2*max(0, h3-h1) + max(0.2*r1, 32<<20)
 	if r3-r1 > tol {
 		t.Errorf("RSS grew from %.1f MiB to %.1f MiB over the run (tolerance %.1f MiB): a leak", r1/(1<<20), r3/(1<<20), tol/(1<<20))
 	}
@@ -253,7 +255,7 @@ func TestSoakTenThousandTerminals(t *testing.T) {
 		sweeps, measured.Round(time.Second), warm, interval, late, steps, kinds)
 	t.Logf("soak: sweep (poll %d points + assemble + engine + rules) median %s, p90 %s, max %s",
 		nP, pct(0.5).Round(time.Millisecond), pct(0.9).Round(time.Millisecond), pct(1).Round(time.Millisecond))
-	t.Logf("soak: RSS first third %.1f MiB, last third %.1f MiB (%.1f KiB per terminal, devices included); live Go heap %.1f → %.1f MiB",
+	t.Logf("soak: RSS middle third %.1f MiB, last third %.1f MiB (%.1f KiB per terminal, devices included); live Go heap %.1f → %.1f MiB",
 		r1/(1<<20), r3/(1<<20), r3/float64(nT)/1024, h1/(1<<20), h3/(1<<20))
 	t.Logf("soak: CPU %s over %s (%.0f %% of one core), %.2f µs per point read and analysed (client, devices and analysis in one process)",
 		cpu.Round(time.Millisecond), measured.Round(time.Second), 100*cpu.Seconds()/measured.Seconds(),
