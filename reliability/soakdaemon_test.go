@@ -116,8 +116,11 @@ func TestSoakDaemonTenThousandTerminals(t *testing.T) {
 		}
 		return s / float64(len(ps))
 	}
-	r1, r3 := mean(pts[:third]), mean(pts[len(pts)-third:])
-	if tol := max(0.15*r1, 24<<20); r3-r1 > tol { // see TestSoakTenThousandTerminals
+	// Middle third against last third, after the engine's first window has
+	// filled its per-terminal state (see TestSoakTenThousandTerminals); only
+	// RSS is visible from outside the child, so the looser RSS tolerance.
+	r1, r3 := mean(pts[third:2*third]), mean(pts[len(pts)-third:])
+	if tol := max(0.2*r1, 32<<20); r3-r1 > tol {
 		t.Errorf("daemon RSS grew from %.1f MiB to %.1f MiB (tolerance %.1f MiB): a leak", r1/(1<<20), r3/(1<<20), tol/(1<<20))
 	}
 	n := len(c.Terminals)
