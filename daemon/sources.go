@@ -162,8 +162,10 @@ func countPoints(s *site.Site, source string) int {
 }
 
 // buildSources makes every configured source, each reading its checkpoints
-// from the store under "<kind>:<name>/". Trend-file sources tie their
-// checkpoints to the watermark wm (nil: to the batches taken).
+// from the store under "<kind>:<name>/". Trend-file sources and the BACnet
+// sources' trend logs tie their checkpoints to the watermark wm (nil: to
+// the batches taken, per sweep for trend logs); BACnet present-value polls
+// have no history to re-read.
 func buildSources(s *site.Site, st *store.Store, m *metrics.Metrics, clock func() time.Time, wm *collector.Progress, settle time.Duration, log *slog.Logger) ([]collector.Source, []*health, error) {
 	var out []collector.Source
 	var hs []*health
@@ -190,6 +192,9 @@ func buildSources(s *site.Site, st *store.Store, m *metrics.Metrics, clock func(
 				continue
 			}
 			src.OnReadFailure = func(f bacnet.ReadFailure) { h.bacnetFailed(f) }
+			if wm != nil {
+				src.UseProgress(wm)
+			}
 			bc := &bacnetCron{src: src, cfg: *sc.BACnet, h: h, clock: clock, log: log}
 			if m != nil {
 				bc.traffic = m.BACnet(sc.Name)
@@ -224,8 +229,8 @@ func buildSources(s *site.Site, st *store.Store, m *metrics.Metrics, clock func(
 }
 
 // batchCheckpoints adds bacnet.BatchCheckpoints to the store's checkpoint
-// view: a sweep's positions go in one transaction (one fsync) rather than
-// one per trend log.
+// view: a commit's trend-log positions go in one transaction (one fsync)
+// rather than one per trend log.
 type batchCheckpoints struct {
 	*store.Checkpoints
 	st     *store.Store

@@ -43,6 +43,12 @@ type Source struct {
 	devices    map[uint32]*Device
 	unitChecks []UnitCheck
 	fail       failures
+
+	// Trend-log checkpoints tied to a collector.Progress (UseProgress):
+	// per log, the records delivered since the last commit.
+	tmu    sync.Mutex
+	prog   *collector.Progress
+	tracks map[string]*trendTrack
 	// Workers bounds how many devices are polled at once (default 64).
 	Workers int
 	// OnReadFailure, when set before Start, is called (from poll workers,
@@ -130,7 +136,8 @@ func PointsFor(s *site.Site, source string) []site.PointRef {
 }
 
 // SetCheckpoints replaces the trend-log checkpoint store (benchmarks, tools
-// that re-read history); not safe during a sweep.
+// that re-read history); not safe during a sweep. With UseProgress the
+// logs already read keep their in-process positions.
 func (s *Source) SetCheckpoints(cp Checkpoints) {
 	s.mu.Lock()
 	defer s.mu.Unlock()

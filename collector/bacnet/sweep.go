@@ -61,8 +61,15 @@ func (s *Source) SweepTrends(ctx context.Context, emit func([]collector.Reading)
 	}
 	page := int32(min(100, max(10, sweepBudget/len(logs))))
 	tr := &TrendReader{Client: c, Checkpoints: s.cp, Location: s.loc, Page: page}
+	follow := s.following()
+	if follow {
+		tr.known = s.knownNext
+	}
 	s.parallel(logs, func(l *sweepLog) {
 		l.cur, l.err = tr.open(ctx, s.devices[l.p.device], *l.p.trend)
+		if follow && l.err == nil {
+			s.opened(l.cur)
+		}
 	})
 	var batch []collector.Reading
 	var delivered [][]TrendRecord
@@ -137,8 +144,19 @@ func (s *Source) SweepTrends(ctx context.Context, emit func([]collector.Reading)
 }
 
 // storePositions moves the checkpoint of every log that delivered records
-// (in one write when the store supports it).
+// (in one write when the store supports it). With UseProgress it only
+// notes them: the Progress's commits store the positions.
 func (s *Source) storePositions(logs []*sweepLog, delivered [][]TrendRecord) error {
+	if s.following() {
+		for i, l := range logs {
+			if recs := delivered[i]; len(recs) > 0 {
+				s.delivered(l.cur.key, recs)
+				l.cur.advance(recs)
+				l.pos += len(recs)
+			}
+		}
+		return nil
+	}
 	bc, batch := s.cp.(BatchCheckpoints)
 	if !batch {
 		for i, l := range logs {

@@ -102,6 +102,10 @@ type TrendReader struct {
 	// Page is the record count asked per ReadRange (default 100; devices cut
 	// answers to their max-APDU and set more-items, so this is an upper bound).
 	Page int32
+	// known, when set, gives a log's position in this process (the
+	// sequence number of the next record to read); it takes the place of
+	// the stored checkpoint, which then lags behind (Source.UseProgress).
+	known func(key string) (next uint32, ok bool)
 }
 
 // Backfill reads every record of trend log tl on d that follows the log's
@@ -148,7 +152,12 @@ type trendCursor struct {
 	next   uint32 // sequence number of the next record to fetch
 	newest uint32
 	done   bool // nothing more to fetch in this sweep
+	empty  bool // the log holds no record
 	res    TrendResult
+	// stored is the resume sequence number of the stored checkpoint (its
+	// Seq + 1), when hasStored; set when open read it.
+	stored    uint32
+	hasStored bool
 }
 
 // open reads the log's record count and total record count (ASHRAE 135
@@ -178,24 +187,34 @@ func (r *TrendReader) open(ctx context.Context, d *Device, tl uint32) (*trendCur
 	}
 	count, total := uint32(st[0].Values[0].U), uint32(st[1].Values[0].U)
 	if count == 0 {
-		c.done = true
+		c.done, c.empty = true, true
 		return c, nil
 	}
 	c.newest = total
 	oldest := total - count + 1 // modulo 2^32, like the device's counter
 	c.next = oldest
-	raw, ok, err := r.Checkpoints.Get(c.key)
-	if err != nil {
-		c.done = true
-		return c, fmt.Errorf("%s: checkpoint: %w", c.key, err)
+	next, ok := uint32(0), false
+	if r.known != nil {
+		next, ok = r.known(c.key)
 	}
-	if ok {
-		pos, err := decodePosition(raw)
+	if !ok {
+		raw, found, err := r.Checkpoints.Get(c.key)
 		if err != nil {
 			c.done = true
-			return c, fmt.Errorf("%s: %w", c.key, err)
+			return c, fmt.Errorf("%s: checkpoint: %w", c.key, err)
 		}
-		c.next = pos.Seq + 1
+		if found {
+			pos, err := decodePosition(raw)
+			if err != nil {
+				c.done = true
+				return c, fmt.Errorf("%s: %w", c.key, err)
+			}
+			next, ok = pos.Seq+1, true
+			c.stored, c.hasStored = next, true
+		}
+	}
+	if ok {
+		c.next = next
 		switch {
 		case int32(c.next-(c.newest+1)) > 0:
 			// Checkpoint ahead of the newest record: numbering restarted.
