@@ -3,16 +3,18 @@ package eval
 import (
 	"syscall"
 	"time"
+	"unsafe"
 )
 
-// threadCPUTime is the calling OS thread's user+system CPU time
-// (getrusage RUSAGE_THREAD, Linux), or 0. Callers lock the goroutine to its
-// thread.
+// threadCPUTime is the calling OS thread's CPU time from
+// clock_gettime(CLOCK_THREAD_CPUTIME_ID) (Linux, clock_gettime(2)), exact to
+// the scheduler's accounting rather than to the tick as getrusage's
+// RUSAGE_THREAD is, or 0. Callers lock the goroutine to its thread.
 func threadCPUTime() time.Duration {
-	var ru syscall.Rusage
-	const rusageThread = 1 // RUSAGE_THREAD, getrusage(2)
-	if syscall.Getrusage(rusageThread, &ru) != nil {
+	const clockThreadCPUTime = 3 // CLOCK_THREAD_CPUTIME_ID
+	var ts syscall.Timespec
+	if _, _, e := syscall.Syscall(syscall.SYS_CLOCK_GETTIME, clockThreadCPUTime, uintptr(unsafe.Pointer(&ts)), 0); e != 0 {
 		return 0
 	}
-	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
+	return time.Duration(ts.Nano())
 }
