@@ -140,12 +140,13 @@ const (
 	trustHWK       = 3.0
 )
 
-// near reports whether inputs are inside the trust region of e.
+// near reports whether inputs are inside the trust region of e. The water
+// flow is tested first: it is the input that leaves the region most often.
 func (e *evaluation) near(v, eat, mw, thw float64) bool {
 	return e.ok &&
+		math.Abs(mw-e.mw) <= trustWaterFrac*e.mw+1e-9 &&
 		math.Abs(v-e.v) <= trustAirFrac*e.v &&
 		math.Abs(eat-e.eat) <= trustEATK &&
-		math.Abs(mw-e.mw) <= trustWaterFrac*e.mw+1e-9 &&
 		math.Abs(thw-e.thw) <= trustHWK
 }
 
@@ -259,6 +260,24 @@ func fmax(a, b float64) float64 {
 
 func fmin(a, b float64) float64 {
 	if a < b {
+		return a
+	}
+	return b
+}
+
+// nanMin and nanMax are math.Min and math.Max for the hot path (inlined;
+// math's are assembly calls on amd64): a NaN operand gives NaN, as there.
+// Unlike math's they do not order −0 below +0, which no caller tells apart
+// (spans and threshold comparisons).
+func nanMin(a, b float64) float64 {
+	if a < b || a != a {
+		return a
+	}
+	return b
+}
+
+func nanMax(a, b float64) float64 {
+	if a > b || a != a {
 		return a
 	}
 	return b

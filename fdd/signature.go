@@ -167,8 +167,9 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 // threshold's pattern (or zero: every score 0) means no score reaches it and
 // Best is KindNone.
 func mayReach(sc *[kindCount]float64, thresholdBits uint64) bool {
-	b := func(k int) uint64 { return math.Float64bits(sc[k]) }
-	or := b(0) | b(1) | b(2) | b(3) | b(4) | b(5) | b(6) | b(7) | b(8) | b(9) | b(10) | b(11)
+	or := math.Float64bits(sc[0]) | math.Float64bits(sc[1]) | math.Float64bits(sc[2]) | math.Float64bits(sc[3]) |
+		math.Float64bits(sc[4]) | math.Float64bits(sc[5]) | math.Float64bits(sc[6]) | math.Float64bits(sc[7]) |
+		math.Float64bits(sc[8]) | math.Float64bits(sc[9]) | math.Float64bits(sc[10]) | math.Float64bits(sc[11])
 	return or != 0 && or >= thresholdBits
 }
 

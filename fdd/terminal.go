@@ -328,8 +328,8 @@ func (en *Engine) inputsSteady(st *termState) bool {
 func (en *Engine) trackFlat(st *termState, in *inputs) {
 	if st.flatRun > 0 && in.dat == st.lastDAT {
 		st.flatRun++
-		st.flatUMin, st.flatUMax = math.Min(st.flatUMin, in.u), math.Max(st.flatUMax, in.u)
-		st.flatSMin, st.flatSMax = math.Min(st.flatSMin, in.sat), math.Max(st.flatSMax, in.sat)
+		st.flatUMin, st.flatUMax = nanMin(st.flatUMin, in.u), nanMax(st.flatUMax, in.u)
+		st.flatSMin, st.flatSMax = nanMin(st.flatSMin, in.sat), nanMax(st.flatSMax, in.sat)
 		return
 	}
 	st.flatRun = 1
