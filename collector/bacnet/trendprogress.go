@@ -39,8 +39,15 @@ import (
 // point is Missing for them).
 
 // maxTrackMarks bounds the marks kept per log between commits (a consumer
-// that commits rarely): the older half is thinned, which only moves a
-// resume point earlier (more is read again, nothing is skipped).
+// that commits rarely, or a backfill that runs far ahead of the consumer).
+// Marks are kept at least a stride of sequence numbers apart; when there
+// are too many the stride doubles and the marks closer than it are
+// dropped. That only moves a resume point earlier (more is read again,
+// nothing is skipped) and keeps the marks evenly spread over the records
+// delivered since the last commit: the next readFrom may fall anywhere in
+// them (while history is backfilled it trails the sweep by the consumer's
+// queue), and a resume point is at most about 2·n/maxTrackMarks records
+// early for n records delivered.
 const maxTrackMarks = 64
 
 // noTime is the "before" time of a mark with no record before it.
@@ -62,18 +69,19 @@ type trendTrack struct {
 	next      uint32 // sequence number after the last record delivered
 	maxAt     int64  // latest time of the records in [marks[0].seq, next)
 	marks     []seqMark
+	stride    uint32 // least distance between marks (≥ 1)
 	stored    uint32 // resume sequence number in the store, when hasStored
 	hasStored bool
 }
 
 func newTrack(next uint32) *trendTrack {
-	return &trendTrack{next: next, maxAt: noTime, marks: []seqMark{{seq: next, before: noTime}}}
+	return &trendTrack{next: next, maxAt: noTime, marks: []seqMark{{seq: next, before: noTime}}, stride: 1}
 }
 
 // restart forgets the records noted (the log's numbering restarted) and
 // resumes at next.
 func (tk *trendTrack) restart(next uint32) {
-	tk.next, tk.maxAt = next, noTime
+	tk.next, tk.maxAt, tk.stride = next, noTime, 1
 	tk.marks = append(tk.marks[:0], seqMark{seq: next, before: noTime})
 }
 
@@ -85,23 +93,24 @@ func (tk *trendTrack) note(recs []TrendRecord) {
 		if int32(r.Seq-tk.next) < 0 {
 			continue
 		}
-		if n := len(tk.marks); tk.marks[n-1].seq != r.Seq {
+		if last := tk.marks[len(tk.marks)-1].seq; r.Seq-last >= tk.stride {
 			tk.marks = append(tk.marks, seqMark{seq: r.Seq, before: tk.maxAt})
+			for len(tk.marks) > maxTrackMarks {
+				tk.thin()
+			}
 		}
 		tk.maxAt = max(tk.maxAt, r.At.UnixNano())
 		tk.next = r.Seq + 1
-		if len(tk.marks) > maxTrackMarks {
-			tk.thin()
-		}
 	}
 }
 
-// thin drops every other mark of the older half (marks[0], the resume
-// point, stays).
+// thin doubles the stride and drops the marks closer than it to the last
+// one kept (marks[0], the resume point, stays).
 func (tk *trendTrack) thin() {
-	k, half := 0, len(tk.marks)/2
-	for i := range tk.marks {
-		if i >= half || i%2 == 0 {
+	tk.stride *= 2
+	k := 1
+	for i := 1; i < len(tk.marks); i++ {
+		if tk.marks[i].seq-tk.marks[k-1].seq >= tk.stride {
 			tk.marks[k] = tk.marks[i]
 			k++
 		}
@@ -126,6 +135,8 @@ func (tk *trendTrack) resume(from int64) uint32 {
 	}
 	tk.marks = append(tk.marks[:0], tk.marks[best:]...)
 	tk.marks[0].before = noTime
+	// New marks as dense as the records left allow.
+	tk.stride = max(1, (tk.next-tk.marks[0].seq)/maxTrackMarks)
 	return tk.marks[0].seq
 }
 
