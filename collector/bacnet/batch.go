@@ -110,8 +110,10 @@ func (c *Client) readBatch(ctx context.Context, d *Device, reads []Read, out []R
 		matchResults(reads, res, out)
 	case unsupported(err):
 		if !d.noRPM.Swap(true) {
-			c.opts.Logger.Info("bacnet: device does not serve ReadPropertyMultiple; using ReadProperty",
-				"device", d.Instance, "err", err)
+			// Debug only: a Source logs the fallback once per device
+			// (Source.noteFallback), naming its source and address.
+			c.opts.Logger.Debug("bacnet: device does not serve ReadPropertyMultiple; using ReadProperty",
+				"device", d.Instance, "address", d.Addr.String(), "err", err)
 		}
 		c.readEach(ctx, d, reads, out)
 	case tooBig(err) && len(reads) > 1:

@@ -37,7 +37,9 @@ type sweepLog struct {
 //  3. the frontier T is the oldest "newest fetched record" among the logs
 //     not yet caught up; every fetched record at or before T is delivered,
 //     merged by time, in one batch; each log's checkpoint then moves past
-//     the records it delivered (only after emit returned nil).
+//     the records it delivered (only after emit returned nil). With
+//     UseProgress the records are only noted, and the Progress's commits
+//     store the positions (see trendprogress.go).
 //
 // Steps 2 and 3 repeat until every log is caught up. At most one page per
 // log is held at once. A log that fails is reported and left out; the

@@ -141,8 +141,9 @@ func (tk *trendTrack) resume(from int64) uint32 {
 }
 
 // UseProgress ties the source's trend-log checkpoints to p (see above):
-// the sweeps no longer store positions, p's commits do. Call it once,
-// before Run or the first SweepTrends.
+// the sweeps no longer store positions, p's commits do. Present-value
+// polls are not affected: they have no history to read again. Call it
+// once, before Run or the first SweepTrends.
 func (s *Source) UseProgress(p *collector.Progress) {
 	s.tmu.Lock()
 	s.prog = p
