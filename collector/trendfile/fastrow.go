@@ -1,10 +1,10 @@
 package trendfile
 
 import (
+	"bytes"
 	"encoding/binary"
-	"fmt"
+	"math"
 	"math/bits"
-	"time"
 
 	"risewatch/collector"
 )
@@ -32,335 +32,234 @@ func (p *parser) fastCols() []fastCol {
 	return p.fcols
 }
 
+// What scanWords found in a cell (rowCells.st).
+const (
+	cellSkip  = 0 // blank: no sample
+	cellValue = 1 // a plain decimal; rowCells.vals holds its value
+	cellOther = 2 // anything else: fastValue decides
+)
+
+// rowCells is the per-column scratch of the wide fast path, reused row
+// after row: each header column's start in the record (pos, one entry
+// more for the end of the last), what scanWords made of it (st) and its
+// value when plain (vals).
+type rowCells struct {
+	vals []float64
+	st   []uint8
+	pos  []int32
+}
+
 // wideFast handles the common wide row (no quotes, time in the first
-// column) in two passes. The first finds every delimiter of the row, eight
-// bytes at a time (findDelims); with all cell bounds known, the second
-// parses each mapped cell on its own, so the work on one cell does not wait
-// for the one before it. A plain decimal cell of up to eight characters
-// after its sign is converted without a branch on its digits (plainWord);
-// longer plain decimals take plainDecimal, and anything else (exponents,
-// text states, markers, spaces, decimal commas) parseCell, which gives the
-// same values for plain decimals. Readings go straight into the batch (or
-// the Row in row mode). A bad row adds nothing.
+// column) in two steps. scanWords walks the row cell by cell, finding
+// each cell's end and converting a plain decimal from the same 64-bit
+// word; the mapped columns are then turned into readings (or the Row in
+// row mode). A row whose field count is not the header's takes the
+// general path (wideRow's split), which words the warning.
 func (p *parser) wideFast(rec []byte, line int64) {
 	delim := p.f.delim
-	p.delims = findDelims(p.delims, rec, delim)
-	pos := p.delims // pos[c] is the end of cell c; the last entry is len(rec)
-	if nf := len(pos); nf != p.ncols {
-		if nf < p.ncols {
-			p.badRow(line, fmt.Sprintf("%d fields, the header has %d", nf, p.ncols))
-			return
-		}
-		if !allBlank(splitFields(p.fields[:0], rec[pos[p.ncols-1]:], delim)[1:]) {
-			p.badRow(line, fmt.Sprintf("%d fields, the header has %d", nf, p.ncols))
-			return
-		}
+	t := bytes.IndexByte(rec, delim)
+	last := p.ncols - 1
+	if t < 0 || last < 1 {
+		p.wideSplit(rec, line, false)
+		return
 	}
-	at, ok := p.rowTime(rec[:pos[0]], line)
+	rc := &p.rc
+	if len(rc.pos) != p.ncols+1 {
+		rc.vals, rc.st, rc.pos = make([]float64, p.ncols), make([]uint8, p.ncols), make([]int32, p.ncols+1)
+	}
+	vals, st, pos := rc.vals, rc.st, rc.pos
+	pat := uint64(delim) * ones8
+	i, c, others := t+1, 1, 0
+	for {
+		var o int
+		i, c, o = scanWords(rec, i, c, last, pat, vals, st, pos)
+		others += o
+		if c >= last {
+			break
+		}
+		// A cell of eight bytes or more, or one near the row's end.
+		j := bytes.IndexByte(rec[i:], delim)
+		if j < 0 {
+			p.wideSplit(rec, line, false) // fewer fields than the header
+			return
+		}
+		pos[c], st[c] = int32(i), uint8(b2i(j != 0))<<1
+		others += b2i(j != 0)
+		i += j + 1
+		c++
+	}
+	if bytes.IndexByte(rec[i:], delim) >= 0 {
+		p.wideSplit(rec, line, false) // more fields than the header
+		return
+	}
+	pos[last], pos[last+1] = int32(i), int32(len(rec)+1)
+	st[last] = uint8(b2i(i != len(rec))) << 1
+	others += b2i(i != len(rec))
+	at, ok := p.rowTime(rec[:t], line)
 	if !ok {
 		return
 	}
 	cols := p.fastCols()
 	if p.rowFn != nil {
-		p.rowCells(rec, pos, cols, line)
+		p.ensureRow()
+		for k := range cols {
+			fc := &cols[k]
+			c := fc.col
+			var v float64
+			switch st[c] {
+			case cellSkip:
+				p.rowV[k], p.rowQ[k], p.rowSet[k] = 0, collector.Missing, false
+				continue
+			case cellValue:
+				v = fc.convert(vals[c])
+			default:
+				p.rowV[k], p.rowQ[k], p.rowSet[k] = p.fastValue(rec, int(pos[c]), int(pos[c+1])-1, fc, line)
+				continue
+			}
+			p.rowV[k], p.rowQ[k], p.rowSet[k] = v, collector.Good, true
+		}
 		p.commitRow(at)
 		return
 	}
-	p.ensureBatch(len(cols))
-	memo := p.memo()
-	if !p.memoUse.on(len(cols)) {
-		p.wideCells(rec, pos, cols, at, line)
-		return
-	}
-	hits, looked := 0, 0
 	// Field by field into the batch's spare capacity (ensureBatch leaves
 	// room for a whole row): no Reading is built elsewhere and copied.
+	p.ensureBatch(len(cols))
 	n := len(p.batch)
 	b := p.batch[:n+len(cols)]
-	for i := range cols {
-		fc := &cols[i]
-		s, e := int(pos[fc.col-1])+1, int(pos[fc.col])
-		if s == e {
-			continue // blank: no sample at this time
-		}
-		var v float64
-		ok := false
-		if n8 := e - s; n8 <= 8 && s+8 <= len(rec) {
-			// Most cells repeat a string seen before: look it up.
-			w := binary.LittleEndian.Uint64(rec[s:]) & keepBytes[n8]
-			me := &memo[(w*memoMul)>>(64-memoBits)]
-			looked++
-			if me.key == w && rec[e-1] != 0 {
-				v, ok = me.val, true
-				hits++
-			} else if v, ok = plainWord(rec, s, e); ok {
-				*me = memoEntry{key: w, val: v}
-			}
-		} else {
-			v, ok = plainWord(rec, s, e)
-		}
-		q := collector.Good
-		switch {
-		case !ok:
-			var set bool
-			if v, q, set = p.fastValue(rec, s, e, fc, line); !set {
+	if others == 0 {
+		// Plain decimals and blanks only.
+		for k := range cols {
+			fc := &cols[k]
+			c := fc.col
+			if st[c] == cellSkip {
 				continue
 			}
-		case fc.binary:
-			if v != 0 {
-				v = 1
-			}
-		default:
-			v = v*fc.scale + fc.offset
+			r := &b[n]
+			r.Point, r.At, r.Value, r.Quality = fc.name, at, fc.convert(vals[c]), collector.Good
+			n++
 		}
-		r := &b[n]
-		r.Point, r.At, r.Value, r.Quality = fc.name, at, v, q
-		n++
-	}
-	p.batch = b[:n]
-	p.st.Rows++
-	p.memoUse.count(hits, looked)
-}
-
-// rowCells is wideFast's cell loop in row mode: values into p.rowV,
-// p.rowQ and p.rowSet.
-func (p *parser) rowCells(rec []byte, pos []int32, cols []fastCol, line int64) {
-	p.ensureRow()
-	memo := p.memo()
-	use := p.memoUse.on(len(cols))
-	hits, looked := 0, 0
-	for i := range cols {
-		fc := &cols[i]
-		s, e := int(pos[fc.col-1])+1, int(pos[fc.col])
-		if s == e {
-			p.rowV[fc.m], p.rowQ[fc.m], p.rowSet[fc.m] = 0, collector.Missing, false
-			continue
-		}
-		var v float64
-		ok := false
-		if n8 := e - s; use && n8 <= 8 && s+8 <= len(rec) {
-			w := binary.LittleEndian.Uint64(rec[s:]) & keepBytes[n8]
-			me := &memo[(w*memoMul)>>(64-memoBits)]
-			looked++
-			if me.key == w && rec[e-1] != 0 {
-				v, ok = me.val, true
-				hits++
-			} else if v, ok = plainWord(rec, s, e); ok {
-				*me = memoEntry{key: w, val: v}
-			}
-		} else {
-			v, ok = plainWord(rec, s, e)
-		}
-		switch {
-		case !ok:
-			p.rowV[fc.m], p.rowQ[fc.m], p.rowSet[fc.m] = p.fastValue(rec, s, e, fc, line)
-			continue
-		case fc.binary:
-			if v != 0 {
-				v = 1
-			}
-		default:
-			v = v*fc.scale + fc.offset
-		}
-		p.rowV[fc.m], p.rowQ[fc.m], p.rowSet[fc.m] = v, collector.Good, true
-	}
-	if use {
-		p.memoUse.count(hits, looked)
-	}
-}
-
-// wideCells is wideFast's cell loop without the memo.
-func (p *parser) wideCells(rec []byte, pos []int32, cols []fastCol, at time.Time, line int64) {
-	n := len(p.batch)
-	b := p.batch[:n+len(cols)]
-	for i := range cols {
-		fc := &cols[i]
-		s, e := int(pos[fc.col-1])+1, int(pos[fc.col])
-		if s == e {
-			continue
-		}
-		v, ok := plainWord(rec, s, e)
-		q := collector.Good
-		switch {
-		case !ok:
-			var set bool
-			if v, q, set = p.fastValue(rec, s, e, fc, line); !set {
-				continue
-			}
-		case fc.binary:
-			if v != 0 {
-				v = 1
-			}
-		default:
-			v = v*fc.scale + fc.offset
-		}
-		r := &b[n]
-		r.Point, r.At, r.Value, r.Quality = fc.name, at, v, q
-		n++
-	}
-	p.batch = b[:n]
-	p.st.Rows++
-}
-
-// memoUse switches the memo off while it does not pay. A hit saves about
-// a third of a cell's cost and a miss adds about a quarter (measured on
-// BenchmarkTrendIngestVsCSV*), so below one hit in two lookups a file is
-// read faster without it: exports that log every value with sensor noise
-// and three or four decimals repeat few cell strings. After a window of
-// lookups with fewer hits, the memo is left out for a span of cells that
-// doubles with each poor window (up to maxOff) and is tried again.
-type memoUse struct {
-	hits, looked int // in the current window
-	off          int // cells left to read without the memo
-	span         int // next off span
-}
-
-const (
-	memoWindow  = 4096     // lookups judged together
-	memoOffBase = 16 << 10 // cells left out after the first poor window
-	memoOffMax  = 4 << 20
-)
-
-// on says whether the memo is used for a row of cells cells.
-func (m *memoUse) on(cells int) bool {
-	if m.off > 0 {
-		m.off -= cells
-		return false
-	}
-	return true
-}
-
-// count adds a row's lookups and judges a full window.
-func (m *memoUse) count(hits, looked int) {
-	m.hits += hits
-	m.looked += looked
-	if m.looked < memoWindow {
+		p.batch = b[:n]
+		p.st.Rows++
 		return
 	}
-	if 2*m.hits < m.looked {
-		m.span = min(max(2*m.span, memoOffBase), memoOffMax)
-		m.off = m.span
-	} else {
-		m.span = 0
+	for k := range cols {
+		fc := &cols[k]
+		c := fc.col
+		var v float64
+		q := collector.Good
+		switch st[c] {
+		case cellSkip:
+			continue
+		case cellValue:
+			v = fc.convert(vals[c])
+		default:
+			var set bool
+			if v, q, set = p.fastValue(rec, int(pos[c]), int(pos[c+1])-1, fc, line); !set {
+				continue
+			}
+		}
+		r := &b[n]
+		r.Point, r.At, r.Value, r.Quality = fc.name, at, v, q
+		n++
 	}
-	m.hits, m.looked = 0, 0
+	p.batch = b[:n]
+	p.st.Rows++
 }
 
-// memoBits sizes the parsed-cell memo (2^memoBits entries, 24 bytes each).
-const (
-	memoBits = 14
-	memoMul  = 0x9E3779B97F4A7C15 // 2⁶⁴/φ, Fibonacci hashing (Knuth, TAOCP vol. 3, §6.4)
-)
-
-// memoEntry is one remembered plain-decimal cell: its bytes as a word
-// (zero above the cell) and its value before the unit conversion. Plain
-// decimals hold no zero byte, so a key fixes its cell's length; a lookup
-// also checks that the cell's last byte is not zero, so "5\x00" never
-// matches the entry of "5".
-type memoEntry struct {
-	key uint64
-	val float64
-}
-
-// memo returns the parser's direct-mapped cache of parsed cells. Trend
-// values repeat: a sensor logged at 0.01 resolution over its range, a
-// valve in whole percent, a state as 0/1 give a few thousand distinct
-// strings in millions of cells, and a lookup costs a fraction of a parse.
-// A miss parses (plainWord) and replaces the entry; values do not depend
-// on the memo.
-func (p *parser) memo() *[1 << memoBits]memoEntry {
-	if p.cellMemo == nil {
-		p.cellMemo = new([1 << memoBits]memoEntry)
+// convert turns a number read in column fc's unit into SI (0/1 for a
+// binary point).
+func (fc *fastCol) convert(v float64) float64 {
+	if fc.binary {
+		return float64(b2i(v != 0))
 	}
-	return p.cellMemo
+	return v*fc.scale + fc.offset
 }
 
-// fastValue converts cell rec[s:e] of column fc when plainWord did not.
+// fastValue converts cell rec[s:e] of column fc when scanWords did not.
 func (p *parser) fastValue(rec []byte, s, e int, fc *fastCol, line int64) (float64, collector.Quality, bool) {
 	v, ok := plainCell(rec, s, e)
 	if !ok {
 		return p.cell(rec[s:e], fc.pt, line, fc.col)
 	}
-	if fc.binary {
-		if v != 0 {
-			v = 1
-		}
-		return v, collector.Good, true
-	}
-	return v*fc.scale + fc.offset, collector.Good, true
+	return fc.convert(v), collector.Good, true
 }
 
-// findDelims returns the index of every delim byte in rec followed by
-// len(rec) (the end of each cell), reusing dst. Eight bytes at a time:
-// x = w XOR delim·0x01…01 has a zero byte exactly where w holds delim, and
-// ^(((x & 0x7F…7F) + 0x7F…7F) | x | 0x7F…7F) sets bit 7 of exactly those
-// bytes (no borrow between bytes, unlike the shorter (x - 0x01…01) &^ x
-// test); the set bits are read off with TrailingZeros.
-func findDelims(dst []int32, rec []byte, delim byte) []int32 {
-	dst = dst[:0]
-	pat := uint64(delim) * ones8
-	i := 0
-	for ; i+8 <= len(rec); i += 8 {
-		x := binary.LittleEndian.Uint64(rec[i:]) ^ pat
-		m := ^(((x & low7) + low7) | x | low7)
-		for m != 0 {
-			dst = append(dst, int32(i+bits.TrailingZeros64(m)>>3))
-			m &= m - 1
-		}
+// scanWords reads the cells of rec from column c, which starts at byte
+// i, while each lies with its delimiter in the 64-bit word at its start
+// (at most seven bytes), up to column last (exclusive), and returns the
+// byte and column where it stopped: at a longer cell, at one in the
+// record's last eight bytes, or at last. For each cell it records its
+// start (pos) and, when the cell is a plain decimal ([-]digits with at
+// most one point, ".5" and "5." too), its value (st cellValue, vals);
+// else st is cellSkip for a blank cell and cellOther for the rest.
+//
+// With x = w XOR delim·0x01…01, the lowest set bit of
+// (x − 0x01…01) &^ x & 0x80…80 marks the first delimiter byte exactly (a
+// borrow only sets bits above a true zero byte; A. Mycroft's zero-byte
+// test, Hacker's Delight §6-1). The cell is then converted without a
+// branch on its digits or sign: the sign is shifted off; x = w XOR
+// '0'·0x01…01 turns digits into 0..9 and the point into 0x1E; the point
+// is found with the exact zero-byte test ^(((d & 0x7F…) + 0x7F…) | d |
+// 0x7F…) and squeezed out of the word; the remaining bytes are checked to
+// be digits (x + 0x76 sets bit 7 of a byte exactly when it is not 0..9)
+// and combined with swarValue. The value is mantissa / 10^(fraction
+// digits), both exact in float64, so the quotient is correctly rounded
+// (Clinger's fast path, as parseNumber uses): it equals
+// strconv.ParseFloat's result bit for bit.
+//
+// On amd64 the loop runs as scanWordsAsm (scanwords_amd64.s), the same
+// steps in assembly; scanWordsGo is the reference both are tested
+// against.
+func scanWords(rec []byte, i, c, last int, pat uint64, vals []float64, st []uint8, pos []int32) (int, int, int) {
+	if haveScanWordsAsm && last <= len(vals) && last <= len(st) && last <= len(pos) && i >= 0 && c >= 0 {
+		return scanWordsAsm(rec, i, c, last, pat, vals, st, pos)
 	}
-	for ; i < len(rec); i++ {
-		if rec[i] == delim {
-			dst = append(dst, int32(i))
+	return scanWordsGo(rec, i, c, last, pat, vals, st, pos)
+}
+
+// scanWordsGo is scanWords in Go.
+func scanWordsGo(rec []byte, i, c, last int, pat uint64, vals []float64, st []uint8, pos []int32) (int, int, int) {
+	others := 0
+	vals, st, pos = vals[:last], st[:last], pos[:last]
+	for ; c < last && i+8 <= len(rec); c++ {
+		w := binary.LittleEndian.Uint64(rec[i:])
+		x := w ^ pat
+		dm := (x - ones8) &^ x & high8
+		if dm == 0 {
+			break
 		}
+		k := bits.TrailingZeros64(dm) >> 3
+		pos[c] = int32(i)
+		i += k + 1
+		if k == 0 {
+			st[c] = cellSkip
+			continue
+		}
+		sh := b2i(w&0xFF == '-')
+		x = (w >> (8 * uint(sh))) ^ zeros8
+		nb := k - sh
+		d := x ^ (0x1E * ones8)
+		dots := ^(((d & low7) + low7) | d | low7) & keepBytes[nb&7]
+		pt := uint(bits.TrailingZeros64(dots|1<<63)) >> 3 // 7 when there is no point: above the digits
+		low := keepBytes[pt&7]
+		x = x&low | (x>>8)&^low
+		hasDot := b2i(dots != 0)
+		nd := nb - hasDot
+		frac := (nb - 1 - int(pt)) & -hasDot
+		tt := ((x & low7) + 0x76*ones8) | x
+		if dots&(dots-1) != 0 || nd <= 0 || tt&high8&keepBytes[nd&7] != 0 {
+			st[c] = cellOther
+			others++
+			continue
+		}
+		v := float64(swarValue(x, nd)) / pow10[frac&7]
+		vals[c], st[c] = math.Float64frombits(math.Float64bits(v)^uint64(sh)<<63), cellValue
 	}
-	return append(dst, int32(len(rec)))
+	return i, c, others
 }
 
 // keepBytes[n] keeps the low n bytes of a word.
 var keepBytes = [9]uint64{0, 0xFF, 0xFFFF, 0xFFFFFF, 0xFFFFFFFF, 0xFFFFFFFFFF, 0xFFFFFFFFFFFF, 0xFFFFFFFFFFFFFF, 0xFFFFFFFFFFFFFFFF}
-
-// plainWord parses rec[s:e] when it is a plain decimal, [-]digits with at
-// most one point (".5" and "5." too) and at most eight characters after
-// the sign, reading it as one 64-bit word (it needs rec[s:s+8] to exist,
-// else it falls back to plainCell). x = w XOR '0'·0x01…01 turns digits into
-// 0..9 and the point into 0x1E; the point is found with the exact zero-byte
-// test, squeezed out of the word (the bytes above it shift down one), the
-// remaining bytes are checked to be digits (nonDigits' test) and combined
-// with swarValue. No step branches on the digits: a word without a point
-// squeezes at byte 8, a no-op, and divides by 10⁰. The value is mantissa /
-// 10^(fraction digits), correctly rounded since both are exact in float64
-// (Clinger's fast path, as parseNumber uses, so the paths agree bit for
-// bit). ok is false for anything else; the caller falls back.
-func plainWord(rec []byte, s, e int) (float64, bool) {
-	neg := rec[s] == '-'
-	if neg {
-		s++
-	}
-	n := e - s
-	if uint(n-1) > 7 || s+8 > len(rec) {
-		return plainCell(rec, s-b2i(neg), e)
-	}
-	keep := keepBytes[n]
-	x := binary.LittleEndian.Uint64(rec[s:]) ^ zeros8
-	d := x ^ (0x1E * ones8)
-	dots := ^(((d & low7) + low7) | d | low7) & keep
-	pt := uint(bits.TrailingZeros64(dots)) >> 3 // 8 when there is no point
-	low := keepBytes[pt]
-	x = x&low | (x>>8)&^low
-	hasDot := b2i(dots != 0)
-	nd := n - hasDot
-	keep >>= 8 * uint(hasDot)
-	frac := (n - 1 - int(pt)) & -hasDot
-	t := ((x &^ high8) + 0x76*ones8) | x
-	if t&high8&keep != 0 || dots&(dots-1) != 0 || nd == 0 {
-		return 0, false
-	}
-	v := float64(swarValue(x, nd)) / pow10[frac&7]
-	if neg {
-		v = -v
-	}
-	return v, true
-}
 
 func b2i(b bool) int {
 	if b {

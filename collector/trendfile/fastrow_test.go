@@ -16,7 +16,7 @@ import (
 // TestWideFastPathMatchesCellParser writes a wide file of mixed cells
 // (plain decimals of every length with and without sign and point, ".5",
 // "5.", exponents, text states, markers, blanks, a NUL byte after a value
-// the memo already holds) and checks each reading against parseCell, the
+// seen just before) and checks each reading against parseCell, the
 // general cell parser, and the plain decimals against strconv.ParseFloat
 // (the reference for correctly rounded conversion).
 func TestWideFastPathMatchesCellParser(t *testing.T) {
@@ -44,13 +44,13 @@ func TestWideFastPathMatchesCellParser(t *testing.T) {
 	}
 	buf.WriteString("\n")
 	var cells [][]string
-	for r := 0; r < 2000; r++ { // enough cells for the memo to switch off and on again
+	for r := 0; r < 2000; r++ {
 		buf.WriteString(start.Add(time.Duration(r) * time.Minute).Format("2006-01-02T15:04:05Z07:00"))
 		row := make([]string, len(pts))
 		for k := range pts {
 			row[k] = gen()
 			if r%50 == 1 && k == 0 {
-				row[k] = "5" // memoised, then "5\x00" below must not match it
+				row[k] = "5" // then "5\x00" below, which is not a number
 			}
 			if r%50 == 2 && k == 0 {
 				row[k] = "5\x00"
@@ -134,43 +134,5 @@ func checkMixed(t *testing.T, mode string, src *Source, pts []site.PointRef, cel
 	}
 	if i != len(got) {
 		t.Fatalf("%d readings, want %d", len(got), i)
-	}
-}
-
-// TestMemoUseSwitchesOff checks the memo's on/off rule: a window with
-// fewer hits than half its lookups leaves the memo out for a span that
-// doubles while windows stay poor, and a good window resets it.
-func TestMemoUseSwitchesOff(t *testing.T) {
-	var m memoUse
-	row := 100
-	poor := func() {
-		for looked := 0; looked < memoWindow; looked += row {
-			if !m.on(row) {
-				t.Fatal("memo off inside a window")
-			}
-			m.count(row/2-1, row)
-		}
-	}
-	offRows := func() int {
-		n := 0
-		for !m.on(row) {
-			n++
-		}
-		return n
-	}
-	poor()
-	if n := offRows(); n != (memoOffBase+row-1)/row {
-		t.Fatalf("off for %d rows, want %d", n, (memoOffBase+row-1)/row)
-	}
-	poor()
-	if n := offRows(); n != (2*memoOffBase+row-1)/row {
-		t.Fatalf("second poor window: off for %d rows, want %d", n, (2*memoOffBase+row-1)/row)
-	}
-	for looked := 0; looked < memoWindow; looked += row {
-		m.on(row)
-		m.count(row/2, row) // half: good enough
-	}
-	if m.span != 0 || !m.on(row) {
-		t.Fatalf("good window: span %d", m.span)
 	}
 }

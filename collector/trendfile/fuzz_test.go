@@ -120,12 +120,17 @@ func FuzzNumbers(f *testing.F) {
 		if neg {
 			i++
 		}
-		// The one-word path, with slack after the cell and without.
-		for _, r := range [][]byte{[]byte("x," + s + ",........"), []byte("x," + s)} {
-			e := 2 + len(s)
-			if v, ok := plainWord(r, 2, e); ok {
-				if rerr != nil || v != ref {
-					t.Fatalf("plainWord(%q) = %v, strconv %v %v", s, v, ref, rerr)
+		// The one-word path (both forms), with slack after the cell and
+		// without: a plain decimal is strconv's value exactly.
+		for _, r := range [][]byte{[]byte("x," + s + ",........"), []byte("x," + s + ",")} {
+			if strings.ContainsRune(s, ',') {
+				break
+			}
+			for _, scan := range []func([]byte, int, int, int, uint64, []float64, []uint8, []int32) (int, int, int){scanWordsGo, scanWordsAsm} {
+				vals, st, pos := make([]float64, 3), make([]uint8, 3), make([]int32, 3)
+				_, c, _ := scan(r, 2, 1, 2, ','*ones8, vals, st, pos)
+				if c == 2 && st[1] == cellValue && (rerr != nil || math.Float64bits(vals[1]) != math.Float64bits(ref)) {
+					t.Fatalf("scanWords(%q) = %v, strconv %v %v", s, vals[1], ref, rerr)
 				}
 			}
 		}

@@ -175,7 +175,7 @@ func (p *parser) getSlot() (*chunk, bool) {
 }
 
 // worker returns a parser for one worker goroutine: the header's mapping,
-// its own buffers, memo and time parser.
+// its own buffers and time parser.
 func (p *parser) worker() *parser {
 	tp, _ := newTimeParser(p.f.timeFormat, p.f.loc) // the format was checked by newParser
 	w := &parser{f: p.f, pts: p.pts, file: p.file, tp: tp, ncols: p.ncols, timeCol: p.timeCol,

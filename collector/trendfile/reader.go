@@ -38,9 +38,7 @@ type parser struct {
 	pointCol, valueCol int
 	cols               []mapped
 	fcols              []fastCol // cols with their conversions (wide fast path)
-	delims             []int32   // delimiter positions of the current row
-	cellMemo           *[1 << memoBits]memoEntry
-	memoUse            memoUse
+	rc                 rowCells  // the wide fast path's per-column scratch
 
 	fields  [][]byte
 	scratch []byte
@@ -358,6 +356,12 @@ func (p *parser) wideRow(rec []byte, line int64, quoted bool) {
 		p.wideFast(rec, line)
 		return
 	}
+	p.wideSplit(rec, line, quoted)
+}
+
+// wideSplit is the general wide row: split into fields, each converted by
+// the cell parser.
+func (p *parser) wideSplit(rec []byte, line int64, quoted bool) {
 	if err := p.split(rec, quoted); err != nil {
 		p.badRow(line, err.Error())
 		return
