@@ -44,8 +44,10 @@ func gate(s *collector.Sample, t *termStatic, in *inputs) Gate {
 	if f&gatedFlags == 0 && sat >= satMinC && sat <= satMaxC && hw >= hwMinC && hw <= hwMaxC &&
 		dat >= datMinC && dat <= datMaxC && v >= airflowNegM3s && v <= t.maxAirM3s &&
 		u >= valveMin && u <= valveMax {
-		*in = inputs{v: fmax(v, 0), dat: dat, sat: sat, u: fmax(0, fmin(1, u)), hw: hw,
-			fanOn: s.FanOn, plantOn: s.PlantOn, datOK: true}
+		// Field by field: a composite literal is built in a temporary
+		// and copied.
+		in.v, in.dat, in.sat, in.u, in.hw = fmax(v, 0), dat, sat, fmax(0, fmin(1, u)), hw
+		in.fanOn, in.plantOn, in.hwAssumed, in.datOK = s.FanOn, s.PlantOn, false, true
 		return 0
 	}
 	var g Gate
