@@ -48,7 +48,7 @@ import (
 // them (while history is backfilled it trails the sweep by the consumer's
 // queue), and a resume point is at most about 2·n/maxTrackMarks records
 // early for n records delivered.
-const maxTrackMarks = 64
+const maxTrackMarks = 16
 
 // noTime is the "before" time of a mark with no record before it.
 const noTime = math.MinInt64
