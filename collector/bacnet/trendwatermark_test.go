@@ -473,21 +473,33 @@ func TestTrendCheckpointWrappedBufferIsCountedGap(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer src.Close()
+	raw, ok, _ := w.Get(TrendKey(70, 1))
+	pos, err := decodePosition(raw)
+	if !ok || err != nil {
+		t.Fatalf("no stored position for device 70 trend-log 1 after a clean run: %q %v", raw, err)
+	}
+	// The clean run accepted minutes 0..99: the watermark is minute 100,
+	// readFrom minute 79 (record 80); the stored position is at or before it.
+	if pos.Seq >= 80 || pos.Seq < 80-2*100/maxTrackMarks-1 {
+		t.Fatalf("stored position %d, want just before record 80 (minute 79 = watermark less the lookback)", pos.Seq)
+	}
 	res, err := src.SweepTrends(ctxT(t), func([]collector.Reading) error { return nil })
 	if err != nil {
 		t.Fatal(err)
 	}
+	found := false
 	for _, r := range res {
 		if r.Device == 70 && r.Log == 1 {
-			// Resumed at readFrom (the watermark less the lookback), so the
-			// gap starts 21 minutes before the end of the first run's history.
-			if r.Lost == 0 || r.Records != 120 {
-				t.Errorf("1-min log after its buffer wrapped: %+v; want 120 records read and the overwritten ones counted", r)
-			}
-			if int(r.Lost)+r.Records < 300 {
-				t.Errorf("1-min log: %d lost + %d read < 300 logged since the first run", r.Lost, r.Records)
+			found = true
+			// 400 records logged, the newest 120 kept: 281..400 are read,
+			// the ones from the stored position to 280 are the counted gap.
+			if r.Records != 120 || r.FirstSeq != 281 || r.LastSeq != 400 || r.Lost != uint64(280-pos.Seq) {
+				t.Errorf("1-min log after its buffer wrapped: %+v; want records 281..400 read and %d counted lost", r, 280-pos.Seq)
 			}
 		}
+	}
+	if !found {
+		t.Fatal("device 70 trend-log 1 not swept")
 	}
 	if before < 90 {
 		t.Errorf("first run wrote %d steps for 100 minutes", before)
