@@ -41,6 +41,7 @@ type Engine struct {
 	loopOut  []LoopEvidence
 	lastStep time.Time
 	learn    []learner // learning reservoirs, apart from the hot per-sample state
+	idleTmpl Evidence  // evidence without running values (idle)
 }
 
 // NewEngine builds the engine for s with cfg (zero fields take defaults).
@@ -84,6 +85,7 @@ func newEngine(s *site.Site, cfg Config, pf physicsFactory) (*Engine, error) {
 	en.perfAlpha = alphaFor(float64(c.stepsFor(30)))
 	en.facAlpha = alphaFor(c.FactorHours * en.stepsPerHour)
 	en.respDecay = math.Exp(-respStatsEvery / (c.ResponseHours * en.stepsPerHour))
+	en.idleTmpl = en.idleTemplate()
 
 	en.terms = make([]termStatic, len(s.Terminals))
 	en.state = make([]termState, len(s.Terminals))

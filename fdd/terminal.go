@@ -278,23 +278,31 @@ func (en *Engine) responseCadence(st *termState, s *collector.Sample) {
 }
 
 // idle writes the evidence of a sample that gives no running evidence (a
-// data gate or the fan off): the inputs and the data-quality counters, every
-// computed value NaN or zero, in field order.
+// data gate or the fan off): the inputs and the data-quality counters over
+// the engine's idle template (every computed value NaN or zero), one block
+// copy and a few fields instead of a store per field.
 func (en *Engine) idle(e *Evidence, s *collector.Sample, st *termState, in *inputs, g Gate, learning bool) {
+	*e = en.idleTmpl
 	e.Terminal, e.At, e.Gates = s.Terminal, s.At, g
-	e.Usable, e.Steady, e.PlantOn, e.FanOn, e.Occupied = false, false, in.plantOn, in.fanOn, s.Occupied
-	e.ValveFrac, e.AirflowM3s, e.SupplyC, e.DischargeC, e.HotWaterC, e.DATSetC = in.u, in.v, in.sat, in.dat, in.hw, nan
-	e.ObservedRiseK, e.ExpectedRiseK, e.SigmaK, e.ResidualK, e.PerfIndex = nan, nan, nan, nan, nan
-	e.UAFactor, e.UAFactorSigma, e.FlowFactor, e.FlowFactorSigma, e.ShortfallHighK, e.ShortfallLowK = nan, nan, nan, nan, nan, nan
-	e.LeakRiseK, e.LeakFlowFrac, e.ClosedMinutes, e.OffsetK, e.RiseValveCorr, e.RiseSpanK, e.ValveSpan = nan, nan, 0, nan, nan, nan, nan
-	e.ReversalsPerHour, e.DATFlatMinutes, e.CUSUMLowK, e.EWMAResid = 0, float64(st.flatRun)*en.minPerStep, nan, nan
+	e.PlantOn, e.FanOn, e.Occupied = in.plantOn, in.fanOn, s.Occupied
+	e.ValveFrac, e.AirflowM3s, e.SupplyC, e.DischargeC, e.HotWaterC = in.u, in.v, in.sat, in.dat, in.hw
+	e.DATFlatMinutes = float64(st.flatRun) * en.minPerStep
+	e.Learning = learning
+	e.DATBadMinutes = float64(st.datBadRun) * en.minPerStep
+}
+
+// idleTemplate is the evidence of a sample without running evidence, less
+// the sample's own values (idle fills those): every computed value NaN, the
+// durations and energies 0, no score, the engine's EWMA limit.
+func (en *Engine) idleTemplate() Evidence {
+	var e Evidence
+	setNaN(&e)
+	e.ValveFrac, e.AirflowM3s, e.SupplyC, e.DischargeC, e.HotWaterC = nan, nan, nan, nan, nan
+	e.ClosedMinutes, e.ReversalsPerHour, e.DATFlatMinutes, e.DATBadMinutes = 0, 0, 0, 0
 	e.Scores, e.Best = [kindCount]float64{}, KindNone
 	e.WastedHeatW, e.AddedCoolingW, e.ShortfallW = 0, 0, 0
-	e.Learning, e.DATMinusSATK, e.LeakSigmaK, e.ExpectedSpanK, e.DesignPerfIndex, e.LoopShort = learning, nan, nan, nan, nan, false
-	e.ZScore, e.EWMALimit, e.DATBadMinutes, e.LeakFlowM3s = nan, en.ewmaLim, float64(st.datBadRun)*en.minPerStep, nan
-	e.PerfAvg, e.PerfHigh, e.PerfLow = nan, nan, nan
-	e.ClosedOffsetK, e.ClosedOffsetSigmaK, e.ClosedHeatK, e.ClosedCapacityFrac, e.PerfHighLast = nan, nan, nan, nan, nan
-	e.StarvedShare, e.ClosedRiseK, e.OnsetHours, e.RejectedUAFactor, e.ZoneDeficitK = nan, nan, nan, nan, nan
+	e.EWMALimit = en.ewmaLim
+	return e
 }
 
 // inputsSteady checks the full-window steadiness of valve, airflow, SAT and
