@@ -15,10 +15,11 @@ import (
 // checkpoint becomes the sequence number R from which every record stamped
 // at or after readFrom = W − lookback is read again:
 //
-//	R = the lowest sequence number delivered since the last commit whose
-//	    record, or any record delivered after it, is stamped at or after
-//	    readFrom; the log's next sequence number when every record
-//	    delivered since the last commit predates readFrom.
+//	R = the first record delivered since the last commit that is stamped
+//	    at or after readFrom (every record before it predates readFrom,
+//	    also across a device clock stepped back), or a mark a little
+//	    before it (see maxTrackMarks); the log's next sequence number when
+//	    every record delivered since the last commit predates readFrom.
 //
 // A restart reads each log from R; the assembler rebuilds the steps
 // before W from those records (its resamplers' hold) without emitting
@@ -29,7 +30,7 @@ import (
 // Unsigned32 counter wraps). A log whose buffer wrapped past R while the
 // daemon was away, or whose numbering restarted (buffer cleared, device
 // replaced), is resumed at its oldest record and the overwritten records
-// are counted in TrendResult.Lost as today; records already delivered
+// are counted in TrendResult.Lost; records already delivered
 // before a crash that the device overwrote before the restart are counted
 // there too (they cannot be read again).
 //
