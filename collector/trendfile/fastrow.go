@@ -83,8 +83,8 @@ func (p *parser) wideFast(rec []byte, line int64) {
 			p.wideSplit(rec, line, false) // fewer fields than the header
 			return
 		}
-		pos[c], st[c] = int32(i), uint8(b2i(j != 0))<<1
-		others += b2i(j != 0)
+		pos[c] = int32(i)
+		others += p.rc.plain(rec, i, i+j, c)
 		i += j + 1
 		c++
 	}
@@ -93,8 +93,7 @@ func (p *parser) wideFast(rec []byte, line int64) {
 		return
 	}
 	pos[last], pos[last+1] = int32(i), int32(len(rec)+1)
-	st[last] = uint8(b2i(i != len(rec))) << 1
-	others += b2i(i != len(rec))
+	others += p.rc.plain(rec, i, len(rec), last)
 	at, ok := p.rowTime(rec[:t], line)
 	if !ok {
 		return
@@ -126,19 +125,16 @@ func (p *parser) wideFast(rec []byte, line int64) {
 	p.ensureBatch(len(cols))
 	n := len(p.batch)
 	b := p.batch[:n+len(cols)]
-	if others == 0 {
-		// Plain decimals and blanks only.
-		for k := range cols {
+	if others == 0 && p.inOrder() {
+		// Only plain decimals, and every column a point's: reading k is
+		// column k+1.
+		row, vals := b[n:], vals[1:len(cols)+1]
+		for k := range row {
 			fc := &cols[k]
-			c := fc.col
-			if st[c] == cellSkip {
-				continue
-			}
-			r := &b[n]
-			r.Point, r.At, r.Value, r.Quality = fc.name, at, fc.convert(vals[c]), collector.Good
-			n++
+			r := &row[k]
+			r.Point, r.At, r.Value, r.Quality = fc.name, at, fc.convert(vals[k]), collector.Good
 		}
-		p.batch = b[:n]
+		p.batch = b
 		p.st.Rows++
 		return
 	}
@@ -166,6 +162,38 @@ func (p *parser) wideFast(rec []byte, line int64) {
 	p.st.Rows++
 }
 
+// plain records cell rec[s:e] of column c (one scanWords stopped at)
+// and returns 1 when it is not a plain decimal.
+func (rc *rowCells) plain(rec []byte, s, e, c int) int {
+	if s == e {
+		rc.st[c] = cellSkip
+		return 1
+	}
+	v, ok := plainCell(rec, s, e)
+	if !ok {
+		rc.st[c] = cellOther
+		return 1
+	}
+	rc.vals[c], rc.st[c] = v, cellValue
+	return 0
+}
+
+// inOrder says whether column k+1 feeds fcols[k] for every column.
+func (p *parser) inOrder() bool {
+	if p.order == 0 {
+		p.order = 1
+		for k, fc := range p.fastCols() {
+			if fc.col != k+1 {
+				p.order = 2
+			}
+		}
+		if len(p.fcols) != p.ncols-1 {
+			p.order = 2
+		}
+	}
+	return p.order == 1
+}
+
 // convert turns a number read in column fc's unit into SI (0/1 for a
 // binary point).
 func (fc *fastCol) convert(v float64) float64 {
@@ -187,8 +215,9 @@ func (p *parser) fastValue(rec []byte, s, e int, fc *fastCol, line int64) (float
 // scanWords reads the cells of rec from column c, which starts at byte
 // i, while each lies with its delimiter in the 64-bit word at its start
 // (at most seven bytes), up to column last (exclusive), and returns the
-// byte and column where it stopped: at a longer cell, at one in the
-// record's last eight bytes, or at last. For each cell it records its
+// byte and column where it stopped (at a longer cell, at one in the
+// record's last eight bytes, or at last) and how many of the cells it
+// read are not plain decimals. For each cell it records its
 // start (pos) and, when the cell is a plain decimal ([-]digits with at
 // most one point, ".5" and "5." too), its value (st cellValue, vals);
 // else st is cellSkip for a blank cell and cellOther for the rest.
@@ -233,6 +262,7 @@ func scanWordsGo(rec []byte, i, c, last int, pat uint64, vals []float64, st []ui
 		i += k + 1
 		if k == 0 {
 			st[c] = cellSkip
+			others++
 			continue
 		}
 		sh := b2i(w&0xFF == '-')

@@ -39,6 +39,7 @@ type parser struct {
 	cols               []mapped
 	fcols              []fastCol // cols with their conversions (wide fast path)
 	rc                 rowCells  // the wide fast path's per-column scratch
+	order              uint8     // inOrder: 0 not known yet, 1 yes, 2 no
 
 	fields  [][]byte
 	scratch []byte
