@@ -43,9 +43,10 @@ func twmDAT(i, m int) float64 { return 75 + float64((m*7+i*5)%41)/4 }
 
 // TestDaemonBACnetTrendHistoryKill9 runs the daemon (in a child process,
 // with lifecycle snapshots every 100 ms so the watermark moves often)
-// against simulated controllers holding three days of trend logs, kills it
-// with SIGKILL at random moments of the backfill again and again, then lets
-// a last run finish and stops it. InfluxDB is unreachable throughout, so
+// against simulated controllers holding days of trend logs, kills it with
+// SIGKILL at random moments of the backfill again and again while the
+// controllers log on between runs (three days in all), then lets a last
+// run finish and stops it. InfluxDB is unreachable throughout, so
 // every step's points stay in the store's outbox, which is then read
 // directly: every minute of the history has its step for every terminal,
 // with the logged discharge temperature (not a value held over a lost
@@ -60,28 +61,35 @@ func TestDaemonBACnetTrendHistoryKill9(t *testing.T) {
 	c := startCampus(t, CampusConfig{Groups: 1, PerGroup: twmTerminals, PollInterval: 2 * time.Second, Timeout: 500 * time.Millisecond, Retries: 2})
 	end := time.Now().UTC().Truncate(time.Minute).Add(-time.Minute)
 	t0 := end.Add(-twmHistory * time.Minute)
-	for i, d := range c.Terminals {
+	ahu := c.AHUs[0].Dev
+	for _, d := range c.Terminals {
 		d.Dev.AddTrendLog(bacnetdev.TrendLogConfig{Instance: twmLogDAT, Logged: ObjDischarge, BufferSize: twmHistory + 100})
 		d.Dev.AddTrendLog(bacnetdev.TrendLogConfig{Instance: twmLogZone, Logged: ObjZone, BufferSize: twmHistory/5 + 100})
-		for m := 0; m < twmHistory; m++ {
-			at := t0.Add(time.Duration(m) * time.Minute)
-			if err := d.Dev.Record(twmLogDAT, at, twmDAT(i, m), [4]bool{}); err != nil {
-				t.Fatal(err)
-			}
-			if m%5 == 0 {
-				if err := d.Dev.Record(twmLogZone, at, 70+float64(m/5%9)/4, [4]bool{}); err != nil {
+	}
+	ahu.AddTrendLog(bacnetdev.TrendLogConfig{Instance: twmLogSAT, Logged: ObjSAT, BufferSize: twmHistory + 100})
+	logged := 0 // minutes of the history in the logs so far
+	logTo := func(n int) {
+		for ; logged < n; logged++ {
+			m, at := logged, t0.Add(time.Duration(logged)*time.Minute)
+			for i, d := range c.Terminals {
+				if err := d.Dev.Record(twmLogDAT, at, twmDAT(i, m), [4]bool{}); err != nil {
 					t.Fatal(err)
 				}
+				if m%5 == 0 {
+					if err := d.Dev.Record(twmLogZone, at, 70+float64(m/5%9)/4, [4]bool{}); err != nil {
+						t.Fatal(err)
+					}
+				}
+			}
+			if err := ahu.Record(twmLogSAT, at, 55+float64(m%11)/4, [4]bool{}); err != nil {
+				t.Fatal(err)
 			}
 		}
 	}
-	ahu := c.AHUs[0].Dev
-	ahu.AddTrendLog(bacnetdev.TrendLogConfig{Instance: twmLogSAT, Logged: ObjSAT, BufferSize: twmHistory + 100})
-	for m := 0; m < twmHistory; m++ {
-		if err := ahu.Record(twmLogSAT, t0.Add(time.Duration(m)*time.Minute), 55+float64(m%11)/4, [4]bool{}); err != nil {
-			t.Fatal(err)
-		}
-	}
+	// The newest 1320 minutes are logged while the daemon is down, 220
+	// after each kill (stamped before the wall clock, so before any polled
+	// value).
+	logTo(twmHistory - 6*220)
 
 	dir := t.TempDir()
 	data := filepath.Join(dir, "data")
@@ -118,12 +126,12 @@ func TestDaemonBACnetTrendHistoryKill9(t *testing.T) {
 
 	// Kill -9 at random moments of the backfill: once a run has analysed a
 	// random number of steps (each run resumes from its watermark; six
-	// runs of at most 650 steps stay inside the 4320 minutes).
+	// runs of at most 500 steps stay well inside the history logged).
 	rng := rand.New(rand.NewPCG(21, 22))
 	kills, moved := 0, 0
 	for run := 0; run < 6; run++ {
 		ch := startTestChild(t, cfg, logFile)
-		want := float64(1 + rng.IntN(650))
+		want := float64(1 + rng.IntN(500))
 		waitForQuick(t, 30*time.Second, fmt.Sprintf("run %d to analyse %g steps", run, want), func() bool { return steps(ch) >= want }, logFile)
 		ch.kill9()
 		kills++
@@ -140,6 +148,10 @@ func TestDaemonBACnetTrendHistoryKill9(t *testing.T) {
 		if !w.IsZero() && seq > 0 {
 			moved++
 		}
+		logTo(logged + 220) // the controllers log on while the daemon is down
+	}
+	if logged != twmHistory {
+		t.Fatalf("%d minutes logged, want %d", logged, twmHistory)
 	}
 	if moved < 3 {
 		t.Errorf("a watermark and a trend-log position were stored before only %d of %d kills: the backfill was not resumed mid-way", moved, kills)
