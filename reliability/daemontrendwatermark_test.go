@@ -157,7 +157,7 @@ func TestDaemonBACnetTrendHistoryKill9(t *testing.T) {
 		t.Errorf("a watermark and a trend-log position were stored before only %d of %d kills: the backfill was not resumed mid-way", moved, kills)
 	}
 	last := startTestChild(t, cfg, logFile)
-	waitFor(t, 45*time.Second, "every terminal analysed past the end of the history", func() bool {
+	waitFor(t, 60*time.Second, "every terminal analysed past the end of the history", func() bool {
 		return !newest(last).Before(end)
 	}, logFile)
 	last.stop()
