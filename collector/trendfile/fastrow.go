@@ -276,8 +276,9 @@ func scanWordsGo(rec []byte, i, c, last int, pat uint64, vals []float64, st []ui
 		hasDot := b2i(dots != 0)
 		nd := nb - hasDot
 		frac := (nb - 1 - int(pt)) & -hasDot
+		// A second point is left in the digits and fails their test.
 		tt := ((x & low7) + 0x76*ones8) | x
-		if dots&(dots-1) != 0 || nd <= 0 || tt&high8&keepBytes[nd&7] != 0 {
+		if nd <= 0 || tt&high8&keepBytes[nd&7] != 0 {
 			st[c] = cellOther
 			others++
 			continue
