@@ -33,7 +33,7 @@ type Engine struct {
 	tempSlope, tempVar, valveVar, hwSlope    float64
 	ewmaLim, sig2Closed, leakSigma           float64
 	sig2DAT, sig2EAT                         float64 // σ_DAT² and σ_SAT² + σ_g² (residualVar)
-	thresholdBits                            uint64  // bits of a positive ScoreThreshold (0 for a threshold ≤ 0: see mayReach)
+	thresholdBits                            uint64  // bits of a positive ScoreThreshold (0 for a threshold ≤ 0: see scoreSignatures)
 	revAlpha, leakAlpha, offAlpha, perfAlpha float64
 	facAlpha, respDecay                      float64
 

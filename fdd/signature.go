@@ -137,44 +137,37 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 		starved = capLoss * sharp(sv) * (1 - unresp)
 	}
 
-	sc := &e.Scores
-	sc[KindNone] = 0
-	sc[KindLeakingValve] = leak
-	sc[KindStuckValve] = fmax(fmax(unresp, stuckOpen), noHeat)
-	sc[KindFouledCoil] = fouled
-	sc[KindStarvedCoil] = starved
-	sc[KindColdLoop] = 0
+	stuck := fmax(fmax(unresp, stuckOpen), noHeat)
 	neg := ramp(-e.ClosedRiseK, offsetLoK, offsetHiK) // DAT below SAT with the fan on and the valve closed: impossible
-	sc[KindDATOffset] = fmax(ramp(math.Abs(off), offsetLoK, offsetHiK), neg)
-	sc[KindDATFailed] = datFailedScore(e, st, cfg.FlatlineMinutes)
-	sc[KindReversedValve] = rev
-	sc[KindHunting] = ramp(e.ReversalsPerHour, huntLo, huntHi)
-	sc[KindLowDischarge] = 0
+	offset := fmax(ramp(math.Abs(off), offsetLoK, offsetHiK), neg)
+	datFailed := datFailedScore(e, st, cfg.FlatlineMinutes)
+	hunting := ramp(e.ReversalsPerHour, huntLo, huntHi)
+	var lowDAT float64
 	if finite(e.DATSetC) && e.PlantOn {
 		// Guideline 36 §5.6.6 low-DAT alarm: ≥ 8 K (15 °F) below setpoint.
-		sc[KindLowDischarge] = ramp(e.DATSetC-e.DischargeC, 0.5*cfg.LowDischargeK, cfg.LowDischargeK)
+		lowDAT = ramp(e.DATSetC-e.DischargeC, 0.5*cfg.LowDischargeK, cfg.LowDischargeK)
 	}
-	sc[KindDataQuality] = 0
+	sc := &e.Scores
+	sc[KindNone], sc[KindLeakingValve], sc[KindStuckValve], sc[KindFouledCoil] = 0, leak, stuck, fouled
+	sc[KindStarvedCoil], sc[KindColdLoop], sc[KindDATOffset], sc[KindDATFailed] = starved, 0, offset, datFailed
+	sc[KindReversedValve], sc[KindHunting], sc[KindLowDischarge], sc[KindDataQuality] = rev, hunting, lowDAT, 0
+	// A branch-free pre-test for bestKind on scores that are all finite and
+	// ≥ 0: their IEEE 754 bit patterns order like the values, and the
+	// bitwise OR of several patterns is at least the largest, so an OR below
+	// the threshold's pattern (or zero: every score 0) means no score
+	// reaches it and Best is KindNone. The kinds scored 0 here add nothing
+	// to the OR.
 	e.Best = KindNone
-	if mayReach(sc, en.thresholdBits) {
+	or := math.Float64bits(leak) | math.Float64bits(stuck) | math.Float64bits(fouled) | math.Float64bits(starved) |
+		math.Float64bits(offset) | math.Float64bits(datFailed) | math.Float64bits(rev) | math.Float64bits(hunting) |
+		math.Float64bits(lowDAT)
+	if or != 0 && or >= en.thresholdBits {
 		e.Best = bestKind(sc, cfg.ScoreThreshold)
 	}
 }
 
-// mayReach is a branch-free pre-test for bestKind on scores that are all
-// finite and ≥ 0: their IEEE 754 bit patterns order like the values, and the
-// bitwise OR of several patterns is at least the largest, so an OR below the
-// threshold's pattern (or zero: every score 0) means no score reaches it and
-// Best is KindNone.
-func mayReach(sc *[kindCount]float64, thresholdBits uint64) bool {
-	or := math.Float64bits(sc[0]) | math.Float64bits(sc[1]) | math.Float64bits(sc[2]) | math.Float64bits(sc[3]) |
-		math.Float64bits(sc[4]) | math.Float64bits(sc[5]) | math.Float64bits(sc[6]) | math.Float64bits(sc[7]) |
-		math.Float64bits(sc[8]) | math.Float64bits(sc[9]) | math.Float64bits(sc[10]) | math.Float64bits(sc[11])
-	return or != 0 && or >= thresholdBits
-}
-
-// mayReach ORs kindCount = 12 scores by hand: these fail to compile when a
-// kind is added, so the list above is kept complete.
+// scoreSignatures writes all kindCount = 12 scores by hand: these fail to
+// compile when a kind is added, so the assignments above are kept complete.
 var (
 	_ [kindCount - 12]struct{}
 	_ [12 - kindCount]struct{}
