@@ -19,7 +19,7 @@ type bacnetVecs struct {
 	retries *prometheus.CounterVec
 }
 
-func newBACnetVecs(reg *prometheus.Registry) *bacnetVecs {
+func newBACnetVecs(reg registerer) *bacnetVecs {
 	v := &bacnetVecs{
 		dropped: prometheus.NewCounterVec(prometheus.CounterOpts{Namespace: namespace, Subsystem: "bacnet", Name: "frames_dropped_total",
 			Help: "Frames received by a BACnet source's client and dropped, by reason."}, []string{"source", "reason"}),

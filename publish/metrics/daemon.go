@@ -29,7 +29,7 @@ func (m *Metrics) newDaemonMetrics(build prometheus.Labels) {
 		Help: "Line-protocol bytes waiting in the durable InfluxDB buffer."})
 	m.outbox = prometheus.NewGaugeVec(prometheus.GaugeOpts{Namespace: namespace, Subsystem: "outbox", Name: "pending_items",
 		Help: "Side effects waiting in the outbox, by channel."}, []string{"channel"})
-	m.reg.MustRegister(info, m.steps, m.stepDuration, m.bufItems, m.bufBytes, m.outbox)
+	m.both().MustRegister(info, m.steps, m.stepDuration, m.bufItems, m.bufBytes, m.outbox)
 }
 
 // StepDone records one completed analysis step that took d.

@@ -42,7 +42,11 @@
 // risewatch_fault_active are custom collectors that build constant metrics
 // at scrape time from flat arrays (twelve float64 values and two kind bit
 // masks per terminal, 112 octets), with label values taken from the site
-// model. A scrape allocates its series and drops them afterwards.
+// model. /metrics streams these families as text from a copy of the
+// arrays (stream.go) instead of gathering them into dto objects, so a scrape
+// of 5,000 terminals allocates about 1.4 MB (the copy and the gzip writer)
+// rather than a dto.Metric per series; the output is byte for byte the
+// registry's. Protobuf and OpenMetrics 2.0 scrapes take the registry's path.
 //
 // # Metrics
 //
@@ -87,5 +91,6 @@
 //	risewatch_build_info{version,revision,goversion}, risewatch_analysis_steps_total,
 //	risewatch_analysis_step_duration_seconds, risewatch_influx_buffer_items,
 //	risewatch_influx_buffer_bytes, risewatch_outbox_pending_items{channel},
-//	risewatch_metrics_unknown_entity_total, and the Go runtime and process collectors.
+//	risewatch_metrics_unknown_entity_total, and the Go runtime and process collectors
+//	(with go_gc_heap_live_bytes, the live heap that daemon.memory_limit is sized against).
 package metrics

@@ -17,6 +17,11 @@ var loopKinds = map[fdd.Kind]bool{fdd.KindColdLoop: true}
 // kindMask is a set of fault kinds, bit k for fdd.Kind k.
 type kindMask uint64
 
+const (
+	faultActiveName = namespace + "_fault_active"
+	faultActiveHelp = "1 while a fault of this kind is open or acknowledged on the terminal (or loop/AHU), else 0."
+)
+
 // faultCollector exports risewatch_fault_active at scrape time from one
 // pair of bit masks per entity: which kinds are active, and which kinds
 // have a series (every terminal kind on every terminal from the start,
@@ -34,9 +39,7 @@ type faultCollector struct {
 type entityFaults struct{ active, shown kindMask }
 
 func (m *Metrics) newFaultMetrics() {
-	fc := &faultCollector{m: m, desc: prometheus.NewDesc(prometheus.BuildFQName(namespace, "fault", "active"),
-		"1 while a fault of this kind is open or acknowledged on the terminal (or loop/AHU), else 0.",
-		[]string{"site", "terminal", "ahu", "loop", "kind"}, nil),
+	fc := &faultCollector{m: m, desc: prometheus.NewDesc(faultActiveName, faultActiveHelp, []string{"site", "terminal", "ahu", "loop", "kind"}, nil),
 		term: make([]entityFaults, len(m.site.Terminals)), loop: make([]entityFaults, len(m.site.Loops)),
 		ahu: make([]entityFaults, len(m.site.AHUs))}
 	m.faults = fc
@@ -48,7 +51,8 @@ func (m *Metrics) newFaultMetrics() {
 		Namespace: namespace, Subsystem: "metrics", Name: "unknown_entity_total",
 		Help: "Evidence or transitions naming an entity that is not in the site (not exported).",
 	})
-	m.reg.MustRegister(fc, m.trans, m.unknown)
+	m.reg.MustRegister(fc) // streamed by the handler, not in m.small
+	m.both().MustRegister(m.trans, m.unknown)
 	var termKinds, loopMask kindMask
 	for _, k := range fdd.AllKinds() {
 		if loopKinds[k] {

@@ -74,7 +74,7 @@ type sourceVecs struct {
 	last, stale     *prometheus.GaugeVec
 }
 
-func newSourceVecs(reg *prometheus.Registry) *sourceVecs {
+func newSourceVecs(reg registerer) *sourceVecs {
 	l := []string{"source"}
 	v := &sourceVecs{
 		reads: prometheus.NewCounterVec(prometheus.CounterOpts{Namespace: namespace, Subsystem: "source", Name: "reads_total",

@@ -66,11 +66,11 @@ func (m *Metrics) newTerminalMetrics() {
 		tc.descs[i] = prometheus.NewDesc(prometheus.BuildFQName(namespace, "terminal", d.name), d.help, terminalLabels, nil)
 	}
 	m.term = tc
-	m.reg.MustRegister(tc)
+	m.reg.MustRegister(tc) // streamed by the handler, not in m.small
 
 	lgv := func(name, help string) *prometheus.GaugeVec {
 		v := prometheus.NewGaugeVec(prometheus.GaugeOpts{Namespace: namespace, Subsystem: "loop", Name: name, Help: help}, []string{"site", "loop"})
-		m.reg.MustRegister(v)
+		m.both().MustRegister(v)
 		return v
 	}
 	supply := lgv("supply_temperature_celsius", "Hot-water loop supply temperature.")
