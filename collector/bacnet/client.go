@@ -105,7 +105,10 @@ type Client struct {
 // peer holds the open transactions toward one address, keyed by invoke ID.
 type peer struct {
 	next uint8
-	open [256]*txn
+	// open holds the transactions in flight by invoke ID: a map, not a
+	// 256-slot array, because a device has a few in flight at most and a
+	// campus has one peer per controller (2 KiB each as an array).
+	open map[uint8]*txn
 	free chan struct{} // signalled when an ID is released
 }
 

@@ -18,7 +18,11 @@ import (
 
 // point is one configured BACnet point, resolved to wire identifiers.
 type point struct {
-	ref    site.PointRef
+	// From the site's point reference, only what reads use (the whole
+	// reference is about 100 octets; a campus has 30,000 points).
+	name   string
+	unit0  string // unit as configured (the units check)
+	binary bool   // configured as a state
 	device uint32
 	object wire.ObjectID
 	prop   wire.PropertyID
@@ -73,7 +77,8 @@ func NewSource(name string, cfg site.BACnetConfig, refs []site.PointRef, cp Chec
 	if loc == nil {
 		loc = time.UTC
 	}
-	s := &Source{name: name, cfg: cfg, cp: cp, loc: loc, log: log, devices: map[uint32]*Device{}, Workers: 64}
+	s := &Source{name: name, cfg: cfg, cp: cp, loc: loc, log: log, devices: map[uint32]*Device{}, Workers: 64,
+		points: make([]point, 0, len(refs))}
 	var errs []error
 	for _, r := range refs {
 		if r.Kind != site.PointBACnet || r.BACnet == nil {
@@ -101,7 +106,7 @@ func resolvePoint(r site.PointRef) (point, error) {
 	if err != nil {
 		return point{}, err
 	}
-	p := point{ref: r, device: b.Device, object: wire.ObjectID{Type: typ, Instance: b.Instance}, prop: prop, trend: b.TrendLog}
+	p := point{name: r.Name, unit0: r.Unit, binary: r.Binary, device: b.Device, object: wire.ObjectID{Type: typ, Instance: b.Instance}, prop: prop, trend: b.TrendLog}
 	if r.Unit != "" && !r.Binary && !typ.IsBinary() {
 		u, err := units.ParseUnit(r.Unit)
 		if err != nil {
@@ -233,7 +238,7 @@ func (s *Source) Start(ctx context.Context) error {
 func (s *Source) checkUnits(ctx context.Context) {
 	byDev := map[uint32][]int{}
 	for i, p := range s.points {
-		if p.prop == wire.PropPresentValue && !p.object.Type.IsBinary() && !p.ref.Binary {
+		if p.prop == wire.PropPresentValue && !p.object.Type.IsBinary() && !p.binary {
 			byDev[p.device] = append(byDev[p.device], i)
 		}
 	}
@@ -254,12 +259,12 @@ func (s *Source) checkUnits(ctx context.Context) {
 			if r.Err != nil || len(r.Values) != 1 || r.Values[0].Tag != wire.TagEnumerated {
 				continue
 			}
-			uc := checkUnit(p.ref.Name, p.ref.Unit, EngineeringUnit(r.Values[0].U))
+			uc := checkUnit(p.name, p.unit0, EngineeringUnit(r.Values[0].U))
 			if du, ok := UnitOf(uc.Device); ok {
 				p.unit, p.hasU = du, true // the device says what its numbers mean
 			}
 			if uc.Mismatch {
-				s.log.Warn("bacnet: units disagree with the configuration", "source", s.name, "point", p.ref.Name, "detail", uc.Message)
+				s.log.Warn("bacnet: units disagree with the configuration", "source", s.name, "point", p.name, "detail", uc.Message)
 			}
 			checks = append(checks, uc)
 		}
@@ -298,7 +303,7 @@ func (p *point) convert(v float64, flags wire.BitString, hasFlags bool) (float64
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		return 0, collector.Missing
 	}
-	if p.object.Type.IsBinary() || p.ref.Binary {
+	if p.object.Type.IsBinary() || p.binary {
 		if v != 0 {
 			return 1, q
 		}
@@ -348,7 +353,7 @@ func (s *Source) pollDevice(ctx context.Context, inst uint32, idx []int, now tim
 	d := s.devices[inst]
 	if d == nil {
 		for _, i := range idx {
-			out[i] = Reading(s.points[i].ref.Name, now)
+			out[i] = Reading(s.points[i].name, now)
 		}
 		s.reportFailure(ReadFailure{Source: s.name, Device: inst, Kind: FailNotFound, Reason: "device not found at start", Points: len(idx)})
 		return
@@ -382,7 +387,7 @@ func (s *Source) pollDevice(ctx context.Context, inst uint32, idx []int, now tim
 	k := 0
 	for _, i := range idx {
 		p := &s.points[i]
-		r := Reading(p.ref.Name, now)
+		r := Reading(p.name, now)
 		val := res[k]
 		var flags wire.BitString
 		hasFlags := false

@@ -132,11 +132,11 @@ func (s *Source) SweepTrends(ctx context.Context, emit func([]collector.Reading)
 	for _, l := range logs {
 		res := l.cur.res
 		if res.Lost > 0 || res.Reset {
-			s.log.Warn("bacnet: trend log lost records before they were read", "source", s.name, "point", l.p.ref.Name,
+			s.log.Warn("bacnet: trend log lost records before they were read", "source", s.name, "point", l.p.name,
 				"device", l.p.device, "trend_log", *l.p.trend, "lost", res.Lost, "renumbered", res.Reset)
 		}
 		if l.err != nil {
-			errs = append(errs, fmt.Errorf("point %s: %w", l.p.ref.Name, l.err))
+			errs = append(errs, fmt.Errorf("point %s: %w", l.p.name, l.err))
 		}
 	}
 	if err := ctx.Err(); err != nil {
@@ -231,7 +231,7 @@ func (s *Source) parallel(logs []*sweepLog, fn func(*sweepLog)) {
 // markers are not values and are left out).
 func (p *point) appendReadings(out []collector.Reading, recs []TrendRecord) []collector.Reading {
 	for _, rec := range recs {
-		r := Reading(p.ref.Name, rec.At)
+		r := Reading(p.name, rec.At)
 		switch {
 		case rec.Numeric():
 			r.Value, r.Quality = p.convert(rec.Value, rec.Flags, rec.HasFlags)

@@ -35,7 +35,7 @@ type result struct {
 func (c *Client) peerFor(a Address) *peer {
 	p, ok := c.peers[a]
 	if !ok {
-		p = &peer{free: make(chan struct{}, 1)}
+		p = &peer{open: map[uint8]*txn{}, free: make(chan struct{}, 1)}
 		c.peers[a] = p
 	}
 	return p
@@ -73,7 +73,7 @@ func (c *Client) closeTxn(t *txn) {
 	c.mu.Lock()
 	p := c.peers[t.addr]
 	if p != nil && p.open[t.id] == t {
-		p.open[t.id] = nil
+		delete(p.open, t.id)
 		select {
 		case p.free <- struct{}{}:
 		default:
