@@ -29,6 +29,9 @@ const (
 	// DefaultPurgeEvery is how often sent outbox rows older than
 	// outbox_keep are deleted.
 	DefaultPurgeEvery = time.Hour
+	// DefaultLatenessSteps caps the default lateness in steps (see
+	// Config.Lateness): 60 steps is the 1 h default at the 1 min step.
+	DefaultLatenessSteps = 60
 )
 
 // Config is the daemon: section of a site file. Secrets are never held
@@ -38,7 +41,11 @@ type Config struct {
 	DataDir string        `yaml:"data_dir"`
 	Listen  string        `yaml:"listen"`
 	Step    time.Duration `yaml:"step"` // analysis grid; default 1 min
-	// Lateness bounds how long a step waits for a lagging source.
+	// Lateness bounds how long a step waits for a lagging source. Default
+	// collector.DefaultLateness (1 h), or DefaultLatenessSteps steps when
+	// that is shorter: the assembler holds every point's values for
+	// lateness/step steps, so a 10 s step with a 1 h lateness would hold
+	// six times what the default 1 min step does.
 	Lateness time.Duration `yaml:"lateness"`
 	Rules    string        `yaml:"rules"` // site rules file (overrides and additions)
 	// PersistEvery is how often baselines and plot series go to the store
@@ -55,12 +62,17 @@ type Config struct {
 	Influx    InfluxConfig `yaml:"influx"`
 	Report    ReportConfig `yaml:"report"`
 	Shards    []Shard      `yaml:"shards"`
+	// MemoryLimit is the Go runtime's soft memory limit: "auto" (default,
+	// from the shard's terminal count), "off" or a size such as "160MiB"
+	// (see MemLimitBase). A GOMEMLIMIT environment variable wins.
+	MemoryLimit string `yaml:"memory_limit"`
 
 	// Set by the decoder, not from YAML.
-	File string     `yaml:"-"`
-	Line int        `yaml:"-"`
-	node *yaml.Node `yaml:"-"`
-	loc  *time.Location
+	File     string     `yaml:"-"`
+	Line     int        `yaml:"-"`
+	node     *yaml.Node `yaml:"-"`
+	loc      *time.Location
+	memLimit memLimit
 }
 
 // WebConfig configures the dashboard listener.
@@ -171,6 +183,11 @@ func (c *Config) validate(el *errList) {
 	}
 	if c.Lateness < 0 || c.Lateness > 48*time.Hour {
 		el.at(at("lateness"), "daemon: lateness %s: expected 0 to 48h", c.Lateness)
+	}
+	if ml, err := parseMemLimit(c.MemoryLimit); err != nil {
+		el.at(at("memory_limit"), "daemon: memory_limit %v", err)
+	} else {
+		c.memLimit = ml
 	}
 	if c.OutboxKeep < time.Hour {
 		el.at(at("outbox_keep"), "daemon: outbox_keep %s: expected at least 1h (sent rows are kept to de-duplicate replays)", c.OutboxKeep)

@@ -53,6 +53,8 @@ func TestDaemonSectionErrors(t *testing.T) {
 		{"daemon:\n  report:\n    readiness: {supply: 300 F}\n", "daemon: report: readiness: supply 300 F: must be 77 to 230"},
 		{"daemon:\n  report:\n    readiness: {delta_t: 20 F}\n", "readiness: supply is required"},
 		{"daemon:\n  report:\n    readiness:\n      supply: 120 F\n      branch_dp: 5 cfm\n", pos(4, 18) + "daemon: report: readiness: branch_dp: "},
+		{"daemon:\n  memory_limit: lots\n", pos(1, 17) + "daemon: memory_limit \"lots\": expected auto, off or a size"},
+		{"daemon:\n  memory_limit: 4MiB\n", pos(1, 17) + "daemon: memory_limit \"4MiB\": below 16MiB"},
 	}
 	for _, tc := range cases {
 		s, err := site.Parse("t.yaml", []byte(base+tc.daemon))
@@ -67,6 +69,43 @@ func TestDaemonSectionErrors(t *testing.T) {
 		}
 		if !strings.Contains(err.Error(), tc.want) {
 			t.Errorf("%q: %v\nwant %q", tc.daemon, err, tc.want)
+		}
+	}
+}
+
+// TestMemoryLimit: memory_limit decodes to the limit the process applies:
+// auto from the terminal count, an explicit size, or none.
+func TestMemoryLimit(t *testing.T) {
+	minimal, err := os.ReadFile("../configs/minimal.yaml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	base := strings.TrimRight(string(minimal), "\n") + "\n"
+	cases := []struct {
+		section string
+		want    int64
+		ok      bool
+	}{
+		{"", MemLimitBase + 5000*MemLimitPerTerminal, true},
+		{"daemon:\n  memory_limit: auto\n", MemLimitBase + 5000*MemLimitPerTerminal, true},
+		{"daemon:\n  memory_limit: 160MiB\n", 160 << 20, true},
+		{"daemon:\n  memory_limit: 1.5 GiB\n", 3 << 29, true},
+		{"daemon:\n  memory_limit: 200MB\n", 200e6, true},
+		{"daemon:\n  memory_limit: \"off\"\n", 0, false},
+		{"daemon:\n  memory_limit: off\n", 0, false},
+	}
+	for _, tc := range cases {
+		s, err := site.Parse("t.yaml", []byte(base+tc.section))
+		if err != nil {
+			t.Fatalf("site: %v", err)
+		}
+		c, err := DecodeConfig(s)
+		if err != nil {
+			t.Fatalf("%q: %v", tc.section, err)
+		}
+		got, ok := c.MemoryLimitFor(5000)
+		if got != tc.want || ok != tc.ok {
+			t.Errorf("%q: limit %d, %v; want %d, %v", tc.section, got, ok, tc.want, tc.ok)
 		}
 	}
 }

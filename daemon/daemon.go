@@ -76,6 +76,7 @@ type Daemon struct {
 
 	mu     sync.Mutex
 	cur    *pipeline
+	last   *plan // the newest accepted configuration
 	addr   net.Addr
 	ready  chan struct{}
 	reload chan *plan
@@ -112,6 +113,7 @@ func New(opts Options) (*Daemon, *plan, error) {
 	if err != nil {
 		return nil, nil, err
 	}
+	d.last = p
 	return d, p, nil
 }
 
@@ -189,6 +191,9 @@ func (d *Daemon) Reload() error {
 	if d.st != nil && filepath.Clean(p.cfg.DataDir) != filepath.Dir(d.st.Path()) {
 		d.log.Warn("reload: data_dir changes only at restart", "running", filepath.Dir(d.st.Path()), "new", p.cfg.DataDir)
 	}
+	d.mu.Lock()
+	d.last = p
+	d.mu.Unlock()
 	select {
 	case d.reload <- p:
 	default:
@@ -197,6 +202,25 @@ func (d *Daemon) Reload() error {
 	}
 	d.log.Info("reload: new configuration accepted", "site", p.full.Name, "terminals", len(p.site.Terminals))
 	return nil
+}
+
+// MemoryLimit is the soft memory limit the newest accepted configuration
+// asks for (memory_limit, by default from the shard's terminal count; 0
+// when it is off) and whether it is the automatic one. The caller that owns
+// the process applies it (runtime/debug.SetMemoryLimit); a library user of
+// the daemon need not.
+func (d *Daemon) MemoryLimit() (bytes int64, auto bool) {
+	d.mu.Lock()
+	p := d.last
+	d.mu.Unlock()
+	if p == nil {
+		return 0, false
+	}
+	n, ok := p.cfg.MemoryLimitFor(len(p.site.Terminals))
+	if !ok {
+		return 0, false
+	}
+	return n, p.cfg.memLimit.bytes == 0
 }
 
 // Ready is closed once the dashboard listens (Addr is then set).

@@ -69,7 +69,7 @@ func newPipeline(d *Daemon, p *plan, st *store.Store, dry bool) (*pipeline, erro
 	}
 	lat := cfg.Lateness
 	if lat == 0 {
-		lat = collector.DefaultLateness
+		lat = min(collector.DefaultLateness, DefaultLatenessSteps*cfg.Step)
 	}
 	if st != nil {
 		// Committed only after the lifecycle state is stored (commit), never by Accept alone.

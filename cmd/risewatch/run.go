@@ -7,9 +7,14 @@ import (
 	"fmt"
 	"io"
 	"log/slog"
+	"math"
 	"os"
 	"os/signal"
+	"runtime/debug"
+	"runtime/metrics"
+	"sync/atomic"
 	"syscall"
+	"time"
 
 	"risewatch/daemon"
 	"risewatch/site"
@@ -28,8 +33,9 @@ func runDaemon(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	fromHost := fs.Bool("shard-from-hostname", false, "pick the shard from the StatefulSet ordinal N of POD_NAME or the hostname (risewatch-N)")
 	level := fs.String("log-level", "info", "log level: debug, info, warn, error")
 	jsonLog := fs.Bool("log-json", false, "log as JSON lines instead of text")
+	debugListen := fs.String("debug-listen", "", "serve Go runtime profiles (pprof) on this loopback address, e.g. 127.0.0.1:9471 (off by default)")
 	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: risewatch run --config FILE [--data DIR] [--listen ADDR] [--shard NAME | --shard-from-hostname]")
+		fmt.Fprintln(stderr, "usage: risewatch run --config FILE [--data DIR] [--listen ADDR] [--shard NAME | --shard-from-hostname] [--debug-listen 127.0.0.1:PORT]")
 		fs.PrintDefaults()
 	}
 	if err := fs.Parse(args); err != nil {
@@ -55,6 +61,14 @@ func runDaemon(ctx context.Context, args []string, stdout, stderr io.Writer) err
 		}
 		return err
 	}
+	var autoLimit atomic.Bool
+	autoLimit.Store(applyMemoryLimit(d, log))
+	go guardMemoryLimit(ctx, &autoLimit, log)
+	if *debugListen != "" {
+		if _, err := startDebug(ctx, *debugListen, log); err != nil {
+			return err
+		}
+	}
 	hup := make(chan os.Signal, 1)
 	signal.Notify(hup, syscall.SIGHUP)
 	defer signal.Stop(hup)
@@ -64,11 +78,65 @@ func runDaemon(ctx context.Context, args []string, stdout, stderr io.Writer) err
 			case <-ctx.Done():
 				return
 			case <-hup:
-				_ = d.Reload() // logs why a bad configuration was rejected
+				if d.Reload() == nil { // a rejected one is logged and changes nothing
+					autoLimit.Store(applyMemoryLimit(d, log))
+				}
 			}
 		}
 	}()
 	return d.Run(ctx, first)
+}
+
+// applyMemoryLimit sets the Go runtime's soft memory limit to the one the
+// configuration asks for (daemon.memory_limit), unless the GOMEMLIMIT
+// environment variable set one when the process started. It returns
+// whether the limit is the automatic one (which guardMemoryLimit may raise).
+func applyMemoryLimit(d *daemon.Daemon, log *slog.Logger) bool {
+	if v, ok := os.LookupEnv("GOMEMLIMIT"); ok {
+		log.Info("memory limit from GOMEMLIMIT; daemon.memory_limit ignored", "limit", v)
+		return false
+	}
+	limit, auto := d.MemoryLimit()
+	if limit == 0 {
+		debug.SetMemoryLimit(math.MaxInt64)
+		log.Info("memory limit off")
+		return false
+	}
+	debug.SetMemoryLimit(limit)
+	log.Info("memory limit", "MiB", limit>>20, "auto", auto)
+	return auto
+}
+
+// guardMemoryLimit keeps an automatic limit above the live heap: when the
+// live heap passes three quarters of the limit (a site whose terminals
+// hold more state than MemLimitPerTerminal allows for), the limit is
+// raised to 1.5 × the live heap, so the collector never runs back to back
+// trying to stay under a limit the live data itself exceeds.
+func guardMemoryLimit(ctx context.Context, auto *atomic.Bool, log *slog.Logger) {
+	sample := []metrics.Sample{{Name: "/gc/heap/live:bytes"}}
+	tick := time.NewTicker(30 * time.Second)
+	defer tick.Stop()
+	for {
+		select {
+		case <-ctx.Done():
+			return
+		case <-tick.C:
+		}
+		if !auto.Load() {
+			continue
+		}
+		metrics.Read(sample)
+		if sample[0].Value.Kind() != metrics.KindUint64 {
+			return
+		}
+		live, limit := int64(sample[0].Value.Uint64()), debug.SetMemoryLimit(-1)
+		if live > limit/4*3 {
+			raised := live / 2 * 3
+			debug.SetMemoryLimit(raised)
+			log.Warn("memory limit raised: the live heap is near the automatic limit (set daemon.memory_limit to choose one)",
+				"live_MiB", live>>20, "from_MiB", limit>>20, "to_MiB", raised>>20)
+		}
+	}
 }
 
 func newLogger(w io.Writer, level string, asJSON bool) (*slog.Logger, error) {
