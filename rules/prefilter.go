@@ -6,6 +6,7 @@ import (
 	"strings"
 	"unsafe"
 
+	"risewatch/fdd"
 	"risewatch/units"
 )
 
@@ -188,6 +189,51 @@ type pfWord struct {
 	ge, le   []pfLit // a ≥ t, a ≤ t
 	geD, leD []pfLit // a − b ≥ t, a − b ≤ t
 	preset   uint64  // bits of clauses a rule does not have (always hold)
+	// ge[scoreA:scoreB] are the literals score ≥ t on a signature score,
+	// every t positive, scoreMinBits the bit pattern of the smallest t
+	// (scoreB = scoreA: none, or not every t positive). See pass.
+	scoreA, scoreB int
+	scoreMinBits   uint64
+}
+
+// scoresOff and scoresEnd bound Evidence.Scores in the record (the
+// prefilter is built for terminal rules, over fdd.Evidence), nScores its
+// length.
+const (
+	scoresOff = unsafe.Offsetof(fdd.Evidence{}.Scores)
+	scoresEnd = scoresOff + unsafe.Sizeof(fdd.Evidence{}.Scores)
+	nScores   = len(fdd.Evidence{}.Scores)
+)
+
+// pass ORs the nScores = 12 scores by hand: these fail to compile when the
+// number of kinds changes, so that list is kept complete.
+var (
+	_ [nScores - 12]struct{}
+	_ [12 - nScores]struct{}
+)
+
+// scoreRun finds the signature-score literals in ls (sorted by offset, so
+// they are one run) and the bit pattern of their smallest threshold; a run
+// with a threshold that is not positive and finite is not marked.
+func scoreRun(ls []pfLit) (a, b int, minBits uint64) {
+	a = len(ls)
+	for i, l := range ls {
+		if uintptr(l.off) >= scoresOff && uintptr(l.off) < scoresEnd {
+			a = min(a, i)
+			b = i + 1
+		}
+	}
+	if b <= a {
+		return 0, 0, 0
+	}
+	tMin := math.Inf(1)
+	for _, l := range ls[a:b] {
+		if !(l.t > 0) || math.IsInf(l.t, 1) {
+			return 0, 0, 0
+		}
+		tMin = min(tMin, l.t)
+	}
+	return a, b, math.Float64bits(tMin)
 }
 
 // prefilter is the compiled prefilter of a scope's rules.
@@ -238,6 +284,7 @@ func buildPrefilter(rules []*compiled, s *schema) prefilter {
 			// Evidence read in address order.
 			sort.SliceStable(ls, func(i, j int) bool { return ls[i].off < ls[j].off })
 		}
+		pw.scoreA, pw.scoreB, pw.scoreMinBits = scoreRun(pw.ge)
 	}
 	return pf
 }
@@ -246,14 +293,25 @@ func buildPrefilter(rules []*compiled, s *schema) prefilter {
 // at the evidence struct p. The loops branch on each literal; on a healthy
 // terminal every literal fails and the branches are predicted (measured
 // faster than branch-free selects and than unrolled loops).
+//
+// The literals on signature scores are skipped together when the bitwise OR
+// of all scores' IEEE 754 bit patterns is below the pattern of their
+// smallest (positive) threshold: then every pattern is below it, so every
+// score has its sign bit clear, is no NaN and, as non-negative floats order
+// like their patterns, is below every threshold of the run. On a healthy
+// terminal every score is near 0.
 func (w *pfWord) pass(p unsafe.Pointer) uint64 {
 	m := w.preset
-	for i := range w.ge {
-		l := &w.ge[i]
-		if *(*float64)(unsafe.Add(p, l.off)) >= l.t {
-			m |= l.bit
+	ge := w.ge
+	if w.scoreB > w.scoreA {
+		sc := (*[nScores]uint64)(unsafe.Add(p, scoresOff)) // the scores' bit patterns
+		or := sc[0] | sc[1] | sc[2] | sc[3] | sc[4] | sc[5] | sc[6] | sc[7] | sc[8] | sc[9] | sc[10] | sc[11]
+		if or < w.scoreMinBits {
+			m |= passGE(ge[:w.scoreA], p) | passGE(ge[w.scoreB:], p)
+			ge = nil
 		}
 	}
+	m |= passGE(ge, p)
 	for i := range w.le {
 		l := &w.le[i]
 		if *(*float64)(unsafe.Add(p, l.off)) <= l.t {
@@ -264,6 +322,18 @@ func (w *pfWord) pass(p unsafe.Pointer) uint64 {
 		m |= w.passDiff(p)
 	}
 	return m & (m >> 1) & evenBits
+}
+
+// passGE evaluates literals a ≥ t.
+func passGE(ls []pfLit, p unsafe.Pointer) uint64 {
+	var m uint64
+	for i := range ls {
+		l := &ls[i]
+		if *(*float64)(unsafe.Add(p, l.off)) >= l.t {
+			m |= l.bit
+		}
+	}
+	return m
 }
 
 // passDiff evaluates the literals on differences of two fields.

@@ -1,0 +1,53 @@
+package rules
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+	"unsafe"
+
+	"risewatch/fdd"
+)
+
+// TestPrefilterScoreRunExact: skipping the signature-score literals on the
+// OR of the scores' bit patterns gives the same prefilter bits as
+// evaluating every literal, for scores at, just below and just above the
+// thresholds, zero of either sign, negative, NaN and infinite.
+func TestPrefilterScoreRunExact(t *testing.T) {
+	e := mustEval(t, testSite(1, 2))
+	w := &e.pf.words[0]
+	if w.scoreB <= w.scoreA {
+		t.Fatal("built-in rules: no signature-score run in the prefilter")
+	}
+	full := *w
+	full.scoreA, full.scoreB = 0, 0 // every literal evaluated
+	tMin := math.Float64frombits(w.scoreMinBits)
+	vals := []float64{0, math.Copysign(0, -1), 1e-300, math.Nextafter(tMin, 0), tMin, math.Nextafter(tMin, 1), 0.3, 0.5,
+		0.49999999999999994, 0.9, 1, -0.1, -1, math.NaN(), -math.NaN(), math.Inf(1), math.Inf(-1)}
+	rng := rand.New(rand.NewPCG(5, 9))
+	var ev fdd.Evidence
+	skipped := 0
+	for i := 0; i < 20000; i++ {
+		randEvidence(rng, &ev, 0.1)
+		for k := range ev.Scores {
+			ev.Scores[k] = 0
+			if rng.IntN(3) == 0 {
+				ev.Scores[k] = vals[rng.IntN(len(vals))]
+			}
+		}
+		p := unsafe.Pointer(&ev)
+		if got, want := w.pass(p), full.pass(p); got != want {
+			t.Fatalf("scores %v: prefilter bits %#x, every literal gives %#x", ev.Scores, got, want)
+		}
+		var or uint64
+		for _, s := range ev.Scores {
+			or |= math.Float64bits(s)
+		}
+		if or < w.scoreMinBits {
+			skipped++
+		}
+	}
+	if skipped == 0 {
+		t.Fatal("the score shortcut was never taken")
+	}
+}
