@@ -69,11 +69,15 @@ func (p *parser) wideFast(rec []byte, line int64) {
 	}
 	vals, st, pos := rc.vals, rc.st, rc.pos
 	pat := uint64(delim) * ones8
-	i, c, others := t+1, 1, 0
+	var memo *[1 << memoBits]memoEntry
+	if p.memoUse.on(last) {
+		memo = p.memo()
+	}
+	i, c, others, hits, looked := t+1, 1, 0, 0, 0
 	for {
-		var o int
-		i, c, o = scanWords(rec, i, c, last, pat, vals, st, pos)
-		others += o
+		var o, h, l int
+		i, c, o, h, l = scanWords(rec, i, c, last, pat, vals, st, pos, memo)
+		others, hits, looked = others+o, hits+h, looked+l
 		if c >= last {
 			break
 		}
@@ -94,6 +98,9 @@ func (p *parser) wideFast(rec []byte, line int64) {
 	}
 	pos[last], pos[last+1] = int32(i), int32(len(rec)+1)
 	others += p.rc.plain(rec, i, len(rec), last)
+	if memo != nil {
+		p.memoUse.count(hits, looked)
+	}
 	at, ok := p.rowTime(rec[:t], line)
 	if !ok {
 		return
@@ -239,16 +246,15 @@ func (p *parser) fastValue(rec []byte, s, e int, fc *fastCol, line int64) (float
 // On amd64 the loop runs as scanWordsAsm (scanwords_amd64.s), the same
 // steps in assembly; scanWordsGo is the reference both are tested
 // against.
-func scanWords(rec []byte, i, c, last int, pat uint64, vals []float64, st []uint8, pos []int32) (int, int, int) {
+func scanWords(rec []byte, i, c, last int, pat uint64, vals []float64, st []uint8, pos []int32, memo *[1 << memoBits]memoEntry) (i1, c1, others, hits, looked int) {
 	if haveScanWordsAsm && last <= len(vals) && last <= len(st) && last <= len(pos) && i >= 0 && c >= 0 {
-		return scanWordsAsm(rec, i, c, last, pat, vals, st, pos)
+		return scanWordsAsm(rec, i, c, last, pat, vals, st, pos, memo)
 	}
-	return scanWordsGo(rec, i, c, last, pat, vals, st, pos)
+	return scanWordsGo(rec, i, c, last, pat, vals, st, pos, memo)
 }
 
 // scanWordsGo is scanWords in Go.
-func scanWordsGo(rec []byte, i, c, last int, pat uint64, vals []float64, st []uint8, pos []int32) (int, int, int) {
-	others := 0
+func scanWordsGo(rec []byte, i, c, last int, pat uint64, vals []float64, st []uint8, pos []int32, memo *[1 << memoBits]memoEntry) (i1, c1, others, hits, looked int) {
 	vals, st, pos = vals[:last], st[:last], pos[:last]
 	for ; c < last && i+8 <= len(rec); c++ {
 		w := binary.LittleEndian.Uint64(rec[i:])
@@ -264,6 +270,18 @@ func scanWordsGo(rec []byte, i, c, last int, pat uint64, vals []float64, st []ui
 			st[c] = cellSkip
 			others++
 			continue
+		}
+		var me *memoEntry
+		var key uint64
+		if memo != nil {
+			key = w&keepBytes[k] | uint64(k)<<56
+			me = &memo[(key*memoMul)>>(64-memoBits)]
+			looked++
+			if me.key == key {
+				hits++
+				vals[c], st[c] = me.val, cellValue
+				continue
+			}
 		}
 		sh := b2i(w&0xFF == '-')
 		x = (w >> (8 * uint(sh))) ^ zeros8
@@ -284,9 +302,84 @@ func scanWordsGo(rec []byte, i, c, last int, pat uint64, vals []float64, st []ui
 			continue
 		}
 		v := float64(swarValue(x, nd)) / pow10[frac&7]
-		vals[c], st[c] = math.Float64frombits(math.Float64bits(v)^uint64(sh)<<63), cellValue
+		v = math.Float64frombits(math.Float64bits(v) ^ uint64(sh)<<63)
+		if me != nil {
+			*me = memoEntry{key: key, val: v}
+		}
+		vals[c], st[c] = v, cellValue
 	}
-	return i, c, others
+	return i, c, others, hits, looked
+}
+
+// memoUse switches the memo off while it does not pay: below one hit in
+// two lookups a file is read faster without it (exports that log every
+// value with sensor noise and three or four decimals repeat few cell
+// strings). After a window of lookups with fewer hits, the memo is left
+// out for a span of cells that doubles with each poor window (up to
+// memoOffMax) and is tried again.
+type memoUse struct {
+	hits, looked int // in the current window
+	off          int // cells left to read without the memo
+	span         int // next off span
+}
+
+const (
+	memoWindow  = 4096     // lookups judged together
+	memoOffBase = 16 << 10 // cells left out after the first poor window
+	memoOffMax  = 4 << 20
+)
+
+// on says whether the memo is used for a row of cells cells.
+func (m *memoUse) on(cells int) bool {
+	if m.off > 0 {
+		m.off -= cells
+		return false
+	}
+	return true
+}
+
+// count adds a row's lookups and judges a full window.
+func (m *memoUse) count(hits, looked int) {
+	m.hits += hits
+	m.looked += looked
+	if m.looked < memoWindow {
+		return
+	}
+	if 2*m.hits < m.looked {
+		m.span = min(max(2*m.span, memoOffBase), memoOffMax)
+		m.off = m.span
+	} else {
+		m.span = 0
+	}
+	m.hits, m.looked = 0, 0
+}
+
+// memoBits sizes the parsed-cell memo (2^memoBits entries, 16 bytes each).
+const (
+	memoBits = 14
+	memoMul  = 0x9E3779B97F4A7C15 // 2⁶⁴/φ, Fibonacci hashing (Knuth, TAOCP vol. 3, §6.4)
+)
+
+// memoEntry is one remembered plain-decimal cell of up to seven bytes:
+// its key, the cell's bytes as a word (zero above the cell) with its
+// length in the top byte (so "5\x00" is not "5"; a real key is never
+// zero), and its value before the unit conversion.
+type memoEntry struct {
+	key uint64
+	val float64
+}
+
+// memo returns the parser's direct-mapped cache of parsed cells. Trend
+// values repeat: a sensor logged at 0.01 resolution over its range, a
+// valve in whole percent, a state as 0/1 give a few thousand distinct
+// strings in millions of cells, and a lookup costs a fraction of a parse.
+// A miss parses and replaces the entry; values do not depend on the
+// memo.
+func (p *parser) memo() *[1 << memoBits]memoEntry {
+	if p.cellMemo == nil {
+		p.cellMemo = new([1 << memoBits]memoEntry)
+	}
+	return p.cellMemo
 }
 
 // keepBytes[n] keeps the low n bytes of a word.

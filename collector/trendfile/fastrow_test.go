@@ -136,3 +136,41 @@ func checkMixed(t *testing.T, mode string, src *Source, pts []site.PointRef, cel
 		t.Fatalf("%d readings, want %d", len(got), i)
 	}
 }
+
+// TestMemoUseSwitchesOff checks the memo's on/off rule: a window with
+// fewer hits than half its lookups leaves the memo out for a span that
+// doubles while windows stay poor, and a good window resets it.
+func TestMemoUseSwitchesOff(t *testing.T) {
+	var m memoUse
+	row := 100
+	poor := func() {
+		for looked := 0; looked < memoWindow; looked += row {
+			if !m.on(row) {
+				t.Fatal("memo off inside a window")
+			}
+			m.count(row/2-1, row)
+		}
+	}
+	offRows := func() int {
+		n := 0
+		for !m.on(row) {
+			n++
+		}
+		return n
+	}
+	poor()
+	if n := offRows(); n != (memoOffBase+row-1)/row {
+		t.Fatalf("off for %d rows, want %d", n, (memoOffBase+row-1)/row)
+	}
+	poor()
+	if n := offRows(); n != (2*memoOffBase+row-1)/row {
+		t.Fatalf("second poor window: off for %d rows, want %d", n, (2*memoOffBase+row-1)/row)
+	}
+	for looked := 0; looked < memoWindow; looked += row {
+		m.on(row)
+		m.count(row/2, row) // half: good enough
+	}
+	if m.span != 0 || !m.on(row) {
+		t.Fatalf("good window: span %d", m.span)
+	}
+}

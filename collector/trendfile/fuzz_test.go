@@ -126,11 +126,14 @@ func FuzzNumbers(f *testing.F) {
 			if strings.ContainsRune(s, ',') {
 				break
 			}
-			for _, scan := range []func([]byte, int, int, int, uint64, []float64, []uint8, []int32) (int, int, int){scanWordsGo, scanWordsAsm} {
-				vals, st, pos := make([]float64, 3), make([]uint8, 3), make([]int32, 3)
-				_, c, _ := scan(r, 2, 1, 2, ','*ones8, vals, st, pos)
-				if c == 2 && st[1] == cellValue && (rerr != nil || math.Float64bits(vals[1]) != math.Float64bits(ref)) {
-					t.Fatalf("scanWords(%q) = %v, strconv %v %v", s, vals[1], ref, rerr)
+			for _, scan := range []scanFunc{scanWordsGo, scanWordsAsm} {
+				memo := new([1 << memoBits]memoEntry)
+				for _, m := range []*[1 << memoBits]memoEntry{nil, memo, memo} { // the last one hits
+					vals, st, pos := make([]float64, 3), make([]uint8, 3), make([]int32, 3)
+					_, c, _, _, _ := scan(r, 2, 1, 2, ','*ones8, vals, st, pos, m)
+					if c == 2 && st[1] == cellValue && (rerr != nil || math.Float64bits(vals[1]) != math.Float64bits(ref)) {
+						t.Fatalf("scanWords(%q) = %v, strconv %v %v", s, vals[1], ref, rerr)
+					}
 				}
 			}
 		}

@@ -40,6 +40,8 @@ type parser struct {
 	fcols              []fastCol // cols with their conversions (wide fast path)
 	rc                 rowCells  // the wide fast path's per-column scratch
 	order              uint8     // inOrder: 0 not known yet, 1 yes, 2 no
+	cellMemo           *[1 << memoBits]memoEntry
+	memoUse            memoUse
 
 	fields  [][]byte
 	scratch []byte

@@ -31,6 +31,7 @@ DATA scanTab<>+0xB8(SB)/8, $0x40F86A0000000000 // 1e5
 DATA scanTab<>+0xC0(SB)/8, $0x412E848000000000 // 1e6
 DATA scanTab<>+0xC8(SB)/8, $0x416312D000000000 // 1e7
 DATA scanTab<>+0xD0(SB)/8, $0x8000000000000000 // sign bit
+DATA scanTab<>+0xD8(SB)/8, $0x9E3779B97F4A7C15 // memoMul
 // Shapes at 0xE0, 32 bytes per (nb, pt) = (bytes after the sign, point
 // byte or 7 for none): the squeeze mask keepBytes[pt], the digit test
 // keepBytes[nd] & high8 (all ones when nd = 0 or the shape cannot occur),
@@ -293,12 +294,12 @@ DATA scanTab<>+0x8D0(SB)/8, $8 // swar shift
 DATA scanTab<>+0x8D8(SB)/8, $0x3FF0000000000000 // 1e0
 GLOBL scanTab<>(SB), RODATA|NOPTR, $0x8E0
 
-// func scanWordsAsm(rec []byte, i, c, last int, pat uint64, vals []float64, st []uint8, pos []int32) (int, int, int)
+// func scanWordsAsm(rec []byte, i, c, last int, pat uint64, vals []float64, st []uint8, pos []int32, memo *[1 << memoBits]memoEntry) (int, int, int, int, int)
 //
 // scanWordsGo (fastrow.go) in amd64 assembly, step for step; see there.
 // SI rec, DX len(rec)-8, AX i, R13 c, R14 vals, BX the constants; X1
 // the sign bit of the cell; the rest is scratch.
-TEXT ·scanWordsAsm(SB), NOSPLIT, $0-152
+TEXT ·scanWordsAsm(SB), NOSPLIT, $0-176
 	MOVQ rec_base+0(FP), SI
 	MOVQ rec_len+8(FP), DX
 	SUBQ $8, DX
@@ -306,7 +307,9 @@ TEXT ·scanWordsAsm(SB), NOSPLIT, $0-152
 	MOVQ c+32(FP), R13
 	MOVQ vals_base+56(FP), R14
 	LEAQ scanTab<>(SB), BX
-	MOVQ $0, ret2+144(FP)
+	MOVQ $0, others+152(FP)
+	MOVQ $0, hits+160(FP)
+	MOVQ $0, looked+168(FP)
 
 loop:
 	CMPQ R13, last+40(FP)
@@ -332,6 +335,34 @@ loop:
 	TESTQ R8, R8
 	JZ   blank
 
+	// The memo, when on: key = the cell's bytes | k<<56, slot
+	// memo[(key·memoMul) >> (64-14)]; the slot (X3) and key (X2) are kept
+	// for a miss to fill in.
+	MOVQ memo+128(FP), R10
+	TESTQ R10, R10
+	JZ   parse
+	MOVQ (BX)(R8*8), R11
+	ANDQ R9, R11
+	MOVQ R8, R12
+	SHLQ $56, R12
+	ORQ  R12, R11
+	MOVQ R11, R12
+	IMULQ 0xD8(BX), R12
+	SHRQ $50, R12
+	SHLQ $4, R12
+	ADDQ R10, R12
+	INCQ looked+168(FP)
+	CMPQ R11, (R12)
+	JNE  miss
+	INCQ hits+160(FP)
+	MOVSD 8(R12), X0
+	JMP  value
+
+miss:
+	MOVQ R11, X2
+	MOVQ R12, X3
+
+parse:
 	// The sign (rare: a branch): shifted off, its bit kept in X1.
 	PXOR X1, X1
 	CMPB R9, $0x2d
@@ -398,6 +429,14 @@ unsigned:
 	CVTSQ2SD R9, X0
 	DIVSD 0xF8(BX)(R8*1), X0
 	PXOR X1, X0
+	MOVQ memo+128(FP), R10
+	TESTQ R10, R10
+	JZ   value
+	MOVQ X3, R12
+	MOVQ X2, (R12)
+	MOVSD X0, 8(R12)
+
+value:
 	MOVSD X0, (R14)(R13*8)
 	MOVQ st_base+80(FP), R11
 	MOVB $1, (R11)(R13*1)
@@ -413,18 +452,18 @@ neg:
 other:
 	MOVQ st_base+80(FP), R11
 	MOVB $2, (R11)(R13*1)
-	INCQ ret2+144(FP)
+	INCQ others+152(FP)
 	INCQ R13
 	JMP  loop
 
 blank:
 	MOVQ st_base+80(FP), R11
 	MOVB $0, (R11)(R13*1)
-	INCQ ret2+144(FP)
+	INCQ others+152(FP)
 	INCQ R13
 	JMP  loop
 
 done:
-	MOVQ AX, ret+128(FP)
-	MOVQ R13, ret1+136(FP)
+	MOVQ AX, i1+136(FP)
+	MOVQ R13, c1+144(FP)
 	RET

@@ -8,10 +8,13 @@ import (
 	"testing"
 )
 
+type scanFunc = func([]byte, int, int, int, uint64, []float64, []uint8, []int32, *[1 << memoBits]memoEntry) (int, int, int, int, int)
+
 // checkScanWords runs both forms of scanWords over rec (cells from byte
-// 0, column 0) and checks they agree, and that every cell they call a
-// plain decimal has strconv.ParseFloat's value exactly (bit for bit).
-func checkScanWords(t *testing.T, rec []byte, delim byte) {
+// 0, column 0), each with its memo (or none), and checks they agree, and
+// that every cell they call a plain decimal has strconv.ParseFloat's
+// value exactly (bit for bit).
+func checkScanWords(t *testing.T, rec []byte, delim byte, memoA, memoG *[1 << memoBits]memoEntry) {
 	t.Helper()
 	n := bytes.Count(rec, []byte{delim}) + 2
 	pat := uint64(delim) * ones8
@@ -20,18 +23,23 @@ func checkScanWords(t *testing.T, rec []byte, delim byte) {
 		st           []uint8
 		pos          []int32
 		i, c, others int
+		hits, looked int
 	}
-	run := func(f func([]byte, int, int, int, uint64, []float64, []uint8, []int32) (int, int, int)) out {
+	run := func(f scanFunc, memo *[1 << memoBits]memoEntry) out {
 		o := out{vals: make([]float64, n), st: make([]uint8, n), pos: make([]int32, n)}
 		for k := range o.st {
 			o.st[k] = 9
 		}
-		o.i, o.c, o.others = f(rec, 0, 0, n-1, pat, o.vals, o.st, o.pos)
+		o.i, o.c, o.others, o.hits, o.looked = f(rec, 0, 0, n-1, pat, o.vals, o.st, o.pos, memo)
 		return o
 	}
-	a, g := run(scanWordsAsm), run(scanWordsGo)
-	if a.i != g.i || a.c != g.c || a.others != g.others {
-		t.Fatalf("%q: stopped at byte %d column %d (%d others), Go form at %d, %d (%d)", rec, a.i, a.c, a.others, g.i, g.c, g.others)
+	a, g := run(scanWordsAsm, memoA), run(scanWordsGo, memoG)
+	if a.i != g.i || a.c != g.c || a.others != g.others || a.hits != g.hits || a.looked != g.looked {
+		t.Fatalf("%q: stopped at byte %d column %d (%d others, memo %d/%d), Go form at %d, %d (%d, %d/%d)",
+			rec, a.i, a.c, a.others, a.hits, a.looked, g.i, g.c, g.others, g.hits, g.looked)
+	}
+	if memoG == nil && g.looked != 0 {
+		t.Fatalf("%q: %d memo lookups without a memo", rec, g.looked)
 	}
 	others := 0
 	for c := 0; c < g.c; c++ {
@@ -60,9 +68,11 @@ func checkScanWords(t *testing.T, rec []byte, delim byte) {
 
 // TestScanWordsForms: the assembly and Go forms of scanWords agree on
 // rows of random cells (plain decimals of every length, signs, points,
-// blanks, text, exponents, stray bytes) and with strconv.ParseFloat.
+// blanks, text, exponents, stray bytes, many repeated), without and with
+// the memo (hits and lookups too), and with strconv.ParseFloat.
 func TestScanWordsForms(t *testing.T) {
 	rng := rand.New(rand.NewPCG(3, 4))
+	memoA, memoG := new([1 << memoBits]memoEntry), new([1 << memoBits]memoEntry)
 	cell := func() string {
 		switch rng.IntN(10) {
 		case 0:
@@ -86,8 +96,15 @@ func TestScanWordsForms(t *testing.T) {
 			b = append(b, ',')
 		}
 		b = append(b, cell()...)
-		checkScanWords(t, b, ',')
-		checkScanWords(t, bytes.ReplaceAll(b, []byte{','}, []byte{';'}), ';')
+		checkScanWords(t, b, ',', nil, nil)
+		checkScanWords(t, bytes.ReplaceAll(b, []byte{','}, []byte{';'}), ';', nil, nil)
+		checkScanWords(t, b, ',', memoA, memoG)
+	}
+	// The memo is used: a row of repeated cells hits.
+	b := []byte("1.5,22.25,-3.125,1.5,22.25,-3.125,x")
+	checkScanWords(t, b, ',', memoA, memoG)
+	if _, _, _, h, l := scanWordsGo(b, 0, 0, 6, ','*ones8, make([]float64, 7), make([]uint8, 7), make([]int32, 7), memoG); h != 6 || l != 6 {
+		t.Fatalf("memo: %d hits in %d lookups, want 6 and 6", h, l)
 	}
 }
 
@@ -97,7 +114,10 @@ func FuzzScanWords(f *testing.F) {
 	for _, s := range []string{"1,2.5,-3.25,,x,1234567,-123456,.5,5.,-.5", "9999999,-9999999,0.00001,-0,1.2.3,5\x00,", "12345678,1,-", "-,-.,.,..,+1"} {
 		f.Add(s)
 	}
+	memoA, memoG := new([1 << memoBits]memoEntry), new([1 << memoBits]memoEntry)
 	f.Fuzz(func(t *testing.T, s string) {
-		checkScanWords(t, []byte(s), ',')
+		checkScanWords(t, []byte(s), ',', nil, nil)
+		checkScanWords(t, []byte(s), ',', memoA, memoG)
+		checkScanWords(t, []byte(s), ',', memoA, memoG) // hits
 	})
 }
