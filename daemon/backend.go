@@ -44,7 +44,10 @@ func (pl *pipeline) Latest(terminal int) (fdd.Evidence, bool) {
 
 // Series returns a terminal's hourly plot points in [from, to).
 func (pl *pipeline) Series(ctx context.Context, terminal int, from, to time.Time) ([]web.Point, error) {
-	pts := pl.ring.points(terminal, from, to)
+	pts, err := pl.ring.points(ctx, terminal, from, to)
+	if err != nil {
+		return nil, err
+	}
 	out := make([]web.Point, len(pts))
 	for i, p := range pts {
 		out[i] = web.Point{At: p.At, ObservedRiseK: p.ObservedRiseK, ExpectedRiseK: p.ExpectedRiseK, ValveFrac: p.ValveFrac, AirflowM3s: p.AirflowM3s}

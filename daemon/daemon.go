@@ -6,9 +6,11 @@
 // dashboard and the weekly contractor report.
 //
 // Memory per terminal is bounded: the engine's fixed windows, the newest
-// evidence record and an eight-day ring of hourly plot aggregates. Lifecycle
-// state, baselines and plot series live in the store, so a restart resumes
-// open faults without opening or mailing them again.
+// evidence record and the open hour of the hourly plot aggregates (the
+// eight closed days are in the store). Lifecycle state, baselines and plot
+// series live in the store, so a restart resumes open faults without
+// opening or mailing them again. `risewatch run` sets the Go runtime's soft
+// memory limit from the terminal count (memlimit.go).
 package daemon
 
 import (

@@ -267,7 +267,7 @@ func TestSeriesRingRoundTrip(t *testing.T) {
 		ev := evidenceAt(1, t0.Add(time.Duration(m)*time.Minute), float64(m/60)+1)
 		r.add(ev)
 	}
-	pts := r.points(1, t0, t0.Add(3*time.Hour))
+	pts := ringPoints(t, r, 1, t0, t0.Add(3*time.Hour))
 	if len(pts) != 3 {
 		t.Fatalf("%d hourly points, want 3", len(pts))
 	}
@@ -280,10 +280,10 @@ func TestSeriesRingRoundTrip(t *testing.T) {
 	if err := r2.unmarshal(1, r.marshal(1)); err != nil {
 		t.Fatal(err)
 	}
-	if got := r2.points(1, t0, t0.Add(3*time.Hour)); len(got) != 3 || got[2].ObservedRiseK != 3 {
+	if got := ringPoints(t, r2, 1, t0, t0.Add(3*time.Hour)); len(got) != 3 || got[2].ObservedRiseK != 3 {
 		t.Errorf("after round trip: %+v", got)
 	}
-	if len(r.points(0, t0, t0.Add(3*time.Hour))) != 0 {
+	if len(ringPoints(t, r, 0, t0, t0.Add(3*time.Hour))) != 0 {
 		t.Error("terminal 0 has points it never got")
 	}
 }

@@ -105,9 +105,8 @@ func loadBaselines(ctx context.Context, st *store.Store, eng *fdd.Engine, termin
 // one transaction.
 func saveBaselines(ctx context.Context, st *store.Store, eng *fdd.Engine, ring *seriesRing, ids func(int) string) (int, error) {
 	bs := eng.Baselines()
-	dirty := ring.takeDirty()
 	n := 0
-	err := st.Update(ctx, func(tx *store.Tx) error {
+	err := saveSeries(ctx, st, ring, ids, func(tx *store.Tx) error {
 		for _, b := range bs {
 			if b.Source != "learned" {
 				continue
@@ -121,10 +120,35 @@ func saveBaselines(ctx context.Context, st *store.Store, eng *fdd.Engine, ring *
 			}
 			n++
 		}
-		for _, ti := range dirty {
-			if err := tx.PutTerminalBlob(ctx, ids(ti), BlobSeries, ring.marshal(ti)); err != nil {
+		return nil
+	})
+	return n, err
+}
+
+// saveSeries merges the dirty terminals' closed hours into their stored
+// series blobs in one transaction (with also, when set, in the same one),
+// then drops those hours from memory; on failure they stay and are tried
+// again next time.
+func saveSeries(ctx context.Context, st *store.Store, ring *seriesRing, ids func(int) string, also func(*store.Tx) error) error {
+	dirty := ring.takeDirty()
+	var stored [][2]int32 // terminal, newest pend hour written
+	err := st.Update(ctx, func(tx *store.Tx) error {
+		if also != nil {
+			if err := also(tx); err != nil {
 				return err
 			}
+		}
+		stored = stored[:0]
+		for _, ti := range dirty {
+			old, _, _, err := tx.TerminalBlob(ctx, ids(ti), BlobSeries)
+			if err != nil {
+				return err
+			}
+			blob, upto := ring.merged(ti, old)
+			if err := tx.PutTerminalBlob(ctx, ids(ti), BlobSeries, blob); err != nil {
+				return err
+			}
+			stored = append(stored, [2]int32{int32(ti), upto})
 		}
 		return nil
 	})
@@ -134,8 +158,21 @@ func saveBaselines(ctx context.Context, st *store.Store, eng *fdd.Engine, ring *
 			ring.dirty[ti] = true
 			ring.mu.Unlock()
 		}
+		return err
 	}
-	return n, err
+	for _, s := range stored { // in the store now: out of memory
+		ring.dropStored(int(s[0]), s[1])
+	}
+	return nil
+}
+
+// storedSeries reads a terminal's series blob from the store (the ring's
+// closed hours).
+func storedSeries(st *store.Store, ids func(int) string) func(context.Context, int) ([]byte, error) {
+	return func(ctx context.Context, ti int) ([]byte, error) {
+		b, _, _, err := st.TerminalBlob(ctx, ids(ti), BlobSeries)
+		return b, err
+	}
 }
 
 // loadSeries restores the plot series of the site's terminals.

@@ -72,6 +72,7 @@ func newPipeline(d *Daemon, p *plan, st *store.Store, dry bool) (*pipeline, erro
 		lat = min(collector.DefaultLateness, DefaultLatenessSteps*cfg.Step)
 	}
 	if st != nil {
+		pl.ring.load = storedSeries(st, func(ti int) string { return s.Terminals[ti].ID })
 		// Committed only after the lifecycle state is stored (commit), never by Accept alone.
 		if pl.wm, err = collector.OpenProgress(st.Checkpoints(stateKey(p.shard, "")), "watermark", 100*365*24*time.Hour); err != nil {
 			return nil, err

@@ -97,6 +97,7 @@ func ReportInput(ctx context.Context, st *store.Store, s *site.Site, ring *serie
 	}
 	if ring == nil {
 		ring = newSeriesRing(len(s.Terminals))
+		ring.load = storedSeries(st, func(ti int) string { return s.Terminals[ti].ID })
 		if err := loadSeries(ctx, st, ring, s.TerminalIndex); err != nil {
 			return in, err
 		}
@@ -112,7 +113,11 @@ func ReportInput(ctx context.Context, st *store.Store, s *site.Site, ring *serie
 		if !ok {
 			continue
 		}
-		for _, p := range ring.points(ti, start, end) {
+		pts, err := ring.points(ctx, ti, start, end)
+		if err != nil {
+			return in, err
+		}
+		for _, p := range pts {
 			in.Series[id] = append(in.Series[id], report.Point{At: p.At, ObservedRiseK: p.ObservedRiseK, ExpectedRiseK: p.ExpectedRiseK, ValveFrac: p.ValveFrac})
 		}
 	}

@@ -1,9 +1,12 @@
 package daemon
 
 import (
+	"context"
 	"encoding/binary"
 	"errors"
 	"math"
+	"slices"
+	"sort"
 	"sync"
 	"time"
 
@@ -52,33 +55,35 @@ func unquantize(q int16, scale float64) float64 {
 	return float64(q) / scale
 }
 
-// seriesRing holds every terminal's hourly aggregates: the open hour as
-// sums (so it can go on after a restart) and the closed hours as fixed-point
-// means in one flat slice (SeriesHours slots per terminal, indexed by hour
-// modulo SeriesHours). Memory is fixed: 28 + 4 + 192 × 8 ≈ 1.6 KB per
-// terminal.
+// closedHour is one closed hour of a terminal.
+type closedHour struct {
+	hour int32
+	m    hourMean
+}
+
+// seriesRing holds every terminal's hourly aggregates. In memory: the open
+// hour as sums (so it can go on after a restart), the newest closed hour,
+// and the hours closed since they were last stored (pend). The closed
+// hours of the eight-day window live in the store's series blob (load
+// reads it; persist merges pend into it), so a terminal costs about 60
+// octets here instead of 192 × 8 for the whole window. Without a store
+// (load nil) the closed hours stay in pend, up to the window.
 type seriesRing struct {
 	mu     sync.RWMutex
 	acc    []hourAcc
-	newest []int32 // newest closed hour per terminal (0: none)
-	closed []hourMean
+	newest []int32        // newest closed hour per terminal (0: none)
+	pend   [][]closedHour // closed hours not yet stored, oldest first
 	dirty  []bool
+	// load returns terminal ti's stored series blob (nil when none).
+	load func(ctx context.Context, ti int) ([]byte, error)
 }
 
 func newSeriesRing(terminals int) *seriesRing {
 	return &seriesRing{acc: make([]hourAcc, terminals), newest: make([]int32, terminals),
-		closed: make([]hourMean, terminals*SeriesHours), dirty: make([]bool, terminals)}
+		pend: make([][]closedHour, terminals), dirty: make([]bool, terminals)}
 }
 
 func unixHour(t time.Time) int32 { return int32(t.Unix() / 3600) }
-
-func (r *seriesRing) slot(ti int, h int32) *hourMean {
-	i := int(h) % SeriesHours
-	if i < 0 {
-		i += SeriesHours
-	}
-	return &r.closed[ti*SeriesHours+i]
-}
 
 func mean(s float32, n uint16) float64 {
 	if n == 0 {
@@ -91,20 +96,32 @@ func (a *hourAcc) means() [4]float64 {
 	return [4]float64{mean(a.obs, a.nObs), mean(a.exp, a.nExp), mean(a.vlv, a.nVlv), mean(a.air, a.nAir)}
 }
 
-// putClosed stores closed hour h of terminal ti. Hours between the newest
-// closed hour and h become empty; an hour older than the window is dropped.
+// putClosed records closed hour h of terminal ti. An hour older than the
+// window is dropped; hours that fall out of the window as the newest moves
+// on leave pend (and are not read back from the store).
 func (r *seriesRing) putClosed(ti int, h int32, m hourMean) {
 	nw := r.newest[ti]
-	switch {
-	case h > nw:
-		for x := max(nw+1, h-SeriesHours+1); x < h; x++ {
-			*r.slot(ti, x) = hourMean{seriesEmpty, seriesEmpty, seriesEmpty, seriesEmpty}
-		}
-		r.newest[ti] = h
-	case h <= nw-SeriesHours:
+	if nw != 0 && h <= nw-SeriesHours {
 		return
 	}
-	*r.slot(ti, h) = m
+	if h > nw {
+		r.newest[ti] = h
+	}
+	p := r.pend[ti]
+	i := sort.Search(len(p), func(i int) bool { return p[i].hour >= h })
+	if i < len(p) && p[i].hour == h {
+		p[i].m = m
+	} else {
+		p = slices.Insert(p, i, closedHour{h, m})
+	}
+	lo, k := r.newest[ti]-SeriesHours, 0
+	for k < len(p) && p[k].hour <= lo {
+		k++
+	}
+	if k > 0 {
+		p = append(p[:0], p[k:]...)
+	}
+	r.pend[ti] = p
 }
 
 func (a *hourAcc) closeMean() hourMean {
@@ -159,36 +176,79 @@ type SeriesPoint struct {
 }
 
 // points returns terminal ti's hours in [from, to), oldest first (the hour
-// in progress with its means so far).
-func (r *seriesRing) points(ti int, from, to time.Time) []SeriesPoint {
+// in progress with its means so far): the stored hours, the hours closed
+// since, and the open hour.
+func (r *seriesRing) points(ctx context.Context, ti int, from, to time.Time) ([]SeriesPoint, error) {
 	r.mu.RLock()
-	defer r.mu.RUnlock()
 	if ti < 0 || ti >= len(r.dirty) {
-		return nil
+		r.mu.RUnlock()
+		return nil, nil
 	}
-	var out []SeriesPoint
+	// pend before the store: a persist in between moves hours from pend to
+	// the store, never the other way.
+	a, nw, pend, load := r.acc[ti], r.newest[ti], slices.Clone(r.pend[ti]), r.load
+	r.mu.RUnlock()
+	var stored []closedHour
+	if load != nil {
+		raw, err := load(ctx, ti)
+		if err != nil {
+			return nil, err
+		}
+		if stored, _, err = decodeSeries(raw); err != nil {
+			return nil, err
+		}
+	}
 	lo, hi := unixHour(from), unixHour(to.Add(-time.Nanosecond))
 	if hi-lo >= SeriesHours {
 		lo = hi - SeriesHours + 1
 	}
-	a, nw := &r.acc[ti], r.newest[ti]
-	for h := lo; h <= hi; h++ {
-		var v [4]float64
-		switch {
-		case a.hour != 0 && h == a.hour:
-			v = a.means()
-		case nw != 0 && h <= nw && h > nw-SeriesHours:
-			m := r.slot(ti, h)
-			if m[0] == seriesEmpty && m[1] == seriesEmpty && m[2] == seriesEmpty && m[3] == seriesEmpty {
-				continue
-			}
-			for i := range v {
-				v[i] = unquantize(m[i], seriesScale[i])
-			}
-		default:
+	var out []SeriesPoint
+	for _, c := range mergeHours(stored, pend, nw) {
+		if c.hour < lo || c.hour > hi || c.hour == a.hour || c.m.empty() {
 			continue
 		}
-		out = append(out, SeriesPoint{At: time.Unix(int64(h)*3600, 0), ObservedRiseK: v[0], ExpectedRiseK: v[1], ValveFrac: v[2], AirflowM3s: v[3]})
+		var v [4]float64
+		for i := range v {
+			v[i] = unquantize(c.m[i], seriesScale[i])
+		}
+		out = append(out, seriesPoint(c.hour, v))
+	}
+	if a.hour != 0 && a.hour >= lo && a.hour <= hi {
+		out = append(out, seriesPoint(a.hour, a.means()))
+	}
+	return out, nil
+}
+
+func seriesPoint(h int32, v [4]float64) SeriesPoint {
+	return SeriesPoint{At: time.Unix(int64(h)*3600, 0), ObservedRiseK: v[0], ExpectedRiseK: v[1], ValveFrac: v[2], AirflowM3s: v[3]}
+}
+
+func (m hourMean) empty() bool {
+	return m[0] == seriesEmpty && m[1] == seriesEmpty && m[2] == seriesEmpty && m[3] == seriesEmpty
+}
+
+// mergeHours is the window ending at newest of stored and pend hours (both
+// sorted), pend winning where both have an hour.
+func mergeHours(stored, pend []closedHour, newest int32) []closedHour {
+	out := make([]closedHour, 0, len(stored)+len(pend))
+	i, j := 0, 0
+	for i < len(stored) || j < len(pend) {
+		var c closedHour
+		switch {
+		case j == len(pend) || (i < len(stored) && stored[i].hour < pend[j].hour):
+			c = stored[i]
+			i++
+		case i == len(stored) || pend[j].hour < stored[i].hour:
+			c = pend[j]
+			j++
+		default: // same hour
+			c = pend[j]
+			i++
+			j++
+		}
+		if c.hour > newest-SeriesHours && c.hour <= newest {
+			out = append(out, c)
+		}
 	}
 	return out
 }
@@ -223,60 +283,119 @@ func readAcc(p []byte) hourAcc {
 	return a
 }
 
-// marshal encodes terminal ti's series (version 2).
-func (r *seriesRing) marshal(ti int) []byte {
+// decodeSeries reads a stored blob of either version: its closed hours
+// (sorted) and its open hour. A version 1 blob's newest hour is its open
+// one. An empty blob has neither.
+func decodeSeries(b []byte) (closed []closedHour, open hourAcc, err error) {
+	switch {
+	case len(b) == 0:
+		return nil, hourAcc{}, nil
+	case b[0] == seriesBlobV1 && (len(b)-1)%28 == 0:
+		for p := b[1:]; len(p) >= 28; p = p[28:] {
+			if a := readAcc(p); a.hour > open.hour {
+				if open.hour != 0 {
+					closed = append(closed, closedHour{open.hour, open.closeMean()})
+				}
+				open = a
+			} else if a.hour != 0 {
+				closed = append(closed, closedHour{a.hour, a.closeMean()})
+			}
+		}
+	case len(b) >= 29 && b[0] == seriesBlobV2 && (len(b)-29)%12 == 0:
+		for p := b[29:]; len(p) >= 12; p = p[12:] {
+			c := closedHour{hour: int32(binary.LittleEndian.Uint32(p))}
+			for i := range c.m {
+				c.m[i] = int16(binary.LittleEndian.Uint16(p[4+2*i:]))
+			}
+			closed = append(closed, c)
+		}
+		open = readAcc(b[1:29])
+	default:
+		return nil, hourAcc{}, errors.New("series blob: unknown version or truncated")
+	}
+	slices.SortStableFunc(closed, func(x, y closedHour) int { return int(x.hour) - int(y.hour) })
+	return closed, open, nil
+}
+
+// merged encodes terminal ti's series (version 2) from its stored blob and
+// what is in memory, and returns the newest pend hour it includes (for
+// dropStored once the blob is stored). An undecodable stored blob is
+// replaced by what memory has.
+func (r *seriesRing) merged(ti int, stored []byte) (blob []byte, upto int32) {
+	old, _, err := decodeSeries(stored)
+	if err != nil {
+		old = nil
+	}
 	r.mu.RLock()
 	defer r.mu.RUnlock()
-	b := make([]byte, 0, 1+28+SeriesHours*12)
+	hours := mergeHours(old, r.pend[ti], r.newest[ti])
+	if p := r.pend[ti]; len(p) > 0 {
+		upto = p[len(p)-1].hour
+	}
+	return encodeSeries(r.acc[ti], hours), upto
+}
+
+// dropStored forgets terminal ti's pend hours up to upto: they are in the
+// store now.
+func (r *seriesRing) dropStored(ti int, upto int32) {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	p, k := r.pend[ti], 0
+	for k < len(p) && p[k].hour <= upto {
+		k++
+	}
+	if k == len(p) {
+		r.pend[ti] = nil
+	} else {
+		r.pend[ti] = append(p[:0], p[k:]...)
+	}
+}
+
+func encodeSeries(open hourAcc, hours []closedHour) []byte {
+	b := make([]byte, 0, 1+28+len(hours)*12)
 	b = append(b, seriesBlobV2)
-	b = appendAcc(b, r.acc[ti])
-	if nw := r.newest[ti]; nw != 0 {
-		for h := nw - SeriesHours + 1; h <= nw; h++ {
-			m := r.slot(ti, h)
-			if m[0] == seriesEmpty && m[1] == seriesEmpty && m[2] == seriesEmpty && m[3] == seriesEmpty {
-				continue
-			}
-			b = binary.LittleEndian.AppendUint32(b, uint32(h))
-			for _, q := range m {
-				b = binary.LittleEndian.AppendUint16(b, uint16(q))
-			}
+	b = appendAcc(b, open)
+	for _, c := range hours {
+		if c.m.empty() {
+			continue
+		}
+		b = binary.LittleEndian.AppendUint32(b, uint32(c.hour))
+		for _, q := range c.m {
+			b = binary.LittleEndian.AppendUint16(b, uint16(q))
 		}
 	}
 	return b
 }
 
-// unmarshal restores terminal ti's series from a blob of either version
-// (restoring never replaces newer hours the ring already has).
+// marshal encodes terminal ti's series (version 2) from memory alone (a
+// ring without a store).
+func (r *seriesRing) marshal(ti int) []byte {
+	b, _ := r.merged(ti, nil)
+	return b
+}
+
+// unmarshal restores terminal ti's series from a stored blob of either
+// version (restoring never replaces newer hours the ring already has).
+// With a store behind the ring only the newest closed hour and the open
+// hour are taken: the closed hours stay in the store.
 func (r *seriesRing) unmarshal(ti int, b []byte) error {
+	if len(b) == 0 {
+		return errors.New("series blob: empty")
+	}
+	closed, open, err := decodeSeries(b)
+	if err != nil {
+		return err
+	}
 	r.mu.Lock()
 	defer r.mu.Unlock()
-	switch {
-	case len(b) >= 1 && b[0] == seriesBlobV1 && (len(b)-1)%28 == 0:
-		var open hourAcc // the newest hour goes on accumulating
-		for p := b[1:]; len(p) >= 28; p = p[28:] {
-			if a := readAcc(p); a.hour > open.hour {
-				if open.hour != 0 {
-					r.putClosed(ti, open.hour, open.closeMean())
-				}
-				open = a
-			} else if a.hour != 0 {
-				r.putClosed(ti, a.hour, a.closeMean())
-			}
+	for _, c := range closed {
+		if r.load == nil {
+			r.putClosed(ti, c.hour, c.m)
+		} else if c.hour > r.newest[ti] {
+			r.newest[ti] = c.hour
 		}
-		r.restoreAcc(ti, open)
-	case len(b) >= 29 && b[0] == seriesBlobV2 && (len(b)-29)%12 == 0:
-		for p := b[29:]; len(p) >= 12; p = p[12:] {
-			h := int32(binary.LittleEndian.Uint32(p))
-			var m hourMean
-			for i := range m {
-				m[i] = int16(binary.LittleEndian.Uint16(p[4+2*i:]))
-			}
-			r.putClosed(ti, h, m)
-		}
-		r.restoreAcc(ti, readAcc(b[1:29]))
-	default:
-		return errors.New("series blob: unknown version or truncated")
 	}
+	r.restoreAcc(ti, open)
 	return nil
 }
 

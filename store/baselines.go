@@ -44,8 +44,18 @@ func putTerminalBlob(ctx context.Context, q execer, terminal, kind string, blob 
 // TerminalBlob returns a terminal's stored blob of kind and when it was
 // written; ok is false when there is none.
 func (s *Store) TerminalBlob(ctx context.Context, terminal, kind string) (blob []byte, updated time.Time, ok bool, err error) {
+	return terminalBlob(ctx, s.db, terminal, kind)
+}
+
+// TerminalBlob is Store.TerminalBlob inside a transaction (it sees the
+// transaction's own writes).
+func (t *Tx) TerminalBlob(ctx context.Context, terminal, kind string) (blob []byte, updated time.Time, ok bool, err error) {
+	return terminalBlob(ctx, t.tx, terminal, kind)
+}
+
+func terminalBlob(ctx context.Context, q execer, terminal, kind string) (blob []byte, updated time.Time, ok bool, err error) {
 	var at int64
-	err = s.db.QueryRowContext(ctx, "SELECT blob, updated_at FROM terminal_blobs WHERE terminal = ? AND kind = ?",
+	err = q.QueryRowContext(ctx, "SELECT blob, updated_at FROM terminal_blobs WHERE terminal = ? AND kind = ?",
 		terminal, kind).Scan(&blob, &at)
 	if errors.Is(err, sql.ErrNoRows) {
 		return nil, time.Time{}, false, nil
