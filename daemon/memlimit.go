@@ -19,15 +19,17 @@ import (
 //
 // The daemon: section's memory_limit is "auto" (default), "off", or a size
 // ("160MiB", "1GiB", "200MB"). Auto is MemLimitBase + MemLimitPerTerminal ×
-// terminals of the shard: the measured live heap per terminal of the
-// daemon with every output on (BenchmarkDaemonRSS5000) with room for a
-// step's and a scrape's garbage. A GOMEMLIMIT environment variable wins
-// over the file (the runtime has already applied it).
+// terminals of the shard, from the live heap of `risewatch run` with every
+// output on (reliability.BenchmarkDaemonRSS5000 and ...10000): about
+// 9 MiB + 22 KiB per terminal. A site whose live heap still reaches 90 %
+// of the automatic limit has it raised (risewatch run logs that). A
+// GOMEMLIMIT environment variable wins over the file (the runtime has
+// already applied it).
 const (
-	// MemLimitBase covers the runtime, the store, the dashboard and
-	// report renderers, and the garbage of one scrape or report.
-	MemLimitBase = 48 << 20
-	// MemLimitPerTerminal is about 1.3 × the live heap per terminal.
+	// MemLimitBase covers the fixed live heap (about 9 MiB: runtime,
+	// store, renderers) and the garbage of a poll, a step and a scrape.
+	MemLimitBase = 32 << 20
+	// MemLimitPerTerminal is 1.1 × the measured live heap per terminal.
 	MemLimitPerTerminal = 24 << 10
 )
 

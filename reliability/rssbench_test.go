@@ -31,6 +31,7 @@ daemon:
       - {name: operators, to: [ops@test.example]}
   report:
     to: [contractor@test.example]
+  memory_limit: %MEMLIMIT%
 `
 
 // statusKiB reads one "Name:   N kB" line of /proc/pid/status (VmRSS,
@@ -81,7 +82,9 @@ func influxStub(b testing.TB) (url string, bytes *atomic.Int64) {
 // Reported per terminal (KiB = 1024 octets): RSS-peak is VmHWM (the
 // highest resident set since start, start-up included), RSS-steady the
 // mean VmRSS over the samples, heap-live the mean of the Go heap's live
-// objects at the last GC (see liveHeap), and the /metrics text size. One run takes about 1.5 minutes; -benchtime 1x.
+// objects at the last GC (see liveHeap), and the /metrics text size;
+// cpu-% is the child's CPU (user + system) over the measurement in % of
+// one core. One run takes about 1.5 minutes; -benchtime 1x.
 func BenchmarkDaemonRSS5000(b *testing.B) { benchDaemonRSS(b, 50, 100) }
 
 // BenchmarkDaemonRSS10000 is BenchmarkDaemonRSS5000 at 10,000 terminals.
@@ -93,7 +96,13 @@ func benchDaemonRSS(b *testing.B, groups, per int) {
 	ifx, written := influxStub(b)
 	dir := b.TempDir()
 	cfg := filepath.Join(dir, "site.yaml")
-	section := strings.NewReplacer("%DIR%", dir, "%INFLUX%", ifx).Replace(rssDaemon)
+	// RISEWATCH_BENCH_MEMLIMIT sets daemon.memory_limit (default auto),
+	// e.g. "off" to see the collector's own headroom.
+	memLimit := os.Getenv("RISEWATCH_BENCH_MEMLIMIT")
+	if memLimit == "" {
+		memLimit = "auto"
+	}
+	section := strings.NewReplacer("%DIR%", dir, "%INFLUX%", ifx, "%MEMLIMIT%", memLimit).Replace(rssDaemon)
 	if err := os.WriteFile(cfg, []byte(c.SiteYAML(section)), 0o644); err != nil {
 		b.Fatal(err)
 	}
@@ -120,6 +129,7 @@ func benchDaemonRSS(b *testing.B, groups, per int) {
 	var last string // the last /metrics text
 	steps0 := metric("risewatch_analysis_steps_total")
 	b.ResetTimer()
+	cpu0, t0 := procCPU(b, pid), time.Now()
 	for i := 0; i < b.N; i++ {
 		tick := time.NewTicker(poll)
 		for m0 := time.Now(); time.Since(m0) < wall; {
@@ -144,6 +154,8 @@ func benchDaemonRSS(b *testing.B, groups, per int) {
 		tick.Stop()
 	}
 	b.StopTimer()
+	cpu := procCPU(b, pid) - cpu0
+	cpuShare := 100 * cpu.Seconds() / time.Since(t0).Seconds()
 	peak := statusKiB(b, pid, "VmHWM")
 	anon, file := statusKiB(b, pid, "RssAnon"), statusKiB(b, pid, "RssFile")
 	if heapFile != "" {
@@ -168,8 +180,9 @@ func benchDaemonRSS(b *testing.B, groups, per int) {
 	b.ReportMetric(mean(rss)/n, "KiB-RSS-steady/terminal")
 	b.ReportMetric(mean(heapLive)/1024/n, "KiB-heap-live/terminal")
 	b.ReportMetric(mean(scrapeBytes)/(1<<20), "MiB-scrape")
-	b.Logf("%d terminals: RSS peak %.1f MiB, steady %.1f MiB, live heap %.1f MiB, /metrics %.2f MiB, %g steps",
-		len(c.Terminals), peak/1024, mean(rss)/1024, mean(heapLive)/(1<<20), mean(scrapeBytes)/(1<<20), steps)
+	b.ReportMetric(cpuShare, "cpu-%")
+	b.Logf("%d terminals, memory_limit %s: RSS peak %.1f MiB, steady %.1f MiB, live heap %.1f MiB, /metrics %.2f MiB, %g steps, CPU %.0f %% of one core",
+		len(c.Terminals), memLimit, peak/1024, mean(rss)/1024, mean(heapLive)/(1<<20), mean(scrapeBytes)/(1<<20), steps, cpuShare)
 	mib := func(name string) float64 { v, _ := sumMetric(last, name); return v / (1 << 20) }
 	b.Logf("at the end: RssAnon %.1f MiB, RssFile %.1f MiB; Go heap in use %.1f MiB, idle %.1f MiB (released %.1f MiB), stacks %.1f MiB, runtime total %.1f MiB, next GC %.1f MiB, memory limit %.0f MiB",
 		anon/1024, file/1024, mib("go_memstats_heap_inuse_bytes"), mib("go_memstats_heap_idle_bytes"), mib("go_memstats_heap_released_bytes"),

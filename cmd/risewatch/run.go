@@ -108,10 +108,10 @@ func applyMemoryLimit(d *daemon.Daemon, log *slog.Logger) bool {
 }
 
 // guardMemoryLimit keeps an automatic limit above the live heap: when the
-// live heap passes three quarters of the limit (a site whose terminals
-// hold more state than MemLimitPerTerminal allows for), the limit is
-// raised to 1.5 × the live heap, so the collector never runs back to back
-// trying to stay under a limit the live data itself exceeds.
+// live heap passes 90 % of the limit (a site whose terminals hold more
+// state than MemLimitPerTerminal allows for), the limit is raised to 1.25 ×
+// the live heap, so the collector never runs back to back trying to stay
+// under a limit the live data itself nearly fills.
 func guardMemoryLimit(ctx context.Context, auto *atomic.Bool, log *slog.Logger) {
 	sample := []metrics.Sample{{Name: "/gc/heap/live:bytes"}}
 	tick := time.NewTicker(30 * time.Second)
@@ -130,8 +130,8 @@ func guardMemoryLimit(ctx context.Context, auto *atomic.Bool, log *slog.Logger) 
 			return
 		}
 		live, limit := int64(sample[0].Value.Uint64()), debug.SetMemoryLimit(-1)
-		if live > limit/4*3 {
-			raised := live / 2 * 3
+		if live > limit/10*9 {
+			raised := live / 4 * 5
 			debug.SetMemoryLimit(raised)
 			log.Warn("memory limit raised: the live heap is near the automatic limit (set daemon.memory_limit to choose one)",
 				"live_MiB", live>>20, "from_MiB", limit>>20, "to_MiB", raised>>20)
