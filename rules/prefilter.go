@@ -189,11 +189,11 @@ type pfWord struct {
 	ge, le   []pfLit // a ≥ t, a ≤ t
 	geD, leD []pfLit // a − b ≥ t, a − b ≤ t
 	preset   uint64  // bits of clauses a rule does not have (always hold)
-	// ge[scoreA:scoreB] are the literals score ≥ t on a signature score,
-	// every t positive, scoreMinBits the bit pattern of the smallest t
-	// (scoreB = scoreA: none, or not every t positive). See pass.
-	scoreA, scoreB int
-	scoreMinBits   uint64
+	// scoreGE are the literals score ≥ t on a signature score taken out of
+	// ge when every t is positive, scoreMinBits the bit pattern of the
+	// smallest t. See pass.
+	scoreGE      []pfLit
+	scoreMinBits uint64
 }
 
 // scoresOff and scoresEnd bound Evidence.Scores in the record (the
@@ -284,7 +284,11 @@ func buildPrefilter(rules []*compiled, s *schema) prefilter {
 			// Evidence read in address order.
 			sort.SliceStable(ls, func(i, j int) bool { return ls[i].off < ls[j].off })
 		}
-		pw.scoreA, pw.scoreB, pw.scoreMinBits = scoreRun(pw.ge)
+		if a, b, bits := scoreRun(pw.ge); b > a {
+			pw.scoreGE = append([]pfLit(nil), pw.ge[a:b]...)
+			pw.ge = append(pw.ge[:a:a], pw.ge[b:]...)
+			pw.scoreMinBits = bits
+		}
 	}
 	return pf
 }
@@ -301,17 +305,13 @@ func buildPrefilter(rules []*compiled, s *schema) prefilter {
 // like their patterns, is below every threshold of the run. On a healthy
 // terminal every score is near 0.
 func (w *pfWord) pass(p unsafe.Pointer) uint64 {
-	m := w.preset
-	ge := w.ge
-	if w.scoreB > w.scoreA {
+	m := w.preset | passGE(w.ge, p)
+	if len(w.scoreGE) != 0 {
 		sc := (*[nScores]uint64)(unsafe.Add(p, scoresOff)) // the scores' bit patterns
-		or := sc[0] | sc[1] | sc[2] | sc[3] | sc[4] | sc[5] | sc[6] | sc[7] | sc[8] | sc[9] | sc[10] | sc[11]
-		if or < w.scoreMinBits {
-			m |= passGE(ge[:w.scoreA], p) | passGE(ge[w.scoreB:], p)
-			ge = nil
+		if sc[0]|sc[1]|sc[2]|sc[3]|sc[4]|sc[5]|sc[6]|sc[7]|sc[8]|sc[9]|sc[10]|sc[11] >= w.scoreMinBits {
+			m |= passGE(w.scoreGE, p)
 		}
 	}
-	m |= passGE(ge, p)
 	for i := range w.le {
 		l := &w.le[i]
 		if *(*float64)(unsafe.Add(p, l.off)) <= l.t {

@@ -16,11 +16,12 @@ import (
 func TestPrefilterScoreRunExact(t *testing.T) {
 	e := mustEval(t, testSite(1, 2))
 	w := &e.pf.words[0]
-	if w.scoreB <= w.scoreA {
-		t.Fatal("built-in rules: no signature-score run in the prefilter")
+	if len(w.scoreGE) == 0 {
+		t.Fatal("built-in rules: no signature-score literals taken apart in the prefilter")
 	}
 	full := *w
-	full.scoreA, full.scoreB = 0, 0 // every literal evaluated
+	full.ge = append(append([]pfLit(nil), w.ge...), w.scoreGE...) // every literal evaluated
+	full.scoreGE = nil
 	tMin := math.Float64frombits(w.scoreMinBits)
 	vals := []float64{0, math.Copysign(0, -1), 1e-300, math.Nextafter(tMin, 0), tMin, math.Nextafter(tMin, 1), 0.3, 0.5,
 		0.49999999999999994, 0.9, 1, -0.1, -1, math.NaN(), -math.NaN(), math.Inf(1), math.Inf(-1)}
