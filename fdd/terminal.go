@@ -190,10 +190,12 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	if s.Flags&(collector.FlagZone|collector.FlagZoneSet) == 0 && finite(s.ZoneC) && finite(s.ZoneSetC) {
 		st.zoneDef.add(s.ZoneSetC-s.ZoneC, en.leakAlpha)
 	}
-	v := stepVals{learning: learning, f: nan, sigma: nan, res: nan, z: nan, pi: nan}
+	// Field by field: a composite literal is built in a temporary and copied.
+	var v stepVals
 	eat := in.sat + t.ductGainK
 	obs := in.dat - eat
-	v.eat, v.obs = eat, obs
+	n := nan
+	v.learning, v.eat, v.obs, v.f, v.sigma, v.res, v.z, v.pi = learning, eat, obs, n, n, n, n, n
 
 	st.in.push4(in.u, in.v, in.sat, in.hw)
 	st.dat.push(in.dat)
