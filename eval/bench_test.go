@@ -23,10 +23,10 @@ import (
 //     runtime's own threads);
 //   - rules-ns/sample, rules-cpu-ns/sample: the rules layer's share, wall
 //     and thread CPU time read around one rules step (every terminal of the
-//     campus) in rulesEvery, scaled to all steps (reading the clocks around
-//     every step would cost more than a tenth of what is measured); the
-//     rules read evidence the engine has just written, as in the daemon;
-//     (less the cost of reading the clocks, measured after the loop);
+//     campus) in rulesEvery, less the cost of reading the clocks (measured
+//     after the loop), per sample of the steps read (reading the clocks
+//     around every step would cost more than a tenth of what is measured);
+//     the rules read evidence the engine has just written, as in the daemon;
 //   - Msamples/s: terminal-samples per second of wall time.
 //
 // When the day is replayed its samples' times move on by a day, each step's
