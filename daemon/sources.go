@@ -390,7 +390,7 @@ func (b *bacnetCron) sweep(ctx context.Context, emit func([]collector.Reading) e
 	defer b.mu.Unlock()
 	t0 := time.Now()
 	n := 0
-	_, err := b.src.SweepTrends(ctx, func(rs []collector.Reading) error {
+	res, err := b.src.SweepTrends(ctx, func(rs []collector.Reading) error {
 		if !b.last.IsZero() {
 			k := 0
 			for _, r := range rs {
@@ -405,6 +405,13 @@ func (b *bacnetCron) sweep(ctx context.Context, emit func([]collector.Reading) e
 		return emit(rs)
 	})
 	b.recordTraffic()
+	if b.traffic != nil {
+		var lost uint64
+		for _, r := range res {
+			lost += r.Lost
+		}
+		b.traffic.TrendLost(lost)
+	}
 	if ctx.Err() != nil {
 		return n
 	}

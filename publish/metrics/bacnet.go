@@ -15,8 +15,9 @@ const (
 var frameReasons = []FrameReason{FrameMalformed, FrameUnmatched}
 
 type bacnetVecs struct {
-	dropped *prometheus.CounterVec
-	retries *prometheus.CounterVec
+	dropped   *prometheus.CounterVec
+	retries   *prometheus.CounterVec
+	trendLost *prometheus.CounterVec
 }
 
 func newBACnetVecs(reg registerer) *bacnetVecs {
@@ -25,22 +26,25 @@ func newBACnetVecs(reg registerer) *bacnetVecs {
 			Help: "Frames received by a BACnet source's client and dropped, by reason."}, []string{"source", "reason"}),
 		retries: prometheus.NewCounterVec(prometheus.CounterOpts{Namespace: namespace, Subsystem: "bacnet", Name: "retries_total",
 			Help: "Confirmed requests a BACnet source's client resent after a timeout."}, []string{"source"}),
+		trendLost: prometheus.NewCounterVec(prometheus.CounterOpts{Namespace: namespace, Subsystem: "bacnet", Name: "trend_records_lost_total",
+			Help: "Trend-log records a BACnet device overwrote (buffer wrapped) or cleared before a sweep could read them: a counted gap in the history."}, []string{"source"}),
 	}
-	reg.MustRegister(v.dropped, v.retries)
+	reg.MustRegister(v.dropped, v.retries, v.trendLost)
 	return v
 }
 
 // BACnetTraffic records one BACnet source's client traffic anomalies.
 type BACnetTraffic struct {
-	dropped map[FrameReason]prometheus.Counter
-	retries prometheus.Counter
+	dropped   map[FrameReason]prometheus.Counter
+	retries   prometheus.Counter
+	trendLost prometheus.Counter
 }
 
 // BACnet returns the traffic recorder for a configured BACnet source; every
 // reason starts at zero.
 func (m *Metrics) BACnet(source string) *BACnetTraffic {
 	t := &BACnetTraffic{dropped: make(map[FrameReason]prometheus.Counter, len(frameReasons)),
-		retries: m.bacnet.retries.WithLabelValues(source)}
+		retries: m.bacnet.retries.WithLabelValues(source), trendLost: m.bacnet.trendLost.WithLabelValues(source)}
 	for _, r := range frameReasons {
 		t.dropped[r] = m.bacnet.dropped.WithLabelValues(source, string(r))
 	}
@@ -58,5 +62,12 @@ func (t *BACnetTraffic) Dropped(reason FrameReason, n uint64) {
 func (t *BACnetTraffic) Retried(n uint64) {
 	if n > 0 {
 		t.retries.Add(float64(n))
+	}
+}
+
+// TrendLost adds n trend-log records lost before they could be read.
+func (t *BACnetTraffic) TrendLost(n uint64) {
+	if n > 0 {
+		t.trendLost.Add(float64(n))
 	}
 }

@@ -85,6 +85,7 @@
 //
 //	risewatch_bacnet_frames_dropped_total{reason}  malformed or unmatched (late, duplicated) frames
 //	risewatch_bacnet_retries_total                 requests resent after a timeout
+//	risewatch_bacnet_trend_records_lost_total      trend-log records overwritten or cleared before they were read (counted gap)
 //
 // Daemon:
 //
