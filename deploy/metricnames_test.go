@@ -31,6 +31,7 @@ func exportedNames(t *testing.T) map[string]bool {
 		t.Fatal(err)
 	}
 	m.Source("bacnet-main").ReadOK(time.Millisecond, time.Now(), 8)
+	m.BACnet("bacnet-main").TrendLost(1)
 	m.SetInfluxBuffer(10, 1000)
 	m.SetOutboxPending("email", 1)
 	m.StepDone(time.Millisecond)
