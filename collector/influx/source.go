@@ -122,7 +122,11 @@ func New(opt Options) (*Source, error) {
 		}
 		s.points = append(s.points, pt)
 	}
-	opts := influxdb2.DefaultOptions().SetHTTPRequestTimeout(uint(max(1, opt.HTTPTimeout/time.Second)))
+	// Log level 0: the client library's logger is process-global (every
+	// NewClientWithOptions sets it), and the sink silences it; a source
+	// left at the default would switch its "E!" lines back on. Failed
+	// queries reach OnRead and the daemon's own logs instead.
+	opts := influxdb2.DefaultOptions().SetHTTPRequestTimeout(uint(max(1, opt.HTTPTimeout/time.Second))).SetLogLevel(0)
 	s.client = influxdb2.NewClientWithOptions(opt.Config.URL, opt.Token, opts)
 	s.query = s.client.QueryAPI(opt.Config.Org)
 	return s, nil
