@@ -204,8 +204,8 @@ func (en *Engine) finishLearning(st *termState, t *termStatic) {
 	st.learnDone = true
 	i := t.idx
 	l := &en.learn[i]
-	l.done = true
 	b, err := fitBaseline(t.phys, &t.flow, l)
+	l.release()
 	if err != nil {
 		st.base.Rejected = err.Error()
 		return
@@ -321,7 +321,7 @@ func (en *Engine) LoadBaselines(bs []Baseline) error {
 			continue
 		}
 		en.state[i].learnDone = true
-		en.learn[i].done = true
+		en.learn[i].release()
 		if b.Source == "learned" {
 			en.state[i].healthyAt, en.state[i].shortSince = b.To, time.Time{}
 			en.state[i].setOnset()

@@ -36,8 +36,29 @@ func (p calibratedPhysics) withUA(scale float64) (riser, error) {
 	if !(scale > 0) || !finite(scale) {
 		return nil, fmt.Errorf("UA scale %g must be positive", scale)
 	}
-	return p.k.WithUAMultiplier(p.k.UAMultiplier() * scale), nil
+	return scaledRiser{k: p.k, ua: math.Max(p.k.UAMultiplier()*scale, 0)}, nil
 }
+
+// scaledRiser is a terminal's coil at an absolute UA multiplier: the shared,
+// immutable calibrated coil and the multiplier, applied at evaluation
+// (Calibrated.ExpectedRiseWith). It gives bit for bit the rises of
+// Calibrated.WithUAMultiplier(ua), whose ExpectedRise is ExpectedRiseWith at
+// its multiplier, without a per-terminal copy of the coil's precomputed
+// geometry (two per terminal: the baseline and the UA-perturbed model).
+type scaledRiser struct {
+	k  *coilmodel.Calibrated
+	ua float64 // absolute UA multiplier, ≥ 0
+}
+
+func (r scaledRiser) ExpectedRise(op coilmodel.Operating) float64 {
+	return r.k.ExpectedRiseWith(op, r.ua, 1)
+}
+
+func (r scaledRiser) ExpectedRiseWith(op coilmodel.Operating, uaMult, flowMult float64) float64 {
+	return r.k.ExpectedRiseWith(op, uaMult, flowMult)
+}
+
+func (r scaledRiser) UAMultiplier() float64 { return r.ua }
 
 // flowPoints is the resolution of the installed flow table.
 const flowPoints = 41
