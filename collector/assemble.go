@@ -70,7 +70,8 @@ type sourceMark struct {
 // analysis grid. It is streaming: readings arrive in time order per source
 // (several sources may interleave); a step is emitted once every source has
 // passed its end, or once the leading source is Lateness past it. Memory is
-// bounded by points × Lateness/Interval.
+// bounded by points × Lateness/Interval; a step's values are held only from
+// its first reading to its emission (a live site holds a few steps).
 type Assembler struct {
 	site     *site.Site
 	cfg      AssembleConfig
@@ -82,11 +83,11 @@ type Assembler struct {
 	res     []Resampler
 	sinks   []binFunc
 	terms   []termFields
-	ring    int64     // ring length in steps
-	vals    []float64 // ring × points
-	quals   []Quality
-	first   int64 // oldest step not yet emitted (step number = start/interval)
-	last    int64 // newest step touched
+	ring    int64       // ring length in steps
+	slots   []*ringSlot // ring entries, step k at k mod ring; nil until a value lands in it
+	spare   []*ringSlot // emptied slots kept for reuse (at most keepSlots)
+	first   int64       // oldest step not yet emitted (step number = start/interval)
+	last    int64       // newest step touched
 	started bool
 	emitted bool
 	skip    int64 // steps starting before this (ns) are not emitted (Progress watermark)
@@ -159,11 +160,7 @@ func NewAssembler(s *site.Site, cfg AssembleConfig) (*Assembler, error) {
 		a.sinks[i] = a.sinkFor(int32(i))
 	}
 	a.ring = int64(cfg.Lateness/cfg.Resample.Interval) + 2
-	a.vals = make([]float64, a.ring*int64(len(pts)))
-	a.quals = make([]Quality, len(a.vals))
-	for i := range a.quals {
-		a.quals[i] = Missing
-	}
+	a.slots = make([]*ringSlot, a.ring)
 	ref := func(p site.PointRef) field {
 		if p.Fixed != nil {
 			return field{idx: -1, fixed: true, value: *p.Fixed}
@@ -234,15 +231,64 @@ func findLoop(s *site.Site, id string) (int, bool) {
 }
 
 func (a *Assembler) sinkFor(p int32) binFunc {
-	np := int64(len(a.res))
 	return func(s int64, v float64, q Quality, _ float64) {
 		step := s / a.interval
 		if step < a.first || step >= a.first+a.ring {
 			return
 		}
-		i := (step%a.ring)*np + int64(p)
-		a.vals[i], a.quals[i] = v, q
+		sl := a.slots[step%a.ring]
+		if sl == nil {
+			sl = a.newSlot()
+			a.slots[step%a.ring] = sl
+		}
+		sl.vals[p], sl.quals[p] = v, q
 	}
+}
+
+// ringSlot holds one step's resampled value and quality per point.
+type ringSlot struct {
+	vals  []float64
+	quals []Quality
+}
+
+// keepSlots is how many emptied ring slots are kept for reuse. A live
+// source fills one or two steps ahead of the emitted one, so the ring holds
+// a few slots, not Lateness/Interval of them; slots a lagging source or a
+// history backfill needed beyond these are returned to the garbage
+// collector once their steps are emitted.
+const keepSlots = 4
+
+// newSlot returns an empty slot (every quality Missing), reused if possible.
+func (a *Assembler) newSlot() *ringSlot {
+	if n := len(a.spare); n > 0 {
+		sl := a.spare[n-1]
+		a.spare[n-1] = nil
+		a.spare = a.spare[:n-1]
+		return sl
+	}
+	np := len(a.res)
+	sl := &ringSlot{vals: make([]float64, np), quals: make([]Quality, np)}
+	for i := range sl.quals {
+		sl.quals[i] = Missing
+	}
+	return sl
+}
+
+// freeSlot empties the slot of ring entry r and keeps it for reuse or drops
+// it.
+func (a *Assembler) freeSlot(r int64) {
+	sl := a.slots[r]
+	if sl == nil {
+		return
+	}
+	a.slots[r] = nil
+	if len(a.spare) >= keepSlots {
+		return
+	}
+	for i := range sl.quals {
+		sl.quals[i] = Missing
+	}
+	a.spare = append(a.spare, sl)
 }
 
 // Stats returns the counters so far.
@@ -380,27 +426,29 @@ func (a *Assembler) release(emit func([]Sample)) {
 
 // emitThrough emits steps first..last inclusive.
 func (a *Assembler) emitThrough(last int64, forced bool, emit func([]Sample)) {
-	np := int64(len(a.res))
 	for a.first <= last {
 		k := a.first
 		end := (k + 1) * a.interval
 		for p := range a.res {
 			a.res[p].advance(end, a.sinks[p])
 		}
-		base := (k % a.ring) * np
+		r := k % a.ring
 		if k*a.interval < a.skip {
 			a.stats.SkippedSteps++ // accepted before a restart: rebuilt only for the resamplers' state
 		} else {
-			a.build(k, a.vals[base:base+np], a.quals[base:base+np])
+			var vals []float64
+			var quals []Quality
+			if sl := a.slots[r]; sl != nil {
+				vals, quals = sl.vals, sl.quals
+			}
+			a.build(k, vals, quals)
 			if emit != nil {
 				emit(a.samples)
 			}
 			a.stats.EmittedSteps++
 			a.stats.EmittedSample += int64(len(a.samples))
 		}
-		for i := base; i < base+np; i++ {
-			a.quals[i] = Missing
-		}
+		a.freeSlot(r)
 		if forced {
 			a.stats.ForcedSteps++
 		}
@@ -409,7 +457,8 @@ func (a *Assembler) emitThrough(last int64, forced bool, emit func([]Sample)) {
 	}
 }
 
-// build fills a.samples for step k from one ring slot.
+// build fills a.samples for step k from one ring slot (nil: every point
+// missing).
 func (a *Assembler) build(k int64, vals []float64, quals []Quality) {
 	at := time.Unix(0, k*a.interval).UTC()
 	if cap(a.samples) < len(a.terms) {
@@ -420,7 +469,7 @@ func (a *Assembler) build(k int64, vals []float64, quals []Quality) {
 		switch {
 		case f.fixed:
 			return f.value
-		case f.idx >= 0 && quals[f.idx] == Good:
+		case f.idx >= 0 && quals != nil && quals[f.idx] == Good:
 			return vals[f.idx]
 		}
 		*fl |= flag

@@ -202,3 +202,81 @@ func BenchmarkAssemble2000(b *testing.B) {
 		b.Log("nan")
 	}
 }
+
+// heldSlots counts the ring slots holding step values and the spare ones.
+func heldSlots(a *Assembler) (held, spare int) {
+	for _, sl := range a.slots {
+		if sl != nil {
+			held++
+		}
+	}
+	return held, len(a.spare)
+}
+
+// A source lagging by 40 minutes makes the ring hold a slot per buffered
+// step; once it catches up the slots are released down to the few kept for
+// reuse, and a live feed then holds only the steps just ahead of the
+// emitted one. The emitted values are the same either way.
+func TestAssemblerRingSlotsOnDemand(t *testing.T) {
+	s := testSite(2)
+	a, err := NewAssembler(s, AssembleConfig{Sources: []string{"a", "b"}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var steps [][]Sample
+	emit := func(ss []Sample) { steps = append(steps, append([]Sample(nil), ss...)) }
+	termReadings := func(m int) []Reading {
+		var out []Reading
+		for i := 0; i < 2; i++ {
+			id := fmt.Sprintf("VAV-%d", i)
+			out = append(out,
+				Reading{Point: id + ".FLOW", At: at(m), Value: 0.2 + 0.001*float64(m), Quality: Good},
+				Reading{Point: id + ".DAT", At: at(m), Value: 30 + float64(i) + 0.1*float64(m), Quality: Good},
+				Reading{Point: id + ".VLV", At: at(m), Value: 0.5, Quality: Good})
+		}
+		return out
+	}
+	ahu := func(m int) []Reading {
+		return []Reading{
+			{Point: "AHU-1.SAT", At: at(m), Value: 13, Quality: Good},
+			{Point: "AHU-1.FAN", At: at(m), Value: 1, Quality: Good},
+			{Point: "HW-1.EN", At: at(m), Value: 1, Quality: Good},
+		}
+	}
+	a.Add("b", ahu(0), emit)
+	for m := 0; m <= 40; m++ {
+		a.Add("a", termReadings(m), emit)
+	}
+	if len(steps) != 0 {
+		t.Fatalf("emitted %d steps while source b lags", len(steps))
+	}
+	if held, _ := heldSlots(a); held < 38 {
+		t.Fatalf("%d ring slots held for 40 buffered steps, want one per step", held)
+	}
+	for m := 1; m <= 40; m++ {
+		a.Add("b", ahu(m), emit)
+	}
+	if len(steps) != 40 {
+		t.Fatalf("emitted %d steps after b caught up, want 40", len(steps))
+	}
+	if held, spare := heldSlots(a); held > 2 || spare > keepSlots {
+		t.Fatalf("after catching up: %d slots held, %d spare; want at most 2 and %d", held, spare, keepSlots)
+	}
+	for m := 41; m <= 100; m++ {
+		a.Add("a", termReadings(m), emit)
+		a.Add("b", ahu(m), emit)
+		if held, spare := heldSlots(a); held > 2 || spare > keepSlots {
+			t.Fatalf("live at minute %d: %d slots held, %d spare", m, held, spare)
+		}
+	}
+	if len(steps) != 100 {
+		t.Fatalf("emitted %d steps, want 100", len(steps))
+	}
+	for k, st := range steps {
+		for i, smp := range st {
+			if wantDAT := 30 + float64(i) + 0.1*float64(k); math.Abs(smp.DischargeC-wantDAT) > 1e-9 || smp.SupplyC != 13 || !smp.FanOn {
+				t.Fatalf("step %d terminal %d: %+v, want DAT %.1f, SAT 13, fan on", k, i, smp, wantDAT)
+			}
+		}
+	}
+}
