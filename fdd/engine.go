@@ -49,7 +49,7 @@ type Engine struct {
 // data-quality, leak, offset, flatline and hunting evidence; their samples
 // carry GateNoModel and TerminalErrors lists why.
 func NewEngine(s *site.Site, cfg Config) (*Engine, error) {
-	return newEngine(s, cfg, defaultPhysics)
+	return newEngine(s, cfg, sharedPhysics())
 }
 
 func newEngine(s *site.Site, cfg Config, pf physicsFactory) (*Engine, error) {

@@ -87,7 +87,24 @@ func (f *flowCurve) at(u float64) float64 {
 // design is the full-open flow.
 func (f *flowCurve) design() float64 { return f.m[flowPoints-1] }
 
-// defaultPhysics builds a terminal's model from coilmodel. The coil is
+// coilShare maps coil data (geometry and calibration multiplier) to its
+// calibrated model, so terminals with identical coils - one schedule line,
+// one rated point - share one immutable coilmodel.Calibrated instead of a
+// copy each. The model is a pure function of the coil data, so sharing
+// changes no result.
+type coilShare map[coilmodel.Coil]*coilmodel.Calibrated
+
+// sharedPhysics is the production physics factory (buildPhysics) with one
+// engine's coil models shared (the map lives as long as the factory: one
+// NewEngine call).
+func sharedPhysics() physicsFactory {
+	share := coilShare{}
+	return func(t *site.Terminal, l *site.Loop) (coilPhysics, flowCurve, error) {
+		return buildPhysics(t, l, share)
+	}
+}
+
+// buildPhysics builds a terminal's model from coilmodel. The coil is
 // calibrated to Terminal.Rated (coilmodel.Calibrate) unless the site loader
 // already set a UA multiplier. The flow curve comes from the valve and coil
 // hydraulics at the loop's design branch differential pressure; without
@@ -95,7 +112,8 @@ func (f *flowCurve) design() float64 { return f.m[flowPoints-1] }
 // taken as linear through the rated flow at full command (an equal-percentage
 // valve with moderate authority installs close to linear; ISA/Wade, common
 // practice) and the wider flow uncertainty is the user's to configure.
-func defaultPhysics(t *site.Terminal, l *site.Loop) (coilPhysics, flowCurve, error) {
+// Models are reused from share when non-nil.
+func buildPhysics(t *site.Terminal, l *site.Loop, share coilShare) (coilPhysics, flowCurve, error) {
 	var fc flowCurve
 	c := t.Coil
 	if t.Rated != nil && c.UAMultiplier == 0 {
@@ -133,9 +151,15 @@ func defaultPhysics(t *site.Terminal, l *site.Loop) (coilPhysics, flowCurve, err
 	if !(fc.design() > 0) || math.IsInf(fc.design(), 0) {
 		return nil, fc, fmt.Errorf("terminal %s: full-open water flow %g m³/s is not positive", t.ID, fc.design())
 	}
-	k, err := coilmodel.NewCalibrated(c)
-	if err != nil {
-		return nil, fc, fmt.Errorf("terminal %s: coil model: %w", t.ID, err)
+	k := share[c]
+	if k == nil {
+		var err error
+		if k, err = coilmodel.NewCalibrated(c); err != nil {
+			return nil, fc, fmt.Errorf("terminal %s: coil model: %w", t.ID, err)
+		}
+		if share != nil {
+			share[c] = k
+		}
 	}
 	return calibratedPhysics{k: k}, fc, nil
 }
