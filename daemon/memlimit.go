@@ -21,17 +21,18 @@ import (
 // ("160MiB", "1GiB", "200MB"). Auto is MemLimitBase + MemLimitPerTerminal ×
 // terminals of the shard, from the live heap of `risewatch run` with every
 // output on (reliability.BenchmarkDaemonRSS5000 and ...10000): about
-// 7 MiB + 22.3 KiB per terminal. A site whose live heap still reaches 90 %
-// of the automatic limit has it raised (risewatch run logs that). A
+// 4 MiB + 13.5 KiB per terminal (70.3 MiB at 5,000, 136.3 MiB at 10,000
+// terminals). A site whose live heap still reaches 90 % of the automatic
+// limit has it raised (risewatch run logs that). A
 // GOMEMLIMIT environment variable wins over the file (the runtime has
 // already applied it).
 const (
-	// MemLimitBase covers the fixed live heap (about 7 MiB: runtime,
+	// MemLimitBase covers the fixed live heap (about 4-7 MiB: runtime,
 	// store, renderers) and the garbage of a poll, a step and a scrape.
 	MemLimitBase = 32 << 20
 	// MemLimitPerTerminal is about 1.2 × the measured live heap per
 	// terminal: at 1.1 × the collector's CPU doubled at 10,000 terminals.
-	MemLimitPerTerminal = 26 << 10
+	MemLimitPerTerminal = 16 << 10
 )
 
 // memLimit is a decoded memory_limit: the zero value is auto.
