@@ -3,6 +3,7 @@ package metrics
 import (
 	"bufio"
 	"bytes"
+	"cmp"
 	"compress/gzip"
 	"io"
 	"math"
@@ -98,13 +99,7 @@ func (m *Metrics) newStreamer() *streamer {
 	}
 	sort.SliceStable(st.order, func(a, b int) bool {
 		x, y := &s.Terminals[st.order[a]], &s.Terminals[st.order[b]]
-		if x.AHU != y.AHU {
-			return x.AHU < y.AHU
-		}
-		if x.Loop != y.Loop {
-			return x.Loop < y.Loop
-		}
-		return x.ID < y.ID
+		return placeLess(x.AHU, x.Loop, x.ID, y.AHU, y.Loop, y.ID)
 	})
 	for i := range s.Terminals {
 		t := &s.Terminals[i]
@@ -118,13 +113,7 @@ func (m *Metrics) newStreamer() *streamer {
 	}
 	sort.SliceStable(st.faultOrder, func(a, b int) bool {
 		x, y := &st.faultOrder[a], &st.faultOrder[b]
-		if x.ahu != y.ahu {
-			return x.ahu < y.ahu
-		}
-		if x.loop != y.loop {
-			return x.loop < y.loop
-		}
-		return x.ident < y.ident
+		return placeLess(x.ahu, x.loop, x.ident, y.ahu, y.loop, y.ident)
 	})
 	for i := range st.faultOrder {
 		if i == 0 || st.faultOrder[i].ahu != st.faultOrder[i-1].ahu {
@@ -414,4 +403,10 @@ func (st *streamer) writeValue(w *bufio.Writer, snap *scrapeSnap, f float64, om 
 		w.Write(b)
 		snap.num = b[:0]
 	}
+}
+
+// placeLess orders series by AHU, then loop, then entity ID (the order the
+// registry's text output had).
+func placeLess(ahu1, loop1, id1, ahu2, loop2, id2 string) bool {
+	return cmp.Or(cmp.Compare(ahu1, ahu2), cmp.Compare(loop1, loop2), cmp.Compare(id1, id2)) < 0
 }
