@@ -187,7 +187,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	}
 	st.rev.add(in.u, cfg.HuntingDeadband, en.revAlpha)
 
-	if s.Flags&(collector.FlagZone|collector.FlagZoneSet) == 0 && finite(s.ZoneC) && finite(s.ZoneSetC) {
+	if zonePlausible(s) {
 		st.zoneDef.add(s.ZoneSetC-s.ZoneC, en.leakAlpha)
 	}
 	// Field by field: a composite literal is built in a temporary and copied.
