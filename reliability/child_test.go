@@ -96,25 +96,34 @@ func startChildOn(t testing.TB, cfg, logFile, listen string, env []string, extra
 	t.Helper()
 	_, port, _ := net.SplitHostPort(listen)
 	args := append([]string{"run", "--config", cfg, "--listen", listen}, extra...)
+	cmd := exec.Command(risewatchBin(t), args...)
+	cmd.Env = append(os.Environ(), env...)
+	return launchChild(t, cmd, logFile, "http://127.0.0.1:"+port, 60*time.Second)
+}
+
+// launchChild starts cmd (a daemon serving /healthz at url) with its output
+// appended to logFile, kills it with SIGKILL at cleanup, and waits up to
+// limit until /healthz answers.
+func launchChild(t testing.TB, cmd *exec.Cmd, logFile, url string, limit time.Duration) *child {
+	t.Helper()
 	lf, err := os.OpenFile(logFile, os.O_CREATE|os.O_WRONLY|os.O_APPEND, 0o644)
 	if err != nil {
 		t.Fatal(err)
 	}
 	fmt.Fprintf(lf, "==== start %s\n", time.Now().Format(time.RFC3339Nano))
-	c := &child{t: t, cmd: exec.Command(risewatchBin(t), args...), log: logFile, url: "http://127.0.0.1:" + port, done: make(chan struct{})}
+	c := &child{t: t, cmd: cmd, log: logFile, url: url, done: make(chan struct{})}
 	c.cmd.Stdout, c.cmd.Stderr = lf, lf
-	c.cmd.Env = append(os.Environ(), env...)
 	if err := c.cmd.Start(); err != nil {
 		lf.Close()
 		t.Fatal(err)
 	}
 	go func() { c.err = c.cmd.Wait(); lf.Close(); close(c.done) }()
-	t.Cleanup(func() { c.kill9() })
-	deadline := time.Now().Add(60 * time.Second)
+	t.Cleanup(c.kill9)
+	deadline := time.Now().Add(limit)
 	for {
 		select {
 		case <-c.done:
-			t.Fatalf("risewatch run exited at start (%v):\n%s", c.err, tail(logFile, 30))
+			t.Fatalf("daemon child exited at start (%v):\n%s", c.err, tail(logFile, 30))
 		default:
 		}
 		if resp, err := http.Get(c.url + "/healthz"); err == nil {
@@ -122,9 +131,9 @@ func startChildOn(t testing.TB, cfg, logFile, listen string, env []string, extra
 			return c
 		}
 		if time.Now().After(deadline) {
-			t.Fatalf("risewatch run not serving /healthz in 60 s:\n%s", tail(logFile, 30))
+			t.Fatalf("daemon child not serving /healthz in %s:\n%s", limit, tail(logFile, 30))
 		}
-		time.Sleep(100 * time.Millisecond)
+		time.Sleep(20 * time.Millisecond)
 	}
 }
 

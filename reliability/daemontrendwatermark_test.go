@@ -9,7 +9,6 @@ import (
 	"log/slog"
 	"math"
 	"math/rand/v2"
-	"net/http"
 	"os"
 	"os/exec"
 	"os/signal"
@@ -325,37 +324,9 @@ func waitForQuick(t testing.TB, limit time.Duration, what string, cond func() bo
 func startTestChild(t *testing.T, cfg, logFile string) *child {
 	t.Helper()
 	listen := fmt.Sprintf("127.0.0.1:%d", freePort(t))
-	lf, err := os.OpenFile(logFile, os.O_CREATE|os.O_WRONLY|os.O_APPEND, 0o644)
-	if err != nil {
-		t.Fatal(err)
-	}
-	fmt.Fprintf(lf, "==== start %s\n", time.Now().Format(time.RFC3339Nano))
 	cmd := exec.Command(os.Args[0], "-test.run=^"+t.Name()+"$", "-test.count=1")
 	cmd.Env = append(os.Environ(), "RW_TWM_CONFIG="+cfg, "RW_TWM_LISTEN="+listen)
-	cmd.Stdout, cmd.Stderr = lf, lf
-	c := &child{t: t, cmd: cmd, log: logFile, url: "http://" + listen, done: make(chan struct{})}
-	if err := cmd.Start(); err != nil {
-		lf.Close()
-		t.Fatal(err)
-	}
-	go func() { c.err = cmd.Wait(); lf.Close(); close(c.done) }()
-	t.Cleanup(c.kill9)
-	deadline := time.Now().Add(30 * time.Second)
-	for {
-		select {
-		case <-c.done:
-			t.Fatalf("daemon child exited at start (%v):\n%s", c.err, tail(logFile, 30))
-		default:
-		}
-		if resp, err := http.Get(c.url + "/healthz"); err == nil {
-			resp.Body.Close()
-			return c
-		}
-		if time.Now().After(deadline) {
-			t.Fatalf("daemon child not serving /healthz in 30 s:\n%s", tail(logFile, 30))
-		}
-		time.Sleep(20 * time.Millisecond)
-	}
+	return launchChild(t, cmd, logFile, "http://"+listen, 30*time.Second)
 }
 
 // twmChild is the child's side: the daemon on cfg until SIGTERM.
