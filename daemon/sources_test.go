@@ -95,6 +95,35 @@ func simDevice(t *testing.T, inst uint32, v float64, mb bacnetdev.Misbehaviour) 
 	return s.Addr().String()
 }
 
+// startBACnetCron builds the site's first source (a BACnet one) through the
+// daemon's wiring with metrics and a throw-away store, and starts it; both
+// are closed at cleanup.
+func startBACnetCron(ctx context.Context, t *testing.T, s *site.Site, log *slog.Logger) (*bacnetCron, *metrics.Metrics) {
+	t.Helper()
+	m, err := metrics.New(s, metrics.Options{NoRuntime: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	st, err := store.Open(ctx, t.TempDir(), store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { st.Close() })
+	srcs, _, err := buildSources(s, st, m, time.Now, nil, 0, log)
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, ok := srcs[0].(*bacnetCron)
+	if !ok {
+		t.Fatalf("source is %T, want *bacnetCron", srcs[0])
+	}
+	if err := b.src.Start(ctx); err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { b.src.Close() })
+	return b, m
+}
+
 // TestBACnetFailuresInMetricsAndLogs polls a healthy device, a silent one,
 // one that rejects ReadPropertyMultiple and one that sends a malformed frame
 // before and a duplicate after every answer, through the daemon's source
@@ -125,29 +154,8 @@ func TestBACnetFailuresInMetricsAndLogs(t *testing.T) {
 		},
 		TerminalIndex: map[string]int{"VAV-1": 0, "VAV-2": 1, "VAV-3": 2, "VAV-4": 3},
 	}
-	m, err := metrics.New(s, metrics.Options{NoRuntime: true})
-	if err != nil {
-		t.Fatal(err)
-	}
-	st, err := store.Open(ctx, t.TempDir(), store.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer st.Close()
 	var logs syncBuf
-	log := slog.New(slog.NewTextHandler(&logs, &slog.HandlerOptions{Level: slog.LevelDebug}))
-	srcs, _, err := buildSources(s, st, m, time.Now, nil, 0, log)
-	if err != nil {
-		t.Fatal(err)
-	}
-	b, ok := srcs[0].(*bacnetCron)
-	if !ok {
-		t.Fatalf("source is %T, want *bacnetCron", srcs[0])
-	}
-	if err := b.src.Start(ctx); err != nil {
-		t.Fatal(err)
-	}
-	defer b.src.Close()
+	b, m := startBACnetCron(ctx, t, s, slog.New(slog.NewTextHandler(&logs, &slog.HandlerOptions{Level: slog.LevelDebug})))
 	var got []collector.Reading
 	emit := func(rs []collector.Reading) error { got = rs; return nil }
 	const polls = 3

@@ -9,10 +9,8 @@ import (
 	"risewatch/collector"
 	"risewatch/collector/bacnet"
 	"risewatch/collector/bacnet/wire"
-	"risewatch/publish/metrics"
 	"risewatch/sim/bacnetdev"
 	"risewatch/site"
-	"risewatch/store"
 )
 
 // TestBACnetTrendGapInMetrics: a trend log whose buffer wraps between two
@@ -52,24 +50,7 @@ func TestBACnetTrendGapInMetrics(t *testing.T) {
 			BACnet: &site.BACnetRef{Device: inst, ObjectType: "analog-input", Instance: 1, Property: "present-value", TrendLog: &tl}}}}},
 		TerminalIndex: map[string]int{"VAV-1": 0},
 	}
-	m, err := metrics.New(s, metrics.Options{NoRuntime: true})
-	if err != nil {
-		t.Fatal(err)
-	}
-	st, err := store.Open(ctx, t.TempDir(), store.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer st.Close()
-	srcs, _, err := buildSources(s, st, m, time.Now, nil, 0, slog.New(slog.DiscardHandler))
-	if err != nil {
-		t.Fatal(err)
-	}
-	b := srcs[0].(*bacnetCron)
-	if err := b.src.Start(ctx); err != nil {
-		t.Fatal(err)
-	}
-	defer b.src.Close()
+	b, m := startBACnetCron(ctx, t, s, slog.New(slog.DiscardHandler))
 	var got []collector.Reading
 	emit := func(rs []collector.Reading) error { got = append(got, rs...); return nil }
 	lost := func() float64 {
