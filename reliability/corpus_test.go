@@ -47,6 +47,7 @@ var corpusTargets = []corpusTarget{
 	{"collector/trendfile", "FuzzReadStream", []string{"[]byte"}, 4, trendFiles},
 	{"collector/trendfile", "FuzzNumbers", []string{"string"}, 8, numberCells},
 	{"collector/trendfile", "FuzzTimes", []string{"string"}, 8, timeCells},
+	{"collector/trendfile", "FuzzScanWords", []string{"string"}, 5, scanRows},
 	{"site", "FuzzParse", []string{"[]byte"}, 3, siteFiles},
 	{"rules", "FuzzParseRules", []string{"[]byte"}, 4, rulesFiles},
 	{"units", "FuzzParse", []string{"string", "int"}, 8, quantities},
@@ -247,6 +248,31 @@ func bacnetTags(t *testing.T) [][]any {
 // trendFiles are the first hours of a simulated day's export, and the same
 // rows as a semicolon/decimal-comma export and in the long layout.
 func trendFiles(t *testing.T) [][]any {
+	lines := demoTrendLines(t)
+	head := strings.Join(lines[:min(len(lines), 6)], "")
+	var out [][]any
+	out = append(out, []any{[]byte(head)})
+	semi := strings.ReplaceAll(strings.ReplaceAll(head, ",", ";"), ".", ",")
+	out = append(out, []any{[]byte(semi)})
+	out = append(out, []any{[]byte(strings.ReplaceAll(head, "\n", "\r\n"))})
+	// Long layout from the first rows: timestamp,point,value.
+	rows := strings.Split(strings.TrimSpace(head), "\n")
+	cols := strings.Split(rows[0], ",")
+	var long strings.Builder
+	long.WriteString("timestamp,point,value\n")
+	for _, r := range rows[1:] {
+		cells := strings.Split(r, ",")
+		for i := 1; i < len(cells) && i < len(cols) && i < 12; i++ {
+			fmt.Fprintf(&long, "%s,%s,%s\n", cells[0], cols[i], cells[i])
+		}
+	}
+	out = append(out, []any{[]byte(long.String())})
+	return out
+}
+
+// demoTrendLines is the simulator's wide trend export of one demo day, as
+// lines with their line ends.
+func demoTrendLines(t *testing.T) []string {
 	dir := t.TempDir()
 	sc, err := sim.DemoScenario()
 	if err != nil {
@@ -270,25 +296,19 @@ func trendFiles(t *testing.T) [][]any {
 	if err != nil {
 		t.Fatal(err)
 	}
-	lines := strings.SplitAfter(string(b), "\n")
-	head := strings.Join(lines[:min(len(lines), 6)], "")
+	return strings.SplitAfter(string(b), "\n")
+}
+
+// scanRows are data rows of the demo trend export without their time cell
+// and line end: the comma-separated cells the wide-row scanner reads.
+func scanRows(t *testing.T) [][]any {
+	lines := demoTrendLines(t)
 	var out [][]any
-	out = append(out, []any{[]byte(head)})
-	semi := strings.ReplaceAll(strings.ReplaceAll(head, ",", ";"), ".", ",")
-	out = append(out, []any{[]byte(semi)})
-	out = append(out, []any{[]byte(strings.ReplaceAll(head, "\n", "\r\n"))})
-	// Long layout from the first rows: timestamp,point,value.
-	rows := strings.Split(strings.TrimSpace(head), "\n")
-	cols := strings.Split(rows[0], ",")
-	var long strings.Builder
-	long.WriteString("timestamp,point,value\n")
-	for _, r := range rows[1:] {
-		cells := strings.Split(r, ",")
-		for i := 1; i < len(cells) && i < len(cols) && i < 12; i++ {
-			fmt.Fprintf(&long, "%s,%s,%s\n", cells[0], cols[i], cells[i])
+	for _, l := range lines[min(len(lines), 2):min(len(lines), 8)] {
+		if _, cells, ok := strings.Cut(strings.TrimRight(l, "\r\n"), ","); ok {
+			out = append(out, []any{cells})
 		}
 	}
-	out = append(out, []any{[]byte(long.String())})
 	return out
 }
 
