@@ -224,11 +224,13 @@ func (h *History) add(th *termHist, s *collector.Sample) {
 		a.oat += s.OutdoorC
 		a.nOAT++
 	}
-	if s.Flags&collector.FlagZone == 0 && !math.IsNaN(s.ZoneC) {
+	// Out-of-range zone readings (an open room sensor, a setpoint in the
+	// wrong unit) are missing, as in the evidence engine.
+	if s.ZoneOK() {
 		a.zone += s.ZoneC
 		a.nZone++
 	}
-	if s.Flags&collector.FlagZoneSet == 0 && !math.IsNaN(s.ZoneSetC) {
+	if s.ZoneSetOK() {
 		a.zoneSet += s.ZoneSetC
 		a.nZoneSet++
 	}

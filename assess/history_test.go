@@ -85,3 +85,52 @@ func TestHistoryWithoutOutdoorIsObservedPeak(t *testing.T) {
 		t.Errorf("unit load %.0f (%s), err %v", u.LoadW, u.LoadBasis, u.Err)
 	}
 }
+
+// TestHistoryZoneOutOfRangeIsMissing: zone readings outside the
+// plausibility ranges (an open room sensor at −40 °C, a setpoint of 70
+// read as °C) are missing, so the hour records equal those of the same run
+// with exactly those readings flagged; without the range check the hour
+// means would carry them.
+func TestHistoryZoneOutOfRangeIsMissing(t *testing.T) {
+	run := func(mark func(s *collector.Sample, m int)) []HourRecord {
+		h := NewHistory(oneBox(t, 1, 10, false, 0), HistoryOptions{ColdFraction: 1})
+		const air = 0.2
+		start := time.Date(2025, 1, 6, 0, 0, 0, 0, time.UTC)
+		for m := 0; m < 2*24*60; m++ {
+			at := start.Add(time.Duration(m) * time.Minute)
+			s := collector.Sample{Terminal: 0, At: at, AirflowM3s: air, SupplyC: 13, DischargeC: 30, FanOn: true, PlantOn: true,
+				Occupied: at.Hour() >= 7 && at.Hour() < 17, ValveFrac: 1, OutdoorC: -5, ZoneC: 20, ZoneSetC: 21}
+			mark(&s, m)
+			h.Add([]collector.Sample{s})
+		}
+		return h.Hours(0)
+	}
+	bad := func(m int) (zone, set bool) { return m%7 == 3, m%11 == 5 }
+	got := run(func(s *collector.Sample, m int) {
+		z, sp := bad(m)
+		if z {
+			s.ZoneC = -40
+		}
+		if sp {
+			s.ZoneSetC = 70
+		}
+	})
+	want := run(func(s *collector.Sample, m int) {
+		z, sp := bad(m)
+		if z {
+			s.Flags |= collector.FlagZone
+		}
+		if sp {
+			s.Flags |= collector.FlagZoneSet
+		}
+	})
+	if len(got) == 0 || len(got) != len(want) {
+		t.Fatalf("%d hour records, want %d (and some)", len(got), len(want))
+	}
+	for i := range got {
+		g, w := got[i], want[i]
+		if g.ZoneC != w.ZoneC || g.ZoneSetC != w.ZoneSetC || math.IsNaN(g.ZoneC) || math.Abs(g.ZoneC-20) > 1e-9 {
+			t.Errorf("hour %v: zone %.3f / setpoint %.3f °C, want %.3f / %.3f (the readings in range only)", g.Start, g.ZoneC, g.ZoneSetC, w.ZoneC, w.ZoneSetC)
+		}
+	}
+}
