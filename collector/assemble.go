@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"log/slog"
 	"math"
+	"slices"
 	"time"
 
 	"risewatch/site"
@@ -43,15 +44,17 @@ type AssembleStats struct {
 	SkippedSteps  int64 // steps before the Progress watermark, already accepted before a restart
 }
 
-// field addresses one Sample field's value: a point index, a constant, or
-// nothing.
-type field struct {
-	idx   int32 // point index, -1 when none
-	fixed bool
-	value float64
-}
+// field addresses one Sample field's value in four octets: a point index
+// (>= 0), nothing (noField), or constant k of the assembler's table
+// (fixedBase - k).
+type field int32
 
-func (f field) configured() bool { return f.idx >= 0 || f.fixed }
+const (
+	noField   field = -1
+	fixedBase field = -2
+)
+
+func (f field) configured() bool { return f != noField }
 
 // termFields are a terminal's resolved fields.
 type termFields struct {
@@ -79,10 +82,13 @@ type Assembler struct {
 	log      *slog.Logger
 
 	names   []string
-	index   map[string]int32
-	res     []Resampler
-	sinks   []binFunc
+	index   nameIndex
+	grid    grid       // resampling settings, shared by every point
+	res     []resState // per point
+	sink    binFunc    // stores a closed step of point cur in its ring slot
+	cur     int32
 	terms   []termFields
+	consts  []float64   // fixed field values (field fixedBase-k is consts[k])
 	ring    int64       // ring length in steps
 	slots   []*ringSlot // ring entries, step k at k mod ring; nil until a value lands in it
 	spare   []*ringSlot // emptied slots kept for reuse (at most keepSlots)
@@ -144,39 +150,40 @@ func NewAssembler(s *site.Site, cfg AssembleConfig) (*Assembler, error) {
 	if cfg.Logger == nil {
 		cfg.Logger = slog.Default()
 	}
-	a := &Assembler{site: s, cfg: cfg, interval: int64(cfg.Resample.Interval), log: cfg.Logger,
-		index: map[string]int32{}, sources: map[string]*sourceMark{}, unknown: map[string]struct{}{}, skip: math.MinInt64}
+	a := &Assembler{site: s, cfg: cfg, interval: int64(cfg.Resample.Interval), log: cfg.Logger, grid: newGrid(cfg.Resample),
+		sources: map[string]*sourceMark{}, unknown: map[string]struct{}{}, skip: math.MinInt64}
 	if cfg.Progress != nil {
 		cfg.Progress.setGrid(cfg.Resample)
 		a.skip = cfg.Progress.skipBefore()
 	}
 	pts := Points(s)
-	a.res = make([]Resampler, len(pts))
-	a.sinks = make([]binFunc, len(pts))
+	a.res = make([]resState, len(pts))
+	a.names = make([]string, len(pts))
 	for i, p := range pts {
-		a.names = append(a.names, p.Name)
-		a.index[p.Name] = int32(i)
-		a.res[i].init(cfg.Resample, p.Binary)
-		a.sinks[i] = a.sinkFor(int32(i))
+		a.names[i] = p.Name
+		a.res[i].binary = p.Binary
 	}
+	a.index = newNameIndex(a.names)
+	a.sink = a.store
 	a.ring = int64(cfg.Lateness/cfg.Resample.Interval) + 2
 	a.slots = make([]*ringSlot, a.ring)
 	ref := func(p site.PointRef) field {
 		if p.Fixed != nil {
-			return field{idx: -1, fixed: true, value: *p.Fixed}
+			return a.constant(*p.Fixed)
 		}
-		if i, ok := a.index[p.Name]; ok && p.Kind != site.PointNone {
-			return field{idx: i}
+		if i, ok := a.index.lookup(a.names, p.Name); ok && p.Kind != site.PointNone {
+			return field(i)
 		}
-		return field{idx: -1}
+		return noField
 	}
-	for ti, t := range s.Terminals {
+	a.terms = make([]termFields, 0, len(s.Terminals))
+	for _, t := range s.Terminals {
 		var f termFields
 		p := t.Points
 		f.airflow, f.airflowSet, f.discharge = ref(p.Airflow), ref(p.AirflowSetpoint), ref(p.Discharge)
 		f.valve, f.zone, f.zoneSet = ref(p.Valve), ref(p.ZoneTemp), ref(p.ZoneSetpoint)
-		f.supply, f.fan, f.occupied = field{idx: -1}, field{idx: -1}, field{idx: -1}
-		f.hotWater, f.plant = field{idx: -1}, field{idx: -1}
+		f.supply, f.fan, f.occupied = noField, noField, noField
+		f.hotWater, f.plant = noField, noField
 		f.outdoor = ref(s.OutdoorAir)
 		if t.AHU != "" {
 			ai, ok := s.AHUIndex[t.AHU]
@@ -200,11 +207,10 @@ func NewAssembler(s *site.Site, cfg AssembleConfig) (*Assembler, error) {
 			loop := s.Loops[li]
 			f.hotWater, f.plant = ref(loop.SupplyTemp), ref(loop.PlantEnabled)
 			if !f.hotWater.configured() && loop.DesignSupplyC > 0 {
-				f.hotWater = field{idx: -1, fixed: true, value: loop.DesignSupplyC}
+				f.hotWater = a.constant(loop.DesignSupplyC)
 			}
 		}
 		a.terms = append(a.terms, f)
-		_ = ti
 	}
 	for _, name := range cfg.Sources {
 		a.sources[name] = &sourceMark{}
@@ -230,19 +236,29 @@ func findLoop(s *site.Site, id string) (int, bool) {
 	return 0, false
 }
 
-func (a *Assembler) sinkFor(p int32) binFunc {
-	return func(s int64, v float64, q Quality, _ float64) {
-		step := s / a.interval
-		if step < a.first || step >= a.first+a.ring {
-			return
-		}
-		sl := a.slots[step%a.ring]
-		if sl == nil {
-			sl = a.newSlot()
-			a.slots[step%a.ring] = sl
-		}
-		sl.vals[p], sl.quals[p] = v, q
+// constant returns the field of a fixed value, sharing equal values.
+func (a *Assembler) constant(v float64) field {
+	k := slices.Index(a.consts, v)
+	if k < 0 {
+		k = len(a.consts)
+		a.consts = append(a.consts, v)
 	}
+	return fixedBase - field(k)
+}
+
+// store puts a closed step of point a.cur into its ring slot (a.sink: one
+// function for every point, not a closure per point).
+func (a *Assembler) store(s int64, v float64, q Quality, _ float64) {
+	step := s / a.interval
+	if step < a.first || step >= a.first+a.ring {
+		return
+	}
+	sl := a.slots[step%a.ring]
+	if sl == nil {
+		sl = a.newSlot()
+		a.slots[step%a.ring] = sl
+	}
+	sl.vals[a.cur], sl.quals[a.cur] = v, q
 }
 
 // ringSlot holds one step's resampled value and quality per point.
@@ -334,7 +350,7 @@ func (a *Assembler) Add(source string, batch []Reading, emit func([]Sample)) {
 		p := sm.hint
 		if int(p) >= len(a.names) || a.names[p] != rd.Point {
 			var ok bool
-			if p, ok = a.index[rd.Point]; !ok {
+			if p, ok = a.index.lookup(a.names, rd.Point); !ok {
 				a.unknownPoint(source, rd.Point)
 				continue
 			}
@@ -360,7 +376,8 @@ func (a *Assembler) Add(source string, batch []Reading, emit func([]Sample)) {
 			a.emitThrough(step-a.ring+1, true, emit)
 		}
 		a.last = max(a.last, step)
-		if !a.res[p].add(at, rd.Value, rd.Quality, a.sinks[p]) {
+		a.cur = p
+		if !a.res[p].add(&a.grid, at, rd.Value, rd.Quality, a.sink) {
 			a.stats.Late++
 			continue
 		}
@@ -430,7 +447,8 @@ func (a *Assembler) emitThrough(last int64, forced bool, emit func([]Sample)) {
 		k := a.first
 		end := (k + 1) * a.interval
 		for p := range a.res {
-			a.res[p].advance(end, a.sinks[p])
+			a.cur = int32(p)
+			a.res[p].advance(&a.grid, end, a.sink)
 		}
 		r := k % a.ring
 		if k*a.interval < a.skip {
@@ -467,10 +485,10 @@ func (a *Assembler) build(k int64, vals []float64, quals []Quality) {
 	a.samples = a.samples[:len(a.terms)]
 	get := func(f field, flag Flags, fl *Flags) float64 {
 		switch {
-		case f.fixed:
-			return f.value
-		case f.idx >= 0 && quals != nil && quals[f.idx] == Good:
-			return vals[f.idx]
+		case f <= fixedBase:
+			return a.consts[fixedBase-f]
+		case f >= 0 && quals != nil && quals[f] == Good:
+			return vals[f]
 		}
 		*fl |= flag
 		return math.NaN()

@@ -68,35 +68,44 @@ type binFunc func(startNs int64, v float64, q Quality, cov float64)
 // value, the state in effect at the end of the step (or the last good state
 // seen in the step when the end is unknown).
 type Resampler struct {
+	g grid
+	s resState
+}
+
+// grid is the resampling settings shared by every point of an assembler
+// (one copy, not one per point: a campus has tens of thousands of points).
+type grid struct {
 	interval, maxGap int64
 	minCov           float64
-	binary           bool
+}
 
-	started bool
+func newGrid(cfg ResampleConfig) grid {
+	cfg = cfg.WithDefaults()
+	return grid{interval: int64(cfg.Interval), maxGap: int64(cfg.MaxGap), minCov: cfg.MinCoverage}
+}
+
+// resState is one point's resampling state (64 octets). The open step is
+// not stored: it is always the step containing pos (floorStep(pos)),
+// because pos only ever stops inside a step or at the start of the next.
+type resState struct {
 	pos     int64 // time accounted up to, ns
-	bin     int64 // start of the open step, ns
-
-	holdV   float64
-	holdQ   Quality
 	holdEnd int64 // the held state is valid before this time
+	good    int64 // ns of good data in the open step
+	bad     int64 // ns of bad data in the open step
 
+	holdV    float64
 	sumVT    float64 // ∑ v·Δt over good data in the open step
-	good     int64   // ns of good data in the open step
-	bad      int64   // ns of bad data in the open step
 	lastGood float64 // binary: last good value in the open step
+
+	holdQ    Quality
+	binary   bool
+	started  bool
 	seenGood bool
 }
 
 // NewResampler returns a resampler for one point.
 func NewResampler(cfg ResampleConfig, binary bool) *Resampler {
-	r := &Resampler{}
-	r.init(cfg, binary)
-	return r
-}
-
-func (r *Resampler) init(cfg ResampleConfig, binary bool) {
-	cfg = cfg.WithDefaults()
-	*r = Resampler{interval: int64(cfg.Interval), maxGap: int64(cfg.MaxGap), minCov: cfg.MinCoverage, binary: binary}
+	return &Resampler{g: newGrid(cfg), s: resState{binary: binary}}
 }
 
 // floorStep returns the start of the grid step containing t (ns).
@@ -112,19 +121,17 @@ func floorStep(t, interval int64) int64 {
 // It reports false, and ignores the reading, when it is older than what
 // the resampler has already accounted for (out of order).
 func (r *Resampler) Add(rd Reading, emit func(Bin)) bool {
-	return r.add(rd.At.UnixNano(), rd.Value, rd.Quality, wrapEmit(emit))
+	return r.s.add(&r.g, rd.At.UnixNano(), rd.Value, rd.Quality, wrapEmit(emit))
 }
 
 // Advance closes every step that ends at or before to, holding the last
 // value (within MaxGap). Later readings must not be older than to.
-func (r *Resampler) Advance(to time.Time, emit func(Bin)) { r.advance(to.UnixNano(), wrapEmit(emit)) }
+func (r *Resampler) Advance(to time.Time, emit func(Bin)) {
+	r.s.advance(&r.g, to.UnixNano(), wrapEmit(emit))
+}
 
 // Finish closes the open step as it stands (end of data).
-func (r *Resampler) Finish(emit func(Bin)) {
-	if r.started && (r.good > 0 || r.bad > 0 || r.seenGood) {
-		r.close(wrapEmit(emit))
-	}
-}
+func (r *Resampler) Finish(emit func(Bin)) { r.s.finish(&r.g, wrapEmit(emit)) }
 
 func wrapEmit(emit func(Bin)) binFunc {
 	return func(s int64, v float64, q Quality, cov float64) {
@@ -132,35 +139,43 @@ func wrapEmit(emit func(Bin)) binFunc {
 	}
 }
 
-func (r *Resampler) add(at int64, v float64, q Quality, emit binFunc) bool {
+// pending reports whether the open step has data not yet emitted.
+func (r *resState) pending() bool { return r.good > 0 || r.bad > 0 || r.seenGood }
+
+func (r *resState) finish(g *grid, emit binFunc) {
+	if r.started && r.pending() {
+		r.close(g, floorStep(r.pos, g.interval), emit)
+	}
+}
+
+func (r *resState) add(g *grid, at int64, v float64, q Quality, emit binFunc) bool {
 	if q == Good && (math.IsNaN(v) || math.IsInf(v, 0)) {
 		q = Missing
 	}
 	if !r.started {
 		r.started = true
 		r.pos = at
-		r.bin = floorStep(at, r.interval)
 	} else if at < r.pos {
 		return false
 	} else {
-		r.advance(at, emit)
+		r.advance(g, at, emit)
 	}
-	r.holdV, r.holdQ, r.holdEnd = v, q, at+r.maxGap
+	r.holdV, r.holdQ, r.holdEnd = v, q, at+g.maxGap
 	return true
 }
 
-func (r *Resampler) advance(to int64, emit binFunc) {
+func (r *resState) advance(g *grid, to int64, emit binFunc) {
 	if !r.started || to <= r.pos {
 		return
 	}
 	for r.pos < to {
-		if r.pos >= r.holdEnd && r.good == 0 && r.bad == 0 && !r.seenGood {
+		if r.pos >= r.holdEnd && !r.pending() {
 			// Nothing held and nothing pending: skip empty steps (they are missing).
 			r.pos = to
-			r.bin = floorStep(to, r.interval)
 			return
 		}
-		binEnd := r.bin + r.interval
+		bin := floorStep(r.pos, g.interval)
+		binEnd := bin + g.interval
 		segEnd := min(to, binEnd)
 		if h := min(segEnd, r.holdEnd); h > r.pos {
 			d := h - r.pos
@@ -175,18 +190,18 @@ func (r *Resampler) advance(to int64, emit binFunc) {
 		}
 		r.pos = segEnd
 		if r.pos == binEnd {
-			r.close(emit)
-			r.bin = binEnd
+			r.close(g, bin, emit)
 		}
 	}
 }
 
-// close emits the open step and resets the accumulators.
-func (r *Resampler) close(emit binFunc) {
-	cov := float64(r.good) / float64(r.interval)
+// close emits the open step, which starts at bin, and resets the
+// accumulators.
+func (r *resState) close(g *grid, bin int64, emit binFunc) {
+	cov := float64(r.good) / float64(g.interval)
 	v, q := math.NaN(), Missing
 	if r.binary {
-		end := r.bin + r.interval
+		end := bin + g.interval
 		switch {
 		case r.holdEnd >= end && r.pos >= end && r.holdQ == Good:
 			v, q = r.holdV, Good
@@ -197,13 +212,13 @@ func (r *Resampler) close(emit binFunc) {
 		}
 	} else {
 		switch {
-		case r.good > 0 && cov >= r.minCov:
+		case r.good > 0 && cov >= g.minCov:
 			v, q = r.sumVT/float64(r.good), Good
 		case r.bad > 0:
 			q = Bad
 		}
 	}
-	emit(r.bin, v, q, cov)
+	emit(bin, v, q, cov)
 	r.sumVT, r.good, r.bad, r.seenGood = 0, 0, 0, false
 }
 
@@ -212,10 +227,10 @@ func (r *Resampler) close(emit binFunc) {
 // steps in gaps marked Missing. Out-of-order readings are dropped; the
 // count of dropped readings is returned.
 func Resample(readings []Reading, binary bool, cfg ResampleConfig) ([]Bin, int) {
-	var r Resampler
-	r.init(cfg, binary)
+	g := newGrid(cfg)
+	r := resState{binary: binary}
 	var out []Bin
-	interval := r.interval
+	interval := g.interval
 	var next int64 // next step start expected, for gap filling
 	emit := func(s int64, v float64, q Quality, cov float64) {
 		for len(out) > 0 && next < s {
@@ -227,16 +242,14 @@ func Resample(readings []Reading, binary bool, cfg ResampleConfig) ([]Bin, int) 
 	}
 	dropped := 0
 	for _, rd := range readings {
-		if !r.add(rd.At.UnixNano(), rd.Value, rd.Quality, emit) {
+		if !r.add(&g, rd.At.UnixNano(), rd.Value, rd.Quality, emit) {
 			dropped++
 		}
 	}
 	if r.started {
 		// Close the last reading's step: hold to its end (within MaxGap).
-		r.advance(r.bin+r.interval, emit)
-		if r.good > 0 || r.bad > 0 || r.seenGood {
-			r.close(emit)
-		}
+		r.advance(&g, floorStep(r.pos, interval)+interval, emit)
+		r.finish(&g, emit)
 	}
 	return out, dropped
 }

@@ -134,7 +134,7 @@ func BenchmarkResamplerAdd(b *testing.B) {
 	at := t0.UnixNano()
 	b.ReportAllocs()
 	for i := 0; b.Loop(); i++ {
-		r.add(at+int64(i)*int64(15*time.Second), float64(i%7), Good, emit)
+		r.s.add(&r.g, at+int64(i)*int64(15*time.Second), float64(i%7), Good, emit)
 	}
 	_ = n
 }
