@@ -105,11 +105,24 @@ type Client struct {
 // peer holds the open transactions toward one address, keyed by invoke ID.
 type peer struct {
 	next uint8
-	// open holds the transactions in flight by invoke ID: a map, not a
-	// 256-slot array, because a device has a few in flight at most and a
-	// campus has one peer per controller (2 KiB each as an array).
-	open map[uint8]*txn
-	free chan struct{} // signalled when an ID is released
+	// open holds the transactions in flight, in no order: a short slice
+	// searched by invoke ID, not a 256-slot array (2 KiB) or a map (a few
+	// hundred octets once used), because a device has a few in flight at
+	// most and a campus has one peer per controller.
+	open []*txn
+	// free, made when a request first waits for an invoke ID (all 256 in
+	// use), is signalled when an ID is released.
+	free chan struct{}
+}
+
+// find returns the position of invoke ID id in p.open, or -1.
+func (p *peer) find(id uint8) int {
+	for i, t := range p.open {
+		if t.id == id {
+			return i
+		}
+	}
+	return -1
 }
 
 // Device is a BACnet device the client knows: from an I-Am or configuration.

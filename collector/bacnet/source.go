@@ -7,6 +7,7 @@ import (
 	"log/slog"
 	"math"
 	"net/netip"
+	"slices"
 	"sync"
 	"time"
 
@@ -16,19 +17,42 @@ import (
 	"risewatch/units"
 )
 
-// point is one configured BACnet point, resolved to wire identifiers.
+// point is one configured BACnet point, resolved to wire identifiers: from
+// the site's point reference only what reads use, in 48 octets (the whole
+// reference is about 100, a unit conversion 72; a campus has 30,000
+// points, which share a handful of units through Source.units).
 type point struct {
-	// From the site's point reference, only what reads use (the whole
-	// reference is about 100 octets; a campus has 30,000 points).
-	name   string
-	unit0  string // unit as configured (the units check)
-	binary bool   // configured as a state
-	device uint32
-	object wire.ObjectID
-	prop   wire.PropertyID
-	unit   units.Unit // conversion applied to device values
-	hasU   bool
-	trend  *uint32
+	name     string
+	device   uint32
+	object   wire.ObjectID
+	prop     wire.PropertyID
+	trend    uint32 // trend-log instance, when hasTrend
+	unit0    uint16 // unit as configured (the units check): index into Source.units
+	conv     uint16 // conversion applied to device values: index into Source.units (0 = none)
+	binary   bool   // configured as a state
+	hasTrend bool
+}
+
+// unitEntry is one distinct unit of a source's points; entry 0 is "none".
+type unitEntry struct {
+	text string // as configured, or the device's unit name
+	u    units.Unit
+	has  bool // u converts
+}
+
+// unitTable interns a source's units.
+type unitTable []unitEntry
+
+// intern returns the index of the entry for text (converting with u when
+// has), adding it when new.
+func (t *unitTable) intern(text string, u units.Unit, has bool) uint16 {
+	for i, e := range *t {
+		if e.text == text && e.has == has && (!has || e.u.Name == u.Name) {
+			return uint16(i)
+		}
+	}
+	*t = append(*t, unitEntry{text: text, u: u, has: has})
+	return uint16(len(*t) - 1)
 }
 
 // Source polls configured BACnet points and backfills their trend logs. It
@@ -37,6 +61,7 @@ type Source struct {
 	name   string
 	cfg    site.BACnetConfig
 	points []point
+	units  unitTable // the points' units, shared (point.unit0, point.conv)
 	cp     Checkpoints
 	loc    *time.Location
 	log    *slog.Logger
@@ -45,7 +70,7 @@ type Source struct {
 	mu         sync.Mutex
 	client     *Client
 	devices    map[uint32]*Device
-	unitChecks []UnitCheck
+	unitChecks []unitResult
 	fail       failures
 
 	// Trend-log checkpoints tied to a collector.Progress (UseProgress):
@@ -78,13 +103,13 @@ func NewSource(name string, cfg site.BACnetConfig, refs []site.PointRef, cp Chec
 		loc = time.UTC
 	}
 	s := &Source{name: name, cfg: cfg, cp: cp, loc: loc, log: log, devices: map[uint32]*Device{}, Workers: 64,
-		points: make([]point, 0, len(refs))}
+		points: make([]point, 0, len(refs)), units: unitTable{{}}}
 	var errs []error
 	for _, r := range refs {
 		if r.Kind != site.PointBACnet || r.BACnet == nil {
 			continue
 		}
-		p, err := resolvePoint(r)
+		p, err := resolvePoint(r, &s.units)
 		if err != nil {
 			errs = append(errs, fmt.Errorf("source %s: point %s: %w", name, r.Name, err))
 			continue
@@ -96,7 +121,7 @@ func NewSource(name string, cfg site.BACnetConfig, refs []site.PointRef, cp Chec
 	return s, errors.Join(errs...)
 }
 
-func resolvePoint(r site.PointRef) (point, error) {
+func resolvePoint(r site.PointRef, ut *unitTable) (point, error) {
 	b := r.BACnet
 	typ, err := wire.ParseObjectType(b.ObjectType)
 	if err != nil {
@@ -106,13 +131,17 @@ func resolvePoint(r site.PointRef) (point, error) {
 	if err != nil {
 		return point{}, err
 	}
-	p := point{name: r.Name, unit0: r.Unit, binary: r.Binary, device: b.Device, object: wire.ObjectID{Type: typ, Instance: b.Instance}, prop: prop, trend: b.TrendLog}
+	p := point{name: r.Name, binary: r.Binary, device: b.Device, object: wire.ObjectID{Type: typ, Instance: b.Instance}, prop: prop}
+	if b.TrendLog != nil {
+		p.trend, p.hasTrend = *b.TrendLog, true
+	}
+	p.unit0 = ut.intern(r.Unit, units.Unit{}, false)
 	if r.Unit != "" && !r.Binary && !typ.IsBinary() {
 		u, err := units.ParseUnit(r.Unit)
 		if err != nil {
 			return point{}, err
 		}
-		p.unit, p.hasU = u, true
+		p.conv = ut.intern(r.Unit, u, true)
 	}
 	return p, nil
 }
@@ -156,7 +185,19 @@ func (s *Source) Name() string { return s.name }
 func (s *Source) UnitChecks() []UnitCheck {
 	s.mu.Lock()
 	defer s.mu.Unlock()
-	return append([]UnitCheck(nil), s.unitChecks...)
+	out := make([]UnitCheck, len(s.unitChecks))
+	for i, r := range s.unitChecks {
+		p := &s.points[r.point]
+		out[i] = checkUnit(p.name, s.units[p.unit0].text, r.device)
+	}
+	return out
+}
+
+// unitResult is one point's start-up units reading, kept in 8 octets: the
+// UnitCheck (names, message) is rebuilt from it on request.
+type unitResult struct {
+	point  int32 // index into Source.points
+	device EngineeringUnit
 }
 
 // Start binds the client, finds every device (configured addresses first,
@@ -242,7 +283,7 @@ func (s *Source) checkUnits(ctx context.Context) {
 			byDev[p.device] = append(byDev[p.device], i)
 		}
 	}
-	var checks []UnitCheck
+	var checks []unitResult
 	for inst, idx := range byDev {
 		d := s.devices[inst]
 		if d == nil {
@@ -259,18 +300,18 @@ func (s *Source) checkUnits(ctx context.Context) {
 			if r.Err != nil || len(r.Values) != 1 || r.Values[0].Tag != wire.TagEnumerated {
 				continue
 			}
-			uc := checkUnit(p.name, p.unit0, EngineeringUnit(r.Values[0].U))
+			uc := checkUnit(p.name, s.units[p.unit0].text, EngineeringUnit(r.Values[0].U))
 			if du, ok := UnitOf(uc.Device); ok {
-				p.unit, p.hasU = du, true // the device says what its numbers mean
+				p.conv = s.units.intern(du.Name, du, true) // the device says what its numbers mean
 			}
 			if uc.Mismatch {
 				s.log.Warn("bacnet: units disagree with the configuration", "source", s.name, "point", p.name, "detail", uc.Message)
 			}
-			checks = append(checks, uc)
+			checks = append(checks, unitResult{point: int32(idx[k]), device: uc.Device})
 		}
 	}
 	s.mu.Lock()
-	s.unitChecks = checks
+	s.unitChecks = slices.Clip(checks)
 	s.mu.Unlock()
 }
 
@@ -295,7 +336,7 @@ func (s *Source) Close() error {
 }
 
 // convert turns a device value into SI with the point's quality.
-func (p *point) convert(v float64, flags wire.BitString, hasFlags bool) (float64, collector.Quality) {
+func (s *Source) convert(p *point, v float64, flags wire.BitString, hasFlags bool) (float64, collector.Quality) {
 	q := collector.Good
 	if hasFlags && (flags.Bit(wire.StatusFault) || flags.Bit(wire.StatusOutOfService)) {
 		q = collector.Bad
@@ -309,8 +350,8 @@ func (p *point) convert(v float64, flags wire.BitString, hasFlags bool) (float64
 		}
 		return 0, q
 	}
-	if p.hasU {
-		v = p.unit.ToSI(v)
+	if e := &s.units[p.conv]; e.has {
+		v = e.u.ToSI(v)
 	}
 	return v, q
 }
@@ -404,7 +445,7 @@ func (s *Source) pollDevice(ctx context.Context, inst uint32, idx []int, now tim
 			fail(fmt.Errorf("%s %s: %d values, want 1", p.object, p.prop, len(val.Values)))
 		default:
 			if f, ok := val.Values[0].Float(); ok {
-				r.Value, r.Quality = p.convert(f, flags, hasFlags)
+				r.Value, r.Quality = s.convert(p, f, flags, hasFlags)
 			} else {
 				fail(fmt.Errorf("%s %s: value of application tag %d is not a number", p.object, p.prop, val.Values[0].Tag))
 			}

@@ -54,7 +54,7 @@ func (s *Source) SweepTrends(ctx context.Context, emit func([]collector.Reading)
 	var logs []*sweepLog
 	for i := range s.points {
 		p := &s.points[i]
-		if p.trend != nil && s.devices[p.device] != nil {
+		if p.hasTrend && s.devices[p.device] != nil {
 			logs = append(logs, &sweepLog{p: p})
 		}
 	}
@@ -68,7 +68,7 @@ func (s *Source) SweepTrends(ctx context.Context, emit func([]collector.Reading)
 		tr.known = s.knownNext
 	}
 	s.parallel(logs, func(l *sweepLog) {
-		l.cur, l.err = tr.open(ctx, s.devices[l.p.device], *l.p.trend)
+		l.cur, l.err = tr.open(ctx, s.devices[l.p.device], l.p.trend)
 		if follow && l.err == nil {
 			s.opened(l.cur)
 		}
@@ -107,7 +107,7 @@ func (s *Source) SweepTrends(ctx context.Context, emit func([]collector.Reading)
 			}
 			recs := l.buf[l.pos:end]
 			delivered = append(delivered, recs)
-			batch = l.p.appendReadings(batch, recs)
+			batch = s.appendReadings(l.p, batch, recs)
 		}
 		if len(batch) == 0 && lead < 0 {
 			break // every log caught up (or failed)
@@ -133,7 +133,7 @@ func (s *Source) SweepTrends(ctx context.Context, emit func([]collector.Reading)
 		res := l.cur.res
 		if res.Lost > 0 || res.Reset {
 			s.log.Warn("bacnet: trend log lost records before they were read", "source", s.name, "point", l.p.name,
-				"device", l.p.device, "trend_log", *l.p.trend, "lost", res.Lost, "renumbered", res.Reset)
+				"device", l.p.device, "trend_log", l.p.trend, "lost", res.Lost, "renumbered", res.Reset)
 		}
 		if l.err != nil {
 			errs = append(errs, fmt.Errorf("point %s: %w", l.p.name, l.err))
@@ -229,12 +229,12 @@ func (s *Source) parallel(logs []*sweepLog, fn func(*sweepLog)) {
 
 // appendReadings converts trend records to readings of p (clock-change
 // markers are not values and are left out).
-func (p *point) appendReadings(out []collector.Reading, recs []TrendRecord) []collector.Reading {
+func (s *Source) appendReadings(p *point, out []collector.Reading, recs []TrendRecord) []collector.Reading {
 	for _, rec := range recs {
 		r := Reading(p.name, rec.At)
 		switch {
 		case rec.Numeric():
-			r.Value, r.Quality = p.convert(rec.Value, rec.Flags, rec.HasFlags)
+			r.Value, r.Quality = s.convert(p, rec.Value, rec.Flags, rec.HasFlags)
 		case rec.Kind == wire.LogTimeChange:
 			continue
 		}

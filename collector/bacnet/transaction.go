@@ -35,7 +35,7 @@ type result struct {
 func (c *Client) peerFor(a Address) *peer {
 	p, ok := c.peers[a]
 	if !ok {
-		p = &peer{open: map[uint8]*txn{}, free: make(chan struct{}, 1)}
+		p = &peer{}
 		c.peers[a] = p
 	}
 	return p
@@ -48,14 +48,17 @@ func (c *Client) open(ctx context.Context, a Address, svc wire.ConfirmedService)
 		p := c.peerFor(a)
 		for i := 0; i < 256; i++ {
 			id := p.next + uint8(i)
-			if p.open[id] == nil {
+			if p.find(id) < 0 {
 				t := &txn{addr: a, id: id, svc: svc, done: make(chan result, 1), segment: make(chan struct{}, 1),
 					limit: c.opts.MaxSegments * c.opts.MaxAPDU}
-				p.open[id] = t
+				p.open = append(p.open, t)
 				p.next = id + 1
 				c.mu.Unlock()
 				return t, nil
 			}
+		}
+		if p.free == nil {
+			p.free = make(chan struct{}, 1)
 		}
 		free := p.free
 		c.mu.Unlock()
@@ -72,11 +75,17 @@ func (c *Client) open(ctx context.Context, a Address, svc wire.ConfirmedService)
 func (c *Client) closeTxn(t *txn) {
 	c.mu.Lock()
 	p := c.peers[t.addr]
-	if p != nil && p.open[t.id] == t {
-		delete(p.open, t.id)
-		select {
-		case p.free <- struct{}{}:
-		default:
+	if p != nil {
+		if i := p.find(t.id); i >= 0 && p.open[i] == t {
+			last := len(p.open) - 1
+			p.open[i], p.open[last] = p.open[last], nil
+			p.open = p.open[:last]
+			if p.free != nil {
+				select {
+				case p.free <- struct{}{}:
+				default:
+				}
+			}
 		}
 	}
 	c.mu.Unlock()
@@ -86,7 +95,9 @@ func (c *Client) lookup(a Address, id uint8) *txn {
 	c.mu.Lock()
 	defer c.mu.Unlock()
 	if p := c.peers[a]; p != nil {
-		return p.open[id]
+		if i := p.find(id); i >= 0 {
+			return p.open[i]
+		}
 	}
 	return nil
 }
