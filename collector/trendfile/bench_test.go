@@ -97,6 +97,23 @@ func BenchmarkTrendIngest(b *testing.B) {
 	b.ReportMetric(float64(n), "readings/op")
 }
 
+// BenchmarkTrendIngestDistinct is BenchmarkTrendIngest on the file with
+// nearly all-distinct values (three decimals and sensor noise).
+func BenchmarkTrendIngestDistinct(b *testing.B) {
+	path, s, size := benchFileDistinct(b)
+	src := newSource(b, s, site.TrendfileConfig{Path: path})
+	b.SetBytes(size)
+	b.ReportAllocs()
+	var n int64
+	for b.Loop() {
+		var err error
+		if n, err = readStream(src, path); err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric(float64(n), "readings/op")
+}
+
 // BenchmarkTrendIngestRows reads the same file through ReadRows: SI values
 // per row, no Reading per value.
 func BenchmarkTrendIngestRows(b *testing.B) {
