@@ -69,14 +69,25 @@ func batches(reads []Read, maxAPDU int) [][]Read {
 	return out
 }
 
+// specsOf groups consecutive reads of one object into access specs. The
+// specs and their property lists take two allocations per request, not one
+// per object.
 func specsOf(reads []Read) []wire.ReadAccessSpec {
-	var specs []wire.ReadAccessSpec
-	for _, r := range reads {
+	objects := 0
+	for i, r := range reads {
+		if i == 0 || reads[i-1].Object != r.Object {
+			objects++
+		}
+	}
+	specs := make([]wire.ReadAccessSpec, 0, objects)
+	props := make([]wire.PropertyRef, len(reads))
+	for i, r := range reads {
+		props[i] = r.Prop
 		if n := len(specs); n > 0 && specs[n-1].Object == r.Object {
-			specs[n-1].Props = append(specs[n-1].Props, r.Prop)
+			specs[n-1].Props = props[i-len(specs[n-1].Props) : i+1 : i+1]
 			continue
 		}
-		specs = append(specs, wire.ReadAccessSpec{Object: r.Object, Props: []wire.PropertyRef{r.Prop}})
+		specs = append(specs, wire.ReadAccessSpec{Object: r.Object, Props: props[i : i+1 : i+1]})
 	}
 	return specs
 }

@@ -70,6 +70,7 @@ type Source struct {
 	mu         sync.Mutex
 	client     *Client
 	devices    map[uint32]*Device
+	groups     []deviceGroup // points by device (byDevice)
 	unitChecks []unitResult
 	fail       failures
 
@@ -366,31 +367,57 @@ func (s *Source) PollOnce(ctx context.Context) ([]collector.Reading, error) {
 		return nil, fmt.Errorf("source %s: not started", s.name)
 	}
 	now := time.Now()
-	byDev := map[uint32][]int{}
-	for i, p := range s.points {
-		byDev[p.device] = append(byDev[p.device], i)
-	}
+	groups := s.byDevice()
 	out := make([]collector.Reading, len(s.points))
-	jobs := make(chan uint32)
+	jobs := make(chan *deviceGroup)
 	var wg sync.WaitGroup
-	for w := 0; w < max(1, min(s.Workers, len(byDev))); w++ {
+	for w := 0; w < max(1, min(s.Workers, len(groups))); w++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			for inst := range jobs {
-				s.pollDevice(ctx, inst, byDev[inst], now, out)
+			for g := range jobs {
+				s.pollDevice(ctx, g.device, g.points, now, out)
 			}
 		}()
 	}
-	for inst := range byDev {
-		jobs <- inst
+	for i := range groups {
+		jobs <- &groups[i]
 	}
 	close(jobs)
 	wg.Wait()
 	return out, ctx.Err()
 }
 
-func (s *Source) pollDevice(ctx context.Context, inst uint32, idx []int, now time.Time, out []collector.Reading) {
+// deviceGroup is one device's points (indexes into Source.points).
+type deviceGroup struct {
+	device uint32
+	points []int32
+}
+
+// byDevice returns the points grouped by device, built on the first poll
+// and kept (a poll would otherwise rebuild a map of every point).
+func (s *Source) byDevice() []deviceGroup {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	if s.groups != nil {
+		return s.groups
+	}
+	at := map[uint32]int{}
+	var groups []deviceGroup
+	for i, p := range s.points {
+		k, ok := at[p.device]
+		if !ok {
+			k = len(groups)
+			at[p.device] = k
+			groups = append(groups, deviceGroup{device: p.device})
+		}
+		groups[k].points = append(groups[k].points, int32(i))
+	}
+	s.groups = slices.Clip(groups)
+	return s.groups
+}
+
+func (s *Source) pollDevice(ctx context.Context, inst uint32, idx []int32, now time.Time, out []collector.Reading) {
 	d := s.devices[inst]
 	if d == nil {
 		for _, i := range idx {

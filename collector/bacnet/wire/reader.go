@@ -213,8 +213,11 @@ func (r *Reader) Skip() error {
 // ValuesUntil decodes elements up to (and consuming) closing tag n.
 // Application primitives are decoded; context-tagged or constructed elements
 // are kept whole as TagRaw values.
-func (r *Reader) ValuesUntil(n uint8) ([]Value, error) {
-	var vs []Value
+func (r *Reader) ValuesUntil(n uint8) ([]Value, error) { return r.appendValuesUntil(nil, n) }
+
+// appendValuesUntil is ValuesUntil appending to vs (an answer's shared
+// value array: one allocation per answer instead of one per property).
+func (r *Reader) appendValuesUntil(vs []Value, n uint8) ([]Value, error) {
 	for {
 		if r.Done() {
 			return nil, fmt.Errorf("bacnet: missing closing tag %d: %w", n, ErrShort)

@@ -106,7 +106,11 @@ func RPMResultLen(pv PropertyValue) int { return len(appendRPMResult(nil, pv)) }
 // into one PropertyValue per property, in answer order.
 func DecodeReadPropertyMultipleACK(data []byte) ([]PropertyValue, error) {
 	r := NewReader(data)
-	var out []PropertyValue
+	// A result takes at least 9 octets (property identifier, opening and
+	// closing tags, a 5-octet REAL), so these capacities hold a poll's
+	// answer without growing; the values share one array.
+	out := make([]PropertyValue, 0, len(data)/9+1)
+	arena := make([]Value, 0, len(data)/9+1)
 	for !r.Done() {
 		obj, err := r.ContextObjectID(0)
 		if err != nil {
@@ -126,8 +130,12 @@ func DecodeReadPropertyMultipleACK(data []byte) ([]PropertyValue, error) {
 			switch {
 			case r.IsOpening(4):
 				_ = r.Open(4)
-				if pv.Values, err = r.ValuesUntil(4); err != nil {
+				start := len(arena)
+				if arena, err = r.appendValuesUntil(arena, 4); err != nil {
 					return nil, fmt.Errorf("read-property-multiple ack: %s %s: %w", obj, pv.Prop, err)
+				}
+				if len(arena) > start {
+					pv.Values = arena[start:len(arena):len(arena)]
 				}
 			case r.IsOpening(5):
 				_ = r.Open(5)
