@@ -70,7 +70,7 @@ func (p *parser) wideFast(rec []byte, line int64) {
 	vals, st, pos := rc.vals, rc.st, rc.pos
 	pat := uint64(delim) * ones8
 	var memo *[1 << memoBits]memoEntry
-	if p.memoUse.on(last) {
+	if memoPays && p.memoUse.on(last) {
 		memo = p.memo()
 	}
 	i, c, others, hits, looked := t+1, 1, 0, 0, 0
@@ -354,6 +354,13 @@ func (m *memoUse) count(hits, looked int) {
 	}
 	m.hits, m.looked = 0, 0
 }
+
+// memoPays says whether wideFast uses the memo: with the Go form, where
+// a lookup costs a fraction of a conversion. The assembly converts a
+// cell in less than the time of a lookup (the memo's 256 KiB lie in L2),
+// so on amd64 the memo is left out (measured on the benchmark file with
+// repeating values: its cells scanned about a third slower with it).
+const memoPays = !haveScanWordsAsm
 
 // memoBits sizes the parsed-cell memo (2^memoBits entries, 16 bytes each).
 const (

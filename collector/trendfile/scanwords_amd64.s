@@ -5,11 +5,12 @@
 // Constants of scanWordsAsm: keepBytes[0..8], byte patterns, 16-byte
 // vector constants (two equal halves), lowBits[0..8] = 2^n - 1, and the
 // cell shapes.
-// Shapes at 0x128, 32 bytes per (nb, pt) = (bytes after the sign, point
-// byte or 7 for none): the squeeze mask keepBytes[pt], the digit test (the
-// PMOVMSKB bits of the nd digit bytes; 0xFF00 when nd = 0 or the shape
-// cannot occur: bytes 8..14 of the test vector always have bit 7 set, so
-// the test fails), the swarValue shift 8·(8-nd) and 10^frac.
+// Shapes at 0x128, 32 bytes per (nb, pt) = (bytes after the sign, the
+// lowest point byte of the word or 7 for none; a point at or after byte
+// nb is not in the cell): the squeeze mask keepBytes[pt], the digit test
+// (the PMOVMSKB bits of the nd digit bytes; 0xFF00 when nd = 0: bytes
+// 8..14 of the test vector always have bit 7 set, so the test fails), the
+// swarValue shift 8·(8-nd) and 10^frac.
 DATA scanTab<>+0x000(SB)/8, $0x0000000000000000 // keepBytes[0]
 DATA scanTab<>+0x008(SB)/8, $0x00000000000000FF
 DATA scanTab<>+0x010(SB)/8, $0x000000000000FFFF
@@ -27,8 +28,8 @@ DATA scanTab<>+0x070(SB)/8, $0x2E2E2E2E2E2E2E2E // '.' bytes
 DATA scanTab<>+0x078(SB)/8, $0x2E2E2E2E2E2E2E2E
 DATA scanTab<>+0x080(SB)/8, $0x7676767676767676 // 0x80 - 10 bytes
 DATA scanTab<>+0x088(SB)/8, $0x7676767676767676
-DATA scanTab<>+0x090(SB)/8, $0x00FF00FF00FF00FF // even bytes
-DATA scanTab<>+0x098(SB)/8, $0x00FF00FF00FF00FF
+DATA scanTab<>+0x090(SB)/8, $0x0001000A0001000A // words 10, 1
+DATA scanTab<>+0x098(SB)/8, $0x0001000A0001000A
 DATA scanTab<>+0x0A0(SB)/8, $0x0001006400010064 // words 100, 1
 DATA scanTab<>+0x0A8(SB)/8, $0x0001006400010064
 DATA scanTab<>+0x0B0(SB)/8, $0x0000000000002710 // 10000 (low qword)
@@ -81,28 +82,28 @@ DATA scanTab<>+0x230(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
 DATA scanTab<>+0x238(SB)/8, $0x0000000000000000 // swar shift
 DATA scanTab<>+0x240(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x248(SB)/8, $0x00000000000000FF // nb 1 pt 1: low
-DATA scanTab<>+0x250(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x258(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x250(SB)/8, $0x0000000000000001 // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x258(SB)/8, $0x0000000000000038 // swar shift
 DATA scanTab<>+0x260(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x268(SB)/8, $0x000000000000FFFF // nb 1 pt 2: low
-DATA scanTab<>+0x270(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x278(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x270(SB)/8, $0x0000000000000001 // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x278(SB)/8, $0x0000000000000038 // swar shift
 DATA scanTab<>+0x280(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x288(SB)/8, $0x0000000000FFFFFF // nb 1 pt 3: low
-DATA scanTab<>+0x290(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x298(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x290(SB)/8, $0x0000000000000001 // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x298(SB)/8, $0x0000000000000038 // swar shift
 DATA scanTab<>+0x2A0(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x2A8(SB)/8, $0x00000000FFFFFFFF // nb 1 pt 4: low
-DATA scanTab<>+0x2B0(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x2B8(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x2B0(SB)/8, $0x0000000000000001 // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x2B8(SB)/8, $0x0000000000000038 // swar shift
 DATA scanTab<>+0x2C0(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x2C8(SB)/8, $0x000000FFFFFFFFFF // nb 1 pt 5: low
-DATA scanTab<>+0x2D0(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x2D8(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x2D0(SB)/8, $0x0000000000000001 // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x2D8(SB)/8, $0x0000000000000038 // swar shift
 DATA scanTab<>+0x2E0(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x2E8(SB)/8, $0x0000FFFFFFFFFFFF // nb 1 pt 6: low
-DATA scanTab<>+0x2F0(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x2F8(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x2F0(SB)/8, $0x0000000000000001 // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x2F8(SB)/8, $0x0000000000000038 // swar shift
 DATA scanTab<>+0x300(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x308(SB)/8, $0x00FFFFFFFFFFFFFF // nb 1 pt 7: low
 DATA scanTab<>+0x310(SB)/8, $0x0000000000000001 // digit test (PMOVMSKB bits)
@@ -117,24 +118,24 @@ DATA scanTab<>+0x350(SB)/8, $0x0000000000000001 // digit test (PMOVMSKB bits)
 DATA scanTab<>+0x358(SB)/8, $0x0000000000000038 // swar shift
 DATA scanTab<>+0x360(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x368(SB)/8, $0x000000000000FFFF // nb 2 pt 2: low
-DATA scanTab<>+0x370(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x378(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x370(SB)/8, $0x0000000000000003 // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x378(SB)/8, $0x0000000000000030 // swar shift
 DATA scanTab<>+0x380(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x388(SB)/8, $0x0000000000FFFFFF // nb 2 pt 3: low
-DATA scanTab<>+0x390(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x398(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x390(SB)/8, $0x0000000000000003 // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x398(SB)/8, $0x0000000000000030 // swar shift
 DATA scanTab<>+0x3A0(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x3A8(SB)/8, $0x00000000FFFFFFFF // nb 2 pt 4: low
-DATA scanTab<>+0x3B0(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x3B8(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x3B0(SB)/8, $0x0000000000000003 // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x3B8(SB)/8, $0x0000000000000030 // swar shift
 DATA scanTab<>+0x3C0(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x3C8(SB)/8, $0x000000FFFFFFFFFF // nb 2 pt 5: low
-DATA scanTab<>+0x3D0(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x3D8(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x3D0(SB)/8, $0x0000000000000003 // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x3D8(SB)/8, $0x0000000000000030 // swar shift
 DATA scanTab<>+0x3E0(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x3E8(SB)/8, $0x0000FFFFFFFFFFFF // nb 2 pt 6: low
-DATA scanTab<>+0x3F0(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x3F8(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x3F0(SB)/8, $0x0000000000000003 // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x3F8(SB)/8, $0x0000000000000030 // swar shift
 DATA scanTab<>+0x400(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x408(SB)/8, $0x00FFFFFFFFFFFFFF // nb 2 pt 7: low
 DATA scanTab<>+0x410(SB)/8, $0x0000000000000003 // digit test (PMOVMSKB bits)
@@ -153,20 +154,20 @@ DATA scanTab<>+0x470(SB)/8, $0x0000000000000003 // digit test (PMOVMSKB bits)
 DATA scanTab<>+0x478(SB)/8, $0x0000000000000030 // swar shift
 DATA scanTab<>+0x480(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x488(SB)/8, $0x0000000000FFFFFF // nb 3 pt 3: low
-DATA scanTab<>+0x490(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x498(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x490(SB)/8, $0x0000000000000007 // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x498(SB)/8, $0x0000000000000028 // swar shift
 DATA scanTab<>+0x4A0(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x4A8(SB)/8, $0x00000000FFFFFFFF // nb 3 pt 4: low
-DATA scanTab<>+0x4B0(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x4B8(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x4B0(SB)/8, $0x0000000000000007 // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x4B8(SB)/8, $0x0000000000000028 // swar shift
 DATA scanTab<>+0x4C0(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x4C8(SB)/8, $0x000000FFFFFFFFFF // nb 3 pt 5: low
-DATA scanTab<>+0x4D0(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x4D8(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x4D0(SB)/8, $0x0000000000000007 // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x4D8(SB)/8, $0x0000000000000028 // swar shift
 DATA scanTab<>+0x4E0(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x4E8(SB)/8, $0x0000FFFFFFFFFFFF // nb 3 pt 6: low
-DATA scanTab<>+0x4F0(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x4F8(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x4F0(SB)/8, $0x0000000000000007 // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x4F8(SB)/8, $0x0000000000000028 // swar shift
 DATA scanTab<>+0x500(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x508(SB)/8, $0x00FFFFFFFFFFFFFF // nb 3 pt 7: low
 DATA scanTab<>+0x510(SB)/8, $0x0000000000000007 // digit test (PMOVMSKB bits)
@@ -189,16 +190,16 @@ DATA scanTab<>+0x590(SB)/8, $0x0000000000000007 // digit test (PMOVMSKB bits)
 DATA scanTab<>+0x598(SB)/8, $0x0000000000000028 // swar shift
 DATA scanTab<>+0x5A0(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x5A8(SB)/8, $0x00000000FFFFFFFF // nb 4 pt 4: low
-DATA scanTab<>+0x5B0(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x5B8(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x5B0(SB)/8, $0x000000000000000F // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x5B8(SB)/8, $0x0000000000000020 // swar shift
 DATA scanTab<>+0x5C0(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x5C8(SB)/8, $0x000000FFFFFFFFFF // nb 4 pt 5: low
-DATA scanTab<>+0x5D0(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x5D8(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x5D0(SB)/8, $0x000000000000000F // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x5D8(SB)/8, $0x0000000000000020 // swar shift
 DATA scanTab<>+0x5E0(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x5E8(SB)/8, $0x0000FFFFFFFFFFFF // nb 4 pt 6: low
-DATA scanTab<>+0x5F0(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x5F8(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x5F0(SB)/8, $0x000000000000000F // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x5F8(SB)/8, $0x0000000000000020 // swar shift
 DATA scanTab<>+0x600(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x608(SB)/8, $0x00FFFFFFFFFFFFFF // nb 4 pt 7: low
 DATA scanTab<>+0x610(SB)/8, $0x000000000000000F // digit test (PMOVMSKB bits)
@@ -225,12 +226,12 @@ DATA scanTab<>+0x6B0(SB)/8, $0x000000000000000F // digit test (PMOVMSKB bits)
 DATA scanTab<>+0x6B8(SB)/8, $0x0000000000000020 // swar shift
 DATA scanTab<>+0x6C0(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x6C8(SB)/8, $0x000000FFFFFFFFFF // nb 5 pt 5: low
-DATA scanTab<>+0x6D0(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x6D8(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x6D0(SB)/8, $0x000000000000001F // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x6D8(SB)/8, $0x0000000000000018 // swar shift
 DATA scanTab<>+0x6E0(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x6E8(SB)/8, $0x0000FFFFFFFFFFFF // nb 5 pt 6: low
-DATA scanTab<>+0x6F0(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x6F8(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x6F0(SB)/8, $0x000000000000001F // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x6F8(SB)/8, $0x0000000000000018 // swar shift
 DATA scanTab<>+0x700(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x708(SB)/8, $0x00FFFFFFFFFFFFFF // nb 5 pt 7: low
 DATA scanTab<>+0x710(SB)/8, $0x000000000000001F // digit test (PMOVMSKB bits)
@@ -261,8 +262,8 @@ DATA scanTab<>+0x7D0(SB)/8, $0x000000000000001F // digit test (PMOVMSKB bits)
 DATA scanTab<>+0x7D8(SB)/8, $0x0000000000000018 // swar shift
 DATA scanTab<>+0x7E0(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x7E8(SB)/8, $0x0000FFFFFFFFFFFF // nb 6 pt 6: low
-DATA scanTab<>+0x7F0(SB)/8, $0x000000000000FF00 // digit test (PMOVMSKB bits)
-DATA scanTab<>+0x7F8(SB)/8, $0x0000000000000000 // swar shift
+DATA scanTab<>+0x7F0(SB)/8, $0x000000000000003F // digit test (PMOVMSKB bits)
+DATA scanTab<>+0x7F8(SB)/8, $0x0000000000000010 // swar shift
 DATA scanTab<>+0x800(SB)/8, $0x3FF0000000000000 // 1e0
 DATA scanTab<>+0x808(SB)/8, $0x00FFFFFFFFFFFFFF // nb 6 pt 7: low
 DATA scanTab<>+0x810(SB)/8, $0x000000000000003F // digit test (PMOVMSKB bits)
@@ -304,36 +305,39 @@ GLOBL scanTab<>(SB), RODATA|NOPTR, $0x928
 
 // func scanWordsAsm(rec []byte, i, c, last int, pat uint64, vals []float64, st []uint8, pos []int32, memo *[1 << memoBits]memoEntry) (int, int, int, int, int)
 //
-// scanWordsGo (fastrow.go) in amd64 assembly, with the same results; two
-// steps differ in how, not what:
+// scanWordsGo (fastrow.go) in amd64 assembly (SSE2), with the same
+// results; two steps differ in how, not what:
 //
 // The delimiters are found for 64 bytes at a time (PCMPEQB, PMOVMSKB: a
 // bit per byte, the window D) and taken lowest first; a cell's end is the
 // lowest bit left, so finding it does not wait for the cell before (the
 // word-at-a-time search of scanWordsGo chains every cell's load on the
-// previous cell's end). A window starts at a cell start and is renewed
-// once a cell start is more than 56 bytes into it (so a cell's eight
-// bytes always lie inside); the last 64 bytes of a record are read a word
-// at a time as in the Go form.
+// previous cell's end). A window starts at a cell start while at least 72
+// bytes are left (so every cell in it has its eight bytes in rec), and is
+// renewed when no delimiter is left within a cell's eight bytes and the
+// cell starts more than 56 bytes into it; otherwise that is a longer
+// cell. The last 72 bytes of a record are read a word at a time as in the
+// Go form.
 //
-// The cell's conversion runs in an XMM register (SSE2): the point found
-// by PCMPEQB, squeezed out, the digit test per byte (PADDB: no carries
-// between bytes), then swarValue's pairs with PMADDWD (100·a + b) and
-// PMULUDQ (10000·a + b) and CVTDQ2PD: the same integer, so the same
-// correctly rounded quotient. The integer registers are then free for
-// finding cells, the memo and the stores.
+// The cell's conversion runs in an XMM register: the point found by
+// PCMPEQB, squeezed out, the digit test per byte (PADDB: no carries
+// between bytes), then swarValue's combination with PMADDWL (10·a + b in
+// words, then 100·a + b) and PMULULQ (10000·a + b), and CVTPL2PD: the
+// same integer, so the same correctly rounded quotient. The integer
+// registers are left for finding cells, the memo and the stores.
 //
 // The memo counters are derived at the end: every cell read is looked up
 // unless blank, and hits are lookups minus misses.
 //
 // SI rec, AX the next cell's start, DX the window's start, R12 its
-// delimiter bits left, R13 c, R14 vals, BX the constants; R8 the cell's
-// start and R10 its length in the cell steps.
+// delimiter bits left, R13 c, R14 vals, DI st, BX the constants; R8 the
+// cell's start and R10 its length in the cell steps.
 TEXT ·scanWordsAsm(SB), NOSPLIT, $0-176
 	MOVQ rec_base+0(FP), SI
 	MOVQ i+24(FP), AX
 	MOVQ c+32(FP), R13
 	MOVQ vals_base+56(FP), R14
+	MOVQ st_base+80(FP), DI
 	LEAQ scanTab<>(SB), BX
 	MOVQ $0, others+152(FP)
 	MOVQ $0, hits+160(FP)   // misses while scanning
@@ -346,38 +350,34 @@ TEXT ·scanWordsAsm(SB), NOSPLIT, $0-176
 	MOVOU 0x90(BX), X11
 	MOVOU 0xA0(BX), X12
 	MOVOU 0xB0(BX), X13
+	PXOR X14, X14
 	LEAQ -64(AX), DX // no window yet
+	XORL R12, R12
 
 head:
 	CMPQ R13, last+40(FP)
 	JGE  done
-	MOVQ AX, CX
-	SUBQ DX, CX
-	CMPQ CX, $56
-	JA   window
 
-find:
-	// The cell's delimiter is the lowest bit left; none within 8 bytes:
-	// a longer cell, where the scan stops.
+	// The cell's delimiter is the lowest bit left (R9, then its byte).
 	BSFQ R12, R9
-	JZ   done
+	JZ   nodelim
+	ADDQ DX, R9
 	MOVQ R9, R10
-	SUBQ CX, R10
+	SUBQ AX, R10
 	CMPQ R10, $8
-	JAE  done
+	JAE  nodelim
 	LEAQ -1(R12), R11
 	ANDQ R11, R12
 	MOVQ AX, R8
-	LEAQ 1(DX)(R9*1), AX
+	LEAQ 1(R9), AX
 
 cell:
 	MOVQ pos_base+104(FP), R11
 	MOVL R8, (R11)(R13*4)
 	TESTQ R10, R10
 	JZ   blank
-	MOVQ memo+128(FP), R11
-	TESTQ R11, R11
-	JNZ  lookup
+	CMPQ memo+128(FP), $0
+	JNE  lookup
 
 parse:
 	// X2 = the cell's word, X1 its sign bit, R10 the bytes after the sign.
@@ -387,11 +387,10 @@ parse:
 	JEQ  neg
 
 unsigned:
-	// pt (R11): the lowest '.' of the nb bytes, 7 when none.
+	// pt (R11): the lowest '.' of the word, 7 when none.
 	MOVO X2, X3
 	PCMPEQB X9, X3
 	PMOVMSKB X3, R11
-	ANDQ 0xE0(BX)(R10*8), R11
 	ORQ  $0x80, R11
 	BSFQ R11, R11
 	LEAQ (R11)(R10*8), R10
@@ -415,17 +414,13 @@ unsigned:
 	TESTQ 0x130(BX)(R10*1), R11
 	JNZ  other
 
-	// swarValue(x, nd): digits to the top, pairs 10·a + b in the even
-	// bytes, 100·a + b in dwords, 10000·a + b in the low qword.
+	// swarValue(x, nd): the digits to the top of the word (leading
+	// zeros below), bytes to words, 10·a + b, 100·a + b, 10000·a + b.
 	MOVQ 0x138(BX)(R10*1), X4
 	PSLLQ X4, X2
-	MOVO X2, X3
-	PSLLQ $2, X3
-	PADDQ X2, X3
-	PADDQ X3, X3
-	PSRLQ $8, X2
-	PADDQ X3, X2
-	PAND X11, X2
+	PUNPCKLBW X14, X2
+	PMADDWL X11, X2
+	PACKSSLW X2, X2
 	PMADDWL X12, X2
 	MOVO X2, X3
 	PSRLQ $32, X3
@@ -436,17 +431,15 @@ unsigned:
 	CVTPL2PD X2, X0
 	DIVSD 0x140(BX)(R10*1), X0
 	PXOR X1, X0
-	MOVQ memo+128(FP), R11
-	TESTQ R11, R11
-	JZ   value
+	CMPQ memo+128(FP), $0
+	JEQ  value
 	MOVQ X7, R11
 	MOVQ X6, (R11)
 	MOVSD X0, 8(R11)
 
 value:
 	MOVSD X0, (R14)(R13*8)
-	MOVQ st_base+80(FP), R11
-	MOVB $1, (R11)(R13*1)
+	MOVB $1, (DI)(R13*1)
 	INCQ R13
 	JMP  head
 
@@ -462,7 +455,7 @@ lookup:
 	IMULQ 0xD8(BX), CX
 	SHRQ $50, CX
 	SHLQ $4, CX
-	ADDQ R11, CX
+	ADDQ memo+128(FP), CX
 	CMPQ R9, (CX)
 	JNE  miss
 	MOVSD 8(CX), X0
@@ -481,24 +474,29 @@ neg:
 	JMP  unsigned
 
 other:
-	MOVQ st_base+80(FP), R11
-	MOVB $2, (R11)(R13*1)
+	MOVB $2, (DI)(R13*1)
 	INCQ others+152(FP)
 	INCQ R13
 	JMP  head
 
 blank:
-	MOVQ st_base+80(FP), R11
-	MOVB $0, (R11)(R13*1)
+	MOVB $0, (DI)(R13*1)
 	INCQ others+152(FP)
 	INCQ looked+168(FP)
 	INCQ R13
 	JMP  head
 
-window:
-	// A new window at the cell's start, when 64 bytes are left.
+nodelim:
+	// No delimiter left within the cell's eight bytes: a longer cell,
+	// unless the cell starts more than 56 bytes into the window.
+	MOVQ AX, CX
+	SUBQ DX, CX
+	CMPQ CX, $56
+	JBE  done
+
+	// A new window at the cell's start, while 72 bytes are left.
 	MOVQ rec_len+8(FP), R11
-	SUBQ $64, R11
+	SUBQ $72, R11
 	CMPQ AX, R11
 	JGT  tail
 	MOVQ AX, DX
@@ -520,12 +518,13 @@ window:
 	PMOVMSKB X3, R11
 	SHLQ $48, R11
 	ORQ  R11, R12
-	XORL CX, CX
-	JMP  find
+	JMP  head
 
 tail:
-	// The record's last 64 bytes, a word at a time (scanWordsGo's step):
+	// The record's last 72 bytes, a word at a time (scanWordsGo's step):
 	// the first delimiter byte of (x - ones8) &^ x & high8, x = w ^ pat.
+	// No window: D stays empty, so every cell comes here.
+	XORL R12, R12
 	MOVQ rec_len+8(FP), R11
 	SUBQ $8, R11
 	CMPQ AX, R11
@@ -549,14 +548,12 @@ done:
 	MOVQ R13, c1+144(FP)
 	// looked = cells read - blanks (with the memo), hits = looked - misses.
 	MOVQ $0, R9
-	MOVQ memo+128(FP), R11
-	TESTQ R11, R11
-	JZ   counts
+	CMPQ memo+128(FP), $0
+	JEQ  counts
 	MOVQ R13, R9
 	SUBQ c+32(FP), R9
 	SUBQ looked+168(FP), R9
 counts:
-	MOVQ looked+168(FP), R10
 	MOVQ R9, looked+168(FP)
 	SUBQ hits+160(FP), R9
 	MOVQ R9, hits+160(FP)
