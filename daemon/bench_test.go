@@ -86,7 +86,7 @@ func BenchmarkPipelineStep(b *testing.B) {
 	d := &Daemon{log: quietLog(), opts: Options{}}
 	cfg := &Config{Listen: "127.0.0.1:0", Step: time.Minute}
 	cfg.defaults()
-	pl, err := newPipeline(d, &plan{full: s, site: s, cfg: cfg, rules: rs}, nil, true)
+	pl, err := newPipeline(d, &plan{name: s.Name, site: s, cfg: cfg, rules: rs}, nil, true)
 	if err != nil {
 		b.Fatal(err)
 	}

@@ -86,7 +86,7 @@ type Daemon struct {
 
 // plan is a validated configuration: what a pipeline runs.
 type plan struct {
-	full  *site.Site
+	name  string     // the site's name (the whole site is not kept: a shard needs only its part)
 	site  *site.Site // the shard's part
 	cfg   *Config
 	rules *rules.Ruleset
@@ -172,7 +172,7 @@ func (d *Daemon) loadPlan() (*plan, error) {
 	if err != nil {
 		return nil, err
 	}
-	p := &plan{full: s, site: sub, cfg: cfg, rules: rs, shard: shard}
+	p := &plan{name: s.Name, site: sub, cfg: cfg, rules: rs, shard: shard}
 	// Build the parts that can fail on configuration now, not after the
 	// running pipeline has been stopped.
 	if _, err := newPipeline(d, p, nil, true); err != nil {
@@ -202,7 +202,7 @@ func (d *Daemon) Reload() error {
 		<-d.reload
 		d.reload <- p
 	}
-	d.log.Info("reload: new configuration accepted", "site", p.full.Name, "terminals", len(p.site.Terminals))
+	d.log.Info("reload: new configuration accepted", "site", p.name, "terminals", len(p.site.Terminals))
 	return nil
 }
 
@@ -257,6 +257,11 @@ func (d *Daemon) Run(ctx context.Context, first *plan) error {
 		pl, err := newPipeline(d, p, st, false)
 		if err != nil {
 			return err
+		}
+		if d.opts.ConfigPath != "" {
+			// The sources hold what they read; the site loaded for this
+			// plan (a reload loads it again) need not keep the addresses.
+			p.site.ReleaseAddresses()
 		}
 		d.mu.Lock()
 		d.cur = pl
