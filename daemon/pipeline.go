@@ -268,7 +268,7 @@ func (pl *pipeline) run(parent context.Context) (*plan, error) {
 				continue // empty, or a replay of steps analysed before a restart
 			}
 			t0 := time.Now()
-			evs = pl.eng.Step(batch, evs[:0])
+			evs = pl.eng.StepView(batch)
 			trs = pl.ev.Step(evs, pl.eng.Loops(), trs[:0])
 			pl.publishStep(ctx, evs, trs, batch[0].At)
 			if pl.wm != nil {

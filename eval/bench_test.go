@@ -89,7 +89,7 @@ func BenchmarkAnalyze(b *testing.B) {
 				batch[k].At = at
 			}
 		}
-		evid = eng.Step(batch, evid[:0])
+		evid = eng.StepView(batch)
 		if i%rulesEvery == 0 {
 			w0, c0 := time.Now(), threadCPUTime()
 			trs = ev.Step(evid, eng.Loops(), trs[:0])

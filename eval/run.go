@@ -110,7 +110,7 @@ func runOne(ctx context.Context, sc *sim.Scenario, truths []Truth, opt Options, 
 	lastDay := -1
 	err = sm.Run(ctx, func(st *sim.Step) error {
 		samples = feed.Samples(st, samples[:0])
-		evid = eng.Step(samples, evid[:0])
+		evid = eng.StepView(samples)
 		trs = ev.Step(evid, eng.Loops(), trs[:0])
 		scorer.Observe(st.At, evid, eng.Loops(), trs)
 		n += int64(len(samples))

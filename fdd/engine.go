@@ -42,7 +42,27 @@ type Engine struct {
 	lastStep time.Time
 	learn    []learner // learning reservoirs, apart from the hot per-sample state
 	idleTmpl Evidence  // evidence without running values (idle)
+
+	// StepView's records, by position in the step, and what each holds.
+	view  []Evidence
+	slots []viewSlot
 }
+
+// viewSlot says what a record of the engine's view holds, so the next
+// write to it for the same terminal can leave alone what did not change.
+type viewSlot struct {
+	term int    // terminal whose evidence the record holds (−1: none)
+	kind uint8  // which path wrote it (rec*)
+	gen  uint32 // termState.pubGen of its slow fields (kind recActive)
+}
+
+// What the last write left in a record.
+const (
+	recNone   = iota // nothing known: write every field
+	recData          // idle evidence of a data-gated sample (idleTmpl + inputs, data-quality scores)
+	recFanOff        // idle evidence with the fan off (idleTmpl + inputs, Usable)
+	recActive        // publish: the slow fields as of viewSlot.gen
+)
 
 // NewEngine builds the engine for s with cfg (zero fields take defaults).
 // Terminals whose coil or valve model cannot be built still get
@@ -195,6 +215,7 @@ func (en *Engine) applyBaseline(i int, b Baseline) error {
 	st.resp = response{}
 	st.respStats = st.resp.stats()
 	st.slow.update(st)
+	st.pubGen++
 	return nil
 }
 
@@ -217,6 +238,7 @@ func (en *Engine) finishLearning(st *termState, t *termStatic) {
 		rej.Rejected = fmt.Sprintf("learned UA factor %.2f (band 1/%.3g..%.3g), flow factor %.2f (band 1/%.2g..%.2g) against the rated model",
 			b.UAFactor, uaBand, uaBand, b.FlowFactor, band, band)
 		st.learnedUA = b.UAFactor
+		st.pubGen++
 		rej.Points, rej.From, rej.To = b.Points, b.From, b.To
 		st.base = rej
 		return
@@ -235,12 +257,43 @@ func (en *Engine) finishLearning(st *termState, t *termStatic) {
 // any order), appending one Evidence per sample to out, then aggregates the
 // loops (Loops returns them) and applies loop-level isolation to the
 // terminal evidence it appended. Samples with an unknown terminal index are
-// skipped.
+// skipped. Every field of the appended evidence is written.
 func (en *Engine) Step(samples []collector.Sample, out []Evidence) []Evidence {
 	start := len(out)
 	en.resetLoops()
 	out = en.stepTerminals(samples, out, true)
 	en.finishLoops(out[start:])
+	return out
+}
+
+// StepView is Step with the evidence kept in the engine: it returns the
+// engine's own records, one per sample with a known terminal in sample
+// order, valid until the next StepView (copy what you keep; do not modify
+// them). The evidence is the same as Step's. A record that held the same
+// terminal at the previous StepView (an assembler emits a site's terminals
+// in the same order every step) is updated in place: an idle terminal's
+// record gets only its inputs and counters, an active one's the values
+// that move every sample, and the values that change only on the response
+// cadence, a leak inversion or a baseline change (termState.pubGen) when
+// they changed. Step would write every field of every record (about 580
+// bytes); the daemon runs StepView.
+func (en *Engine) StepView(samples []collector.Sample) []Evidence {
+	if len(samples) > len(en.slots) {
+		en.view = make([]Evidence, len(samples))
+		en.slots = make([]viewSlot, len(samples))
+		for k := range en.slots {
+			en.slots[k].term = -1
+		}
+	}
+	en.resetLoops()
+	out := en.stepView(samples)
+	if en.finishLoops(out) {
+		// Loop isolation rewrote scores in place: write every field of
+		// these records next time.
+		for k := range out {
+			en.slots[k].kind = recNone
+		}
+	}
 	return out
 }
 
@@ -265,10 +318,34 @@ func (en *Engine) stepTerminals(samples []collector.Sample, out []Evidence, loop
 			continue
 		}
 		t, e := &terms[i], &out[n]
-		en.process(s, t, &state[i], e)
+		sl := viewSlot{term: -1} // a caller's record: nothing known
+		en.process(s, t, &state[i], e, &sl)
 		if loops {
 			en.accumulate(e, t)
 		}
+		n++
+	}
+	return out[:n]
+}
+
+// stepView is stepTerminals into the engine's records (StepView), with
+// the loop sums.
+func (en *Engine) stepView(samples []collector.Sample) []Evidence {
+	n := 0
+	terms, state := en.terms, en.state
+	out, slots := en.view[:len(samples)], en.slots[:len(samples)]
+	for k := range samples {
+		s := &samples[k]
+		i := s.Terminal
+		if uint(i) >= uint(len(terms)) {
+			continue
+		}
+		t, e, sl := &terms[i], &out[n], &slots[n]
+		if sl.term != i {
+			sl.term, sl.kind = i, recNone
+		}
+		en.process(s, t, &state[i], e, sl)
+		en.accumulate(e, t)
 		n++
 	}
 	return out[:n]
@@ -321,6 +398,7 @@ func (en *Engine) LoadBaselines(bs []Baseline) error {
 			continue
 		}
 		en.state[i].learnDone = true
+		en.state[i].pubGen++
 		en.learn[i].release()
 		if b.Source == "learned" {
 			en.state[i].healthyAt, en.state[i].shortSince = b.To, time.Time{}

@@ -73,8 +73,9 @@ func (en *Engine) accumulate(e *Evidence, t *termStatic) {
 }
 
 // finishLoops turns the accumulated sums into LoopEvidence and applies the
-// cold-loop isolation to ev.
-func (en *Engine) finishLoops(ev []Evidence) {
+// cold-loop isolation to ev; it reports whether any loop scored cold (the
+// isolation then rewrote scores in ev).
+func (en *Engine) finishLoops(ev []Evidence) bool {
 	at := en.lastStep
 	if len(ev) > 0 {
 		at = ev[len(ev)-1].At
@@ -116,7 +117,7 @@ func (en *Engine) finishLoops(ev []Evidence) {
 		anyCold = anyCold || en.loops[li].score > 0
 	}
 	if !anyCold {
-		return
+		return false
 	}
 	for k := range ev {
 		e := &ev[k]
@@ -137,4 +138,5 @@ func (en *Engine) finishLoops(ev []Evidence) {
 		e.Scores[KindLowDischarge] *= keep
 		e.Best = bestKind(&e.Scores, en.cfg.ScoreThreshold)
 	}
+	return true
 }

@@ -230,6 +230,7 @@ func (en *Engine) leakFlow(st *termState, t *termStatic, in *inputs, eat float64
 		return
 	}
 	st.leakAge = 0
+	st.pubGen++ // closedCap, closedEst
 	rise := st.dat.mean() - eat
 	design := t.flow.design() * st.flowScale
 	op := coilOp(in.v, eat, design, in.hw)
@@ -305,18 +306,17 @@ func (en *Engine) offsetUsed(st *termState) float64 {
 // values v and the running state (the running statistics include this
 // sample). Scores and Best are left to scoreSignatures. Energy impact and
 // the steady-only values are written past the start-up lockout (v.past).
-func (en *Engine) publish(e *Evidence, s *collector.Sample, st *termState, t *termStatic, in *inputs, v *stepVals) {
-	r := &st.respStats
+// When sl says e already holds this terminal's published evidence, the
+// slow fields (publishSlow) are written only if st.pubGen moved since.
+func (en *Engine) publish(e *Evidence, s *collector.Sample, st *termState, t *termStatic, in *inputs, v *stepVals, sl *viewSlot) {
 	e.Terminal, e.At, e.Gates = s.Terminal, s.At, v.gates
 	e.Usable, e.Steady, e.PlantOn, e.FanOn, e.Occupied = true, v.steady, in.plantOn, in.fanOn, s.Occupied
-	e.ValveFrac, e.AirflowM3s, e.SupplyC, e.DischargeC, e.HotWaterC, e.DATSetC = in.u, in.v, in.sat, in.dat, in.hw, nan
+	e.ValveFrac, e.AirflowM3s, e.SupplyC, e.DischargeC, e.HotWaterC = in.u, in.v, in.sat, in.dat, in.hw
 	e.ObservedRiseK, e.ExpectedRiseK, e.SigmaK, e.ResidualK, e.PerfIndex = v.obs, v.f, v.sigma, v.res, v.pi
-	if fo := &st.facOut; fo.ua > 0 {
-		e.UAFactor, e.UAFactorSigma, e.FlowFactor, e.FlowFactorSigma = fo.ua, fo.uaSig, fo.fl, fo.flSig
-	} else {
-		e.UAFactor, e.UAFactorSigma, e.FlowFactor, e.FlowFactorSigma = nan, nan, nan, nan
+	if sl.kind != recActive || sl.gen != st.pubGen {
+		en.publishSlow(e, st)
+		sl.kind, sl.gen = recActive, st.pubGen
 	}
-	e.ShortfallHighK, e.ShortfallLowK = r.shortHigh, r.shortLow
 	e.LeakRiseK = st.leak.v
 	e.LeakFlowFrac = nan
 	if st.leak.ok && st.leakFlowSet() {
@@ -324,7 +324,6 @@ func (en *Engine) publish(e *Evidence, s *collector.Sample, st *termState, t *te
 	}
 	e.ClosedMinutes = float64(st.closedRun) * en.minPerStep
 	e.OffsetK = st.offset.v
-	e.RiseValveCorr, e.RiseSpanK, e.ValveSpan = r.corr, r.riseSpan, r.valveSpan
 	e.ReversalsPerHour = st.rev.rate * en.stepsPerHour
 	e.DATFlatMinutes = float64(st.flatRun) * en.minPerStep
 	if st.chart.started {
@@ -343,7 +342,6 @@ func (en *Engine) publish(e *Evidence, s *collector.Sample, st *termState, t *te
 	if v.past {
 		e.LeakSigmaK = en.leakSigma
 	}
-	e.ExpectedSpanK = r.expSpan
 	e.DesignPerfIndex, e.LoopShort = nan, false
 	if st.perfAge < perfExpireSteps && st.designPerf.ok {
 		e.DesignPerfIndex = st.designPerf.v
@@ -353,9 +351,30 @@ func (en *Engine) publish(e *Evidence, s *collector.Sample, st *termState, t *te
 		unmet := !st.zoneDef.ok || st.zoneDef.v > en.cfg.ZoneUnmetK
 		e.LoopShort = st.saturated && in.u >= saturatedFrac && unmet && st.designPerf.v < loopShortPerf
 	}
-	e.ZScore, e.EWMALimit = v.z, en.ewmaLim
+	e.ZScore = v.z
 	e.DATBadMinutes = float64(st.datBadRun) * en.minPerStep
 	e.PerfAvg = st.perf.v
+	e.ClosedRiseK = st.closedRaw.v
+	e.ZoneDeficitK = st.zoneDef.v
+}
+
+// publishSlow writes the fields of publish that change only with
+// st.pubGen (or never): the response statistics, the running factors, the
+// closed-valve fit and capacity, the last high-command performance, the
+// shape share, the onset, a rejected UA factor, the EWMA limit and the
+// (unknown) discharge setpoint.
+func (en *Engine) publishSlow(e *Evidence, st *termState) {
+	r := &st.respStats
+	e.DATSetC = nan
+	if fo := &st.facOut; fo.ua > 0 {
+		e.UAFactor, e.UAFactorSigma, e.FlowFactor, e.FlowFactorSigma = fo.ua, fo.uaSig, fo.fl, fo.flSig
+	} else {
+		e.UAFactor, e.UAFactorSigma, e.FlowFactor, e.FlowFactorSigma = nan, nan, nan, nan
+	}
+	e.ShortfallHighK, e.ShortfallLowK = r.shortHigh, r.shortLow
+	e.RiseValveCorr, e.RiseSpanK, e.ValveSpan = r.corr, r.riseSpan, r.valveSpan
+	e.ExpectedSpanK = r.expSpan
+	e.EWMALimit = en.ewmaLim
 	e.PerfHigh, e.PerfLow = r.perfHigh, r.perfLow
 	if ce := &st.closedEst; ce.ok {
 		e.ClosedOffsetK, e.ClosedOffsetSigmaK, e.ClosedHeatK = ce.a, ce.sig, ce.heat
@@ -365,13 +384,11 @@ func (en *Engine) publish(e *Evidence, s *collector.Sample, st *termState, t *te
 	e.ClosedCapacityFrac = st.closedCap.v
 	e.PerfHighLast = st.perfHighLast
 	e.StarvedShare = st.cmpShare
-	e.ClosedRiseK = st.closedRaw.v
 	e.OnsetHours = st.onsetH
 	e.RejectedUAFactor = nan
 	if st.learnedUA > 0 {
 		e.RejectedUAFactor = st.learnedUA
 	}
-	e.ZoneDeficitK = st.zoneDef.v
 }
 
 func (st *termState) leakFlowSet() bool { return st.leakFlow >= 0 }

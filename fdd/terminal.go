@@ -41,6 +41,10 @@ type termState struct {
 	perfAge   int // steps since the last heating-steady sample
 	leakAge   int
 	evalCur   int // index of the evaluation in use
+	// pubGen counts changes of the published values that move only on
+	// the response cadence, a leak inversion or a baseline change (the
+	// slow fields of publish): StepView rewrites them when it moved.
+	pubGen    uint32
 	lastDAT   float64
 	flatUMin  float64
 	flatUMax  float64
@@ -89,6 +93,7 @@ type termState struct {
 
 // setOnset caches OnsetHours after healthyAt or shortSince changed.
 func (st *termState) setOnset() {
+	st.pubGen++
 	st.onsetH = nan
 	if !st.shortSince.IsZero() {
 		st.onsetH = st.shortSince.Sub(st.healthyAt).Hours()
@@ -129,8 +134,11 @@ type stepVals struct {
 }
 
 // process turns one sample into evidence e for terminal t with state st.
-// Every field of e is written (e need not be cleared).
-func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *Evidence) {
+// sl says what e holds: with recNone every field of e is written (e need
+// not be cleared); otherwise e is this terminal's record of the previous
+// step, written by the path sl.kind names, and only what may differ is
+// written. sl is updated.
+func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *Evidence, sl *viewSlot) {
 	cfg := &en.cfg
 	st.steps++
 	learning := !st.learnedBase && cfg.LearnMinPoints > 0 && !st.learnDone
@@ -156,7 +164,8 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	}
 	if g&dataGates != 0 {
 		st.resetWindows()
-		en.idle(e, s, st, &in, g, learning)
+		en.idle(e, s, st, &in, g, learning, sl.kind == recData)
+		sl.kind = recData
 		scoreDataQuality(e, en, st)
 		return
 	}
@@ -165,7 +174,8 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	if !in.fanOn {
 		st.fanRun = 0
 		st.resetWindows()
-		en.idle(e, s, st, &in, g|GateFanOff, learning)
+		en.idle(e, s, st, &in, g|GateFanOff, learning, sl.kind == recFanOff)
+		sl.kind = recFanOff
 		e.Usable = true
 		return
 	}
@@ -205,7 +215,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	}
 	if st.fanRun < en.startupSteps || st.plantRun < en.startupSteps {
 		v.gates = g | GateStartup
-		en.publish(e, s, st, t, &in, &v)
+		en.publish(e, s, st, t, &in, &v, sl)
 		scoreSignatures(e, en, st)
 		return
 	}
@@ -250,7 +260,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	if st.perfAge < perfExpireSteps {
 		st.perfAge++
 	}
-	en.publish(e, s, st, t, &in, &v)
+	en.publish(e, s, st, t, &in, &v, sl)
 	scoreSignatures(e, en, st)
 }
 
@@ -277,14 +287,19 @@ func (en *Engine) responseCadence(st *termState, s *collector.Sample) {
 		}
 	}
 	st.slow.update(st)
+	st.pubGen++
 }
 
 // idle writes the evidence of a sample that gives no running evidence (a
 // data gate or the fan off): the inputs and the data-quality counters over
 // the engine's idle template (every computed value NaN or zero), one block
-// copy and a few fields instead of a store per field.
-func (en *Engine) idle(e *Evidence, s *collector.Sample, st *termState, in *inputs, g Gate, learning bool) {
-	*e = en.idleTmpl
+// copy and a few fields instead of a store per field. With same, e already
+// holds idle evidence of this terminal from the same path, whose template
+// part is unchanged: only the sample's own values are written.
+func (en *Engine) idle(e *Evidence, s *collector.Sample, st *termState, in *inputs, g Gate, learning, same bool) {
+	if !same {
+		*e = en.idleTmpl
+	}
 	e.Terminal, e.At, e.Gates = s.Terminal, s.At, g
 	e.PlantOn, e.FanOn, e.Occupied = in.plantOn, in.fanOn, s.Occupied
 	e.ValveFrac, e.AirflowM3s, e.SupplyC, e.DischargeC, e.HotWaterC = in.u, in.v, in.sat, in.dat, in.hw

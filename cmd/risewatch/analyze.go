@@ -188,7 +188,7 @@ func analyzeRun(ctx context.Context, s *site.Site, rs *rules.Ruleset, sources []
 		if at.Before(start) || !at.Before(to) {
 			continue
 		}
-		evid = eng.Step(batch, evid[:0])
+		evid = eng.StepView(batch)
 		if at.Before(from) {
 			continue
 		}

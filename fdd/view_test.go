@@ -1,0 +1,153 @@
+package fdd
+
+import (
+	"math"
+	"reflect"
+	"testing"
+	"time"
+
+	"risewatch/collector"
+)
+
+// TestStepViewSameAsStep: StepView, which updates the engine's own records
+// in place and writes only what may have changed, gives bit for bit the
+// evidence and loop evidence of Step, which writes every field. Two engines
+// see the same samples over every path (data gates, fan off, start-up,
+// steady, learning and its end, the leak inversion, a cold loop whose
+// isolation rewrites scores), with the sample order changed and terminals
+// missing now and then (records then hold another terminal's evidence),
+// and unknown terminal indices.
+func TestStepViewSameAsStep(t *testing.T) {
+	const nTerm = 12
+	faults := []fault{fColdLoop, fColdLoop, fColdLoop, fColdLoop, fColdLoop, fNone,
+		fLeak, fFouled, fHunting, fOffset, fReversed, fFailed}
+	s := testSite(t, nTerm, true)
+	s.Terminals[nTerm-1].Valve.Cv = 0 // no water-flow model: GateNoModel path
+	gens := make([]*gen, nTerm)
+	for i := range gens {
+		gens[i] = newGen(t, faults[i], uint64(i+1), t0.Add(20*time.Hour))
+	}
+	cfg := DefaultConfig()
+	ref, err := NewEngine(s, cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	view, err := NewEngine(s, cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var all, smp []collector.Sample
+	var a []Evidence
+	steps := 50 * 60
+	if testing.Short() {
+		steps = 10 * 60
+	}
+	var cold, reordered, partial int
+	for k := 0; k < steps; k++ {
+		at := t0.Add(time.Duration(k) * time.Minute)
+		all = all[:0]
+		for i, g := range gens {
+			x := g.sample(i, at, i)
+			switch (k + 7*i) % 97 { // data gates now and then
+			case 0:
+				x.Flags |= collector.FlagAirflow
+			case 1:
+				x.DischargeC = math.NaN()
+			}
+			all = append(all, x)
+		}
+		smp = append(smp[:0], all...)
+		switch {
+		case k%211 == 5: // reversed order for a step
+			for i, j := 0, len(smp)-1; i < j; i, j = i+1, j-1 {
+				smp[i], smp[j] = smp[j], smp[i]
+			}
+			reordered++
+		case k%157 == 3: // two terminals missing, an unknown one
+			smp = append(smp[:2], smp[4:]...)
+			smp = append(smp, collector.Sample{Terminal: nTerm + 3, At: at})
+			partial++
+		case k%389 == 7: // one terminal only
+			smp = smp[6:7]
+			partial++
+		}
+		a = ref.Step(smp, a[:0])
+		b := view.StepView(smp)
+		if len(a) != len(b) {
+			t.Fatalf("step %d: %d and %d evidences", k, len(a), len(b))
+		}
+		for i := range a {
+			if f := firstBitDifference(&a[i], &b[i]); f != "" {
+				t.Fatalf("step %d record %d (terminal %d): field %s: Step %v, StepView %v", k, i, a[i].Terminal, f,
+					reflect.ValueOf(a[i]).FieldByName(f), reflect.ValueOf(b[i]).FieldByName(f))
+			}
+		}
+		la, lb := ref.Loops(), view.Loops()
+		if !reflect.DeepEqual(loopBits(la), loopBits(lb)) {
+			t.Fatalf("step %d: loop evidence differs:\n%+v\n%+v", k, la, lb)
+		}
+		for _, l := range lb {
+			if l.Score > 0 {
+				cold++
+			}
+		}
+	}
+	if cold == 0 || reordered == 0 || partial == 0 {
+		t.Errorf("paths not covered: %d cold-loop steps, %d reordered, %d partial", cold, reordered, partial)
+	}
+}
+
+// firstBitDifference names the first field where a and b differ in their
+// bits (floats by IEEE 754 pattern, so 0 and −0 or two NaNs differ too).
+func firstBitDifference(a, b *Evidence) string {
+	va, vb := reflect.ValueOf(a).Elem(), reflect.ValueOf(b).Elem()
+	same := func(x, y reflect.Value) bool {
+		if x.Kind() == reflect.Float64 {
+			return math.Float64bits(x.Float()) == math.Float64bits(y.Float())
+		}
+		return x.Equal(y)
+	}
+	for i := 0; i < va.NumField(); i++ {
+		fa, fb := va.Field(i), vb.Field(i)
+		if fa.Kind() == reflect.Array {
+			for j := 0; j < fa.Len(); j++ {
+				if !same(fa.Index(j), fb.Index(j)) {
+					return va.Type().Field(i).Name
+				}
+			}
+			continue
+		}
+		if !same(fa, fb) {
+			return va.Type().Field(i).Name
+		}
+	}
+	return ""
+}
+
+// loopBits is loop evidence with the floats as bit patterns (NaN-safe
+// comparison).
+func loopBits(ls []LoopEvidence) [][]uint64 {
+	var out [][]uint64
+	for _, l := range ls {
+		v := reflect.ValueOf(l)
+		var row []uint64
+		for i := 0; i < v.NumField(); i++ {
+			switch f := v.Field(i); f.Kind() {
+			case reflect.Float64:
+				row = append(row, math.Float64bits(f.Float()))
+			case reflect.Int:
+				row = append(row, uint64(f.Int()))
+			case reflect.Bool:
+				if f.Bool() {
+					row = append(row, 1)
+				} else {
+					row = append(row, 0)
+				}
+			case reflect.Struct: // time.Time
+				row = append(row, uint64(f.Interface().(time.Time).UnixNano()))
+			}
+		}
+		out = append(out, row)
+	}
+	return out
+}
