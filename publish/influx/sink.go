@@ -95,6 +95,11 @@ type Sink struct {
 	mu    sync.Mutex
 	lines lineBuilder
 	count int // lines in the builder
+	// last is the size of the previous step's lines: the buffer is dropped
+	// after each Commit (a step's lines are a megabyte or more at a few
+	// thousand terminals, needed only from the first Add to Commit) and
+	// made again at about this size.
+	last int
 
 	kick chan struct{}
 
@@ -152,6 +157,7 @@ func (k *Sink) AddEvidence(ev *fdd.Evidence) {
 		return
 	}
 	k.mu.Lock()
+	k.reserve()
 	if appendEvidence(&k.lines, k.site, ev) {
 		k.count++
 	}
@@ -164,6 +170,7 @@ func (k *Sink) AddLoop(ev *fdd.LoopEvidence) {
 		return
 	}
 	k.mu.Lock()
+	k.reserve()
 	if appendLoop(&k.lines, k.site, ev) {
 		k.count++
 	}
@@ -176,10 +183,19 @@ func (k *Sink) AddTransition(tr *rules.Transition) {
 		return
 	}
 	k.mu.Lock()
+	k.reserve()
 	if appendTransition(&k.lines, k.site, tr) {
 		k.count++
 	}
 	k.mu.Unlock()
+}
+
+// reserve makes the line buffer of a new step about as large as the last
+// step's. Called under k.mu.
+func (k *Sink) reserve() {
+	if k.lines.buf == nil && k.last > 0 {
+		k.lines.buf = make([]byte, 0, k.last+k.last/8)
+	}
 }
 
 // Commit moves the points added since the last Commit into the outbox as
@@ -209,7 +225,8 @@ func (k *Sink) Commit(ctx context.Context, step time.Time) error {
 	k.stats.Lines += k.count
 	k.stats.Items += len(parts)
 	k.statsMu.Unlock()
-	k.lines.buf = k.lines.buf[:0]
+	k.last = len(k.lines.buf)
+	k.lines.buf = nil
 	k.count = 0
 	select {
 	case k.kick <- struct{}{}:
