@@ -32,14 +32,50 @@ func (pl *pipeline) History(ctx context.Context, entity string, limit int) ([]ru
 	return pl.st.History(ctx, store.HistoryQuery{Entity: entity, Limit: limit, Newest: true})
 }
 
+// viewIndex finds a terminal's newest evidence in the engine's own records
+// (fdd.Engine.StepView), which the pipeline swaps and the engine rewrites
+// only under pl.mu: no copy of every terminal's evidence (about 580 octets
+// each) beside the engine's.
+type viewIndex struct {
+	evs []fdd.Evidence // the newest step's records
+	at  []int32        // terminal → its record in evs; -1 before its first step
+}
+
+func newViewIndex(terminals int) viewIndex {
+	x := viewIndex{at: make([]int32, terminals)}
+	for i := range x.at {
+		x.at[i] = -1
+	}
+	return x
+}
+
+// set records a step's evidence. A terminal absent from it keeps its
+// position; get checks that the record there is still the terminal's.
+func (x *viewIndex) set(evs []fdd.Evidence) {
+	x.evs = evs
+	for i := range evs {
+		if t := evs[i].Terminal; t >= 0 && t < len(x.at) {
+			x.at[t] = int32(i)
+		}
+	}
+}
+
+func (x *viewIndex) get(terminal int) (fdd.Evidence, bool) {
+	if terminal < 0 || terminal >= len(x.at) {
+		return fdd.Evidence{}, false
+	}
+	i := x.at[terminal]
+	if i < 0 || int(i) >= len(x.evs) || x.evs[i].Terminal != terminal {
+		return fdd.Evidence{}, false
+	}
+	return x.evs[i], true
+}
+
 // Latest is a terminal's newest evidence.
 func (pl *pipeline) Latest(terminal int) (fdd.Evidence, bool) {
 	pl.mu.RLock()
 	defer pl.mu.RUnlock()
-	if terminal < 0 || terminal >= len(pl.latest) || !pl.have[terminal] {
-		return fdd.Evidence{}, false
-	}
-	return pl.latest[terminal], true
+	return pl.view.get(terminal)
 }
 
 // Series returns a terminal's hourly plot points in [from, to).

@@ -44,8 +44,7 @@ type pipeline struct {
 	wm *collector.Progress
 
 	mu       sync.RWMutex
-	latest   []fdd.Evidence
-	have     []bool
+	view     viewIndex // the newest evidence per terminal, for the dashboard (backend.go)
 	open     []rules.Transition
 	prog     progress
 	stepWall time.Time
@@ -59,7 +58,7 @@ type pipeline struct {
 func newPipeline(d *Daemon, p *plan, st *store.Store, dry bool) (*pipeline, error) {
 	s, cfg := p.site, p.cfg
 	pl := &pipeline{d: d, p: p, st: st, q: txQueue{st}, ring: newSeriesRing(len(s.Terminals)),
-		latest: make([]fdd.Evidence, len(s.Terminals)), have: make([]bool, len(s.Terminals)), applyReq: make(chan chan error)}
+		view: newViewIndex(len(s.Terminals)), applyReq: make(chan chan error)}
 	var err error
 	if pl.eng, err = fdd.NewEngine(s, fdd.Config{Step: cfg.Step}); err != nil {
 		return nil, err
@@ -268,7 +267,10 @@ func (pl *pipeline) run(parent context.Context) (*plan, error) {
 				continue // empty, or a replay of steps analysed before a restart
 			}
 			t0 := time.Now()
+			pl.mu.Lock() // the dashboard reads the engine's records (Latest)
 			evs = pl.eng.StepView(batch)
+			pl.view.set(evs)
+			pl.mu.Unlock()
 			trs = pl.ev.Step(evs, pl.eng.Loops(), trs[:0])
 			pl.publishStep(ctx, evs, trs, batch[0].At)
 			if pl.wm != nil {
@@ -350,12 +352,6 @@ func (pl *pipeline) publishStep(ctx context.Context, evs []fdd.Evidence, trs []r
 	}
 	pl.ring.add(evs)
 	pl.mu.Lock()
-	for i := range evs {
-		if t := evs[i].Terminal; t >= 0 && t < len(pl.latest) {
-			pl.latest[t] = evs[i]
-			pl.have[t] = true
-		}
-	}
 	pl.prog.LastStep = at
 	pl.stepWall = time.Now()
 	pl.mu.Unlock()
