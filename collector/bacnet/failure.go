@@ -163,7 +163,11 @@ func (s *Source) reportFailure(rf ReadFailure) {
 // one line saying it answers again.
 func (s *Source) deviceOK(d *Device) {
 	s.fail.mu.Lock()
-	st := s.fail.state(d.Instance)
+	st := s.fail.devs[d.Instance] // a device that never failed needs no state
+	if st == nil {
+		s.fail.mu.Unlock()
+		return
+	}
 	was, runs := st.failing, st.failedRuns
 	st.failing, st.failedRuns, st.suppressed = false, 0, 0
 	s.fail.mu.Unlock()
