@@ -188,12 +188,12 @@ const (
 // near reports whether inputs are inside the trust region of e. The water
 // flow is tested first: it is the input that leaves the region most often.
 func (e *evaluation) near(v, eat, mw, thw float64) bool {
-	return e.ok &&
-		math.Abs(mw-e.mw) <= trustWaterFrac*e.mw+1e-9 &&
-		math.Abs(v-e.v) <= trustAirFrac*e.v &&
-		math.Abs(eat-e.eat) <= trustEATK &&
-		math.Abs(thw-e.thw) <= trustHWK
+	return e.ok && within(mw-e.mw, trustWaterFrac*e.mw+1e-9) && within(v-e.v, trustAirFrac*e.v) &&
+		within(eat-e.eat, trustEATK) && within(thw-e.thw, trustHWK)
 }
+
+// within reports |d| ≤ tol (false for a NaN d or tol), as math.Abs(d) <= tol.
+func within(d, tol float64) bool { return d <= tol && -d <= tol }
 
 // taylor is the first-order expansion of f around e.
 func (e *evaluation) taylor(v, eat, mw, thw float64) float64 {
