@@ -460,11 +460,11 @@ func (a *Assembler) emitThrough(last int64, forced bool, emit func([]Sample)) {
 				vals, quals = sl.vals, sl.quals
 			}
 			a.build(k, vals, quals)
+			a.stats.EmittedSteps++
+			a.stats.EmittedSample += int64(len(a.samples))
 			if emit != nil {
 				emit(a.samples)
 			}
-			a.stats.EmittedSteps++
-			a.stats.EmittedSample += int64(len(a.samples))
 		}
 		a.freeSlot(r)
 		if forced {
@@ -566,10 +566,12 @@ func (a *Assembler) Run(ctx context.Context, sources []Source, out chan<- []Samp
 		if sendErr != nil {
 			return
 		}
-		cp := make([]Sample, len(ss))
-		copy(cp, ss)
+		// Hand the step's slice over instead of copying it: the next step
+		// is built into a new one (no second array of every terminal's
+		// sample kept between steps).
+		a.samples = nil
 		select {
-		case out <- cp:
+		case out <- ss:
 		case <-ctx.Done():
 			sendErr = ctx.Err()
 		}
