@@ -3,6 +3,7 @@ package site
 import (
 	"fmt"
 	"os"
+	"slices"
 	"strings"
 	"time"
 	_ "time/tzdata" // time zones work on hosts without /usr/share/zoneinfo
@@ -296,6 +297,11 @@ func (d *decoder) decodeAHUs(n *yaml.Node) {
 // index fills the index maps.
 func (d *decoder) index() {
 	s := d.site
+	if cap(s.Terminals) > len(s.Terminals) {
+		// Appending left up to a quarter of the array unused (a terminal
+		// is about a kilobyte; the site is kept for the daemon's life).
+		s.Terminals = slices.Clone(s.Terminals)
+	}
 	s.LoopIndex = make(map[string]int, len(s.Loops))
 	for i, l := range s.Loops {
 		s.LoopIndex[l.ID] = i
