@@ -187,6 +187,8 @@ func benchDaemonRSS(b *testing.B, groups, per int) {
 	b.Logf("at the end: RssAnon %.1f MiB, RssFile %.1f MiB; Go heap in use %.1f MiB, idle %.1f MiB (released %.1f MiB), stacks %.1f MiB, runtime total %.1f MiB, next GC %.1f MiB, memory limit %.0f MiB",
 		anon/1024, file/1024, mib("go_memstats_heap_inuse_bytes"), mib("go_memstats_heap_idle_bytes"), mib("go_memstats_heap_released_bytes"),
 		mib("go_memstats_stack_inuse_bytes"), mib("go_memstats_sys_bytes"), mib("go_memstats_next_gc_bytes"), mib("go_gc_gomemlimit_bytes"))
+	b.Logf("runtime metadata: GC %.1f MiB, spans %.1f MiB, profiling buckets %.1f MiB, other %.1f MiB",
+		mib("go_memstats_gc_sys_bytes"), mib("go_memstats_mspan_sys_bytes"), mib("go_memstats_buck_hash_sys_bytes"), mib("go_memstats_other_sys_bytes"))
 }
 
 // saveProfile writes the profile at url to file.
