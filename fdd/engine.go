@@ -41,6 +41,10 @@ type Engine struct {
 	loopOut  []LoopEvidence
 	lastStep time.Time
 	learn    []learner // learning reservoirs, apart from the hot per-sample state
+	// The terminals' window rings, each exactly its window long (in a
+	// termState a ring of maxWindow would leave most of it unused).
+	ringIn  [][nCh]float64
+	ringDAT []float64
 	idleTmpl Evidence  // evidence without running values (idle)
 
 	// StepView's records, by position in the step, and what each holds.
@@ -112,6 +116,9 @@ func newEngine(s *site.Site, cfg Config, pf physicsFactory) (*Engine, error) {
 	en.learn = make([]learner, len(s.Terminals))
 	en.loops = make([]loopAcc, len(s.Loops))
 	en.loopOut = make([]LoopEvidence, 0, len(s.Loops))
+	nIn, nDAT := c.SteadyWindow, datWindow(c.SteadyWindow)
+	en.ringIn = make([][nCh]float64, nIn*len(s.Terminals))
+	en.ringDAT = make([]float64, nDAT*len(s.Terminals))
 	for i := range s.Terminals {
 		en.initTerminal(i, pf)
 	}
@@ -149,8 +156,9 @@ func (en *Engine) initTerminal(i int, pf physicsFactory) {
 		ts.fanOnM3s = t.MinAirflowM3s / 3
 	}
 	st := &en.state[i]
-	st.in.init(en.cfg.SteadyWindow)
-	st.dat.init(max(en.cfg.SteadyWindow/2, 2))
+	nIn, nDAT := en.cfg.SteadyWindow, datWindow(en.cfg.SteadyWindow)
+	st.in.initRing(en.ringIn[i*nIn : (i+1)*nIn : (i+1)*nIn])
+	st.dat.initRing(en.ringDAT[i*nDAT : (i+1)*nDAT : (i+1)*nDAT])
 	st.leakFlow = -1
 	st.perfHighLast = nan
 	st.cmpShare = nan
@@ -171,6 +179,10 @@ func (en *Engine) initTerminal(i int, pf physicsFactory) {
 		ts.modelErr = err
 	}
 }
+
+// datWindow is the length of the DAT window for a steady window of n: the
+// last half of it.
+func datWindow(n int) int { return max(n/2, 2) }
 
 // lookup resolves an ID through the site's index map, or by a linear scan
 // when the map was not filled (sites built in code).

@@ -219,7 +219,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 		scoreSignatures(e, en, st)
 		return
 	}
-	datSteady := st.dat.full() && math.Abs(st.dat.slope()) <= en.tempSlope && st.dat.variance() <= en.tempVar
+	datSteady := st.dat.full() && math.Abs(st.dat.fullSlope()) <= en.tempSlope && st.dat.variance() <= en.tempVar
 	steady := datSteady && en.inputsSteady(st)
 	if !steady {
 		g |= GateUnsteady

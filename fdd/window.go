@@ -1,6 +1,6 @@
 package fdd
 
-// maxWindow is the capacity of a sliding window (steps).
+// maxWindow is the longest sliding window (steps).
 const maxWindow = 32
 
 // window is a fixed-capacity sliding window over equally spaced samples with
@@ -16,7 +16,7 @@ type window struct {
 	sumSq  float64 // Σ x_j²
 	sumJ   float64 // Σ j·x_j, j = 0 for the oldest sample
 	fullK  slopeConst
-	ring   [maxWindow]float64
+	ring   []float64 // n samples; the engine's windows share one array
 }
 
 // slopeConst holds the constants of a full window of n: Σj = n(n−1)/2, the
@@ -34,7 +34,12 @@ func newSlopeConst(n int) slopeConst {
 
 const rebuildEvery = 256
 
-func (w *window) init(n int) { *w = window{n: n, fullK: newSlopeConst(n)} }
+func (w *window) init(n int) { w.initRing(make([]float64, n)) }
+
+// initRing sets up a window over ring (its length is the window length).
+func (w *window) initRing(ring []float64) {
+	*w = window{n: len(ring), fullK: newSlopeConst(len(ring)), ring: ring}
+}
 
 // reset empties the window (after a gap or a gated sample).
 func (w *window) reset() {
@@ -145,6 +150,12 @@ func (w *window) slope() float64 {
 	return (c*w.sumJ - sj*w.sum) / (c*sjj - sj*sj)
 }
 
+// fullSlope is slope for a full window (the caller checked full).
+func (w *window) fullSlope() float64 {
+	k := &w.fullK
+	return (k.n*w.sumJ - k.sj*w.sum) * k.invDen
+}
+
 // last returns the most recent sample.
 func (w *window) last() float64 {
 	i := w.head - 1
@@ -183,7 +194,7 @@ type window4 struct {
 	pushes int
 	ch     [nCh]chanSums
 	fullK  slopeConst
-	ring   [maxWindow][nCh]float64
+	ring   [][nCh]float64 // n samples; the engine's windows share one array
 }
 
 // chanSums are one channel's running sums Σx, Σx², Σj·x.
@@ -216,7 +227,12 @@ func (k *slopeConst) variance(c *chanSums) float64 {
 	return v
 }
 
-func (w *window4) init(n int) { *w = window4{n: n, fullK: newSlopeConst(n)} }
+func (w *window4) init(n int) { w.initRing(make([][nCh]float64, n)) }
+
+// initRing sets up a window over ring (its length is the window length).
+func (w *window4) initRing(ring [][nCh]float64) {
+	*w = window4{n: len(ring), fullK: newSlopeConst(len(ring)), ring: ring}
+}
 
 func (w *window4) reset() {
 	if w.count == 0 && w.head == 0 {
