@@ -43,9 +43,9 @@ type Engine struct {
 	learn    []learner // learning reservoirs, apart from the hot per-sample state
 	// The terminals' window rings, each exactly its window long (in a
 	// termState a ring of maxWindow would leave most of it unused).
-	ringIn  [][nCh]float64
-	ringDAT []float64
-	idleTmpl Evidence  // evidence without running values (idle)
+	ringIn   [][nCh]float64
+	ringDAT  []float64
+	idleTmpl Evidence // evidence without running values (idle)
 
 	// StepView's records, by position in the step, and what each holds.
 	view  []Evidence
