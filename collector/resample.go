@@ -84,7 +84,7 @@ func newGrid(cfg ResampleConfig) grid {
 	return grid{interval: int64(cfg.Interval), maxGap: int64(cfg.MaxGap), minCov: cfg.MinCoverage}
 }
 
-// resState is one point's resampling state (64 octets). The open step is
+// resState is one point's resampling state (56 octets). The open step is
 // not stored: it is always the step containing pos (floorStep(pos)),
 // because pos only ever stops inside a step or at the start of the next.
 type resState struct {
@@ -93,9 +93,10 @@ type resState struct {
 	good    int64 // ns of good data in the open step
 	bad     int64 // ns of bad data in the open step
 
-	holdV    float64
-	sumVT    float64 // ∑ v·Δt over good data in the open step
-	lastGood float64 // binary: last good value in the open step
+	holdV float64
+	// acc is, for an analog point, ∑ v·Δt over the good data in the open
+	// step; for a binary point, the last good value in it.
+	acc float64
 
 	holdQ    Quality
 	binary   bool
@@ -181,9 +182,13 @@ func (r *resState) advance(g *grid, to int64, emit binFunc) {
 			d := h - r.pos
 			switch r.holdQ {
 			case Good:
-				r.sumVT += r.holdV * float64(d)
+				if r.binary {
+					r.acc = r.holdV
+				} else {
+					r.acc += r.holdV * float64(d)
+				}
 				r.good += d
-				r.lastGood, r.seenGood = r.holdV, true
+				r.seenGood = true
 			case Bad:
 				r.bad += d
 			}
@@ -206,20 +211,20 @@ func (r *resState) close(g *grid, bin int64, emit binFunc) {
 		case r.holdEnd >= end && r.pos >= end && r.holdQ == Good:
 			v, q = r.holdV, Good
 		case r.seenGood:
-			v, q = r.lastGood, Good
+			v, q = r.acc, Good
 		case r.bad > 0:
 			q = Bad
 		}
 	} else {
 		switch {
 		case r.good > 0 && cov >= g.minCov:
-			v, q = r.sumVT/float64(r.good), Good
+			v, q = r.acc/float64(r.good), Good
 		case r.bad > 0:
 			q = Bad
 		}
 	}
 	emit(bin, v, q, cov)
-	r.sumVT, r.good, r.bad, r.seenGood = 0, 0, 0, false
+	r.acc, r.good, r.bad, r.seenGood = 0, 0, 0, false
 }
 
 // Resample resamples one point's readings (in time order) to the grid and
