@@ -271,3 +271,54 @@ func vsCSV(b *testing.B, path string, s *site.Site, size int64, workers int) {
 	b.ReportMetric(float64(size)/1e6/tOurs.Seconds()*float64(b.N), "trend-MB/s")
 	b.ReportMetric(float64(size)/1e6/tCSV.Seconds()*float64(b.N), "csv-MB/s")
 }
+
+// BenchmarkTrendIngestParallelVsSequential alternates encoding/csv, the
+// parallel reader (Workers 0: one per CPU) and the sequential one (Workers
+// 1) on the benchmark file, one pass each per iteration, so all three run
+// under the same machine load: "x-seq" is the sequential reader's wall
+// time over the parallel one's (below 1: the parallel reader was slower),
+// "x-csv" and "x-csv-seq" encoding/csv's over each.
+func BenchmarkTrendIngestParallelVsSequential(b *testing.B) {
+	path, s, size := benchFile(b)
+	parVsSeq(b, path, s, size)
+}
+
+// BenchmarkTrendIngestParallelVsSequentialDistinct is the same on the
+// file with nearly all-distinct values.
+func BenchmarkTrendIngestParallelVsSequentialDistinct(b *testing.B) {
+	path, s, size := benchFileDistinct(b)
+	parVsSeq(b, path, s, size)
+}
+
+func parVsSeq(b *testing.B, path string, s *site.Site, size int64) {
+	var srcs [2]*Source
+	for i, w := range []int{0, 1} {
+		src, err := New(Config{Name: srcName, Site: s, File: site.TrendfileConfig{Path: path}, Workers: w, Logger: quietLog()})
+		if err != nil {
+			b.Fatal(err)
+		}
+		srcs[i] = src
+	}
+	b.SetBytes(3 * size)
+	var tCSV, tPar, tSeq time.Duration
+	for b.Loop() {
+		t0 := time.Now()
+		if _, err := readCSV(path); err != nil {
+			b.Fatal(err)
+		}
+		t1 := time.Now()
+		if _, err := readStream(srcs[0], path); err != nil {
+			b.Fatal(err)
+		}
+		t2 := time.Now()
+		if _, err := readStream(srcs[1], path); err != nil {
+			b.Fatal(err)
+		}
+		tCSV, tPar, tSeq = tCSV+t1.Sub(t0), tPar+t2.Sub(t1), tSeq+time.Since(t2)
+	}
+	b.ReportMetric(float64(tSeq)/float64(tPar), "x-seq")
+	b.ReportMetric(float64(tCSV)/float64(tPar), "x-csv")
+	b.ReportMetric(float64(tCSV)/float64(tSeq), "x-csv-seq")
+	b.ReportMetric(float64(size)/1e6/tPar.Seconds()*float64(b.N), "par-MB/s")
+	b.ReportMetric(float64(size)/1e6/tSeq.Seconds()*float64(b.N), "seq-MB/s")
+}

@@ -8,22 +8,39 @@ import (
 	"io"
 	"runtime"
 	"sync"
+	"sync/atomic"
 	"time"
 
 	"risewatch/collector"
 )
 
-// The parallel reader of wide files. One goroutine reads the stream into
-// chunks of about chunkBytes that end on a record boundary; workers (one
-// per CPU) parse chunks independently; the caller's goroutine takes the
-// chunks back in file order (the ordered merge) and does everything that
-// depends on the rows before: the time-order check, the repeated-hour
-// choice (it parses each row's time again with the one sequential time
-// parser; a row whose instant differs from the worker's gets it patched),
-// line numbers, counts, warnings and their rate limit, batches and their
-// stream offsets. The output is what the sequential reader gives, reading
-// for reading and warning for warning; batch boundaries may differ (a
-// batch ends at the end of a chunk, and before a row the merge rejects).
+// The parallel reader of wide files. The caller's goroutine (the merge)
+// reads the stream into chunks of about chunkBytes that end on a record
+// boundary, hands each to the helper goroutines (one fewer than the
+// parsers asked for) and takes the chunks back in file order. It parses
+// too, so that no helper is ever waited for:
+//
+//   - the next chunk in file order not claimed by a helper: the merge
+//     parses it itself as the sequential reader does, rows straight into
+//     its reused batch;
+//   - a helper has parsed it: the merge delivers the helper's rows
+//     (mergeChunk), doing everything that depends on the rows before: the
+//     time-order check, the repeated-hour choice (it parses each row's time
+//     again with the one sequential time parser; a row whose instant
+//     differs from the helper's gets it patched), line numbers, counts,
+//     warnings and their rate limit, batches and their stream offsets;
+//   - a helper is still parsing it: the merge parses a later chunk no one
+//     has claimed (into that chunk, as a helper would), or reads one into a
+//     free slot for that; when there is neither (it is a whole pipeline
+//     ahead of a helper that is descheduled or slow) it takes the chunk
+//     back and parses it in order itself, and the helper's work is
+//     dropped when it ends (the helper returns the slot).
+//
+// A chunk's state (chunkQueued … chunkMerge) is claimed by compare-and-swap,
+// so a chunk is parsed into its slot by one goroutine only. The output is
+// what the sequential reader gives, reading for reading and warning for
+// warning; batch boundaries may differ (a batch ends at the end of a chunk,
+// and before a row the merge rejects).
 //
 // A chunk ends at the last line break outside quotes: with no quote in
 // the chunk that is its last line break; otherwise quotes are counted
@@ -35,8 +52,16 @@ import (
 
 // defaultChunkBytes is the input of one chunk: large enough that the
 // hand-over costs little, small enough that a chunk's readings (about 12×
-// its bytes) stay near the workers' caches.
+// its bytes) stay near the parsers' caches.
 const defaultChunkBytes = 64 << 10
+
+// The states of a chunk slot in the pipeline.
+const (
+	chunkQueued  int32 = iota // read, claimed by no one
+	chunkParsing              // a helper parses it into the slot
+	chunkParsed               // parsed into the slot (by a helper or the merge): mergeChunk delivers it
+	chunkMerge                // the merge's: it parses it in order itself, or parses it ahead; a helper still parsing it returns the slot when done
+)
 
 // rowMeta is one row a worker parsed (its time read, its cells converted).
 type rowMeta struct {
@@ -58,14 +83,16 @@ type event struct {
 	msg  string
 }
 
-// chunk is one slot of the pipeline: input bytes and what a worker made
-// of them. Slots are reused; their buffers keep their capacity.
+// chunk is one slot of the pipeline: input bytes and what a parser made
+// of them. Slots are reused; their buffers keep their capacity. The merge
+// writes the input fields before it publishes the slot as chunkQueued;
+// the output fields belong to whoever moved the state from chunkQueued.
 type chunk struct {
 	buf   []byte
 	data  []byte // whole records (the last chunk: the rest of the stream)
 	final bool   // the last chunk of the stream
 	err   error  // a read error after data
-	ready chan struct{}
+	state atomic.Int32
 
 	rows     []rowMeta
 	events   []event
@@ -80,9 +107,12 @@ type chunk struct {
 	open     bool  // the last record had no terminator
 }
 
+// pipe is what the merge and the helpers share: free slots (returned by
+// the merge, or by a helper whose chunk the merge took back) and the
+// chunks offered to helpers, in file order.
 type pipe struct {
-	free, work, order chan *chunk
-	done              chan struct{}
+	free, work chan *chunk
+	stop       atomic.Bool // the merge has ended: helpers claim no more
 }
 
 // workerCount is how many goroutines parse chunks for this stream, or 1
@@ -118,43 +148,50 @@ func (p *parser) chunkSize() int {
 	return defaultChunkBytes
 }
 
-// readRowsParallel is readRows with workers goroutines parsing.
+// readRowsParallel is readRows with workers goroutines parsing: the
+// caller's and workers-1 helpers.
 func (p *parser) readRowsParallel(ctx context.Context, sc *scanner, emit emitFunc, workers int) error {
-	slots := 2*workers + 2
-	pl := &pipe{free: make(chan *chunk, slots), work: make(chan *chunk, slots),
-		order: make(chan *chunk, slots), done: make(chan struct{})}
+	helpers := workers - 1
+	// Two slots per helper (the one it parses, the next offered to it) and
+	// two for the merge (the chunk it delivers or parses, one read ahead):
+	// with every helper holding a slot the merge still has two.
+	slots := 2*helpers + 2
+	pl := &pipe{free: make(chan *chunk, slots), work: make(chan *chunk, slots)}
 	for range slots {
 		c, _ := p.getSlot()
+		c.state.Store(chunkMerge)
 		pl.free <- c
 	}
+	final := sc.final
 	var wg sync.WaitGroup
-	wg.Add(1)
-	go func() { defer wg.Done(); pl.read(sc, p.chunkSize()) }()
-	for range workers {
+	for range helpers {
 		w := p.worker()
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
 			for c := range pl.work {
-				select {
-				case <-pl.done:
-				default:
-					w.parseChunk(c, sc.final)
+				if pl.stop.Load() || !c.state.CompareAndSwap(chunkQueued, chunkParsing) {
+					continue // taken by the merge (or a stale offer of a refilled slot)
 				}
-				c.ready <- struct{}{}
+				w.parseChunk(c, final)
+				if !c.state.CompareAndSwap(chunkParsing, chunkParsed) {
+					pl.free <- c // the merge parsed it itself meanwhile
+				}
 			}
 		}()
 	}
-	err := p.merge(ctx, sc, pl, emit)
-	close(pl.done)
+	rd := newChunkReader(sc, p.chunkSize())
+	err := p.merge(ctx, sc, pl, rd, emit)
+	pl.stop.Store(true)
+	close(pl.work)
 	wg.Wait()
 	if p.slots != nil {
-		// Every slot is free now, or still queued for the merge.
+		// Every slot is free now, or still held by the merge's queue
+		// (an ended read): all are the merge's.
 		for len(pl.free) > 0 {
 			p.slots.Put(<-pl.free)
 		}
-		for c := range pl.order { // parsed (or skipped) but not merged
-			<-c.ready
+		for _, c := range rd.queued {
 			p.slots.Put(c)
 		}
 	}
@@ -171,7 +208,7 @@ func (p *parser) getSlot() (*chunk, bool) {
 			return c, true
 		}
 	}
-	return &chunk{ready: make(chan struct{}, 1)}, false
+	return &chunk{}, false
 }
 
 // worker returns a parser for one worker goroutine: the header's mapping,
@@ -186,75 +223,209 @@ func (p *parser) worker() *parser {
 	return w
 }
 
-// read is the reader goroutine: it cuts the stream, starting with what the
-// scanner holds after the header, into chunks sent in order.
-func (pl *pipe) read(sc *scanner, size int) {
-	defer close(pl.work)
-	defer close(pl.order)
-	// What the scanner holds after the header comes first, then sc.r.
-	held, heldEOF := sc.buf[sc.start:sc.end], sc.eof
-	more := func(b []byte) (int, error) {
-		switch {
-		case len(held) > 0:
-			n := copy(b, held)
-			held = held[n:]
-			return n, nil
-		case heldEOF:
-			return 0, io.EOF
-		}
-		return sc.r.Read(b)
+// chunkReader cuts the stream, starting with what the scanner holds after
+// the header, into chunks (the merge's goroutine calls it).
+type chunkReader struct {
+	sc      *scanner
+	size    int
+	held    []byte // what the scanner held after the header, not yet cut
+	heldEOF bool
+	carry   []byte // the start of the next chunk's first record
+	spare   []byte
+	eof     bool
+	done    bool     // the last chunk (or one with a read error) is out
+	queued  []*chunk // the merge's queue, in file order
+}
+
+func newChunkReader(sc *scanner, size int) *chunkReader {
+	return &chunkReader{sc: sc, size: size, held: sc.buf[sc.start:sc.end], heldEOF: sc.eof}
+}
+
+func (rd *chunkReader) more(b []byte) (int, error) {
+	switch {
+	case len(rd.held) > 0:
+		n := copy(b, rd.held)
+		rd.held = rd.held[n:]
+		return n, nil
+	case rd.heldEOF:
+		return 0, io.EOF
 	}
-	var carry, spare []byte // the start of the next chunk's first record
-	eof := false
+	return rd.sc.r.Read(b)
+}
+
+// fill reads the next chunk into c.
+func (rd *chunkReader) fill(c *chunk) {
+	c.err, c.final = nil, false
+	buf := c.buf[:cap(c.buf)]
+	if len(buf) < rd.size || len(buf) < len(rd.carry) {
+		buf = make([]byte, max(rd.size, len(rd.carry)))
+	}
+	n := copy(buf, rd.carry)
+	cut := 0
 	for {
-		var c *chunk
-		select {
-		case c = <-pl.free:
-		case <-pl.done:
-			return
+		for n < len(buf) && !rd.eof && c.err == nil {
+			m, err := rd.more(buf[n:])
+			n += m
+			if err == io.EOF {
+				rd.eof = true
+			} else if err != nil {
+				c.err = err
+			}
 		}
-		c.err, c.final = nil, false
-		buf := c.buf[:cap(c.buf)]
-		if len(buf) < size || len(buf) < len(carry) {
-			buf = make([]byte, max(size, len(carry)))
+		if rd.eof && c.err == nil {
+			cut, c.final = n, true
+			break
 		}
-		n := copy(buf, carry)
-		cut := 0
-		for {
-			for n < len(buf) && !eof && c.err == nil {
-				m, err := more(buf[n:])
-				n += m
-				if err == io.EOF {
-					eof = true
-				} else if err != nil {
-					c.err = err
+		if cut = recordsEnd(buf[:n], rd.sc.quote); cut > 0 || c.err != nil {
+			break
+		}
+		if len(buf) >= MaxRecordBytes {
+			c.err = errRecordTooLong
+			break
+		}
+		nb := make([]byte, min(2*len(buf), MaxRecordBytes))
+		copy(nb, buf[:n])
+		buf = nb
+	}
+	c.buf, c.data = buf, buf[:cut]
+	// The rest starts the next chunk; copied, as this buffer goes to a helper.
+	rd.spare = append(rd.spare[:0], buf[cut:n]...)
+	rd.carry = rd.spare
+	rd.done = c.final || c.err != nil
+}
+
+// merge runs the pipeline on the caller's goroutine (see the top of the
+// file) and delivers the rows as the sequential reader would.
+func (p *parser) merge(ctx context.Context, sc *scanner, pl *pipe, rd *chunkReader, emit emitFunc) error {
+	var ahead *parser // parses chunks ahead of the merge, as a helper
+	for {
+		// Read into every free slot and offer the chunks to the helpers.
+		for !rd.done {
+			var c *chunk
+			if len(rd.queued) == 0 {
+				c = <-pl.free
+			} else {
+				select {
+				case c = <-pl.free:
+				default:
 				}
 			}
-			if eof && c.err == nil {
-				cut, c.final = n, true
+			if c == nil {
 				break
 			}
-			if cut = recordsEnd(buf[:n], sc.quote); cut > 0 || c.err != nil {
-				break
+			rd.fill(c)
+			rd.queued = append(rd.queued, c)
+			c.state.Store(chunkQueued)
+			select {
+			case pl.work <- c:
+			default: // offers of slots refilled since fill the channel: the merge parses this one
 			}
-			if len(buf) >= MaxRecordBytes {
-				c.err = errRecordTooLong
-				break
-			}
-			nb := make([]byte, min(2*len(buf), MaxRecordBytes))
-			copy(nb, buf[:n])
-			buf = nb
 		}
-		c.buf, c.data = buf, buf[:cut]
-		// The rest starts the next chunk; copied, as this buffer goes to a worker.
-		spare = append(spare[:0], buf[cut:n]...)
-		carry = spare
-		pl.order <- c // never blocks: the channels hold every slot
-		pl.work <- c
-		if c.final || c.err != nil {
-			return
+		if len(rd.queued) == 0 {
+			break
+		}
+		c := rd.queued[0]
+		var consumed, lines int64
+		var open, mine bool
+		var err error
+		switch c.state.Load() {
+		case chunkQueued:
+			if !c.state.CompareAndSwap(chunkQueued, chunkMerge) {
+				continue // a helper claimed it just now
+			}
+			consumed, lines, open, err = p.seqChunk(c, sc, emit)
+			mine = true
+		case chunkParsed:
+			err = p.mergeChunk(c, sc.offset, sc.line, emit)
+			consumed, lines, open = c.consumed, c.lines, c.open
+			if !p.reuse {
+				c.readings = nil // the consumer owns them
+			}
+			mine = true
+		case chunkParsing:
+			if a := firstQueued(rd.queued[1:]); a != nil {
+				if a.state.CompareAndSwap(chunkQueued, chunkMerge) {
+					if ahead == nil {
+						ahead = p.worker()
+					}
+					ahead.parseChunk(a, sc.final)
+					a.state.Store(chunkParsed)
+				}
+				continue
+			}
+			if !rd.done && len(pl.free) > 0 {
+				continue // read one more first
+			}
+			if !c.state.CompareAndSwap(chunkParsing, chunkMerge) {
+				continue // parsed just now
+			}
+			// The helper is a whole pipeline behind: take its chunk back.
+			consumed, lines, open, err = p.seqChunk(c, sc, emit)
+		default:
+			return fmt.Errorf("%s: parallel reader: chunk at the queue's head in state %d (a bug)", p.file, c.state.Load())
+		}
+		if err == nil && c.err != nil {
+			if errors.Is(c.err, errRecordTooLong) {
+				err = fmt.Errorf("%s: line %d: %w", p.file, sc.line+lines, c.err)
+			} else {
+				err = fmt.Errorf("%s: %w", p.file, c.err)
+			}
+		}
+		sc.offset, sc.line, sc.open = sc.offset+consumed, sc.line+lines, open
+		rd.queued = append(rd.queued[:0], rd.queued[1:]...)
+		if mine {
+			c.state.Store(chunkMerge)
+			pl.free <- c
+		}
+		if err != nil {
+			return err
+		}
+		if err := ctx.Err(); err != nil {
+			return err
 		}
 	}
+	p.st.DSTGapTimes, p.st.RepeatedTimes = p.tp.gaps, p.tp.repeated
+	return nil
+}
+
+// firstQueued returns the first chunk of q no one has claimed, or nil.
+func firstQueued(q []*chunk) *chunk {
+	for _, c := range q {
+		if c.state.Load() == chunkQueued {
+			return c
+		}
+	}
+	return nil
+}
+
+// seqChunk parses c in file order on the merge's goroutine, exactly as
+// the sequential reader does (its batch, its time parser, its warnings),
+// from the stream position sc is at. It writes nothing into c: a helper
+// may still be parsing the same bytes into it. It returns how much of c
+// it consumed.
+func (p *parser) seqChunk(c *chunk, sc *scanner, emit emitFunc) (consumed, lines int64, open bool, err error) {
+	cs := &scanner{buf: c.data, end: len(c.data), eof: true, final: sc.final || !c.final, quote: sc.quote,
+		offset: sc.offset, line: sc.line}
+	for {
+		rec, line, quoted, err := cs.next()
+		if err != nil {
+			break // io.EOF: a slice scanner never reads
+		}
+		if len(rec) == 0 {
+			continue
+		}
+		p.wideRow(rec, line, quoted)
+		if p.rowErr != nil {
+			return 0, 0, false, p.rowErr
+		}
+		if len(p.batch) >= p.f.batchReading {
+			if err := p.flush(cs, emit); err != nil {
+				return 0, 0, false, err
+			}
+		}
+	}
+	err = p.flush(cs, emit)
+	return cs.offset - sc.offset, cs.line - sc.line, cs.open, err
 }
 
 // recordsEnd returns the length of the longest prefix of b made of whole
@@ -319,35 +490,6 @@ func (p *parser) parseChunk(c *chunk, final bool) {
 	c.readings, c.lastN = p.batch, len(p.batch)
 	p.batch = nil
 	c.consumed, c.lines, c.open = sc.consumed(), sc.line, sc.open
-}
-
-// merge takes the chunks back in order and delivers their rows as the
-// sequential reader would.
-func (p *parser) merge(ctx context.Context, sc *scanner, pl *pipe, emit emitFunc) error {
-	for c := range pl.order {
-		<-c.ready
-		err := p.mergeChunk(c, sc.offset, sc.line, emit)
-		if err == nil && c.err != nil {
-			if errors.Is(c.err, errRecordTooLong) {
-				err = fmt.Errorf("%s: line %d: %w", p.file, sc.line+c.lines, c.err)
-			} else {
-				err = fmt.Errorf("%s: %w", p.file, c.err)
-			}
-		}
-		sc.offset, sc.line, sc.open = sc.offset+c.consumed, sc.line+c.lines, c.open
-		if !p.reuse {
-			c.readings = nil // the consumer owns them
-		}
-		pl.free <- c
-		if err != nil {
-			return err
-		}
-		if err := ctx.Err(); err != nil {
-			return err
-		}
-	}
-	p.st.DSTGapTimes, p.st.RepeatedTimes = p.tp.gaps, p.tp.repeated
-	return nil
 }
 
 // mergeChunk delivers one chunk; base and line are the stream offset and
