@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"slices"
 
 	"risewatch/collector/bacnet/wire"
 )
@@ -69,18 +70,36 @@ func batches(reads []Read, maxAPDU int) [][]Read {
 	return out
 }
 
+// readScratch is a poll worker's buffers, reused from device to device:
+// the reads, the access specs and the decoded answers. Results read with it
+// alias its arrays until its next use.
+type readScratch struct {
+	reads []Read
+	props []wire.PropertyRef
+	specs []wire.ReadAccessSpec
+	pvs   []wire.PropertyValue
+	vals  []wire.Value
+	res   []ReadResult
+}
+
 // specsOf groups consecutive reads of one object into access specs. The
 // specs and their property lists take two allocations per request, not one
-// per object.
-func specsOf(reads []Read) []wire.ReadAccessSpec {
+// per object, and none with scratch buffers (sc, may be nil).
+func specsOf(reads []Read, sc *readScratch) []wire.ReadAccessSpec {
 	objects := 0
 	for i, r := range reads {
 		if i == 0 || reads[i-1].Object != r.Object {
 			objects++
 		}
 	}
-	specs := make([]wire.ReadAccessSpec, 0, objects)
-	props := make([]wire.PropertyRef, len(reads))
+	var specs []wire.ReadAccessSpec
+	var props []wire.PropertyRef
+	if sc != nil {
+		specs, props = slices.Grow(sc.specs[:0], objects), slices.Grow(sc.props[:0], len(reads))[:len(reads)]
+		sc.specs, sc.props = specs, props
+	} else {
+		specs, props = make([]wire.ReadAccessSpec, 0, objects), make([]wire.PropertyRef, len(reads))
+	}
 	for i, r := range reads {
 		props[i] = r.Prop
 		if n := len(specs); n > 0 && specs[n-1].Object == r.Object {
@@ -97,25 +116,38 @@ func specsOf(reads []Read) []wire.ReadAccessSpec {
 // remembered and read with ReadProperty from then on; a batch whose answer
 // is too long is split in two. Results are in the order of reads.
 func (c *Client) ReadMany(ctx context.Context, d *Device, reads []Read) []ReadResult {
-	out := make([]ReadResult, len(reads))
+	return c.readMany(ctx, d, reads, nil)
+}
+
+// readMany is ReadMany with the results and their values in the scratch
+// buffers sc when it is not nil (valid until sc's next use).
+func (c *Client) readMany(ctx context.Context, d *Device, reads []Read, sc *readScratch) []ReadResult {
+	var out []ReadResult
+	if sc != nil {
+		out = slices.Grow(sc.res[:0], len(reads))[:len(reads)]
+		clear(out)
+		sc.res, sc.vals = out, sc.vals[:0]
+	} else {
+		out = make([]ReadResult, len(reads))
+	}
 	if d.noRPM.Load() {
 		c.readEach(ctx, d, reads, out)
 		return out
 	}
 	off := 0
 	for _, b := range batches(reads, d.MaxAPDU) {
-		c.readBatch(ctx, d, b, out[off:off+len(b)])
+		c.readBatch(ctx, d, b, out[off:off+len(b)], sc)
 		off += len(b)
 	}
 	return out
 }
 
-func (c *Client) readBatch(ctx context.Context, d *Device, reads []Read, out []ReadResult) {
+func (c *Client) readBatch(ctx context.Context, d *Device, reads []Read, out []ReadResult, sc *readScratch) {
 	if d.noRPM.Load() {
 		c.readEach(ctx, d, reads, out)
 		return
 	}
-	res, err := c.ReadPropertyMultiple(ctx, d, specsOf(reads))
+	res, err := c.readPropertyMultiple(ctx, d, specsOf(reads, sc), sc)
 	switch {
 	case err == nil:
 		matchResults(reads, res, out)
@@ -129,8 +161,8 @@ func (c *Client) readBatch(ctx context.Context, d *Device, reads []Read, out []R
 		c.readEach(ctx, d, reads, out)
 	case tooBig(err) && len(reads) > 1:
 		h := len(reads) / 2
-		c.readBatch(ctx, d, reads[:h], out[:h])
-		c.readBatch(ctx, d, reads[h:], out[h:])
+		c.readBatch(ctx, d, reads[:h], out[:h], sc)
+		c.readBatch(ctx, d, reads[h:], out[h:], sc)
 	case tooBig(err):
 		c.readEach(ctx, d, reads, out)
 	default:

@@ -27,13 +27,30 @@ func (c *Client) ReadProperty(ctx context.Context, d *Device, obj wire.ObjectID,
 
 // ReadPropertyMultiple reads several properties in one request (ASHRAE 135 clause 15.7).
 func (c *Client) ReadPropertyMultiple(ctx context.Context, d *Device, specs []wire.ReadAccessSpec) ([]wire.PropertyValue, error) {
+	return c.readPropertyMultiple(ctx, d, specs, nil)
+}
+
+// readPropertyMultiple is ReadPropertyMultiple decoding into the scratch
+// buffers sc when it is not nil (the answers then alias sc.pvs, and their
+// values sc.vals, which grows: values of earlier answers stay valid).
+func (c *Client) readPropertyMultiple(ctx context.Context, d *Device, specs []wire.ReadAccessSpec, sc *readScratch) ([]wire.PropertyValue, error) {
 	data, err := c.confirmed(ctx, d, wire.ServiceReadPropertyMultiple, func(b []byte, h wire.RequestHeader) []byte {
 		return wire.AppendReadPropertyMultiple(b, h, specs)
 	})
 	if err != nil {
 		return nil, fmt.Errorf("device %d: read-property-multiple: %w", d.Instance, err)
 	}
-	res, err := wire.DecodeReadPropertyMultipleACK(data)
+	var res []wire.PropertyValue
+	if sc != nil {
+		var vals []wire.Value
+		res, vals, err = wire.DecodeReadPropertyMultipleACKInto(sc.pvs[:0], sc.vals, data)
+		sc.vals = vals
+		if res != nil {
+			sc.pvs = res
+		}
+	} else {
+		res, err = wire.DecodeReadPropertyMultipleACK(data)
+	}
 	if err != nil {
 		return nil, fmt.Errorf("device %d: read-property-multiple: %w", d.Instance, err)
 	}

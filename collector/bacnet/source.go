@@ -375,8 +375,9 @@ func (s *Source) PollOnce(ctx context.Context) ([]collector.Reading, error) {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
+			var sc readScratch // this worker's buffers, reused from device to device
 			for g := range jobs {
-				s.pollDevice(ctx, g.device, g.points, now, out)
+				s.pollDevice(ctx, g.device, g.points, now, out, &sc)
 			}
 		}()
 	}
@@ -417,7 +418,7 @@ func (s *Source) byDevice() []deviceGroup {
 	return s.groups
 }
 
-func (s *Source) pollDevice(ctx context.Context, inst uint32, idx []int32, now time.Time, out []collector.Reading) {
+func (s *Source) pollDevice(ctx context.Context, inst uint32, idx []int32, now time.Time, out []collector.Reading, sc *readScratch) {
 	d := s.devices[inst]
 	if d == nil {
 		for _, i := range idx {
@@ -426,7 +427,7 @@ func (s *Source) pollDevice(ctx context.Context, inst uint32, idx []int32, now t
 		s.reportFailure(ReadFailure{Source: s.name, Device: inst, Kind: FailNotFound, Reason: "device not found at start", Points: len(idx)})
 		return
 	}
-	reads := make([]Read, 0, 2*len(idx))
+	reads := slices.Grow(sc.reads[:0], 2*len(idx))
 	for _, i := range idx {
 		p := s.points[i]
 		reads = append(reads, Read{p.object, wire.PropertyRef{Prop: p.prop, Index: wire.NoIndex}})
@@ -434,8 +435,9 @@ func (s *Source) pollDevice(ctx context.Context, inst uint32, idx []int32, now t
 			reads = append(reads, Read{p.object, wire.PropertyRef{Prop: wire.PropStatusFlags, Index: wire.NoIndex}})
 		}
 	}
+	sc.reads = reads
 	t0 := time.Now()
-	res := s.client.ReadMany(ctx, d, reads)
+	res := s.client.readMany(ctx, d, reads, sc)
 	took := time.Since(t0)
 	s.noteFallback(d)
 	var first error

@@ -105,34 +105,43 @@ func RPMResultLen(pv PropertyValue) int { return len(appendRPMResult(nil, pv)) }
 // DecodeReadPropertyMultipleACK decodes ReadPropertyMultiple Complex-ACK data
 // into one PropertyValue per property, in answer order.
 func DecodeReadPropertyMultipleACK(data []byte) ([]PropertyValue, error) {
-	r := NewReader(data)
 	// A result takes at least 9 octets (property identifier, opening and
 	// closing tags, a 5-octet REAL), so these capacities hold a poll's
 	// answer without growing; the values share one array.
-	out := make([]PropertyValue, 0, len(data)/9+1)
-	arena := make([]Value, 0, len(data)/9+1)
+	out, _, err := DecodeReadPropertyMultipleACKInto(make([]PropertyValue, 0, len(data)/9+1), make([]Value, 0, len(data)/9+1), data)
+	return out, err
+}
+
+// DecodeReadPropertyMultipleACKInto is DecodeReadPropertyMultipleACK appending
+// the results to out and their values to arena (each result's Values is a
+// full slice of arena), for a caller that reuses both between answers. It
+// returns the extended slices; on error, out is nil.
+func DecodeReadPropertyMultipleACKInto(out []PropertyValue, arena []Value, data []byte) ([]PropertyValue, []Value, error) {
+	r := NewReader(data)
+	first := len(out)
+	fail := func(err error) ([]PropertyValue, []Value, error) { return nil, arena, err }
 	for !r.Done() {
 		obj, err := r.ContextObjectID(0)
 		if err != nil {
-			return nil, fmt.Errorf("read-property-multiple ack: object: %w", err)
+			return fail(fmt.Errorf("read-property-multiple ack: object: %w", err))
 		}
 		if err := r.Open(1); err != nil {
-			return nil, fmt.Errorf("read-property-multiple ack: %s: %w", obj, err)
+			return fail(fmt.Errorf("read-property-multiple ack: %s: %w", obj, err))
 		}
 		for !r.IsClosing(1) {
 			if r.Done() {
-				return nil, fmt.Errorf("read-property-multiple ack: %s: %w", obj, ErrShort)
+				return fail(fmt.Errorf("read-property-multiple ack: %s: %w", obj, ErrShort))
 			}
 			pv := PropertyValue{Object: obj}
 			if pv.PropertyRef, err = readPropRef(r, 2, 3); err != nil {
-				return nil, fmt.Errorf("read-property-multiple ack: %s: %w", obj, err)
+				return fail(fmt.Errorf("read-property-multiple ack: %s: %w", obj, err))
 			}
 			switch {
 			case r.IsOpening(4):
 				_ = r.Open(4)
 				start := len(arena)
 				if arena, err = r.appendValuesUntil(arena, 4); err != nil {
-					return nil, fmt.Errorf("read-property-multiple ack: %s %s: %w", obj, pv.Prop, err)
+					return fail(fmt.Errorf("read-property-multiple ack: %s %s: %w", obj, pv.Prop, err))
 				}
 				if len(arena) > start {
 					pv.Values = arena[start:len(arena):len(arena)]
@@ -142,18 +151,18 @@ func DecodeReadPropertyMultipleACK(data []byte) ([]PropertyValue, error) {
 				c, err1 := r.AppEnumerated()
 				k, err2 := r.AppEnumerated()
 				if err := errors.Join(err1, err2, r.Close(5)); err != nil {
-					return nil, fmt.Errorf("read-property-multiple ack: %s %s: error: %w", obj, pv.Prop, err)
+					return fail(fmt.Errorf("read-property-multiple ack: %s %s: error: %w", obj, pv.Prop, err))
 				}
 				pv.Err = &PropertyError{Class: uint32(c), Code: uint32(k)}
 			default:
-				return nil, fmt.Errorf("read-property-multiple ack: %s %s: neither value nor error", obj, pv.Prop)
+				return fail(fmt.Errorf("read-property-multiple ack: %s %s: neither value nor error", obj, pv.Prop))
 			}
-			if len(out) >= maxRPMItems {
-				return nil, errors.New("read-property-multiple ack: too many results")
+			if len(out)-first >= maxRPMItems {
+				return fail(errors.New("read-property-multiple ack: too many results"))
 			}
 			out = append(out, pv)
 		}
 		_ = r.Close(1)
 	}
-	return out, nil
+	return out, arena, nil
 }
