@@ -146,15 +146,14 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	var in inputs
 	g := gate(s, t, &in)
 
-	// DAT health (kept even on gated samples; it is data-quality evidence).
-	othersOK := g&^(GateMissing|GateRange) == 0 && s.Flags&(collector.FlagAirflow|collector.FlagValve) == 0
-	if !in.datOK && othersOK && in.fanOn {
-		st.datBadRun++
-	} else if in.datOK {
-		st.datBadRun = 0
-	}
+	// DAT health (kept even on gated samples; it is data-quality evidence):
+	// the run of a missing or out-of-range DAT while the other points are
+	// fine and the fan runs.
 	if in.datOK {
+		st.datBadRun = 0
 		en.trackFlat(st, &in)
+	} else if g&^(GateMissing|GateRange) == 0 && s.Flags&(collector.FlagAirflow|collector.FlagValve) == 0 && in.fanOn {
+		st.datBadRun++
 	}
 	if t.modelErr != nil {
 		g |= GateNoModel
