@@ -69,12 +69,9 @@ func (k *Sink) Deliver(ctx context.Context) (sent int, err error) {
 			_ = k.ob.MarkFailed(ctx, it.Key, err, time.Now().Add(k.cfg.RetryMax))
 			continue
 		}
-		k.drainErrors() // nothing stale may be blamed on this item
-		for _, line := range splitLines(raw) {
-			k.api.WriteRecord(line)
-		}
-		k.api.Flush() // returns after the batch's HTTP write has finished
-		if werr := k.drainErrors(); werr != nil {
+		// One request per item (its lines as they are); a write under way
+		// finishes on shutdown, bounded by the HTTP timeout.
+		if werr := k.api.WriteRecord(context.WithoutCancel(ctx), string(raw)); werr != nil {
 			k.failures++
 			k.count1(func(s *Stats) { s.Failed++ })
 			retry := time.Now().Add(store.Backoff(it.Attempts, k.cfg.RetryBase, k.cfg.RetryMax))
@@ -93,25 +90,6 @@ func (k *Sink) Deliver(ctx context.Context) (sent int, err error) {
 		k.count1(func(s *Stats) { s.Sent++ })
 	}
 	return sent, nil
-}
-
-// drainErrors empties the write API's error channel and returns the first
-// error in it, if any. The client sends a batch's error before Flush returns.
-func (k *Sink) drainErrors() error {
-	var first error
-	for {
-		select {
-		case err, ok := <-k.errs:
-			if !ok {
-				return first
-			}
-			if first == nil {
-				first = err
-			}
-		default:
-			return first
-		}
-	}
 }
 
 func (k *Sink) reportBuffer(ctx context.Context) {

@@ -104,8 +104,10 @@ type Sink struct {
 	kick chan struct{}
 
 	client   influxdb2.Client
-	api      api.WriteAPI
-	errs     <-chan error
+	// api writes each outbox item in one request as it is delivered. The
+	// blocking API keeps nothing after a write; the buffered one held the
+	// last batch's lines (a megabyte or more) until the next.
+	api api.WriteAPIBlocking
 	failures int // consecutive failed rounds
 	stats    Stats
 	statsMu  sync.Mutex
@@ -143,8 +145,7 @@ func New(cfg Config, s *site.Site, ob Outbox) (*Sink, error) {
 		SetPrecision(time.Nanosecond).
 		SetLogLevel(0)
 	k.client = influxdb2.NewClientWithOptions(cfg.URL, cfg.Token, opts)
-	k.api = k.client.WriteAPI(cfg.Org, cfg.Bucket)
-	k.errs = k.api.Errors()
+	k.api = k.client.WriteAPIBlocking(cfg.Org, cfg.Bucket)
 	return k, nil
 }
 
