@@ -103,11 +103,11 @@ type Sink struct {
 
 	kick chan struct{}
 
-	client   influxdb2.Client
+	client influxdb2.Client
 	// api writes each outbox item in one request as it is delivered. The
 	// blocking API keeps nothing after a write; the buffered one held the
 	// last batch's lines (a megabyte or more) until the next.
-	api api.WriteAPIBlocking
+	api      api.WriteAPIBlocking
 	failures int // consecutive failed rounds
 	stats    Stats
 	statsMu  sync.Mutex
