@@ -107,5 +107,11 @@ func TestMemoryLimit(t *testing.T) {
 		if got != tc.want || ok != tc.ok {
 			t.Errorf("%q: limit %d, %v; want %d, %v", tc.section, got, ok, tc.want, tc.ok)
 		}
+		if tc.section == "" {
+			// A small site gets the floor, not a limit its fixed heap fills.
+			if got, _ := c.MemoryLimitFor(10); got != MemLimitFloor {
+				t.Errorf("10 terminals: auto limit %d, want the floor %d", got, MemLimitFloor)
+			}
+		}
 	}
 }

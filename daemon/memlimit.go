@@ -19,20 +19,28 @@ import (
 //
 // The daemon: section's memory_limit is "auto" (default), "off", or a size
 // ("160MiB", "1GiB", "200MB"). Auto is MemLimitBase + MemLimitPerTerminal ×
-// terminals of the shard, from the live heap of `risewatch run` with every
-// output on (reliability.BenchmarkDaemonRSS5000 and ...10000): about
-// 4 MiB + 13.5 KiB per terminal (70.3 MiB at 5,000, 136.3 MiB at 10,000
-// terminals). A site whose live heap still reaches 90 % of the automatic
-// limit has it raised (risewatch run logs that). A
-// GOMEMLIMIT environment variable wins over the file (the runtime has
-// already applied it).
+// terminals of the shard, at least MemLimitFloor, from `risewatch run` with
+// every output on (reliability.BenchmarkDaemonRSS5000 and ...10000): the
+// live heap is about 10 MiB + 8 KiB per terminal (50 MiB at 5,000, 90 MiB
+// at 10,000 terminals), and the runtime's own metadata (GC, spans,
+// profiling buckets, about 8 MiB) counts against the limit too, so auto
+// leaves the collector about 2.5 KiB per terminal of headroom for the
+// garbage of a poll, a step and a scrape (69.7 MiB at 5,000, 123.4 MiB at
+// 10,000 terminals). A site whose live heap still reaches 90 % of the
+// automatic limit has it raised (risewatch run logs that). A GOMEMLIMIT
+// environment variable wins over the file (the runtime has already
+// applied it).
 const (
-	// MemLimitBase covers the fixed live heap (about 4-7 MiB: runtime,
-	// store, renderers) and the garbage of a poll, a step and a scrape.
-	MemLimitBase = 32 << 20
-	// MemLimitPerTerminal is about 1.2 × the measured live heap per
-	// terminal: at 1.1 × the collector's CPU doubled at 10,000 terminals.
-	MemLimitPerTerminal = 16 << 10
+	// MemLimitBase covers the fixed live heap (about 10 MiB: runtime,
+	// store, renderers, fonts) and the runtime's metadata.
+	MemLimitBase = 16 << 20
+	// MemLimitPerTerminal is about 1.35 × the measured live heap per
+	// terminal: at 5,000 terminals a limit 3 MiB lower (1.3 ×) raised the
+	// daemon's CPU from 6 % to 9.5 % of one core.
+	MemLimitPerTerminal = 11 << 10
+	// MemLimitFloor keeps small sites (below about 1,500 terminals, where
+	// the fixed part dominates) clear of back-to-back collections.
+	MemLimitFloor = 32 << 20
 )
 
 // memLimit is a decoded memory_limit: the zero value is auto.
@@ -94,5 +102,5 @@ func (c *Config) MemoryLimitFor(terminals int) (int64, bool) {
 	case c.memLimit.bytes > 0:
 		return c.memLimit.bytes, true
 	}
-	return MemLimitBase + MemLimitPerTerminal*int64(max(terminals, 0)), true
+	return max(MemLimitFloor, MemLimitBase+MemLimitPerTerminal*int64(max(terminals, 0))), true
 }
