@@ -21,23 +21,24 @@ import (
 // ("160MiB", "1GiB", "200MB"). Auto is MemLimitBase + MemLimitPerTerminal ×
 // terminals of the shard, at least MemLimitFloor, from `risewatch run` with
 // every output on (reliability.BenchmarkDaemonRSS5000 and ...10000): the
-// live heap is about 10 MiB + 8 KiB per terminal (50 MiB at 5,000, 90 MiB
+// live heap is about 4 MiB + 8.4 KiB per terminal (45 MiB at 5,000, 87 MiB
 // at 10,000 terminals), and the runtime's own metadata (GC, spans,
-// profiling buckets, about 8 MiB) counts against the limit too, so auto
-// leaves the collector about 2.5 KiB per terminal of headroom for the
-// garbage of a poll, a step and a scrape (69.7 MiB at 5,000, 123.4 MiB at
-// 10,000 terminals). A site whose live heap still reaches 90 % of the
+// profiling buckets, stacks: 7 to 8 MiB) counts against the limit too, so
+// auto leaves the collector about 3 KiB per terminal of headroom for the
+// garbage of a poll, a step and a scrape (67.3 MiB at 5,000, 118.5 MiB at
+// 10,000 terminals; the daemon's CPU 5-6 % and 10 % of one core there). A site whose live heap still reaches 90 % of the
 // automatic limit has it raised (risewatch run logs that). A GOMEMLIMIT
 // environment variable wins over the file (the runtime has already
 // applied it).
 const (
-	// MemLimitBase covers the fixed live heap (about 10 MiB: runtime,
-	// store, renderers, fonts) and the runtime's metadata.
+	// MemLimitBase covers the fixed live heap (runtime, store, renderers,
+	// fonts) and the runtime's metadata.
 	MemLimitBase = 16 << 20
-	// MemLimitPerTerminal is about 1.35 × the measured live heap per
-	// terminal: at 5,000 terminals a limit 3 MiB lower (1.3 ×) raised the
-	// daemon's CPU from 6 % to 9.5 % of one core.
-	MemLimitPerTerminal = 11 << 10
+	// MemLimitPerTerminal is about 1.3 × the measured live heap per
+	// terminal. The collector's headroom is what matters: at 5,000
+	// terminals, 3 MiB less of it than auto leaves raised the daemon's CPU
+	// from 6 % to 9.5 % of one core.
+	MemLimitPerTerminal = 21 << 9 // 10.5 KiB
 	// MemLimitFloor keeps small sites (below about 1,500 terminals, where
 	// the fixed part dominates) clear of back-to-back collections.
 	MemLimitFloor = 32 << 20
