@@ -230,6 +230,7 @@ func (s *Server) overview(w http.ResponseWriter, r *http.Request) {
 	data.WeeklyCost = fmt.Sprintf("%s %.0f", cur, total)
 	loopTerms, ahuTerms := map[string]int{}, map[string]int{}
 	ahuSAT := map[string]float64{}
+	data.Terminals = make([]termRow, 0, len(st.Terminals))
 	for i, t := range st.Terminals {
 		loopTerms[t.Loop]++
 		ahuTerms[t.AHU]++
