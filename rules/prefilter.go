@@ -318,8 +318,19 @@ func (w *pfWord) pass(p unsafe.Pointer) uint64 {
 			m |= l.bit
 		}
 	}
-	if len(w.geD)+len(w.leD) != 0 {
-		m |= w.passDiff(p)
+	// The literals on differences of two fields (written here: a call
+	// would cost more than the usual two literals).
+	for i := range w.geD {
+		l := &w.geD[i]
+		if *(*float64)(unsafe.Add(p, l.off))-*(*float64)(unsafe.Add(p, l.offB)) >= l.t {
+			m |= l.bit
+		}
+	}
+	for i := range w.leD {
+		l := &w.leD[i]
+		if *(*float64)(unsafe.Add(p, l.off))-*(*float64)(unsafe.Add(p, l.offB)) <= l.t {
+			m |= l.bit
+		}
 	}
 	return m & (m >> 1) & evenBits
 }
@@ -336,20 +347,3 @@ func passGE(ls []pfLit, p unsafe.Pointer) uint64 {
 	return m
 }
 
-// passDiff evaluates the literals on differences of two fields.
-func (w *pfWord) passDiff(p unsafe.Pointer) uint64 {
-	var m uint64
-	for i := range w.geD {
-		l := &w.geD[i]
-		if *(*float64)(unsafe.Add(p, l.off))-*(*float64)(unsafe.Add(p, l.offB)) >= l.t {
-			m |= l.bit
-		}
-	}
-	for i := range w.leD {
-		l := &w.leD[i]
-		if *(*float64)(unsafe.Add(p, l.off))-*(*float64)(unsafe.Add(p, l.offB)) <= l.t {
-			m |= l.bit
-		}
-	}
-	return m
-}
