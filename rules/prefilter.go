@@ -346,4 +346,3 @@ func passGE(ls []pfLit, p unsafe.Pointer) uint64 {
 	}
 	return m
 }
-
