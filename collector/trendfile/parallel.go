@@ -42,6 +42,10 @@ import (
 // warning; batch boundaries may differ (a batch ends at the end of a chunk,
 // and before a row the merge rejects).
 //
+// The merge also chooses, window by window, whether to offer chunks to
+// the helpers at all (modeChooser): on a machine with no spare CPU for
+// them they only add their overhead, and it parses alone.
+//
 // A chunk ends at the last line break outside quotes: with no quote in
 // the chunk that is its last line break; otherwise quotes are counted
 // line by line and a line break ends a record exactly when the quotes
@@ -298,6 +302,8 @@ func (rd *chunkReader) fill(c *chunk) {
 // file) and delivers the rows as the sequential reader would.
 func (p *parser) merge(ctx context.Context, sc *scanner, pl *pipe, rd *chunkReader, emit emitFunc) error {
 	var ahead *parser // parses chunks ahead of the merge, as a helper
+	mode := newModeChooser(p.f.modeChunks, p.modes)
+	defer mode.save()
 	for {
 		// Read into every free slot and offer the chunks to the helpers.
 		for !rd.done {
@@ -316,6 +322,9 @@ func (p *parser) merge(ctx context.Context, sc *scanner, pl *pipe, rd *chunkRead
 			rd.fill(c)
 			rd.queued = append(rd.queued, c)
 			c.state.Store(chunkQueued)
+			if mode.solo {
+				continue // the merge parses it
+			}
 			select {
 			case pl.work <- c:
 			default: // offers of slots refilled since fill the channel: the merge parses this one
@@ -372,6 +381,7 @@ func (p *parser) merge(ctx context.Context, sc *scanner, pl *pipe, rd *chunkRead
 			}
 		}
 		sc.offset, sc.line, sc.open = sc.offset+consumed, sc.line+lines, open
+		mode.chunkDone(consumed)
 		rd.queued = append(rd.queued[:0], rd.queued[1:]...)
 		if mine {
 			c.state.Store(chunkMerge)
@@ -386,6 +396,109 @@ func (p *parser) merge(ctx context.Context, sc *scanner, pl *pipe, rd *chunkRead
 	}
 	p.st.DSTGapTimes, p.st.RepeatedTimes = p.tp.gaps, p.tp.repeated
 	return nil
+}
+
+// defaultModeChunks is the length, in chunks, of the windows over which
+// the merge measures its throughput with and without helpers (about 8 MB:
+// several of the system scheduler's time slices at the rates of either).
+const defaultModeChunks = 128
+
+// modeChooser decides, window by window, whether the merge offers chunks
+// to the helpers (parallel) or parses every chunk itself (solo, which is
+// the sequential reader on chunks). Helpers pay when the machine has a
+// spare CPU for them; when it has none (every core busy with other work,
+// or the system sharing CPU time per process group) they only add their
+// overhead. So the merge measures the wall-clock rate (bytes per second)
+// of each mode over a window, keeps the faster one, and measures the
+// other again every exploreEvery windows, as the load changes: an
+// explore-then-exploit rule (the ε-greedy strategy of the multi-armed
+// bandit; R. S. Sutton and A. G. Barto, "Reinforcement Learning", 2nd ed.,
+// MIT Press 2018, §2.2) with a fixed schedule instead of random draws.
+// The rate is measured over the window's last three quarters. A
+// mode's rate is the mean of its last measurements, weighted 1/2 to the
+// newest (an exponentially weighted moving average); the source keeps the
+// rates from one read to the next (modeRates).
+type modeChooser struct {
+	solo    bool
+	chunks  int // per window
+	n       int // chunks delivered in this window
+	bytes   int64
+	t0      time.Time
+	rate    [2]float64 // bytes per second: [parallel, solo]; 0 not measured
+	windows int        // windows since the last exploration
+	keep    *modeRates
+	now     func() time.Time
+}
+
+// modeRates is what a source's reads have measured (shared by them).
+type modeRates struct {
+	mu   sync.Mutex
+	rate [2]float64
+}
+
+// exploreEvery is how many windows the faster mode runs before the other
+// is measured again (its cost: at most 1/exploreEvery of the difference).
+const exploreEvery = 8
+
+func newModeChooser(chunks int, keep *modeRates) *modeChooser {
+	if chunks <= 0 {
+		chunks = defaultModeChunks
+	}
+	m := &modeChooser{chunks: chunks, t0: time.Now(), keep: keep, now: time.Now}
+	if keep != nil {
+		keep.mu.Lock()
+		m.rate = keep.rate
+		keep.mu.Unlock()
+		m.solo = m.rate[1] > m.rate[0]
+	}
+	return m
+}
+
+// save hands the rates to the next read of the source.
+func (m *modeChooser) save() {
+	if m.keep != nil {
+		m.keep.mu.Lock()
+		m.keep.rate = m.rate
+		m.keep.mu.Unlock()
+	}
+}
+
+// chunkDone counts a delivered chunk of the given bytes and, at the end
+// of a window, chooses the next window's mode.
+func (m *modeChooser) chunkDone(bytes int64) {
+	m.n++
+	if m.n <= m.chunks/4 {
+		// The window's first quarter is not measured: the pipeline fills
+		// or drains from the last mode (and slots are made on a first read).
+		if m.n == m.chunks/4 {
+			m.t0 = m.now()
+		}
+		return
+	}
+	m.bytes += bytes
+	if m.n < m.chunks {
+		return
+	}
+	now := m.now()
+	if d := now.Sub(m.t0).Seconds(); d > 0 {
+		r, k := float64(m.bytes)/d, b2i(m.solo)
+		if m.rate[k] > 0 {
+			r = (r + m.rate[k]) / 2
+		}
+		m.rate[k] = r
+	}
+	m.n, m.bytes, m.t0 = 0, 0, now
+	other := !m.solo
+	switch {
+	case m.rate[b2i(other)] == 0: // never measured
+		m.solo = other
+	case m.solo != (m.rate[1] > m.rate[0]): // the other is faster
+		m.solo, m.windows = other, 0
+	default:
+		if m.windows++; m.windows >= exploreEvery {
+			m.solo, m.windows = other, 0
+		}
+	}
 }
 
 // firstQueued returns the first chunk of q no one has claimed, or nil.

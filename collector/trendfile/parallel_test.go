@@ -3,9 +3,11 @@ package trendfile
 import (
 	"bytes"
 	"context"
+	"errors"
 	"fmt"
 	"log/slog"
 	"math"
+	"runtime"
 	"strings"
 	"sync"
 	"testing"
@@ -61,6 +63,11 @@ func readWith(t *testing.T, s *site.Site, c site.TrendfileConfig, data []byte, w
 	}
 	src.fmt.chunkBytes = chunk
 	src.fmt.batchReading = 13
+	if workers == 3 {
+		// Switch between parallel and solo windows every two chunks, so
+		// both modes and their hand-overs meet every kind of row.
+		src.fmt.modeChunks = 2
+	}
 	var res streamResult
 	if rows {
 		res.st, res.err = src.ReadRows(context.Background(), bytes.NewReader(data), "p.csv", func(r Row) error {
@@ -273,4 +280,82 @@ func TestParallelRecordTooLongAndCancel(t *testing.T) {
 	}
 	want = readWith(t, s, site.TrendfileConfig{Path: "x"}, big, 1, 0, false)
 	sameResult(t, "after a stopped read", streamResult{readings: again, st: want.st, logs: want.logs}, want)
+}
+
+// TestModeChooser drives the mode choice with a clock that makes each
+// chunk take the given time in each mode: the faster mode runs, the
+// other is measured again every exploreEvery windows, and a change of
+// load turns the choice.
+func TestModeChooser(t *testing.T) {
+	at := time.Unix(0, 0)
+	var perChunk [2]time.Duration // [parallel, solo]
+	m := newModeChooser(8, nil)
+	m.now, m.t0 = func() time.Time { return at }, at
+	run := func(windows int) string {
+		var trace []byte
+		for range windows {
+			trace = append(trace, "PS"[b2i(m.solo)])
+			for range m.chunks {
+				at = at.Add(perChunk[b2i(m.solo)])
+				m.chunkDone(1000)
+			}
+		}
+		return string(trace)
+	}
+	perChunk = [2]time.Duration{time.Millisecond, 2 * time.Millisecond}
+	if got, want := run(20), "PSPPPPPPPPSPPPPPPPPS"; got != want {
+		t.Errorf("parallel faster: windows %s, want %s", got, want)
+	}
+	// The parallel mode slows down (the other core is taken): two
+	// measurements pull its mean below solo's, then solo runs, with one
+	// parallel window after exploreEvery.
+	perChunk = [2]time.Duration{5 * time.Millisecond, 2 * time.Millisecond}
+	if got, want := run(12), "PPSSSSSSSSPS"; got != want {
+		t.Errorf("parallel slower: windows %s, want %s", got, want)
+	}
+	if m.rate[0] >= m.rate[1] {
+		t.Errorf("rates %v: want parallel below solo", m.rate)
+	}
+	// The rates go to the next read of the source.
+	keep := &modeRates{}
+	m.keep = keep
+	m.save()
+	if n := newModeChooser(8, keep); !n.solo || n.rate != m.rate {
+		t.Errorf("next read starts solo=%t with rates %v, want solo with %v", n.solo, n.rate, m.rate)
+	}
+}
+
+// TestParallelCancelEndsGoroutines cancels the context during a parallel
+// read: the read returns the context's error and leaves no goroutine.
+func TestParallelCancelEndsGoroutines(t *testing.T) {
+	s := genSite(2)
+	data := messyWide(s)
+	src, err := New(Config{Name: srcName, Site: s, File: site.TrendfileConfig{Path: "x"}, Workers: 3, Logger: quietLog()})
+	if err != nil {
+		t.Fatal(err)
+	}
+	src.fmt.chunkBytes, src.fmt.batchReading, src.fmt.modeChunks = 64, 1, 2
+	base := runtime.NumGoroutine()
+	for _, stopAt := range []int{1, 5, 40} {
+		ctx, cancel := context.WithCancel(context.Background())
+		calls := 0
+		_, err = src.ReadStream(ctx, bytes.NewReader(data), "p.csv", func([]collector.Reading) error {
+			if calls++; calls == stopAt {
+				cancel()
+			}
+			return nil
+		})
+		cancel()
+		if !errors.Is(err, context.Canceled) {
+			t.Fatalf("stop at %d: error %v, want %v", stopAt, err, context.Canceled)
+		}
+		// Helpers have returned (the read waits for them); let the
+		// runtime retire them.
+		for i := 0; i < 1000 && runtime.NumGoroutine() > base; i++ {
+			runtime.Gosched()
+		}
+		if n := runtime.NumGoroutine(); n > base {
+			t.Fatalf("stop at %d: %d goroutines after the read, %d before", stopAt, n, base)
+		}
+	}
 }

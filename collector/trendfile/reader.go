@@ -57,6 +57,7 @@ type parser struct {
 	// ordered merge judges time order and logs.
 	out   *chunk
 	slots *sync.Pool // reusable chunks (*chunk), or nil
+	modes *modeRates // the source's measured rates of the parallel reader's modes, or nil
 
 	// Row mode (ReadRows): one callback per row instead of Readings.
 	rowFn    func(Row) error

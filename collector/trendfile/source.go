@@ -70,6 +70,8 @@ type Source struct {
 	markEvery int64
 	// slots keeps the parallel reader's chunk slots between files.
 	slots sync.Pool
+	// modes keeps the parallel reader's measured rates between files.
+	modes modeRates
 }
 
 // parser returns a parser for one file of this source.
@@ -78,7 +80,7 @@ func (s *Source) parser(file string) (*parser, error) {
 	if err != nil {
 		return nil, err
 	}
-	p.slots = &s.slots
+	p.slots, p.modes = &s.slots, &s.modes
 	return p, nil
 }
 
