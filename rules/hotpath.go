@@ -1,6 +1,7 @@
 package rules
 
 import (
+	"encoding/binary"
 	"math/bits"
 	"unsafe"
 
@@ -93,11 +94,49 @@ func (e *Evaluator) gateMaskOf(x *fdd.Evidence, at int64) gateMask {
 	return mask
 }
 
-// flagMask is the gate mask of the record's own truth values.
+// flagMask is the gate mask of the record's own truth values: Usable,
+// Steady, PlantOn, FanOn and Occupied are consecutive bytes of the record
+// (asserted below), each 0 or 1, read as one little-endian word w (byte i
+// is bit 8i; the three bytes after them are whatever follows in the
+// record). The product w·flagGather has bit 8i·2^(56−7i) = bit 56+i for
+// byte i at i = 0..4: bits 56..60 are the five flags in gate-bit order
+// (gUsable … gOccupied). Every other pair (byte i, term j) lands at bit
+// 56+8i−7j, below 53 for i < j and at or above 64 for i > j (and for the
+// bytes after the flags, i ≥ 5), all at distinct bits, so there are no
+// carries into bits 56..63 and bits 61..63 are clear.
 func flagMask(x *fdd.Evidence) gateMask {
-	return gateMask(b2u(x.Usable)) | gateMask(b2u(x.Steady))<<1 | gateMask(b2u(x.PlantOn))<<2 |
-		gateMask(b2u(x.FanOn))<<3 | gateMask(b2u(x.Occupied))<<4
+	w := binary.LittleEndian.Uint64((*[8]byte)(unsafe.Pointer(&x.Usable))[:])
+	return gateMask(w * flagGather >> 56)
 }
+
+// flagGather moves bit 8i of a word to bit 56+i for i = 0..4 (flagMask).
+const flagGather = 1<<56 | 1<<49 | 1<<42 | 1<<35 | 1<<28
+
+// flagMask's layout: the five truth values in gate-bit order, one byte
+// apart, with a whole word from the first inside the record.
+const flagsOff = unsafe.Offsetof(fdd.Evidence{}.Usable)
+
+var (
+	_ [unsafe.Offsetof(fdd.Evidence{}.Steady) - flagsOff - 1]struct{}
+	_ [flagsOff + 1 - unsafe.Offsetof(fdd.Evidence{}.Steady)]struct{}
+	_ [unsafe.Offsetof(fdd.Evidence{}.PlantOn) - flagsOff - 2]struct{}
+	_ [flagsOff + 2 - unsafe.Offsetof(fdd.Evidence{}.PlantOn)]struct{}
+	_ [unsafe.Offsetof(fdd.Evidence{}.FanOn) - flagsOff - 3]struct{}
+	_ [flagsOff + 3 - unsafe.Offsetof(fdd.Evidence{}.FanOn)]struct{}
+	_ [unsafe.Offsetof(fdd.Evidence{}.Occupied) - flagsOff - 4]struct{}
+	_ [flagsOff + 4 - unsafe.Offsetof(fdd.Evidence{}.Occupied)]struct{}
+	_ [unsafe.Sizeof(fdd.Evidence{}) - flagsOff - 8]struct{}
+	_ [gUsable - 1<<0]struct{}
+	_ [1<<0 - gUsable]struct{}
+	_ [gSteady - 1<<1]struct{}
+	_ [1<<1 - gSteady]struct{}
+	_ [gPlant - 1<<2]struct{}
+	_ [1<<2 - gPlant]struct{}
+	_ [gFan - 1<<3]struct{}
+	_ [1<<3 - gFan]struct{}
+	_ [gOccupied - 1<<4]struct{}
+	_ [1<<4 - gOccupied]struct{}
+)
 
 // stepRules runs the rules of prefilter word w whose bits are in set on
 // terminal t, in rule order. Rules outside set are idle and cannot change
@@ -166,6 +205,3 @@ func (e *Evaluator) rebuildBusy() {
 		}
 	}
 }
-
-// b2u is 1 for true, 0 for false, without a branch.
-func b2u(b bool) uint8 { return *(*uint8)(unsafe.Pointer(&b)) }

@@ -52,3 +52,24 @@ func TestPrefilterScoreRunExact(t *testing.T) {
 		t.Fatal("the score shortcut was never taken")
 	}
 }
+
+// TestFlagMask checks the word-gather gate mask against the truth values
+// one by one, for every combination, with every byte after the flags set.
+func TestFlagMask(t *testing.T) {
+	for c := 0; c < 1<<5; c++ {
+		var x fdd.Evidence
+		w := (*[8]byte)(unsafe.Pointer(&x.Usable))
+		w[5], w[6], w[7] = 0xff, 0xff, 0xff // the bytes after the flags (padding): all ones
+		b := func(i int) bool { return c&(1<<i) != 0 }
+		x.Usable, x.Steady, x.PlantOn, x.FanOn, x.Occupied = b(0), b(1), b(2), b(3), b(4)
+		var want gateMask
+		for i, v := range []bool{x.Usable, x.Steady, x.PlantOn, x.FanOn, x.Occupied} {
+			if v {
+				want |= []gateMask{gUsable, gSteady, gPlant, gFan, gOccupied}[i]
+			}
+		}
+		if got := flagMask(&x); got != want {
+			t.Errorf("flags %05b: mask %06b, want %06b", c, got, want)
+		}
+	}
+}
