@@ -45,29 +45,29 @@ func (en *Engine) resetLoops() {
 }
 
 // accumulate adds one terminal's evidence to its loop's sums (Step calls it
-// right after the evidence is written, while it is in cache).
+// right after the evidence is written, while it is in cache). Written to
+// stay within the compiler's inlining budget (x−x == 0 is finite(x)): it
+// runs for every sample.
 func (en *Engine) accumulate(e *Evidence, t *termStatic) {
-	li := t.loop
-	if li < 0 {
+	if t.loop < 0 {
 		return
 	}
-	a := &en.loops[li]
+	a := &en.loops[t.loop]
 	a.seen = true
 	if e.PlantOn {
 		a.plantOn = true
 	}
-	if !e.Usable {
-		return
-	}
-	if t.hwPoint && finite(e.HotWaterC) {
-		a.hwSum += e.HotWaterC
-		a.hwN++
-	}
-	if finite(e.DesignPerfIndex) {
-		a.n++
-		a.perfSum += e.DesignPerfIndex
-		if e.LoopShort {
-			a.short++
+	if e.Usable {
+		if t.hwPoint && e.HotWaterC-e.HotWaterC == 0 {
+			a.hwSum += e.HotWaterC
+			a.hwN++
+		}
+		if p := e.DesignPerfIndex; p-p == 0 {
+			a.n++
+			a.perfSum += p
+			if e.LoopShort {
+				a.short++
+			}
 		}
 	}
 }
