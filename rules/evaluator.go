@@ -52,7 +52,9 @@ type Evaluator struct {
 	seasonLo int64 // site-local day [seasonLo, seasonHi) of the cached answer (Unix ns)
 	seasonHi int64
 	seasonOK bool
-	now      time.Time
+	// seasonBit is gSeason when seasonOK, else 0 (the hot path ORs it in).
+	seasonBit gateMask
+	now       time.Time
 }
 
 // tracker is the persistence state of one rule on one entity.
@@ -218,6 +220,10 @@ func (e *Evaluator) seasonDay(ns int64) bool {
 		e.seasonOK = md >= lo && md <= hi
 	default:
 		e.seasonOK = md >= lo || md <= hi
+	}
+	e.seasonBit = 0
+	if e.seasonOK {
+		e.seasonBit = gSeason
 	}
 	return e.seasonOK
 }

@@ -33,9 +33,7 @@ func (e *Evaluator) stepTerminals(ev []fdd.Evidence, out []Transition) []Transit
 		at := x.At.UnixNano()
 		mask := flagMask(x) // gateMaskOf, by hand: the compiler does not inline it
 		if at >= e.seasonLo && at < e.seasonHi {
-			if e.seasonOK {
-				mask |= gSeason
-			}
+			mask |= e.seasonBit
 		} else if e.seasonDay(at) {
 			mask |= gSeason
 		}
