@@ -323,8 +323,16 @@ func (e *Evaluator) release(tk *tracker, c *compiled, gatesOK bool, p unsafe.Poi
 	return false
 }
 
+// accumulateOperating adds the time since terminal t's last sample to its
+// total and, with the fan and plant on, heating-operation time (gaps
+// beyond maxGapNs are not counted).
 func (e *Evaluator) accumulateOperating(t int, at int64, mask gateMask) {
-	o := &e.ops[t]
+	e.addOperating(&e.ops[t], at, mask)
+}
+
+// addOperating is accumulateOperating on the terminal's sums o (the hot
+// path indexes them from a slice bounded once per step).
+func (e *Evaluator) addOperating(o *operating, at int64, mask gateMask) {
 	if o.lastAt != 0 {
 		if dt := at - o.lastAt; dt > 0 && dt <= e.maxGapNs {
 			o.totalNs += dt

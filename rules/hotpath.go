@@ -21,7 +21,7 @@ func (e *Evaluator) stepTerminals(ev []fdd.Evidence, out []Transition) []Transit
 	}
 	// One prefilter word (up to rulesPerWord terminal rules): no word loop.
 	nT := e.nT
-	busy, en := e.busy[:nT], e.en[:nT]
+	busy, en, ops := e.busy[:nT], e.en[:nT], e.ops[:nT]
 	gateOK := e.gateOK[:gateMaskMax+1]
 	w0 := &e.pf.words[0]
 	for i := range ev {
@@ -37,7 +37,7 @@ func (e *Evaluator) stepTerminals(ev []fdd.Evidence, out []Transition) []Transit
 		} else if e.seasonDay(at) {
 			mask |= gSeason
 		}
-		e.accumulateOperating(t, at, mask)
+		e.addOperating(&ops[t], at, mask)
 		set := busy[t]
 		if m := gateOK[mask&gateMaskMax] & en[t]; m&^set != 0 {
 			set |= m & w0.pass(unsafe.Pointer(x))
