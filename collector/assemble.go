@@ -537,9 +537,13 @@ func (a *Assembler) Run(ctx context.Context, sources []Source, out chan<- []Samp
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
 	in := make(chan tagged, len(sources)*4)
+	recyclers := make(map[string]Recycler)
 	for _, s := range sources {
 		if _, ok := a.sources[s.Name()]; !ok {
 			a.sources[s.Name()] = &sourceMark{}
+		}
+		if r, ok := s.(Recycler); ok {
+			recyclers[s.Name()] = r
 		}
 	}
 	for _, s := range sources {
@@ -582,7 +586,10 @@ func (a *Assembler) Run(ctx context.Context, sources []Source, out chan<- []Samp
 			return ctx.Err()
 		case t := <-in:
 			if !t.done {
-				a.Add(t.src, t.batch, emit)
+				a.Add(t.src, t.batch, emit) // copies what it keeps
+				if r := recyclers[t.src]; r != nil {
+					r.Recycle(t.batch)
+				}
 				continue
 			}
 			left--

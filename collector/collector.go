@@ -51,6 +51,16 @@ type Source interface {
 	Run(ctx context.Context, out chan<- []Reading) error
 }
 
+// Recycler is implemented by a Source that takes back the batches it sent
+// once the consumer is done with them, so its next batches reuse their
+// arrays instead of allocating (the trend-file reader sends millions of
+// readings per file). A consumer calls Recycle only after it has stopped
+// using every reading of the batch; a source must accept any batch it sent,
+// at most once each.
+type Recycler interface {
+	Recycle(batch []Reading)
+}
+
 // Flags marks which fields of a Sample are missing or unusable.
 type Flags uint32
 

@@ -123,6 +123,14 @@ type observed struct {
 	h *health
 }
 
+// Recycle hands a batch back to the wrapped source if it takes batches back
+// (collector.Recycler); otherwise the batch is left to the collector.
+func (o observed) Recycle(b []collector.Reading) {
+	if r, ok := o.Source.(collector.Recycler); ok {
+		r.Recycle(b)
+	}
+}
+
 func (o observed) Run(ctx context.Context, out chan<- []collector.Reading) error {
 	mid := make(chan []collector.Reading)
 	errc := make(chan error, 1)

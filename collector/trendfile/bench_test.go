@@ -139,7 +139,9 @@ func BenchmarkTrendIngestRows(b *testing.B) {
 	_ = sum
 }
 
-// BenchmarkTrendIngestSource is the same through Source.Run and a channel.
+// BenchmarkTrendIngestSource is the same through Source.Run and a channel,
+// the path of `risewatch analyze` and the daemon: the consumer hands each
+// batch back when done (collector.Recycler), as collector.Assembler.Run does.
 func BenchmarkTrendIngestSource(b *testing.B) {
 	path, s, size := benchFile(b)
 	b.SetBytes(size)
@@ -149,7 +151,8 @@ func BenchmarkTrendIngestSource(b *testing.B) {
 		out := make(chan []collector.Reading, 4)
 		errc := make(chan error, 1)
 		go func() { errc <- src.Run(context.Background(), out); close(out) }()
-		for range out {
+		for batch := range out {
+			src.Recycle(batch)
 		}
 		if err := <-errc; err != nil {
 			b.Fatal(err)

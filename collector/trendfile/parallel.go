@@ -220,7 +220,7 @@ func (p *parser) getSlot() (*chunk, bool) {
 func (p *parser) worker() *parser {
 	tp, _ := newTimeParser(p.f.timeFormat, p.f.loc) // the format was checked by newParser
 	w := &parser{f: p.f, pts: p.pts, file: p.file, tp: tp, ncols: p.ncols, timeCol: p.timeCol,
-		cols: p.cols, reuse: p.reuse}
+		cols: p.cols, reuse: p.reuse, pool: p.pool}
 	if p.rowFn != nil {
 		w.rowFn = func(Row) error { return nil } // row mode; commitRow fills the chunk
 	}
@@ -574,7 +574,13 @@ func (p *parser) parseChunk(c *chunk, final bool) {
 	case p.reuse:
 		p.batch = c.readings[:0]
 	default:
-		p.batch = make([]collector.Reading, 0, c.lastN+c.lastN/8+len(p.cols))
+		n := c.lastN + c.lastN/8 + len(p.cols)
+		if p.pool != nil {
+			p.batch = p.pool.get(n)
+		}
+		if p.batch == nil {
+			p.batch = make([]collector.Reading, 0, n)
+		}
 	}
 	if p.rowFn != nil {
 		p.ensureRow()

@@ -50,7 +50,8 @@ type parser struct {
 	batch   []collector.Reading
 
 	unknownSeen map[string]struct{}
-	reuse       bool // the batch is reused after emit returns (ReadStream)
+	reuse       bool       // the batch is reused after emit returns (ReadStream)
+	pool        *batchPool // batches handed back by Run's consumer (when !reuse)
 
 	// out is set in a worker of the parallel reader (parallel.go): rows,
 	// warnings and readings of the chunk being parsed go there, and the
@@ -319,7 +320,13 @@ func (p *parser) rowTime(cell []byte, line int64) (time.Time, bool) {
 // ensureBatch makes room in the batch for extra more readings.
 func (p *parser) ensureBatch(extra int) {
 	if p.batch == nil {
-		p.batch = make([]collector.Reading, 0, max(p.f.batchReading+extra, extra))
+		n := max(p.f.batchReading+extra, extra)
+		if !p.reuse && p.pool != nil {
+			p.batch = p.pool.get(n)
+		}
+		if p.batch == nil {
+			p.batch = make([]collector.Reading, 0, n)
+		}
 	}
 	if p.out != nil && cap(p.batch)-len(p.batch) < extra {
 		// A worker's batch holds its whole chunk: grow it geometrically.

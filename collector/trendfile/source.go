@@ -72,6 +72,57 @@ type Source struct {
 	slots sync.Pool
 	// modes keeps the parallel reader's measured rates between files.
 	modes modeRates
+	// batches are the batches Run's consumer handed back (Recycle).
+	batches batchPool
+}
+
+// Recycle takes back a batch Run sent once the consumer is done with it
+// (collector.Recycler); Run's later batches reuse its array.
+func (s *Source) Recycle(b []collector.Reading) { s.batches.put(b) }
+
+var _ collector.Recycler = (*Source)(nil)
+
+// batchPool holds handed-back batches for Run's flushes (at most
+// batchPoolSize; more go to the garbage collector). Safe for concurrent use.
+type batchPool struct {
+	once sync.Once
+	free chan []collector.Reading
+}
+
+// batchPoolSize covers the batches in flight between a source and the
+// assembler (their channels hold a few each) with room to spare.
+const batchPoolSize = 16
+
+func (bp *batchPool) init() {
+	bp.once.Do(func() { bp.free = make(chan []collector.Reading, batchPoolSize) })
+}
+
+// put keeps b for reuse if there is room.
+func (bp *batchPool) put(b []collector.Reading) {
+	if cap(b) == 0 {
+		return
+	}
+	bp.init()
+	// Not cleared: a reading refers only to point names, which live as
+	// long as the source, and every reuse overwrites what it appends.
+	select {
+	case bp.free <- b[:0]:
+	default:
+	}
+}
+
+// get returns an empty handed-back batch with room for at least n
+// readings, or nil if none is at hand (a smaller one is dropped).
+func (bp *batchPool) get(n int) []collector.Reading {
+	bp.init()
+	select {
+	case b := <-bp.free:
+		if cap(b) >= n {
+			return b
+		}
+	default:
+	}
+	return nil
 }
 
 // parser returns a parser for one file of this source.
@@ -80,7 +131,7 @@ func (s *Source) parser(file string) (*parser, error) {
 	if err != nil {
 		return nil, err
 	}
-	p.slots, p.modes = &s.slots, &s.modes
+	p.slots, p.modes, p.pool = &s.slots, &s.modes, &s.batches
 	return p, nil
 }
 
