@@ -14,19 +14,14 @@ const (
 	valveMin         = -0.05
 	valveMax         = 1.05
 	airflowNegM3s    = -0.01 // small negative readings are zero-offset noise
-	// Zone temperature and heating setpoint do not gate a sample; outside
-	// these ranges they are treated as missing (an open or shorted room
-	// sensor, a setpoint in the wrong unit) [I, common practice].
-	zoneMinC, zoneMaxC       = 0.0, 45.0
-	zoneSetMinC, zoneSetMaxC = 5.0, 35.0
 )
 
 // zonePlausible reports whether a sample's zone temperature and heating
-// setpoint are both present and inside the plausibility ranges (NaN fails).
-func zonePlausible(s *collector.Sample) bool {
-	return s.Flags&(collector.FlagZone|collector.FlagZoneSet) == 0 &&
-		s.ZoneC >= zoneMinC && s.ZoneC <= zoneMaxC && s.ZoneSetC >= zoneSetMinC && s.ZoneSetC <= zoneSetMaxC
-}
+// setpoint are both present and inside the plausibility ranges
+// (collector.ZoneMinC..., NaN fails). They do not gate a sample; outside
+// the ranges they are treated as missing (an open or shorted room sensor, a
+// setpoint in the wrong unit), as in every consumer.
+func zonePlausible(s *collector.Sample) bool { return s.ZoneOK() && s.ZoneSetOK() }
 
 // gatedFlags are the sample flags gate looks at.
 const gatedFlags = collector.FlagAirflow | collector.FlagDischarge | collector.FlagSupply | collector.FlagValve |
