@@ -97,11 +97,16 @@ func poison(e *Evidence, k int) {
 
 // firstDifference names the first field where a and b differ (NaN equals NaN).
 func firstDifference(a, b *Evidence) string {
+	return firstFieldDifference(a, b, func(p, q float64) bool { return p == q || (math.IsNaN(p) && math.IsNaN(q)) })
+}
+
+// firstFieldDifference names the first field (or array element's field)
+// where a and b differ, floats compared by sameFloat, the rest by ==.
+func firstFieldDifference(a, b *Evidence, sameFloat func(p, q float64) bool) string {
 	va, vb := reflect.ValueOf(a).Elem(), reflect.ValueOf(b).Elem()
 	same := func(x, y reflect.Value) bool {
 		if x.Kind() == reflect.Float64 {
-			p, q := x.Float(), y.Float()
-			return p == q || (math.IsNaN(p) && math.IsNaN(q))
+			return sameFloat(x.Float(), y.Float())
 		}
 		return x.Equal(y)
 	}

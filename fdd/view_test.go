@@ -100,28 +100,7 @@ func TestStepViewSameAsStep(t *testing.T) {
 // firstBitDifference names the first field where a and b differ in their
 // bits (floats by IEEE 754 pattern, so 0 and −0 or two NaNs differ too).
 func firstBitDifference(a, b *Evidence) string {
-	va, vb := reflect.ValueOf(a).Elem(), reflect.ValueOf(b).Elem()
-	same := func(x, y reflect.Value) bool {
-		if x.Kind() == reflect.Float64 {
-			return math.Float64bits(x.Float()) == math.Float64bits(y.Float())
-		}
-		return x.Equal(y)
-	}
-	for i := 0; i < va.NumField(); i++ {
-		fa, fb := va.Field(i), vb.Field(i)
-		if fa.Kind() == reflect.Array {
-			for j := 0; j < fa.Len(); j++ {
-				if !same(fa.Index(j), fb.Index(j)) {
-					return va.Type().Field(i).Name
-				}
-			}
-			continue
-		}
-		if !same(fa, fb) {
-			return va.Type().Field(i).Name
-		}
-	}
-	return ""
+	return firstFieldDifference(a, b, func(p, q float64) bool { return math.Float64bits(p) == math.Float64bits(q) })
 }
 
 // loopBits is loop evidence with the floats as bit patterns (NaN-safe
