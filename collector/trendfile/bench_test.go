@@ -84,23 +84,18 @@ func writeWideDistinct(w io.Writer, s *site.Site, start time.Time, step time.Dur
 // timestamps), as the source does, through the public stream reader.
 func BenchmarkTrendIngest(b *testing.B) {
 	path, s, size := benchFile(b)
-	src := newSource(b, s, site.TrendfileConfig{Path: path})
-	b.SetBytes(size)
-	b.ReportAllocs()
-	var n int64
-	for b.Loop() {
-		var err error
-		if n, err = readStream(src, path); err != nil {
-			b.Fatal(err)
-		}
-	}
-	b.ReportMetric(float64(n), "readings/op")
+	benchIngest(b, path, s, size)
 }
 
 // BenchmarkTrendIngestDistinct is BenchmarkTrendIngest on the file with
 // nearly all-distinct values (three decimals and sensor noise).
 func BenchmarkTrendIngestDistinct(b *testing.B) {
 	path, s, size := benchFileDistinct(b)
+	benchIngest(b, path, s, size)
+}
+
+// benchIngest reads path (size octets) through ReadStream per iteration.
+func benchIngest(b *testing.B, path string, s *site.Site, size int64) {
 	src := newSource(b, s, site.TrendfileConfig{Path: path})
 	b.SetBytes(size)
 	b.ReportAllocs()

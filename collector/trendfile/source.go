@@ -85,24 +85,18 @@ var _ collector.Recycler = (*Source)(nil)
 // batchPool holds handed-back batches for Run's flushes (at most
 // batchPoolSize; more go to the garbage collector). Safe for concurrent use.
 type batchPool struct {
-	once sync.Once
-	free chan []collector.Reading
+	free chan []collector.Reading // made by New
 }
 
 // batchPoolSize covers the batches in flight between a source and the
 // assembler (their channels hold a few each) with room to spare.
 const batchPoolSize = 16
 
-func (bp *batchPool) init() {
-	bp.once.Do(func() { bp.free = make(chan []collector.Reading, batchPoolSize) })
-}
-
 // put keeps b for reuse if there is room.
 func (bp *batchPool) put(b []collector.Reading) {
 	if cap(b) == 0 {
 		return
 	}
-	bp.init()
 	// Not cleared: a reading refers only to point names, which live as
 	// long as the source, and every reuse overwrites what it appends.
 	select {
@@ -114,7 +108,6 @@ func (bp *batchPool) put(b []collector.Reading) {
 // get returns an empty handed-back batch with room for at least n
 // readings, or nil if none is at hand (a smaller one is dropped).
 func (bp *batchPool) get(n int) []collector.Reading {
-	bp.init()
 	select {
 	case b := <-bp.free:
 		if cap(b) >= n {
@@ -172,7 +165,8 @@ func New(cfg Config) (*Source, error) {
 		return nil, fmt.Errorf("trend source %s: workers %d: want 0 (one per CPU) or more", cfg.Name, cfg.Workers)
 	}
 	f.workers = cfg.Workers
-	s := &Source{cfg: cfg, fmt: f, pts: pts, log: cfg.Logger, markEvery: markBytes}
+	s := &Source{cfg: cfg, fmt: f, pts: pts, log: cfg.Logger, markEvery: markBytes,
+		batches: batchPool{free: make(chan []collector.Reading, batchPoolSize)}}
 	if cfg.Progress != nil {
 		s.files = map[string]*fileState{}
 		cfg.Progress.Register(cfg.Name, s.commit)
