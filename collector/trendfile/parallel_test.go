@@ -350,9 +350,10 @@ func TestParallelCancelEndsGoroutines(t *testing.T) {
 			t.Fatalf("stop at %d: error %v, want %v", stopAt, err, context.Canceled)
 		}
 		// Helpers have returned (the read waits for them); let the
-		// runtime retire them.
-		for i := 0; i < 1000 && runtime.NumGoroutine() > base; i++ {
-			runtime.Gosched()
+		// runtime retire them (and any goroutine an earlier test left
+		// winding down), waiting up to 10 s on a loaded machine.
+		for end := time.Now().Add(10 * time.Second); runtime.NumGoroutine() > base && time.Now().Before(end); {
+			time.Sleep(time.Millisecond)
 		}
 		if n := runtime.NumGoroutine(); n > base {
 			t.Fatalf("stop at %d: %d goroutines after the read, %d before", stopAt, n, base)
