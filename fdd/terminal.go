@@ -206,8 +206,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	n := nan
 	v.learning, v.eat, v.obs, v.f, v.sigma, v.res, v.z, v.pi = learning, eat, obs, n, n, n, n, n
 
-	st.in.push4(in.u, in.v, in.sat, in.hw)
-	st.dat.push(in.dat)
+	st.pushWindows(&in)
 	st.respAge++
 	if st.respAge >= respStatsEvery {
 		en.responseCadence(st, s)
@@ -218,8 +217,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 		scoreSignatures(e, en, st)
 		return
 	}
-	datSteady := st.dat.full() && math.Abs(st.dat.fullSlope()) <= en.tempSlope && st.dat.variance() <= en.tempVar
-	steady := datSteady && en.inputsSteady(st)
+	datSteady, steady := en.steadiness(st)
 	if !steady {
 		g |= GateUnsteady
 	}
@@ -319,31 +317,6 @@ func (en *Engine) idleTemplate() Evidence {
 	e.WastedHeatW, e.AddedCoolingW, e.ShortfallW = 0, 0, 0
 	e.EWMALimit = en.ewmaLim
 	return e
-}
-
-// inputsSteady checks the full-window steadiness of valve, airflow, SAT and
-// HW temperature.
-func (en *Engine) inputsSteady(st *termState) bool {
-	w4 := &st.in
-	if !w4.full() {
-		return false
-	}
-	k, c := &w4.fullK, &en.cfg
-	w := float64(w4.n - 1)
-	cv := &w4.ch[chValve]
-	if math.Abs(k.slope(cv))*w > c.SteadyValveSpan || k.variance(cv) > en.valveVar {
-		return false
-	}
-	ca := &w4.ch[chAir]
-	fa := c.SteadyAirflowFrac * (ca.sum * k.invN)
-	if k.variance(ca) > fa*fa+1e-6 || math.Abs(k.slope(ca))*w > 2*fa+1e-3 {
-		return false
-	}
-	cs := &w4.ch[chSAT]
-	if math.Abs(k.slope(cs)) > en.tempSlope || k.variance(cs) > en.tempVar {
-		return false
-	}
-	return math.Abs(k.slope(&w4.ch[chHW])) <= en.hwSlope
 }
 
 // trackFlat follows how long the DAT has repeated exactly the same value and

@@ -1,5 +1,7 @@
 package fdd
 
+import "math"
+
 // maxWindow is the longest sliding window (steps).
 const maxWindow = 32
 
@@ -335,4 +337,45 @@ func (w *window4) slope(k int) float64 {
 	sj := n * (n - 1) / 2
 	sjj := (n - 1) * n * (2*n - 1) / 6
 	return (n*c.sumJ - sj*c.sum) / (n*sjj - sj*sj)
+}
+
+// pushWindows adds an active sample's inputs to the steady-state windows:
+// valve, airflow, SAT and HW temperature over the full window, DAT over its
+// last half.
+func (st *termState) pushWindows(in *inputs) {
+	st.in.push4(in.u, in.v, in.sat, in.hw)
+	st.dat.push(in.dat)
+}
+
+// steadiness reports whether the DAT is steady over its window (full,
+// |slope| and variance within the limits) and whether the whole sample is
+// steady (the DAT and every input, inputsSteady).
+func (en *Engine) steadiness(st *termState) (datSteady, steady bool) {
+	datSteady = st.dat.full() && math.Abs(st.dat.fullSlope()) <= en.tempSlope && st.dat.variance() <= en.tempVar
+	return datSteady, datSteady && en.inputsSteady(st)
+}
+
+// inputsSteady checks the full-window steadiness of valve, airflow, SAT and
+// HW temperature.
+func (en *Engine) inputsSteady(st *termState) bool {
+	w4 := &st.in
+	if !w4.full() {
+		return false
+	}
+	k, c := &w4.fullK, &en.cfg
+	w := float64(w4.n - 1)
+	cv := &w4.ch[chValve]
+	if math.Abs(k.slope(cv))*w > c.SteadyValveSpan || k.variance(cv) > en.valveVar {
+		return false
+	}
+	ca := &w4.ch[chAir]
+	fa := c.SteadyAirflowFrac * (ca.sum * k.invN)
+	if k.variance(ca) > fa*fa+1e-6 || math.Abs(k.slope(ca))*w > 2*fa+1e-3 {
+		return false
+	}
+	cs := &w4.ch[chSAT]
+	if math.Abs(k.slope(cs)) > en.tempSlope || k.variance(cs) > en.tempVar {
+		return false
+	}
+	return math.Abs(k.slope(&w4.ch[chHW])) <= en.hwSlope
 }
