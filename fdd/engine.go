@@ -58,6 +58,7 @@ type viewSlot struct {
 	term int    // terminal whose evidence the record holds (−1: none)
 	kind uint8  // which path wrote it (rec*)
 	gen  uint32 // termState.pubGen of its slow fields (kind recActive)
+	mid  uint32 // termState.midGen of its publishMid fields (kind recActive)
 }
 
 // What the last write left in a record.
@@ -132,7 +133,7 @@ func (en *Engine) initTerminal(i int, pf physicsFactory) {
 	*ts = termStatic{idx: i, id: t.ID, loop: -1, ahu: -1, designHWC: 80}
 	var loop *site.Loop
 	if li, ok := lookup(s.LoopIndex, t.Loop, len(s.Loops), func(k int) string { return s.Loops[k].ID }); ok {
-		ts.loop = li
+		ts.loop, ts.acc = li, &en.loops[li]
 		loop = &s.Loops[li]
 		if loop.DesignSupplyC > 0 {
 			ts.designHWC = loop.DesignSupplyC
@@ -224,6 +225,7 @@ func (en *Engine) applyBaseline(i int, b Baseline) error {
 	st.secU, st.secF, st.secAge = 1, 1, 0
 	st.cmp, st.cmpShare = faultCompare{}, nan
 	st.chart = chart{}
+	st.midGen++
 	st.resp = response{}
 	st.respStats = st.resp.stats()
 	st.slow.update(st)

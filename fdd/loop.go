@@ -49,14 +49,12 @@ func (en *Engine) resetLoops() {
 // stay within the compiler's inlining budget (x−x == 0 is finite(x)): it
 // runs for every sample.
 func (en *Engine) accumulate(e *Evidence, t *termStatic) {
-	if t.loop < 0 {
+	a := t.acc
+	if a == nil {
 		return
 	}
-	a := &en.loops[t.loop]
 	a.seen = true
-	if e.PlantOn {
-		a.plantOn = true
-	}
+	a.plantOn = a.plantOn || e.PlantOn
 	if e.Usable {
 		if t.hwPoint && e.HotWaterC-e.HotWaterC == 0 {
 			a.hwSum += e.HotWaterC

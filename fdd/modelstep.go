@@ -30,6 +30,7 @@ func (en *Engine) modelSample(st *termState, t *termStatic, in *inputs, at time.
 	if in.u <= heatingMinFrac {
 		return
 	}
+	st.midGen++ // perf, chart
 	if f > minExpectedRiseK {
 		v.pi = obs / f
 		st.perf.add(v.pi, en.perfAlpha)
@@ -309,39 +310,43 @@ func (en *Engine) offsetUsed(st *termState) float64 {
 // When sl says e already holds this terminal's published evidence, the
 // slow fields (publishSlow) are written only if st.pubGen moved since.
 func (en *Engine) publish(e *Evidence, s *collector.Sample, st *termState, t *termStatic, in *inputs, v *stepVals, sl *viewSlot) {
-	e.Terminal, e.At, e.Gates = s.Terminal, s.At, v.gates
-	e.Usable, e.Steady, e.PlantOn, e.FanOn, e.Occupied = true, v.steady, in.plantOn, in.fanOn, s.Occupied
+	fresh := sl.kind != recActive
+	if fresh {
+		// Constant on this path: the next active write to this record
+		// for the same terminal leaves them.
+		e.Terminal, e.Usable, e.FanOn = s.Terminal, true, true
+	}
+	e.At, e.Gates = s.At, v.gates
+	e.Steady, e.PlantOn, e.Occupied = v.steady, in.plantOn, s.Occupied
 	e.ValveFrac, e.AirflowM3s, e.SupplyC, e.DischargeC, e.HotWaterC = in.u, in.v, in.sat, in.dat, in.hw
 	e.ObservedRiseK, e.ExpectedRiseK, e.SigmaK, e.ResidualK, e.PerfIndex = v.obs, v.f, v.sigma, v.res, v.pi
-	if sl.kind != recActive || sl.gen != st.pubGen {
+	if fresh || sl.gen != st.pubGen {
 		en.publishSlow(e, st)
-		sl.kind, sl.gen = recActive, st.pubGen
+		sl.gen = st.pubGen
 	}
-	e.LeakRiseK = st.leak.v
-	e.LeakFlowFrac = nan
-	if st.leak.ok && st.leakFlowSet() {
-		e.LeakFlowFrac = st.leakFlow
+	if fresh || sl.mid != st.midGen {
+		publishMid(e, st)
+		sl.mid = st.midGen
 	}
+	sl.kind = recActive
 	e.ClosedMinutes = float64(st.closedRun) * en.minPerStep
-	e.OffsetK = st.offset.v
 	e.ReversalsPerHour = st.rev.rate * en.stepsPerHour
 	e.DATFlatMinutes = float64(st.flatRun) * en.minPerStep
-	if st.chart.started {
-		e.CUSUMLowK, e.EWMAResid = st.chart.cusumLow, st.chart.ewma
-	} else {
-		e.CUSUMLowK, e.EWMAResid = nan, nan
-	}
 	e.WastedHeatW, e.AddedCoolingW, e.ShortfallW = 0, 0, 0
-	e.LeakFlowM3s = nan
+	e.LeakFlowM3s, e.LeakSigmaK = nan, nan
 	if v.past {
-		en.energy(st, in, v, e)
+		// energy's own conditions, first tested here so that most
+		// samples (neither closed long nor short of heat) make no call.
+		if st.closedRun >= en.closedSteps || in.u > heatingMinFrac && v.res < 0 {
+			en.energy(st, in, v, e)
+		}
+		if lf := e.LeakFlowFrac; lf-lf == 0 { // set only with st.leak.ok
+			e.LeakFlowM3s = lf * st.designFlow
+		}
+		e.LeakSigmaK = en.leakSigma
 	}
 	e.Learning = v.learning
 	e.DATMinusSATK = in.dat - in.sat
-	e.LeakSigmaK = nan
-	if v.past {
-		e.LeakSigmaK = en.leakSigma
-	}
 	e.DesignPerfIndex, e.LoopShort = nan, false
 	if st.perfAge < perfExpireSteps && st.designPerf.ok {
 		e.DesignPerfIndex = st.designPerf.v
@@ -352,10 +357,27 @@ func (en *Engine) publish(e *Evidence, s *collector.Sample, st *termState, t *te
 		e.LoopShort = st.saturated && in.u >= saturatedFrac && unmet && st.designPerf.v < loopShortPerf
 	}
 	e.ZScore = v.z
-	e.DATBadMinutes = float64(st.datBadRun) * en.minPerStep
+	e.DATBadMinutes = 0 // a usable sample's DAT is present and in range (process reset the run)
+	e.ZoneDeficitK = st.zoneDef.v
+}
+
+// publishMid writes the fields of publish that change only with
+// st.midGen: the closed-valve and offset statistics (leak, leak flow,
+// offset, raw closed rise), the control charts and the performance mean.
+func publishMid(e *Evidence, st *termState) {
+	e.LeakRiseK = st.leak.v
+	e.LeakFlowFrac = nan
+	if st.leak.ok && st.leakFlowSet() {
+		e.LeakFlowFrac = st.leakFlow
+	}
+	e.OffsetK = st.offset.v
+	if st.chart.started {
+		e.CUSUMLowK, e.EWMAResid = st.chart.cusumLow, st.chart.ewma
+	} else {
+		e.CUSUMLowK, e.EWMAResid = nan, nan
+	}
 	e.PerfAvg = st.perf.v
 	e.ClosedRiseK = st.closedRaw.v
-	e.ZoneDeficitK = st.zoneDef.v
 }
 
 // publishSlow writes the fields of publish that change only with
@@ -396,7 +418,8 @@ func (st *termState) leakFlowSet() bool { return st.leakFlow >= 0 }
 // energy fills the energy impact: leak heat (and the cooling spent removing
 // it, taken equal; the box must offset it with cold air) and heating
 // shortfall, Q = ṁ_da·c_p·ΔT with moist-air properties (energy.go). e's
-// LeakRiseK and LeakFlowFrac are written.
+// LeakRiseK is written. The leak flow in m³/s is publish's (LeakFlowFrac ×
+// the design flow).
 func (en *Engine) energy(st *termState, in *inputs, v *stepVals, e *Evidence) {
 	if st.closedRun >= en.closedSteps && in.plantOn && finite(e.LeakRiseK) && st.dat.full() {
 		ex := st.dat.mean() - v.eat
@@ -408,9 +431,6 @@ func (en *Engine) energy(st *termState, in *inputs, v *stepVals, e *Evidence) {
 	}
 	if in.u > heatingMinFrac && finite(v.res) && v.res < 0 {
 		e.ShortfallW = en.air.heatW(in.v, -v.res, in.dat)
-	}
-	if finite(e.LeakFlowFrac) && st.leak.ok {
-		e.LeakFlowM3s = e.LeakFlowFrac * st.designFlow
 	}
 }
 

@@ -140,7 +140,9 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 	stuck := fmax(fmax(unresp, stuckOpen), noHeat)
 	neg := ramp(-e.ClosedRiseK, offsetLoK, offsetHiK) // DAT below SAT with the fan on and the valve closed: impossible
 	offset := fmax(ramp(math.Abs(off), offsetLoK, offsetHiK), neg)
-	datFailed := datFailedScore(e, st, cfg.FlatlineMinutes)
+	// A usable sample's DAT is present and in range (DATBadMinutes 0):
+	// only the frozen-value part of datFailedScore can score.
+	datFailed := datFlatScore(e, st, cfg.FlatlineMinutes)
 	hunting := ramp(e.ReversalsPerHour, huntLo, huntHi)
 	var lowDAT float64
 	if finite(e.DATSetC) && e.PlantOn {
@@ -175,13 +177,18 @@ var (
 
 // datFailedScore: a DAT frozen at one value while the valve or SAT moved, or
 // missing/out of range while the other points are fine.
-// The frozen-value ramp runs from a quarter to half of FlatlineMinutes.
 func datFailedScore(e *Evidence, st *termState, flatMin float64) float64 {
+	return fmax(datFlatScore(e, st, flatMin), ramp(e.DATBadMinutes, datBadLoMin, datBadHiMin))
+}
+
+// datFlatScore is the frozen-value part of datFailedScore: its ramp runs
+// from a quarter to half of FlatlineMinutes.
+func datFlatScore(e *Evidence, st *termState, flatMin float64) float64 {
 	flat := ramp(e.DATFlatMinutes, 0.25*flatMin, 0.5*flatMin)
 	if flat > 0 && !(st.flatUMax-st.flatUMin >= 0.2 || st.flatSMax-st.flatSMin >= 1) {
 		flat = 0 // neither valve nor SAT moved: a steady DAT may repeat
 	}
-	return fmax(flat, ramp(e.DATBadMinutes, datBadLoMin, datBadHiMin))
+	return flat
 }
 
 // scoreDataQuality scores a sample with a data gate: only data-quality kinds.

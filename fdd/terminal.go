@@ -11,7 +11,8 @@ import (
 type termStatic struct {
 	idx        int
 	id         string
-	loop, ahu  int // indices, −1 if unknown
+	loop, ahu  int      // indices, −1 if unknown
+	acc        *loopAcc // the loop's sums in Engine.loops (nil without a loop)
 	phys       coilPhysics
 	flow       flowCurve // installed flow at baseline (flow factor 1)
 	modelErr   error
@@ -44,7 +45,10 @@ type termState struct {
 	// pubGen counts changes of the published values that move only on
 	// the response cadence, a leak inversion or a baseline change (the
 	// slow fields of publish): StepView rewrites them when it moved.
-	pubGen    uint32
+	pubGen uint32
+	// midGen counts changes of the closed-valve, offset, chart and
+	// performance-mean values (publishMid).
+	midGen    uint32
 	lastDAT   float64
 	flatUMin  float64
 	flatUMax  float64
@@ -141,7 +145,9 @@ type stepVals struct {
 func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *Evidence, sl *viewSlot) {
 	cfg := &en.cfg
 	st.steps++
-	learning := !st.learnedBase && cfg.LearnMinPoints > 0 && !st.learnDone
+	// Learning: no learned baseline yet and learning not finished
+	// (initTerminal marks it finished when LearnMinPoints is 0).
+	learning := !st.learnedBase && !st.learnDone
 
 	var in inputs
 	g := gate(s, t, &in)
@@ -228,6 +234,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	// Sensor offset: steady, no heat available, valve closed (or no hot water).
 	if datSteady && noHeat && (closedLong || in.hw-eat < offsetNoHeatK) {
 		st.offset.add(obs, en.offAlpha)
+		st.midGen++
 	}
 	if steady && in.plantOn && !noHeat && t.modelErr == nil {
 		en.modelSample(st, t, &in, s.At, &v)
@@ -237,6 +244,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	// may pass water by design, so the model's rise at the command is taken
 	// off (and without a model value the sample says nothing).
 	if datSteady && in.plantOn && !noHeat && closedLong {
+		st.midGen++ // closedRaw, leak, leak flow
 		st.closedRaw.add(obs, en.leakAlpha)
 		x := obs
 		if in.u > zeroCommandFrac && t.modelErr == nil {
