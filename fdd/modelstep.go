@@ -34,6 +34,9 @@ func (en *Engine) modelSample(st *termState, t *termStatic, in *inputs, at time.
 	if f > minExpectedRiseK {
 		v.pi = obs / f
 		st.perf.add(v.pi, en.perfAlpha)
+		if !finite(st.respStats.perfHigh) { // PerfAvg stands in for PerfHigh in the scores
+			st.scoreGen++
+		}
 		// Rise at the design HW temperature: at fixed flows the e-NTU rise
 		// scales with the inlet temperature difference, ΔT_air = ε·(C_min/C_air)·(T_hw − EAT).
 		if d := in.hw - eat; d > offsetNoHeatK {
@@ -46,8 +49,11 @@ func (en *Engine) modelSample(st *termState, t *termStatic, in *inputs, at time.
 		}
 	}
 	st.chart.add(z, cfg.ChartBlock, cfg.CUSUMK, cfg.EWMALambda)
-	if st.chart.cusumLow > 1e6 {
-		st.chart.cusumLow = 1e6
+	if st.chart.blockN == 0 { // a block mean went to the charts
+		st.scoreGen++
+		if st.chart.cusumLow > 1e6 {
+			st.chart.cusumLow = 1e6
+		}
 	}
 	en.updateFactors(st, ev.dLU, ev.dM*mw, res, s2)
 	st.cmp.add(res, ev.dLU, ev.dM*mw, restrictionSens(ev.dM, mw, st.designFlow), 1/s2, en.facAlpha)

@@ -77,8 +77,59 @@ func (ss *slowScores) update(st *termState) {
 func sharp(x float64) float64 { return ramp(x, 0.35, 0.65) }
 
 // scoreSignatures fills e.Scores (every kind) and e.Best for a usable
-// sample; the response terms come from st.slow.
+// sample, computing every term; the response terms come from st.slow.
+// process calls scoreActive, which gives the same scores.
 func scoreSignatures(e *Evidence, en *Engine, st *termState) {
+	var c scoreCache
+	c.compute(e, en, st)
+	c.finish(e, en, st)
+}
+
+// scoreCache holds the score terms of a terminal that depend only on
+// values that move with st.pubGen (the response statistics, closed-valve
+// fit, running factors, onset), st.scoreGen (the closed-valve and offset
+// means, the CUSUM, the performance mean while the high-command
+// performance is unknown) and three truth values of the sample (plant on,
+// closed long enough for the leak test, learning), with what they were
+// computed at.
+// On a fan-on sample most of these do not move (measured on the demo
+// campus: the key changes on about 40 % of them).
+type scoreCache struct {
+	pub, gen                                  uint32 // st.pubGen and st.scoreGen of the terms
+	flags                                     uint8  // scoreFlags of the terms (0: none)
+	leak, stuck, fouled, starved, offset, rev float64
+	or                                        uint64 // bitwise OR of their IEEE 754 bit patterns (finish)
+}
+
+// scoreFlags packs the truth values the cached terms depend on; bit 3 is
+// always set, so a zero scoreCache holds nothing.
+func scoreFlags(e *Evidence, closedMin float64) uint8 {
+	f := uint8(8)
+	if e.PlantOn {
+		f |= 1
+	}
+	if e.ClosedMinutes >= closedMin {
+		f |= 2
+	}
+	if e.Learning {
+		f |= 4
+	}
+	return f
+}
+
+// scoreActive is scoreSignatures for process: the cached terms are
+// recomputed only when what they depend on moved.
+func (en *Engine) scoreActive(e *Evidence, st *termState) {
+	c := &st.sc
+	if f := scoreFlags(e, en.cfg.ClosedMinutes); f != c.flags || st.pubGen != c.pub || st.scoreGen != c.gen {
+		c.compute(e, en, st)
+		c.pub, c.gen, c.flags = st.pubGen, st.scoreGen, f
+	}
+	c.finish(e, en, st)
+}
+
+// compute sets the cached terms from e and st.
+func (c *scoreCache) compute(e *Evidence, en *Engine, st *termState) {
 	cfg := &en.cfg
 	unresp, rev := st.slow.unresp, st.slow.rev
 
@@ -137,9 +188,18 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 		starved = capLoss * sharp(sv) * (1 - unresp)
 	}
 
-	stuck := fmax(fmax(unresp, stuckOpen), noHeat)
 	neg := ramp(-e.ClosedRiseK, offsetLoK, offsetHiK) // DAT below SAT with the fan on and the valve closed: impossible
-	offset := fmax(ramp(math.Abs(off), offsetLoK, offsetHiK), neg)
+	c.leak, c.stuck, c.fouled, c.starved = leak, fmax(fmax(unresp, stuckOpen), noHeat), fouled, starved
+	c.offset = fmax(ramp(math.Abs(off), offsetLoK, offsetHiK), neg)
+	c.rev = rev
+	c.or = math.Float64bits(c.leak) | math.Float64bits(c.stuck) | math.Float64bits(c.fouled) | math.Float64bits(c.starved) |
+		math.Float64bits(c.offset) | math.Float64bits(c.rev)
+}
+
+// finish adds the terms that move every sample (frozen DAT, hunting, low
+// DAT) to the cached ones and writes e.Scores and e.Best.
+func (c *scoreCache) finish(e *Evidence, en *Engine, st *termState) {
+	cfg := &en.cfg
 	// A usable sample's DAT is present and in range (DATBadMinutes 0):
 	// only the frozen-value part of datFailedScore can score.
 	datFailed := datFlatScore(e, st, cfg.FlatlineMinutes)
@@ -150,9 +210,9 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 		lowDAT = ramp(e.DATSetC-e.DischargeC, 0.5*cfg.LowDischargeK, cfg.LowDischargeK)
 	}
 	sc := &e.Scores
-	sc[KindNone], sc[KindLeakingValve], sc[KindStuckValve], sc[KindFouledCoil] = 0, leak, stuck, fouled
-	sc[KindStarvedCoil], sc[KindColdLoop], sc[KindDATOffset], sc[KindDATFailed] = starved, 0, offset, datFailed
-	sc[KindReversedValve], sc[KindHunting], sc[KindLowDischarge], sc[KindDataQuality] = rev, hunting, lowDAT, 0
+	sc[KindNone], sc[KindLeakingValve], sc[KindStuckValve], sc[KindFouledCoil] = 0, c.leak, c.stuck, c.fouled
+	sc[KindStarvedCoil], sc[KindColdLoop], sc[KindDATOffset], sc[KindDATFailed] = c.starved, 0, c.offset, datFailed
+	sc[KindReversedValve], sc[KindHunting], sc[KindLowDischarge], sc[KindDataQuality] = c.rev, hunting, lowDAT, 0
 	// A branch-free pre-test for bestKind on scores that are all finite and
 	// ≥ 0: their IEEE 754 bit patterns order like the values, and the
 	// bitwise OR of several patterns is at least the largest, so an OR below
@@ -160,9 +220,7 @@ func scoreSignatures(e *Evidence, en *Engine, st *termState) {
 	// reaches it and Best is KindNone. The kinds scored 0 here add nothing
 	// to the OR.
 	e.Best = KindNone
-	or := math.Float64bits(leak) | math.Float64bits(stuck) | math.Float64bits(fouled) | math.Float64bits(starved) |
-		math.Float64bits(offset) | math.Float64bits(datFailed) | math.Float64bits(rev) | math.Float64bits(hunting) |
-		math.Float64bits(lowDAT)
+	or := c.or | math.Float64bits(datFailed) | math.Float64bits(hunting) | math.Float64bits(lowDAT)
 	if or != 0 && or >= en.thresholdBits {
 		e.Best = bestKind(sc, cfg.ScoreThreshold)
 	}

@@ -98,6 +98,7 @@ type gen struct {
 	design  float64 // full-open flow
 	flatDAT float64
 	onset   time.Time
+	foulUA  float64 // UA factor of a fouled coil (0: foulUA)
 }
 
 func newGen(t testing.TB, f fault, seed uint64, onset time.Time) *gen {
@@ -196,6 +197,9 @@ func (g *gen) sample(i int, at time.Time, phase int) collector.Sample {
 			dp *= starveDP
 		case fFouled:
 			ua = foulUA
+			if g.foulUA > 0 {
+				ua = g.foulUA
+			}
 		}
 	}
 	mw := g.flow(pos, dp)

@@ -48,7 +48,11 @@ type termState struct {
 	pubGen uint32
 	// midGen counts changes of the closed-valve, offset, chart and
 	// performance-mean values (publishMid).
-	midGen    uint32
+	midGen uint32
+	// scoreGen counts changes of the score inputs outside pubGen
+	// (scoreCache): the closed-valve and offset means, the CUSUM, the
+	// performance mean while the high-command performance is unknown.
+	scoreGen  uint32
 	lastDAT   float64
 	flatUMin  float64
 	flatUMax  float64
@@ -78,6 +82,7 @@ type termState struct {
 	closedEst                         closedEstimate
 	respStats                         responseStats
 	slow                              slowScores // score terms that change only with the response cadence or the leak inversion
+	sc                                scoreCache // score terms that change only with pubGen, scoreGen and three truth values
 	in                                window4    // valve, airflow, SAT, HW temperature over the steady window
 	dat                               window     // DAT over the last half window
 	resp                              response
@@ -220,7 +225,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	if st.fanRun < en.startupSteps || st.plantRun < en.startupSteps {
 		v.gates = g | GateStartup
 		en.publish(e, s, st, t, &in, &v, sl)
-		scoreSignatures(e, en, st)
+		en.scoreActive(e, st)
 		return
 	}
 	datSteady, steady := en.steadiness(st)
@@ -235,6 +240,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	if datSteady && noHeat && (closedLong || in.hw-eat < offsetNoHeatK) {
 		st.offset.add(obs, en.offAlpha)
 		st.midGen++
+		st.scoreGen++
 	}
 	if steady && in.plantOn && !noHeat && t.modelErr == nil {
 		en.modelSample(st, t, &in, s.At, &v)
@@ -245,6 +251,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	// off (and without a model value the sample says nothing).
 	if datSteady && in.plantOn && !noHeat && closedLong {
 		st.midGen++ // closedRaw, leak, leak flow
+		st.scoreGen++
 		st.closedRaw.add(obs, en.leakAlpha)
 		x := obs
 		if in.u > zeroCommandFrac && t.modelErr == nil {
@@ -266,7 +273,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 		st.perfAge++
 	}
 	en.publish(e, s, st, t, &in, &v, sl)
-	scoreSignatures(e, en, st)
+	en.scoreActive(e, st)
 }
 
 // responseCadence runs every respStatsEvery fan-on steps: decay and
