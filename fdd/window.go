@@ -23,15 +23,16 @@ type window struct {
 
 // slopeConst holds the constants of a full window of n: Σj = n(n−1)/2, the
 // slope denominator n·Σj² − (Σj)², and the reciprocals of n and of the
-// denominator (the steady checks on every sample multiply, not divide).
-type slopeConst struct{ n, sj, den, invN, invDen float64 }
+// denominator (the steady checks on every sample multiply, not divide), and
+// n−1 (the weight of the newest sample in the sliding Σj·x).
+type slopeConst struct{ n, sj, den, invN, invDen, n1 float64 }
 
 func newSlopeConst(n int) slopeConst {
 	c := float64(n)
 	sj := c * (c - 1) / 2
 	sjj := (c - 1) * c * (2*c - 1) / 6
 	den := c*sjj - sj*sj
-	return slopeConst{n: c, sj: sj, den: den, invN: 1 / c, invDen: 1 / den}
+	return slopeConst{n: c, sj: sj, den: den, invN: 1 / c, invDen: 1 / den, n1: float64(n - 1)}
 }
 
 const rebuildEvery = 256
@@ -60,9 +61,9 @@ func (w *window) full() bool { return w.count == w.n }
 // S' = S − (T − x_0) + (n−1)·x_new, with T = Σ x_j before the update.
 func (w *window) push(x float64) {
 	if w.count < w.n {
-		w.sumJ += float64(w.count) * x
+		w.sumJ += float64(float64(w.count) * x)
 		w.sum += x
-		w.sumSq += x * x
+		w.sumSq += float64(x * x)
 		w.ring[w.head] = x
 		w.head++
 		if w.head == w.n {
@@ -72,9 +73,9 @@ func (w *window) push(x float64) {
 		return
 	}
 	old := w.ring[w.head]
-	w.sumJ = w.sumJ - (w.sum - old) + float64(w.n-1)*x
+	w.sumJ = w.sumJ - (w.sum - old) + float64(w.fullK.n1*x)
 	w.sum += x - old
-	w.sumSq += x*x - old*old
+	w.sumSq += float64(x*x) - float64(old*old)
 	w.ring[w.head] = x
 	w.head++
 	if w.head == w.n {
@@ -101,8 +102,8 @@ func (w *window) rebuild() {
 		}
 		x := w.ring[k]
 		w.sum += x
-		w.sumSq += x * x
-		w.sumJ += float64(j) * x
+		w.sumSq += float64(x * x)
+		w.sumJ += float64(float64(j) * x)
 	}
 }
 
@@ -123,7 +124,7 @@ func (w *window) variance() float64 {
 	switch {
 	case w.count == w.n:
 		k := &w.fullK
-		v = (w.sumSq - w.sum*w.sum*k.invN) * k.invN
+		v = (w.sumSq - float64(w.sum*w.sum*k.invN)) * k.invN
 	case w.count < 2:
 		return 0
 	default:
@@ -140,8 +141,7 @@ func (w *window) variance() float64 {
 // b = (c·Σjx − Σj·Σx) / (c·Σj² − (Σj)²), j = 0..c−1.
 func (w *window) slope() float64 {
 	if w.count == w.n {
-		k := &w.fullK
-		return (k.n*w.sumJ - k.sj*w.sum) * k.invDen
+		return w.fullSlope()
 	}
 	if w.count < 2 {
 		return 0
@@ -155,7 +155,7 @@ func (w *window) slope() float64 {
 // fullSlope is slope for a full window (the caller checked full).
 func (w *window) fullSlope() float64 {
 	k := &w.fullK
-	return (k.n*w.sumJ - k.sj*w.sum) * k.invDen
+	return (float64(k.n*w.sumJ) - float64(k.sj*w.sum)) * k.invDen
 }
 
 // last returns the most recent sample.
@@ -187,53 +187,40 @@ const (
 
 // window4 is four sliding windows of the same length that are always pushed
 // and reset together (the steady-state inputs), with shared indexing so one
-// push costs one ring update. Same sums and formulas as window; each
-// channel's three sums sit together.
+// push costs one ring update. Same sums and formulas as window, laid out by
+// sum (structure of arrays): the assembly form (window_amd64.s) updates two
+// channels per SSE2 instruction, valve and airflow in one register, SAT and
+// HW temperature in the other.
 type window4 struct {
+	sum    [nCh]float64 // Σ x_j per channel
+	sumSq  [nCh]float64 // Σ x_j²
+	sumJ   [nCh]float64 // Σ j·x_j, j = 0 for the oldest sample
+	fullK  slopeConst2
+	ring   [][nCh]float64 // n samples; the engine's windows share one array
 	n      int
 	count  int
 	head   int
 	pushes int
-	ch     [nCh]chanSums
-	fullK  slopeConst
-	ring   [][nCh]float64 // n samples; the engine's windows share one array
 }
 
-// chanSums are one channel's running sums Σx, Σx², Σj·x.
-type chanSums struct{ sum, sumSq, sumJ float64 }
+// slopeConst2 is slopeConst of a full window4 with every constant held
+// twice (both lanes of a packed operand), plus n−1 (the weight of the
+// newest sample in the sliding Σj·x, and the valve and airflow spans).
+type slopeConst2 struct{ n, sj, invN, invDen, n1 [2]float64 }
 
-// fill adds x as sample j of a window that is not full yet.
-func (c *chanSums) fill(x, j float64) {
-	c.sumJ += j * x
-	c.sum += x
-	c.sumSq += x * x
-}
-
-// slide replaces the oldest sample old by x in a full window of n1+1
-// (see window.push for the sliding Σj·x).
-func (c *chanSums) slide(x, old, n1 float64) {
-	c.sumJ = c.sumJ - (c.sum - old) + n1*x
-	c.sum += x - old
-	c.sumSq += x*x - old*old
-}
-
-// slope and variance of a full window from its sums (the full-window
-// branches of window4.slope and window4.variance).
-func (k *slopeConst) slope(c *chanSums) float64 { return (k.n*c.sumJ - k.sj*c.sum) * k.invDen }
-
-func (k *slopeConst) variance(c *chanSums) float64 {
-	v := (c.sumSq - c.sum*c.sum*k.invN) * k.invN
-	if v < 0 {
-		return 0
+func newSlopeConst2(n int) slopeConst2 {
+	k := newSlopeConst(n)
+	return slopeConst2{
+		n: [2]float64{k.n, k.n}, sj: [2]float64{k.sj, k.sj}, invN: [2]float64{k.invN, k.invN},
+		invDen: [2]float64{k.invDen, k.invDen}, n1: [2]float64{k.n1, k.n1},
 	}
-	return v
 }
 
 func (w *window4) init(n int) { w.initRing(make([][nCh]float64, n)) }
 
 // initRing sets up a window over ring (its length is the window length).
 func (w *window4) initRing(ring [][nCh]float64) {
-	*w = window4{n: len(ring), fullK: newSlopeConst(len(ring)), ring: ring}
+	*w = window4{n: len(ring), fullK: newSlopeConst2(len(ring)), ring: ring}
 }
 
 func (w *window4) reset() {
@@ -241,7 +228,7 @@ func (w *window4) reset() {
 		return
 	}
 	w.count, w.head = 0, 0
-	w.ch = [nCh]chanSums{}
+	w.sum, w.sumSq, w.sumJ = [nCh]float64{}, [nCh]float64{}, [nCh]float64{}
 }
 
 func (w *window4) full() bool { return w.count == w.n }
@@ -249,25 +236,31 @@ func (w *window4) full() bool { return w.count == w.n }
 // push appends one sample per channel.
 func (w *window4) push(x [nCh]float64) { w.push4(x[chValve], x[chAir], x[chSAT], x[chHW]) }
 
-// push4 appends valve, airflow, SAT and HW temperature.
+// push4 appends valve, airflow, SAT and HW temperature: window.push per
+// channel. The conversions float64(a·b) keep each product rounded on its
+// own (no fused multiply-add on any architecture), as the assembly does.
 func (w *window4) push4(u, v, sat, hw float64) {
+	x := [nCh]float64{chValve: u, chAir: v, chSAT: sat, chHW: hw}
 	slot := &w.ring[w.head]
 	if w.count < w.n {
-		c := float64(w.count)
-		w.ch[chValve].fill(u, c)
-		w.ch[chAir].fill(v, c)
-		w.ch[chSAT].fill(sat, c)
-		w.ch[chHW].fill(hw, c)
+		j := float64(w.count)
+		for k := range x {
+			w.sumJ[k] += float64(j * x[k])
+			w.sum[k] += x[k]
+			w.sumSq[k] += float64(x[k] * x[k])
+		}
 		w.count++
 	} else {
-		n1 := float64(w.n - 1)
-		w.ch[chValve].slide(u, slot[chValve], n1)
-		w.ch[chAir].slide(v, slot[chAir], n1)
-		w.ch[chSAT].slide(sat, slot[chSAT], n1)
-		w.ch[chHW].slide(hw, slot[chHW], n1)
+		n1 := w.fullK.n1[0]
+		for k := range x {
+			old := slot[k]
+			w.sumJ[k] = w.sumJ[k] - (w.sum[k] - old) + float64(n1*x[k])
+			w.sum[k] += x[k] - old
+			w.sumSq[k] += float64(x[k]*x[k]) - float64(old*old)
+		}
 		w.pushes++
 	}
-	*slot = [nCh]float64{chValve: u, chAir: v, chSAT: sat, chHW: hw}
+	*slot = x
 	w.head++
 	if w.head == w.n {
 		w.head = 0
@@ -279,7 +272,7 @@ func (w *window4) push4(u, v, sat, hw float64) {
 
 func (w *window4) rebuild() {
 	w.pushes = 0
-	w.ch = [nCh]chanSums{}
+	w.sum, w.sumSq, w.sumJ = [nCh]float64{}, [nCh]float64{}, [nCh]float64{}
 	start := w.head - w.count
 	if start < 0 {
 		start += w.n
@@ -291,34 +284,48 @@ func (w *window4) rebuild() {
 		}
 		for k := 0; k < nCh; k++ {
 			v := w.ring[i][k]
-			c := &w.ch[k]
-			c.sum += v
-			c.sumSq += v * v
-			c.sumJ += float64(j) * v
+			w.sum[k] += v
+			w.sumSq[k] += float64(v * v)
+			w.sumJ[k] += float64(float64(j) * v)
 		}
 	}
 }
 
 func (w *window4) mean(k int) float64 {
 	if w.count == w.n {
-		return w.ch[k].sum * w.fullK.invN
+		return w.sum[k] * w.fullK.invN[0]
 	}
 	if w.count == 0 {
 		return 0
 	}
-	return w.ch[k].sum / float64(w.count)
+	return w.sum[k] / float64(w.count)
+}
+
+// fullSlope and fullVariance are slope and variance of channel k of a full
+// window (the caller checked full).
+func (w *window4) fullSlope(k int) float64 {
+	c := &w.fullK
+	return (float64(c.n[0]*w.sumJ[k]) - float64(c.sj[0]*w.sum[k])) * c.invDen[0]
+}
+
+func (w *window4) fullVariance(k int) float64 {
+	c := &w.fullK
+	v := (w.sumSq[k] - float64(w.sum[k]*w.sum[k]*c.invN[0])) * c.invN[0]
+	if v < 0 {
+		return 0
+	}
+	return v
 }
 
 func (w *window4) variance(k int) float64 {
-	c := &w.ch[k]
 	switch {
 	case w.count == w.n:
-		return w.fullK.variance(c)
+		return w.fullVariance(k)
 	case w.count < 2:
 		return 0
 	}
 	n := float64(w.count)
-	v := (c.sumSq - c.sum*c.sum/n) / n
+	v := (w.sumSq[k] - w.sum[k]*w.sum[k]/n) / n
 	if v < 0 {
 		return 0
 	}
@@ -326,9 +333,8 @@ func (w *window4) variance(k int) float64 {
 }
 
 func (w *window4) slope(k int) float64 {
-	c := &w.ch[k]
 	if w.count == w.n {
-		return w.fullK.slope(c)
+		return w.fullSlope(k)
 	}
 	if w.count < 2 {
 		return 0
@@ -336,46 +342,46 @@ func (w *window4) slope(k int) float64 {
 	n := float64(w.count)
 	sj := n * (n - 1) / 2
 	sjj := (n - 1) * n * (2*n - 1) / 6
-	return (n*c.sumJ - sj*c.sum) / (n*sjj - sj*sj)
+	return (n*w.sumJ[k] - sj*w.sum[k]) / (n*sjj - sj*sj)
 }
 
-// pushWindows adds an active sample's inputs to the steady-state windows:
-// valve, airflow, SAT and HW temperature over the full window, DAT over its
-// last half.
-func (st *termState) pushWindows(in *inputs) {
-	st.in.push4(in.u, in.v, in.sat, in.hw)
-	st.dat.push(in.dat)
+// pushWindowsGo is pushWindows in Go: valve, airflow, SAT and HW
+// temperature into the full window, the DAT into the last half window. It
+// is the reference of the assembly form and what other architectures (and
+// -tags purego) run.
+func pushWindowsGo(w *window4, d *window, in *inputs) {
+	w.push4(in.u, in.v, in.sat, in.hw)
+	d.push(in.dat)
 }
 
-// steadiness reports whether the DAT is steady over its window (full,
-// |slope| and variance within the limits) and whether the whole sample is
-// steady (the DAT and every input, inputsSteady).
-func (en *Engine) steadiness(st *termState) (datSteady, steady bool) {
-	datSteady = st.dat.full() && math.Abs(st.dat.fullSlope()) <= en.tempSlope && st.dat.variance() <= en.tempVar
-	return datSteady, datSteady && en.inputsSteady(st)
+// steadinessGo is steadiness in Go (the reference of the assembly form): the
+// DAT is steady when its window is full, |slope| ≤ tempSlope and variance ≤
+// tempVar; the sample is steady when the DAT is and every input is
+// (inputsSteadyGo).
+func steadinessGo(w *window4, d *window, en *Engine) (datSteady, steady bool) {
+	datSteady = d.full() && math.Abs(d.fullSlope()) <= en.tempSlope && d.variance() <= en.tempVar
+	return datSteady, datSteady && inputsSteadyGo(w, en)
 }
 
-// inputsSteady checks the full-window steadiness of valve, airflow, SAT and
-// HW temperature.
-func (en *Engine) inputsSteady(st *termState) bool {
-	w4 := &st.in
-	if !w4.full() {
+// inputsSteadyGo checks the full-window steadiness of valve (travel
+// |slope|·(n−1) and variance), airflow (variance and travel against the
+// relative limit on its mean), SAT (|slope|, variance) and HW temperature
+// (|slope|).
+func inputsSteadyGo(w *window4, en *Engine) bool {
+	if !w.full() {
 		return false
 	}
-	k, c := &w4.fullK, &en.cfg
-	w := float64(w4.n - 1)
-	cv := &w4.ch[chValve]
-	if math.Abs(k.slope(cv))*w > c.SteadyValveSpan || k.variance(cv) > en.valveVar {
+	c := &en.cfg
+	span := w.fullK.n1[0]
+	if math.Abs(w.fullSlope(chValve))*span > c.SteadyValveSpan || w.fullVariance(chValve) > en.valveVar {
 		return false
 	}
-	ca := &w4.ch[chAir]
-	fa := c.SteadyAirflowFrac * (ca.sum * k.invN)
-	if k.variance(ca) > fa*fa+1e-6 || math.Abs(k.slope(ca))*w > 2*fa+1e-3 {
+	fa := c.SteadyAirflowFrac * (w.sum[chAir] * w.fullK.invN[0])
+	if w.fullVariance(chAir) > float64(fa*fa)+1e-6 || math.Abs(w.fullSlope(chAir))*span > float64(2*fa)+1e-3 {
 		return false
 	}
-	cs := &w4.ch[chSAT]
-	if math.Abs(k.slope(cs)) > en.tempSlope || k.variance(cs) > en.tempVar {
+	if math.Abs(w.fullSlope(chSAT)) > en.tempSlope || w.fullVariance(chSAT) > en.tempVar {
 		return false
 	}
-	return math.Abs(k.slope(&w4.ch[chHW])) <= en.hwSlope
+	return math.Abs(w.fullSlope(chHW)) <= en.hwSlope
 }
