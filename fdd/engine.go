@@ -333,10 +333,11 @@ func (en *Engine) stepTerminals(samples []collector.Sample, out []Evidence, loop
 		}
 		t, e := &terms[i], &out[n]
 		sl := viewSlot{term: -1} // a caller's record: nothing known
-		en.process(s, t, &state[i], e, &sl)
+		var acc *loopAcc
 		if loops {
-			en.accumulate(e, t)
+			acc = t.acc
 		}
+		en.process(s, t, &state[i], e, &sl, acc)
 		n++
 	}
 	return out[:n]
@@ -358,8 +359,7 @@ func (en *Engine) stepView(samples []collector.Sample) []Evidence {
 		if sl.term != i {
 			sl.term, sl.kind = i, recNone
 		}
-		en.process(s, t, &state[i], e, sl)
-		en.accumulate(e, t)
+		en.process(s, t, &state[i], e, sl, t.acc)
 		n++
 	}
 	return out[:n]

@@ -44,10 +44,10 @@ func (en *Engine) resetLoops() {
 	}
 }
 
-// accumulate adds one terminal's evidence to its loop's sums (Step calls it
-// right after the evidence is written, while it is in cache). Written to
-// stay within the compiler's inlining budget (x−x == 0 is finite(x)): it
-// runs for every sample.
+// accumulate adds one terminal's evidence to its loop's sums, for
+// AggregateLoops over records gathered from StepTerminals (Step and
+// StepView add to the sums inside process, with the same result: see
+// TestStepViewSameAsStep). x−x == 0 is finite(x).
 func (en *Engine) accumulate(e *Evidence, t *termStatic) {
 	a := t.acc
 	if a == nil {

@@ -315,7 +315,7 @@ func (en *Engine) offsetUsed(st *termState) float64 {
 // the steady-only values are written past the start-up lockout (v.past).
 // When sl says e already holds this terminal's published evidence, the
 // slow fields (publishSlow) are written only if st.pubGen moved since.
-func (en *Engine) publish(e *Evidence, s *collector.Sample, st *termState, t *termStatic, in *inputs, v *stepVals, sl *viewSlot) {
+func (en *Engine) publish(e *Evidence, s *collector.Sample, st *termState, t *termStatic, in *inputs, v *stepVals, sl *viewSlot, acc *loopAcc) {
 	fresh := sl.kind != recActive
 	if fresh {
 		// Constant on this path: the next active write to this record
@@ -361,6 +361,13 @@ func (en *Engine) publish(e *Evidence, s *collector.Sample, st *termState, t *te
 		// whose boxes still meet their zones is not a cold loop.
 		unmet := !st.zoneDef.ok || st.zoneDef.v > en.cfg.ZoneUnmetK
 		e.LoopShort = st.saturated && in.u >= saturatedFrac && unmet && st.designPerf.v < loopShortPerf
+		if p := e.DesignPerfIndex; acc != nil && p-p == 0 { // accumulate's performance sums
+			acc.n++
+			acc.perfSum += p
+			if e.LoopShort {
+				acc.short++
+			}
+		}
 	}
 	e.ZScore = v.z
 	e.DATBadMinutes = 0 // a usable sample's DAT is present and in range (process reset the run)

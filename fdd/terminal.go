@@ -146,8 +146,10 @@ type stepVals struct {
 // sl says what e holds: with recNone every field of e is written (e need
 // not be cleared); otherwise e is this terminal's record of the previous
 // step, written by the path sl.kind names, and only what may differ is
-// written. sl is updated.
-func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *Evidence, sl *viewSlot) {
+// written. sl is updated. With acc (the terminal's loop sums, nil for
+// none) the evidence is added to its loop's sums as accumulate does, from
+// the values at hand on each path.
+func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *Evidence, sl *viewSlot, acc *loopAcc) {
 	cfg := &en.cfg
 	st.steps++
 	// Learning: no learned baseline yet and learning not finished
@@ -172,12 +174,24 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	if st.flatRun >= en.flatSteps {
 		g |= GateStale
 	}
+	if acc != nil {
+		acc.seen = true
+		acc.plantOn = acc.plantOn || in.plantOn
+	}
 	if g&dataGates != 0 {
 		st.resetWindows()
 		en.idle(e, s, st, &in, g, learning, sl.kind == recData)
 		sl.kind = recData
 		scoreDataQuality(e, en, st)
 		return
+	}
+
+	// Usable from here on. A loop with a supply temperature point gives
+	// every usable sample a finite HW temperature (gate: GateNoLoop, or
+	// GateRange, otherwise): accumulate's finiteness test always holds.
+	if acc != nil && t.hwPoint {
+		acc.hwSum += in.hw
+		acc.hwN++
 	}
 
 	// Operating state: fan, start-up, plant changes.
@@ -224,7 +238,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	}
 	if st.fanRun < en.startupSteps || st.plantRun < en.startupSteps {
 		v.gates = g | GateStartup
-		en.publish(e, s, st, t, &in, &v, sl)
+		en.publish(e, s, st, t, &in, &v, sl, acc)
 		en.scoreActive(e, st)
 		return
 	}
@@ -272,7 +286,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	if st.perfAge < perfExpireSteps {
 		st.perfAge++
 	}
-	en.publish(e, s, st, t, &in, &v, sl)
+	en.publish(e, s, st, t, &in, &v, sl, acc)
 	en.scoreActive(e, st)
 }
 

@@ -16,7 +16,9 @@ import (
 // steady, learning and its end, the leak inversion, a cold loop whose
 // isolation rewrites scores), with the sample order changed and terminals
 // missing now and then (records then hold another terminal's evidence),
-// and unknown terminal indices.
+// and unknown terminal indices. A third engine runs the sharded form
+// (StepTerminals, then AggregateLoops, whose loop sums come from the
+// records instead of from process) and must agree as well.
 func TestStepViewSameAsStep(t *testing.T) {
 	const nTerm = 12
 	faults := []fault{fColdLoop, fColdLoop, fColdLoop, fColdLoop, fColdLoop, fNone,
@@ -36,6 +38,13 @@ func TestStepViewSameAsStep(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	// The sharded form: StepTerminals, then AggregateLoops (accumulate
+	// over the records instead of the sums process keeps on the way).
+	shard, err := NewEngine(s, cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var c []Evidence
 	var all, smp []collector.Sample
 	var a []Evidence
 	steps := 50 * 60
@@ -53,6 +62,8 @@ func TestStepViewSameAsStep(t *testing.T) {
 				x.Flags |= collector.FlagAirflow
 			case 1:
 				x.DischargeC = math.NaN()
+			case 2:
+				x.HotWaterC = math.NaN() // the loop has a supply point: GateNoLoop
 			}
 			all = append(all, x)
 		}
@@ -73,18 +84,27 @@ func TestStepViewSameAsStep(t *testing.T) {
 		}
 		a = ref.Step(smp, a[:0])
 		b := view.StepView(smp)
-		if len(a) != len(b) {
-			t.Fatalf("step %d: %d and %d evidences", k, len(a), len(b))
+		c = shard.StepTerminals(smp, c[:0])
+		shard.AggregateLoops(c)
+		if len(a) != len(b) || len(a) != len(c) {
+			t.Fatalf("step %d: %d, %d and %d evidences", k, len(a), len(b), len(c))
 		}
 		for i := range a {
 			if f := firstBitDifference(&a[i], &b[i]); f != "" {
 				t.Fatalf("step %d record %d (terminal %d): field %s: Step %v, StepView %v", k, i, a[i].Terminal, f,
 					reflect.ValueOf(a[i]).FieldByName(f), reflect.ValueOf(b[i]).FieldByName(f))
 			}
+			if f := firstBitDifference(&a[i], &c[i]); f != "" {
+				t.Fatalf("step %d record %d (terminal %d): field %s: Step %v, StepTerminals+AggregateLoops %v", k, i, a[i].Terminal, f,
+					reflect.ValueOf(a[i]).FieldByName(f), reflect.ValueOf(c[i]).FieldByName(f))
+			}
 		}
-		la, lb := ref.Loops(), view.Loops()
+		la, lb, lc := ref.Loops(), view.Loops(), shard.Loops()
 		if !reflect.DeepEqual(loopBits(la), loopBits(lb)) {
 			t.Fatalf("step %d: loop evidence differs:\n%+v\n%+v", k, la, lb)
+		}
+		if !reflect.DeepEqual(loopBits(la), loopBits(lc)) {
+			t.Fatalf("step %d: loop evidence of Step and of AggregateLoops differs:\n%+v\n%+v", k, la, lc)
 		}
 		for _, l := range lb {
 			if l.Score > 0 {
