@@ -158,7 +158,7 @@ func (en *Engine) initTerminal(i int, pf physicsFactory) {
 	}
 	st := &en.state[i]
 	nIn, nDAT := en.cfg.SteadyWindow, datWindow(en.cfg.SteadyWindow)
-	st.in.initRing(en.ringIn[i*nIn : (i+1)*nIn : (i+1)*nIn])
+	st.in.initRing(en.ringIn[i*nIn:(i+1)*nIn:(i+1)*nIn], en.steadyLimits())
 	st.dat.initRing(en.ringDAT[i*nDAT : (i+1)*nDAT : (i+1)*nDAT])
 	st.leakFlow = -1
 	st.perfHighLast = nan

@@ -196,11 +196,34 @@ type window4 struct {
 	sumSq  [nCh]float64 // Σ x_j²
 	sumJ   [nCh]float64 // Σ j·x_j, j = 0 for the oldest sample
 	fullK  slopeConst2
+	lim    steadyLimits
 	ring   [][nCh]float64 // n samples; the engine's windows share one array
 	n      int
 	count  int
 	head   int
 	pushes int
+
+	// The steady checks on the windows after the last push (pushWindows
+	// makes them while the sums are at hand; steadiness returns them).
+	datSteady, steady bool
+}
+
+// steadyLimits are the engine's steady-state limits, copied into each
+// terminal's window4 by initRing (NewEngine sets them once, before the
+// terminals). tempSlope and hwSlope are adjacent: the assembly loads them
+// as one pair (SAT, HW).
+type steadyLimits struct {
+	tempSlope, hwSlope float64 // |slope| limits of DAT and SAT, HW temperature, K per step
+	tempVar, valveVar  float64 // variance limits of DAT and SAT (K²), valve
+	span, airFrac      float64 // Config.SteadyValveSpan, Config.SteadyAirflowFrac
+}
+
+// steadyLimits returns the engine's steady-state limits for initRing.
+func (en *Engine) steadyLimits() steadyLimits {
+	return steadyLimits{
+		tempSlope: en.tempSlope, hwSlope: en.hwSlope, tempVar: en.tempVar, valveVar: en.valveVar,
+		span: en.cfg.SteadyValveSpan, airFrac: en.cfg.SteadyAirflowFrac,
+	}
 }
 
 // slopeConst2 is slopeConst of a full window4 with every constant held
@@ -216,11 +239,12 @@ func newSlopeConst2(n int) slopeConst2 {
 	}
 }
 
-func (w *window4) init(n int) { w.initRing(make([][nCh]float64, n)) }
+func (w *window4) init(n int) { w.initRing(make([][nCh]float64, n), steadyLimits{}) }
 
-// initRing sets up a window over ring (its length is the window length).
-func (w *window4) initRing(ring [][nCh]float64) {
-	*w = window4{n: len(ring), fullK: newSlopeConst2(len(ring)), ring: ring}
+// initRing sets up a window over ring (its length is the window length)
+// with the steady limits lim.
+func (w *window4) initRing(ring [][nCh]float64, lim steadyLimits) {
+	*w = window4{n: len(ring), fullK: newSlopeConst2(len(ring)), lim: lim, ring: ring}
 }
 
 func (w *window4) reset() {
@@ -229,6 +253,7 @@ func (w *window4) reset() {
 	}
 	w.count, w.head = 0, 0
 	w.sum, w.sumSq, w.sumJ = [nCh]float64{}, [nCh]float64{}, [nCh]float64{}
+	w.datSteady, w.steady = false, false
 }
 
 func (w *window4) full() bool { return w.count == w.n }
@@ -346,42 +371,49 @@ func (w *window4) slope(k int) float64 {
 }
 
 // pushWindowsGo is pushWindows in Go: valve, airflow, SAT and HW
-// temperature into the full window, the DAT into the last half window. It
-// is the reference of the assembly form and what other architectures (and
-// -tags purego) run.
+// temperature into the full window, the DAT into the last half window, then
+// the steady checks (steadyGo) into w.datSteady and w.steady. It is the
+// reference of the assembly form and what other architectures (and -tags
+// purego) run.
 func pushWindowsGo(w *window4, d *window, in *inputs) {
 	w.push4(in.u, in.v, in.sat, in.hw)
 	d.push(in.dat)
+	w.datSteady, w.steady = steadyGo(w, d, &w.lim)
 }
 
-// steadinessGo is steadiness in Go (the reference of the assembly form): the
-// DAT is steady when its window is full, |slope| ≤ tempSlope and variance ≤
-// tempVar; the sample is steady when the DAT is and every input is
-// (inputsSteadyGo).
-func steadinessGo(w *window4, d *window, en *Engine) (datSteady, steady bool) {
-	datSteady = d.full() && math.Abs(d.fullSlope()) <= en.tempSlope && d.variance() <= en.tempVar
-	return datSteady, datSteady && inputsSteadyGo(w, en)
+// steadiness reports whether the DAT was steady over its window at the last
+// pushWindows (full, |slope| and variance within the limits) and whether the
+// whole sample was (the DAT and every input; steadyGo).
+func (en *Engine) steadiness(st *termState) (datSteady, steady bool) {
+	return st.in.datSteady, st.in.steady
+}
+
+// steadyGo: the DAT is steady when its window is full, |slope| ≤ tempSlope
+// and variance ≤ tempVar; the sample is steady when the DAT is and every
+// input is (inputsSteadyGo).
+func steadyGo(w *window4, d *window, lim *steadyLimits) (datSteady, steady bool) {
+	datSteady = d.full() && math.Abs(d.fullSlope()) <= lim.tempSlope && d.variance() <= lim.tempVar
+	return datSteady, datSteady && inputsSteadyGo(w, lim)
 }
 
 // inputsSteadyGo checks the full-window steadiness of valve (travel
 // |slope|·(n−1) and variance), airflow (variance and travel against the
 // relative limit on its mean), SAT (|slope|, variance) and HW temperature
 // (|slope|).
-func inputsSteadyGo(w *window4, en *Engine) bool {
+func inputsSteadyGo(w *window4, lim *steadyLimits) bool {
 	if !w.full() {
 		return false
 	}
-	c := &en.cfg
 	span := w.fullK.n1[0]
-	if math.Abs(w.fullSlope(chValve))*span > c.SteadyValveSpan || w.fullVariance(chValve) > en.valveVar {
+	if math.Abs(w.fullSlope(chValve))*span > lim.span || w.fullVariance(chValve) > lim.valveVar {
 		return false
 	}
-	fa := c.SteadyAirflowFrac * (w.sum[chAir] * w.fullK.invN[0])
+	fa := lim.airFrac * (w.sum[chAir] * w.fullK.invN[0])
 	if w.fullVariance(chAir) > float64(fa*fa)+1e-6 || math.Abs(w.fullSlope(chAir))*span > float64(2*fa)+1e-3 {
 		return false
 	}
-	if math.Abs(w.fullSlope(chSAT)) > en.tempSlope || w.fullVariance(chSAT) > en.tempVar {
+	if math.Abs(w.fullSlope(chSAT)) > lim.tempSlope || w.fullVariance(chSAT) > lim.tempVar {
 		return false
 	}
-	return math.Abs(w.fullSlope(chHW)) <= en.hwSlope
+	return math.Abs(w.fullSlope(chHW)) <= lim.hwSlope
 }

@@ -11,6 +11,10 @@
 // (valve, airflow), pair 1 is (SAT, HW temperature).
 
 // func pushWindowsAsm(st *termState, in *inputs)
+//
+// Registers: DI = &st.in, SI = &st.dat, DX = in; the window4 sums stay in
+// X4..X9 (Σx, Σx², Σj·x; pairs 0 and 1) and the DAT sums in X10..X12
+// (Σx, Σx², Σj·x) for the steady checks at the end.
 TEXT ·pushWindowsAsm(SB), NOSPLIT, $0-16
 	MOVQ	st+0(FP), DI
 	MOVQ	in+8(FP), DX
@@ -60,18 +64,18 @@ slide4:
 	// Σx² += x·x − old·old.
 	MOVUPD	0(R8), X2 // old (valve, airflow)
 	MOVUPD	16(R8), X3 // old (SAT, HW)
-	MOVUPD	window4_fullK+slopeConst2_n1(DI), X10
 	MOVAPD	X4, X11
 	SUBPD	X2, X11
 	SUBPD	X11, X8
 	MOVAPD	X5, X12
 	SUBPD	X3, X12
 	SUBPD	X12, X9
-	MOVAPD	X10, X11
+	MOVUPD	window4_fullK+slopeConst2_n1(DI), X11
 	MULPD	X0, X11
 	ADDPD	X11, X8
-	MULPD	X1, X10
-	ADDPD	X10, X9
+	MOVUPD	window4_fullK+slopeConst2_n1(DI), X12
+	MULPD	X1, X12
+	ADDPD	X12, X9
 	MOVAPD	X0, X11
 	SUBPD	X2, X11
 	ADDPD	X11, X4
@@ -117,24 +121,24 @@ dat:
 	MOVQ	window_count(SI), CX
 	MOVQ	window_ring(SI), R8
 	LEAQ	(R8)(AX*8), R8 // R8 = &ring[head]
-	MOVSD	window_sum(SI), X4
-	MOVSD	window_sumSq(SI), X6
-	MOVSD	window_sumJ(SI), X8
+	MOVSD	window_sum(SI), X10
+	MOVSD	window_sumSq(SI), X11
+	MOVSD	window_sumJ(SI), X12
 	CMPQ	CX, BX
 	JGE	slideD
 
 	CVTSQ2SD	CX, X2
 	MULSD	X0, X2
-	ADDSD	X2, X8
-	ADDSD	X0, X4
+	ADDSD	X2, X12
+	ADDSD	X0, X10
 	MOVAPD	X0, X2
 	MULSD	X0, X2
-	ADDSD	X2, X6
+	ADDSD	X2, X11
 	INCQ	CX
 	MOVQ	CX, window_count(SI)
-	MOVSD	X4, window_sum(SI)
-	MOVSD	X6, window_sumSq(SI)
-	MOVSD	X8, window_sumJ(SI)
+	MOVSD	X10, window_sum(SI)
+	MOVSD	X11, window_sumSq(SI)
+	MOVSD	X12, window_sumJ(SI)
 	MOVSD	X0, (R8)
 	INCQ	AX
 	CMPQ	AX, BX
@@ -143,27 +147,27 @@ dat:
 
 fillHeadD:
 	MOVQ	AX, window_head(SI)
-	RET
+	JMP	check
 
 slideD:
 	MOVSD	(R8), X2 // old
-	MOVAPD	X4, X11
-	SUBSD	X2, X11
-	SUBSD	X11, X8
-	MOVSD	window_fullK+slopeConst_n1(SI), X10
-	MULSD	X0, X10
-	ADDSD	X10, X8
-	MOVAPD	X0, X11
-	SUBSD	X2, X11
-	ADDSD	X11, X4
+	MOVAPD	X10, X3
+	SUBSD	X2, X3
+	SUBSD	X3, X12
+	MOVSD	window_fullK+slopeConst_n1(SI), X3
+	MULSD	X0, X3
+	ADDSD	X3, X12
+	MOVAPD	X0, X3
+	SUBSD	X2, X3
+	ADDSD	X3, X10
 	MULSD	X2, X2
-	MOVAPD	X0, X11
-	MULSD	X0, X11
-	SUBSD	X2, X11
-	ADDSD	X11, X6
-	MOVSD	X4, window_sum(SI)
-	MOVSD	X6, window_sumSq(SI)
-	MOVSD	X8, window_sumJ(SI)
+	MOVAPD	X0, X3
+	MULSD	X0, X3
+	SUBSD	X2, X3
+	ADDSD	X3, X11
+	MOVSD	X10, window_sum(SI)
+	MOVSD	X11, window_sumSq(SI)
+	MOVSD	X12, window_sumJ(SI)
 	MOVSD	X0, (R8)
 	INCQ	AX
 	CMPQ	AX, BX
@@ -175,6 +179,118 @@ slideHeadD:
 	INCQ	window_pushes(SI)
 	CMPQ	window_pushes(SI), $const_rebuildEvery
 	JGE	rebuildD
+
+check:
+	// steadyGo. CX = DAT count, BX = its n. DAT: full, |slope| ≤ tempSlope
+	// and variance ≤ tempVar, slope = (n·Σjx − Σj·Σx)·invDen, variance =
+	// max(0, (Σx² − Σx·Σx·invN)·invN).
+	CMPQ	CX, BX
+	JNE	unsteady
+	PCMPEQL	X14, X14
+	PSRLQ	$1, X14 // |x| mask in both lanes
+	MOVSD	window_fullK+slopeConst_n(SI), X0
+	MULSD	X12, X0
+	MOVSD	window_fullK+slopeConst_sj(SI), X1
+	MULSD	X10, X1
+	SUBSD	X1, X0
+	MULSD	window_fullK+slopeConst_invDen(SI), X0
+	ANDPD	X14, X0
+	MOVSD	window4_lim+steadyLimits_tempSlope(DI), X1
+	UCOMISD	X0, X1
+	JCS	unsteady // tempSlope < |slope| or unordered
+	MULSD	X10, X10
+	MOVSD	window_fullK+slopeConst_invN(SI), X3
+	MULSD	X3, X10
+	SUBSD	X10, X11
+	MULSD	X3, X11
+	XORPS	X2, X2
+	MAXSD	X11, X2 // X2 = X11 < 0 ? 0 : X11 (NaN stays)
+	MOVSD	window4_lim+steadyLimits_tempVar(DI), X1
+	UCOMISD	X2, X1
+	JCS	unsteady
+
+	// Inputs (inputsSteadyGo): the window full, then every limit at once
+	// (the Go form's early returns change nothing but the work done).
+	MOVQ	window4_count(DI), AX
+	CMPQ	AX, window4_n(DI)
+	JNE	datOnly
+	MOVUPD	window4_fullK+slopeConst2_n(DI), X0
+	MOVAPD	X0, X1
+	MULPD	X8, X0
+	MULPD	X9, X1
+	MOVUPD	window4_fullK+slopeConst2_sj(DI), X2
+	MOVAPD	X2, X3
+	MULPD	X4, X2
+	MULPD	X5, X3
+	SUBPD	X2, X0
+	SUBPD	X3, X1
+	MOVUPD	window4_fullK+slopeConst2_invDen(DI), X2
+	MULPD	X2, X0
+	MULPD	X2, X1
+	ANDPD	X14, X0
+	ANDPD	X14, X1 // X1 = (|slope SAT|, |slope HW|)
+	MOVUPD	window4_fullK+slopeConst2_n1(DI), X2
+	MULPD	X2, X0 // X0 = |slope|·(n−1) of (valve, airflow)
+
+	// fa = airFrac·(Σx_air·invN); limits fa·fa + 1e-6 (variance) and
+	// 2·fa + 1e-3 (travel).
+	MOVHLPS	X4, X13
+	MULSD	window4_fullK+slopeConst2_invN(DI), X13
+	MULSD	window4_lim+steadyLimits_airFrac(DI), X13
+	MOVAPD	X13, X12
+	MULSD	X13, X12
+	ADDSD	$(1e-6), X12
+	MULSD	$(2.0), X13
+	ADDSD	$(1e-3), X13
+	MOVSD	window4_lim+steadyLimits_span(DI), X10
+	UNPCKLPD	X13, X10 // (span, 2·fa + 1e-3)
+	MOVSD	window4_lim+steadyLimits_valveVar(DI), X11
+	UNPCKLPD	X12, X11 // (valveVar, fa·fa + 1e-6)
+
+	// Variances, clamped at 0: X3 = (valve, airflow), X4 = (SAT, HW).
+	MOVUPD	window4_fullK+slopeConst2_invN(DI), X2
+	MULPD	X4, X4
+	MULPD	X5, X5
+	MULPD	X2, X4
+	MULPD	X2, X5
+	SUBPD	X4, X6
+	SUBPD	X5, X7
+	MULPD	X2, X6
+	MULPD	X2, X7
+	XORPS	X3, X3
+	MAXPD	X6, X3
+	XORPS	X4, X4
+	MAXPD	X7, X4
+
+	CMPPD	X0, X10, $1 // limit < travel
+	CMPPD	X3, X11, $1 // limit < variance
+	ORPD	X11, X10
+
+	// SAT: tempSlope < |slope| or tempVar < variance; HW: !(|slope| ≤ hwSlope).
+	MOVUPD	window4_lim+steadyLimits_tempSlope(DI), X12 // (tempSlope, hwSlope)
+	MOVAPD	X12, X13
+	CMPPD	X1, X13, $1 // lane 0: tempSlope < |slope SAT|
+	MOVSD	window4_lim+steadyLimits_tempVar(DI), X2
+	CMPPD	X4, X2, $1 // lane 0: tempVar < variance SAT
+	ORPD	X2, X13
+	CMPPD	X12, X1, $6 // lane 1: !(|slope HW| ≤ hwSlope)
+	SHUFPD	$2, X1, X13 // (lane 0 of X13, lane 1 of X1)
+	ORPD	X13, X10
+	MOVMSKPD	X10, AX
+	TESTL	AX, AX
+	JNE	datOnly
+	MOVB	$1, window4_datSteady(DI)
+	MOVB	$1, window4_steady(DI)
+	RET
+
+datOnly:
+	MOVB	$1, window4_datSteady(DI)
+	MOVB	$0, window4_steady(DI)
+	RET
+
+unsteady:
+	MOVB	$0, window4_datSteady(DI)
+	MOVB	$0, window4_steady(DI)
 	RET
 
 rebuild4:
@@ -238,12 +354,12 @@ done4:
 	JMP	dat
 
 rebuildD:
-	// window.rebuild (AX = head, BX = n).
+	// window.rebuild (AX = head, BX = n); leaves CX = count for check.
 	MOVQ	$0, window_pushes(SI)
 	MOVQ	window_count(SI), CX
-	XORPS	X4, X4
-	XORPS	X6, X6
-	XORPS	X8, X8
+	XORPS	X10, X10
+	XORPS	X11, X11
+	XORPS	X12, X12
 	MOVQ	AX, R9
 	SUBQ	CX, R9
 	JGE	startD
@@ -257,13 +373,13 @@ startD:
 
 loopD:
 	MOVSD	(R10)(R9*8), X0
-	ADDSD	X0, X4
+	ADDSD	X0, X10
 	MOVAPD	X0, X2
 	MULSD	X0, X2
-	ADDSD	X2, X6
-	CVTSQ2SD	R11, X10
-	MULSD	X10, X0
-	ADDSD	X0, X8
+	ADDSD	X2, X11
+	CVTSQ2SD	R11, X3
+	MULSD	X3, X0
+	ADDSD	X0, X12
 	INCQ	R9
 	CMPQ	R9, BX
 	JLT	nextD
@@ -275,126 +391,7 @@ nextD:
 	JLT	loopD
 
 doneD:
-	MOVSD	X4, window_sum(SI)
-	MOVSD	X6, window_sumSq(SI)
-	MOVSD	X8, window_sumJ(SI)
-	RET
-
-// func steadinessAsm(st *termState, en *Engine) (datSteady, steady bool)
-TEXT ·steadinessAsm(SB), NOSPLIT, $0-18
-	MOVQ	st+0(FP), DI
-	MOVQ	en+8(FP), DX
-	LEAQ	termState_dat(DI), SI
-	ADDQ	$termState_in, DI
-	MOVB	$0, datSteady+16(FP)
-	MOVB	$0, steady+17(FP)
-	MOVQ	window_count(SI), AX
-	CMPQ	AX, window_n(SI)
-	JNE	done
-
-	// DAT: |slope| ≤ tempSlope and variance ≤ tempVar, slope =
-	// (n·Σjx − Σj·Σx)·invDen, variance = max(0, (Σx² − Σx·Σx·invN)·invN).
-	PCMPEQL	X14, X14
-	PSRLQ	$1, X14 // |x| mask in both lanes
-	MOVSD	window_fullK+slopeConst_n(SI), X0
-	MULSD	window_sumJ(SI), X0
-	MOVSD	window_fullK+slopeConst_sj(SI), X1
-	MULSD	window_sum(SI), X1
-	SUBSD	X1, X0
-	MULSD	window_fullK+slopeConst_invDen(SI), X0
-	ANDPD	X14, X0
-	MOVSD	Engine_tempSlope(DX), X1
-	UCOMISD	X0, X1
-	JCS	done // tempSlope < |slope| or unordered
-	MOVSD	window_sum(SI), X2
-	MULSD	X2, X2
-	MOVSD	window_fullK+slopeConst_invN(SI), X3
-	MULSD	X3, X2
-	MOVSD	window_sumSq(SI), X1
-	SUBSD	X2, X1
-	MULSD	X3, X1
-	XORPS	X2, X2
-	MAXSD	X1, X2 // X2 = X1 < 0 ? 0 : X1 (NaN stays)
-	MOVSD	Engine_tempVar(DX), X1
-	UCOMISD	X2, X1
-	JCS	done
-	MOVB	$1, datSteady+16(FP)
-
-	// Inputs: the window full, then every limit at once (the Go form's
-	// early returns change nothing but the work done).
-	MOVQ	window4_count(DI), AX
-	CMPQ	AX, window4_n(DI)
-	JNE	done
-	MOVUPD	window4_sum(DI), X2
-	MOVUPD	window4_sum+16(DI), X3
-	MOVUPD	window4_sumJ(DI), X0
-	MOVUPD	window4_sumJ+16(DI), X1
-	MOVUPD	window4_fullK+slopeConst2_n(DI), X4
-	MULPD	X4, X0
-	MULPD	X4, X1
-	MOVUPD	window4_fullK+slopeConst2_sj(DI), X4
-	MOVAPD	X4, X5
-	MULPD	X2, X4
-	MULPD	X3, X5
-	SUBPD	X4, X0
-	SUBPD	X5, X1
-	MOVUPD	window4_fullK+slopeConst2_invDen(DI), X4
-	MULPD	X4, X0
-	MULPD	X4, X1
-	ANDPD	X14, X0
-	ANDPD	X14, X1 // X1 = (|slope SAT|, |slope HW|)
-	MOVUPD	window4_fullK+slopeConst2_n1(DI), X4
-	MULPD	X4, X0 // X0 = |slope|·(n−1) of (valve, airflow)
-
-	MOVUPD	window4_fullK+slopeConst2_invN(DI), X4
-	MULPD	X2, X2
-	MULPD	X3, X3
-	MULPD	X4, X2
-	MULPD	X4, X3
-	MOVUPD	window4_sumSq(DI), X5
-	MOVUPD	window4_sumSq+16(DI), X6
-	SUBPD	X2, X5
-	SUBPD	X3, X6
-	MULPD	X4, X5
-	MULPD	X4, X6
-	XORPS	X2, X2
-	MAXPD	X5, X2 // X2 = variance (valve, airflow), clamped at 0
-	XORPS	X3, X3
-	MAXPD	X6, X3 // X3 = variance (SAT, HW)
-
-	// fa = SteadyAirflowFrac·(Σx_air·invN); limits fa·fa + 1e-6 (variance)
-	// and 2·fa + 1e-3 (travel).
-	MOVSD	window4_sum+8(DI), X7
-	MULSD	window4_fullK+slopeConst2_invN(DI), X7
-	MULSD	Engine_cfg+Config_SteadyAirflowFrac(DX), X7
-	MOVAPD	X7, X8
-	MULSD	X7, X8
-	ADDSD	$(1e-6), X8
-	MULSD	$(2.0), X7
-	ADDSD	$(1e-3), X7
-	MOVSD	Engine_cfg+Config_SteadyValveSpan(DX), X9
-	UNPCKLPD	X7, X9 // (SteadyValveSpan, 2·fa + 1e-3)
-	MOVSD	Engine_valveVar(DX), X10
-	UNPCKLPD	X8, X10 // (valveVar, fa·fa + 1e-6)
-	CMPPD	X0, X9, $1 // limit < travel
-	CMPPD	X2, X10, $1 // limit < variance
-	ORPD	X10, X9
-
-	// SAT: tempSlope < |slope| or tempVar < variance; HW: !(|slope| ≤ hwSlope).
-	MOVSD	Engine_tempSlope(DX), X11
-	MOVHPD	Engine_hwSlope(DX), X11
-	MOVAPD	X11, X12
-	CMPPD	X1, X12, $1 // lane 0: tempSlope < |slope SAT|
-	MOVSD	Engine_tempVar(DX), X13
-	CMPPD	X3, X13, $1 // lane 0: tempVar < variance SAT
-	ORPD	X13, X12
-	CMPPD	X11, X1, $6 // lane 1: !(|slope HW| ≤ hwSlope)
-	SHUFPD	$2, X1, X12 // (lane 0 of X12, lane 1 of X1)
-	ORPD	X12, X9
-	MOVMSKPD	X9, AX
-	TESTL	AX, AX
-	JNE	done
-	MOVB	$1, steady+17(FP)
-
-done:
-	RET
+	MOVSD	X10, window_sum(SI)
+	MOVSD	X11, window_sumSq(SI)
+	MOVSD	X12, window_sumJ(SI)
+	JMP	check

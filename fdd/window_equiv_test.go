@@ -5,6 +5,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+	"unsafe"
 )
 
 // The window forms: the Go form (pushWindowsGo, steadinessGo), the form the
@@ -131,12 +132,12 @@ type windowForms struct {
 	datSteady, steady, unsteady int
 }
 
-func newWindowForms(nIn, nDAT int) *windowForms {
+func newWindowForms(nIn, nDAT int, en *Engine) *windowForms {
 	f := &windowForms{ref: newRefWindow4(nIn), a: new(termState)}
 	f.refD.init(nDAT)
-	f.g.init(nIn)
+	f.g.initRing(make([][nCh]float64, nIn), en.steadyLimits())
 	f.gD.init(nDAT)
-	f.a.in.init(nIn)
+	f.a.in.initRing(make([][nCh]float64, nIn), en.steadyLimits())
 	f.a.dat.init(nDAT)
 	return f
 }
@@ -198,11 +199,11 @@ func (f *windowForms) push(t testing.TB, in *inputs, en *Engine) {
 		}
 	}
 	rd, rs := refSteadiness(f.ref, &f.refD, en)
-	gd, gs := steadinessGo(&f.g, &f.gD, en)
-	ad, as := steadinessAsm(f.a, en)
+	gd, gs := f.g.datSteady, f.g.steady
+	ad, as := en.steadiness(f.a)
 	if gd != rd || gs != rs || ad != rd || as != rs {
 		t.Fatalf("push %d: steadiness (DAT, all) go form %v %v, engine form %v %v, per-channel form %v %v (limits %+v)",
-			f.steps, gd, gs, ad, as, rd, rs, steadyLimits(en))
+			f.steps, gd, gs, ad, as, rd, rs, limitsOf(en))
 	}
 	switch {
 	case rs:
@@ -214,7 +215,7 @@ func (f *windowForms) push(t testing.TB, in *inputs, en *Engine) {
 	}
 }
 
-func steadyLimits(en *Engine) [6]float64 {
+func limitsOf(en *Engine) [6]float64 {
 	return [6]float64{en.tempSlope, en.tempVar, en.valveVar, en.hwSlope, en.cfg.SteadyValveSpan, en.cfg.SteadyAirflowFrac}
 }
 
@@ -244,7 +245,7 @@ func TestWindowForms(t *testing.T) {
 	var total windowForms
 	for nIn := 2; nIn <= maxWindow; nIn++ {
 		for _, nDAT := range []int{2, max(nIn/2, 2), nIn, 1 + rng.IntN(maxWindow)} {
-			f := newWindowForms(nIn, nDAT)
+			f := newWindowForms(nIn, nDAT, en)
 			var in inputs
 			level := [5]float64{0.4, 0.3, 13, 70, 25} // u, v, sat, hw, dat
 			noise := 0.0
@@ -294,7 +295,7 @@ func TestWindowFormsLimits(t *testing.T) {
 			}
 		}
 		n := 4 + trial%29
-		f := newWindowForms(n, max(n/2, 2))
+		f := newWindowForms(n, max(n/2, 2), &en)
 		var in inputs
 		for i := range 3 * n {
 			// Constant, then a ramp of exactly the slope limit, then one
@@ -338,7 +339,7 @@ func FuzzWindowForms(f *testing.F) {
 		table := []float64{0, 1, -1, 0.5, 13, 70, 1e-3, 2.5e-3, 1e150, -1e155, 1e-300, 5e-324,
 			math.Copysign(0, -1), 0.1, 0.2, 0.3, 1, 1, 1, 1, 42, 42, 42, 42, 7e7, -7e7, 3, 4, 12.999, 13.001, 0.04, 0.05}
 		scale := math.Ldexp(1, int(data[3]%64)-32)
-		fm := newWindowForms(nIn, nDAT)
+		fm := newWindowForms(nIn, nDAT, en)
 		var in inputs
 		for i := 4; i < len(data); i++ {
 			b := data[i]
@@ -363,7 +364,33 @@ func FuzzWindowForms(f *testing.F) {
 	})
 }
 
-// TestWindowAsmPresent documents which form the engine runs here.
+// TestWindowAsmPresent documents which form the engine runs here, and
+// checks the layout the assembly relies on: steadyLimits.hwSlope right
+// after tempSlope (one packed load).
 func TestWindowAsmPresent(t *testing.T) {
 	t.Logf("assembly windows: %v", haveWindowAsm)
+	var l steadyLimits
+	if d := unsafe.Offsetof(l.hwSlope) - unsafe.Offsetof(l.tempSlope); d != 8 {
+		t.Errorf("steadyLimits.hwSlope is %d bytes after tempSlope, want 8", d)
+	}
+}
+
+// TestSteadinessAfterReset: a reset clears the steady checks, as the
+// first push after it would find them.
+func TestSteadinessAfterReset(t *testing.T) {
+	en := testLimits(t)
+	st := new(termState)
+	st.in.initRing(make([][nCh]float64, 8), en.steadyLimits())
+	st.dat.init(4)
+	in := inputs{u: 0.5, v: 0.3, sat: 13, hw: 70, dat: 25}
+	for range 8 {
+		st.pushWindows(&in)
+	}
+	if d, s := en.steadiness(st); !d || !s {
+		t.Fatalf("constant inputs over a full window: steadiness %v %v, want true true", d, s)
+	}
+	st.resetWindows()
+	if d, s := en.steadiness(st); d || s {
+		t.Errorf("after a reset: steadiness %v %v, want false false", d, s)
+	}
 }
