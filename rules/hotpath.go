@@ -15,29 +15,44 @@ import (
 // path: per record a gate mask, the operating-time sum and, when a rule
 // could be affected at all, the prefilter; rules are looked at one by one
 // only when the prefilter lets them through or their tracker is busy.
+//
+// The record's time in Unix nanoseconds and the heating-season bit are
+// computed once per run of records stamped with the same time.Time (an
+// assembler stamps every record of a step with one time): two time.Time
+// values that are == have the same wall and ext words, and UnixNano and
+// hence the season answer are functions of those alone. Records that
+// differ (another instant, or the same instant with another location or
+// monotonic reading) are simply computed afresh. stepTerminalsWide, the
+// plain per-record path, is what the tests compare this with.
 func (e *Evaluator) stepTerminals(ev []fdd.Evidence, out []Transition) []Transition {
 	if e.nW != 1 || e.noPrefilter {
 		return e.stepTerminalsWide(ev, out)
+	}
+	if len(ev) == 0 {
+		return out
 	}
 	// One prefilter word (up to rulesPerWord terminal rules): no word loop.
 	nT := e.nT
 	busy, en, ops := e.busy[:nT], e.en[:nT], e.ops[:nT]
 	gateOK := e.gateOK[:gateMaskMax+1]
 	w0 := &e.pf.words[0]
+	gap := opGap(e.maxGapNs)
+	stamp := ev[0].At
+	at := stamp.UnixNano()
+	season := e.seasonMask(at)
 	for i := range ev {
 		x := &ev[i]
 		t := x.Terminal
 		if uint(t) >= uint(nT) {
 			continue
 		}
-		at := x.At.UnixNano()
-		mask := flagMask(x) // gateMaskOf, by hand: the compiler does not inline it
-		if at >= e.seasonLo && at < e.seasonHi {
-			mask |= e.seasonBit
-		} else if e.seasonDay(at) {
-			mask |= gSeason
+		if x.At != stamp {
+			stamp = x.At
+			at = stamp.UnixNano()
+			season = e.seasonMask(at)
 		}
-		e.addOperating(&ops[t], at, mask)
+		mask := flagMask(x) | season // gateMaskOf, by hand: the compiler does not inline it
+		addOp(&ops[t], at, gap, mask)
 		set := busy[t]
 		if m := gateOK[mask&gateMaskMax] & en[t]; m&^set != 0 {
 			set |= m & w0.pass(unsafe.Pointer(x))
@@ -47,6 +62,35 @@ func (e *Evaluator) stepTerminals(ev []fdd.Evidence, out []Transition) []Transit
 		}
 	}
 	return out
+}
+
+// seasonMask is gSeason when ns lies in the heating season, else 0.
+func (e *Evaluator) seasonMask(ns int64) gateMask {
+	if e.heatingSeason(ns) {
+		return gSeason
+	}
+	return 0
+}
+
+// opGap is the maximum gap g as an unsigned bound for addOp: a gap dt
+// counts when 0 < dt ≤ g, that is when uint64(dt−1) < uint64(g) for g ≥ 0
+// (dt−1 wraps to a huge value for dt ≤ 0, and dt = MinInt64 wraps to
+// MaxInt64, which is not below any uint64(g) ≤ MaxInt64); no gap counts
+// for g ≤ 0, hence 0.
+func opGap(g int64) uint64 { return uint64(max(g, 0)) }
+
+// addOp is addOperating for the hot path with the gap bound from opGap:
+// the same sums, one range compare for dt, and lastAt moved on with max
+// (lastAt = at exactly when at > lastAt).
+func addOp(o *operating, at int64, gap uint64, mask gateMask) {
+	last := o.lastAt
+	if dt := at - last; last != 0 && uint64(dt-1) < gap {
+		o.totalNs += dt
+		if mask&(gFan|gPlant) == gFan|gPlant {
+			o.opNs += dt
+		}
+	}
+	o.lastAt = max(at, last)
 }
 
 // stepTerminalsWide is stepTerminals for more than one prefilter word (or

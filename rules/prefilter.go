@@ -194,6 +194,16 @@ type pfWord struct {
 	// smallest t. See pass.
 	scoreGE      []pfLit
 	scoreMinBits uint64
+	// lits are the literals as built, one per clause literal in rule and
+	// clause order, for plainPass.
+	lits []pfPlain
+}
+
+// pfPlain is a literal as built: a ≥ t or, with le, a ≤ t; with dif the
+// quantity is a − b.
+type pfPlain struct {
+	pfLit
+	le, dif bool
 }
 
 // scoresOff and scoresEnd bound Evidence.Scores in the record (the
@@ -265,6 +275,7 @@ func buildPrefilter(rules []*compiled, s *schema) prefilter {
 			}
 			for _, l := range cls[j] {
 				pl := pfLit{off: uint32(l.off), offB: uint32(l.offB), t: l.t, bit: bit}
+				pw.lits = append(pw.lits, pfPlain{pl, l.s < 0, l.hasB})
 				switch {
 				case l.hasB && l.s > 0:
 					pw.geD = append(pw.geD, pl)
@@ -289,14 +300,19 @@ func buildPrefilter(rules []*compiled, s *schema) prefilter {
 			pw.ge = append(pw.ge[:a:a], pw.ge[b:]...)
 			pw.scoreMinBits = bits
 		}
+		pw.ge, pw.le = padLits(pw.ge, unrollMax), padLits(pw.le, unrollMax)
 	}
 	return pf
 }
 
 // pass returns the bits (2k) of the rules of word w whose clauses all hold
-// at the evidence struct p. The loops branch on each literal; on a healthy
-// terminal every literal fails and the branches are predicted (measured
-// faster than branch-free selects and than unrolled loops).
+// at the evidence struct p. Each literal is one branch; on a healthy
+// terminal every literal fails and the branches are predicted. The first
+// unrollMax literals a ≥ t and a ≤ t are evaluated by a switch on their
+// count that falls through one unrolled literal per case: no loop counter,
+// no bounds checks, no call, the literal's fields read straight from the
+// fixed-size array padLits makes room for (about half the instructions of
+// a loop per literal).
 //
 // The literals on signature scores are skipped together when the bitwise OR
 // of all scores' IEEE 754 bit patterns is below the pattern of their
@@ -305,44 +321,169 @@ func buildPrefilter(rules []*compiled, s *schema) prefilter {
 // like their patterns, is below every threshold of the run. On a healthy
 // terminal every score is near 0.
 func (w *pfWord) pass(p unsafe.Pointer) uint64 {
-	m := w.preset | passGE(w.ge, p)
+	m := w.preset
+	ge, le := w.ge, w.le
+	if len(ge) > unrollMax {
+		m |= passGE(ge[unrollMax:], p)
+		ge = ge[:unrollMax]
+	}
+	if len(le) > unrollMax {
+		m |= passLE(le[unrollMax:], p)
+		le = le[:unrollMax]
+	}
+	switch a := (*[unrollMax]pfLit)(ge[:unrollMax]); len(ge) {
+	case 8:
+		if f64(p, a[7].off) >= a[7].t {
+			m |= a[7].bit
+		}
+		fallthrough
+	case 7:
+		if f64(p, a[6].off) >= a[6].t {
+			m |= a[6].bit
+		}
+		fallthrough
+	case 6:
+		if f64(p, a[5].off) >= a[5].t {
+			m |= a[5].bit
+		}
+		fallthrough
+	case 5:
+		if f64(p, a[4].off) >= a[4].t {
+			m |= a[4].bit
+		}
+		fallthrough
+	case 4:
+		if f64(p, a[3].off) >= a[3].t {
+			m |= a[3].bit
+		}
+		fallthrough
+	case 3:
+		if f64(p, a[2].off) >= a[2].t {
+			m |= a[2].bit
+		}
+		fallthrough
+	case 2:
+		if f64(p, a[1].off) >= a[1].t {
+			m |= a[1].bit
+		}
+		fallthrough
+	case 1:
+		if f64(p, a[0].off) >= a[0].t {
+			m |= a[0].bit
+		}
+	}
+	switch a := (*[unrollMax]pfLit)(le[:unrollMax]); len(le) {
+	case 8:
+		if f64(p, a[7].off) <= a[7].t {
+			m |= a[7].bit
+		}
+		fallthrough
+	case 7:
+		if f64(p, a[6].off) <= a[6].t {
+			m |= a[6].bit
+		}
+		fallthrough
+	case 6:
+		if f64(p, a[5].off) <= a[5].t {
+			m |= a[5].bit
+		}
+		fallthrough
+	case 5:
+		if f64(p, a[4].off) <= a[4].t {
+			m |= a[4].bit
+		}
+		fallthrough
+	case 4:
+		if f64(p, a[3].off) <= a[3].t {
+			m |= a[3].bit
+		}
+		fallthrough
+	case 3:
+		if f64(p, a[2].off) <= a[2].t {
+			m |= a[2].bit
+		}
+		fallthrough
+	case 2:
+		if f64(p, a[1].off) <= a[1].t {
+			m |= a[1].bit
+		}
+		fallthrough
+	case 1:
+		if f64(p, a[0].off) <= a[0].t {
+			m |= a[0].bit
+		}
+	}
 	if len(w.scoreGE) != 0 {
 		sc := (*[nScores]uint64)(unsafe.Add(p, scoresOff)) // the scores' bit patterns
 		if sc[0]|sc[1]|sc[2]|sc[3]|sc[4]|sc[5]|sc[6]|sc[7]|sc[8]|sc[9]|sc[10]|sc[11] >= w.scoreMinBits {
 			m |= passGE(w.scoreGE, p)
 		}
 	}
-	for i := range w.le {
-		l := &w.le[i]
-		if *(*float64)(unsafe.Add(p, l.off)) <= l.t {
-			m |= l.bit
-		}
-	}
-	// The literals on differences of two fields (written here: a call
-	// would cost more than the usual two literals).
+	// The literals on differences of two fields (few: a loop; unrolled
+	// like the others they measured slower).
 	for i := range w.geD {
 		l := &w.geD[i]
-		if *(*float64)(unsafe.Add(p, l.off))-*(*float64)(unsafe.Add(p, l.offB)) >= l.t {
+		if f64(p, l.off)-f64(p, l.offB) >= l.t {
 			m |= l.bit
 		}
 	}
 	for i := range w.leD {
 		l := &w.leD[i]
-		if *(*float64)(unsafe.Add(p, l.off))-*(*float64)(unsafe.Add(p, l.offB)) <= l.t {
+		if f64(p, l.off)-f64(p, l.offB) <= l.t {
 			m |= l.bit
 		}
 	}
 	return m & (m >> 1) & evenBits
 }
 
-// passGE evaluates literals a ≥ t.
+// unrollMax is how many literals of one kind the unrolled switches take;
+// padLits gives the literal slices at least this capacity.
+const unrollMax = 8
+
+// padLits copies ls into a slice of capacity at least n (the unrolled
+// evaluation views it as an array of that size).
+func padLits(ls []pfLit, n int) []pfLit {
+	return append(make([]pfLit, 0, max(n, len(ls))), ls...)
+}
+
+// f64 reads the float64 at byte offset off of p.
+func f64(p unsafe.Pointer, off uint32) float64 { return *(*float64)(unsafe.Add(p, off)) }
+
+// passGE evaluates literals a ≥ t (the signature scores, and literals of
+// a kind beyond the unrolled ones).
 func passGE(ls []pfLit, p unsafe.Pointer) uint64 {
 	var m uint64
 	for i := range ls {
-		l := &ls[i]
-		if *(*float64)(unsafe.Add(p, l.off)) >= l.t {
+		if l := &ls[i]; f64(p, l.off) >= l.t {
 			m |= l.bit
 		}
 	}
 	return m
+}
+
+// passLE evaluates literals a ≤ t (as passGE).
+func passLE(ls []pfLit, p unsafe.Pointer) uint64 {
+	var m uint64
+	for i := range ls {
+		if l := &ls[i]; f64(p, l.off) <= l.t {
+			m |= l.bit
+		}
+	}
+	return m
+}
+
+// plainPass is pass the plain way, for the tests: every literal of every
+// clause evaluated on its own, as built.
+func (w *pfWord) plainPass(p unsafe.Pointer) uint64 {
+	m := w.preset
+	for _, l := range w.lits {
+		x := f64(p, l.off)
+		if l.dif {
+			x -= f64(p, l.offB)
+		}
+		if (l.le && x <= l.t) || (!l.le && x >= l.t) {
+			m |= l.bit
+		}
+	}
+	return m & (m >> 1) & evenBits
 }

@@ -275,6 +275,23 @@ func prefilterMiss(e *Evaluator, ev *fdd.Evidence) (string, bool) {
 // at every step: transitions and the exported state must be identical. The
 // second rule set has more rules than one prefilter word holds.
 func TestPrefilterSameLifecycle(t *testing.T) {
+	for _, c := range []struct {
+		name, yaml string
+		words      int
+	}{{"one-word", extraRules, 1}, {"two-words", manyRulesYAML(), 2}} {
+		t.Run(c.name, func(t *testing.T) {
+			rs, err := Build(mustParse(t, c.yaml))
+			if err != nil {
+				t.Fatal(err)
+			}
+			samePrefilterLifecycle(t, rs, c.words)
+		})
+	}
+}
+
+// manyRulesYAML is extraRules and 30 generated rules: more rules than one
+// prefilter word holds.
+func manyRulesYAML() string {
 	var many strings.Builder
 	many.WriteString(extraRules)
 	kinds := []string{"hunting", "dat-failed", "low-discharge", "leaking-valve", "fouled-coil"}
@@ -293,18 +310,7 @@ func TestPrefilterSameLifecycle(t *testing.T) {
     clear_for: %dm
 `, i, kinds[i%len(kinds)], 1+i%5, kinds[(i+1)%len(kinds)], 0.1*float64(i%8), 0.1*float64(i%10), i%4, 5*(i%6), 5*(i%3))
 	}
-	for _, c := range []struct {
-		name, yaml string
-		words      int
-	}{{"one-word", extraRules, 1}, {"two-words", many.String(), 2}} {
-		t.Run(c.name, func(t *testing.T) {
-			rs, err := Build(mustParse(t, c.yaml))
-			if err != nil {
-				t.Fatal(err)
-			}
-			samePrefilterLifecycle(t, rs, c.words)
-		})
-	}
+	return many.String()
 }
 
 func samePrefilterLifecycle(t *testing.T, rs *Ruleset, words int) {
