@@ -39,7 +39,8 @@ type Evaluator struct {
 	nW          int
 	en, busy    []uint64
 	gateOK      []uint64
-	noPrefilter bool // tests: look at every rule, as without the prefilter
+	noPrefilter bool         // tests: look at every rule, as without the prefilter
+	out         []Transition // stepTerminals' transitions while it runs (nil between steps)
 
 	termIdx map[string]int
 	loopIdx map[string]int

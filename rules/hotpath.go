@@ -3,6 +3,7 @@ package rules
 import (
 	"encoding/binary"
 	"math/bits"
+	"time"
 	"unsafe"
 
 	"risewatch/fdd"
@@ -17,13 +18,10 @@ import (
 // only when the prefilter lets them through or their tracker is busy.
 //
 // The record's time in Unix nanoseconds and the heating-season bit are
-// computed once per run of records stamped with the same time.Time (an
-// assembler stamps every record of a step with one time): two time.Time
-// values that are == have the same wall and ext words, and UnixNano and
-// hence the season answer are functions of those alone. Records that
-// differ (another instant, or the same instant with another location or
-// monotonic reading) are simply computed afresh. stepTerminalsWide, the
-// plain per-record path, is what the tests compare this with.
+// computed once per run of records stamped with the same instant (an
+// assembler stamps every record of a step with one time; see stampOf).
+// stepTerminalsWide, the plain per-record path, is what the tests compare
+// this with.
 func (e *Evaluator) stepTerminals(ev []fdd.Evidence, out []Transition) []Transition {
 	if e.nW != 1 || e.noPrefilter {
 		return e.stepTerminalsWide(ev, out)
@@ -32,13 +30,16 @@ func (e *Evaluator) stepTerminals(ev []fdd.Evidence, out []Transition) []Transit
 		return out
 	}
 	// One prefilter word (up to rulesPerWord terminal rules): no word loop.
+	// The loop keeps few values live across its one call (stepRecord
+	// appends to e.out): the fewer there are, the fewer the compiler
+	// spills and reloads per record.
+	e.out = out
 	nT := e.nT
 	busy, en, ops := e.busy[:nT], e.en[:nT], e.ops[:nT]
 	gateOK := e.gateOK[:gateMaskMax+1]
-	w0 := &e.pf.words[0]
 	gap := opGap(e.maxGapNs)
-	stamp := ev[0].At
-	at := stamp.UnixNano()
+	wall, ext := stampOf(&ev[0].At)
+	at := ev[0].At.UnixNano()
 	season := e.seasonMask(at)
 	for i := range ev {
 		x := &ev[i]
@@ -46,23 +47,57 @@ func (e *Evaluator) stepTerminals(ev []fdd.Evidence, out []Transition) []Transit
 		if uint(t) >= uint(nT) {
 			continue
 		}
-		if x.At != stamp {
-			stamp = x.At
-			at = stamp.UnixNano()
+		if w, xt := stampOf(&x.At); w != wall || xt != ext {
+			wall, ext = w, xt
+			at = x.At.UnixNano()
 			season = e.seasonMask(at)
 		}
 		mask := flagMask(x) | season // gateMaskOf, by hand: the compiler does not inline it
 		addOp(&ops[t], at, gap, mask)
-		set := busy[t]
-		if m := gateOK[mask&gateMaskMax] & en[t]; m&^set != 0 {
-			set |= m & w0.pass(unsafe.Pointer(x))
-		}
-		if set != 0 {
-			out = e.stepRules(t, 0, set, x, unsafe.Pointer(x), at, mask, out)
+		if m, set := gateOK[mask&gateMaskMax]&en[t], busy[t]; m|set != 0 {
+			e.stepRecord(x, m, set, at, mask)
 		}
 	}
+	out, e.out = e.out, nil
 	return out
 }
+
+// stepRecord is the rest of stepTerminals for record x when some rule may
+// see it (m: the rules the gates let through, set: the busy ones): the
+// prefilter, then the rules, appending to e.out.
+func (e *Evaluator) stepRecord(x *fdd.Evidence, m, set uint64, at int64, mask gateMask) {
+	if m&^set != 0 {
+		set |= m & e.pf.words[0].pass(unsafe.Pointer(x))
+	}
+	if set != 0 {
+		e.out = e.stepRules(x.Terminal, 0, set, x, unsafe.Pointer(x), at, mask, e.out)
+	}
+}
+
+// stampOf returns the two words of a time.Time that name its instant (wall
+// and ext; the third is the location). Two times with both equal have the
+// same UnixNano, which is computed from these two alone (time.go: sec from
+// wall's monotonic flag and seconds or from ext, nsec from wall's low
+// bits), so the hot path compares them instead of converting every
+// record's time. Times of one instant with other words (a monotonic
+// reading, say) are merely converted afresh.
+func stampOf(t *time.Time) (uint64, int64) {
+	w := (*timeWords)(unsafe.Pointer(t))
+	return w.wall, w.ext
+}
+
+// timeWords is time.Time's layout (Go 1 to date): wall, ext, loc; the
+// assertions below fail to compile if its size changes.
+type timeWords struct {
+	wall uint64
+	ext  int64
+	loc  unsafe.Pointer
+}
+
+var (
+	_ [unsafe.Sizeof(time.Time{}) - unsafe.Sizeof(timeWords{})]struct{}
+	_ [unsafe.Sizeof(timeWords{}) - unsafe.Sizeof(time.Time{})]struct{}
+)
 
 // seasonMask is gSeason when ns lies in the heating season, else 0.
 func (e *Evaluator) seasonMask(ns int64) gateMask {
