@@ -13,8 +13,8 @@ import (
 )
 
 // litRules have literals of every kind in first and second clauses: a ≥ t,
-// a ≤ t, a − b ≤ t and a − b < t on one pair of fields, several thresholds
-// on one field.
+// a ≤ t, a − b ≤ t and a − b < t on one pair of fields, a − b ≥ t on two
+// pairs, several thresholds on one field.
 const litRules = `
 rules:
   - id: x-lits-a
@@ -44,6 +44,14 @@ rules:
         - {field: residual_k, op: "<=", value: -3 K}
         - {field: valve, op: ">=", value: 0.5}
     for: 0m
+  - id: x-lits-d
+    kind: fouled-coil
+    severity: 4
+    when:
+      all:
+        - {field: rise_k, minus: expected_rise_k, op: ">=", value: 1 K}
+        - {field: closed_min, op: ">=", value: 5}
+    for: 5m
 `
 
 // TestPrefilterPassExact: the unrolled evaluation of the prefilter (and
