@@ -107,15 +107,7 @@ func TestScoreCacheSameAsFull(t *testing.T) {
 		samples := make([]collector.Sample, len(s.Terminals))
 		var out []Evidence
 		err = sm.Run(context.Background(), func(step *sim.Step) error {
-			for i := range step.Terminals {
-				ts := &step.Terminals[i]
-				tm := &s.Terminals[i]
-				a := step.AHUs[s.AHUIndex[tm.AHU]]
-				l := step.Loops[s.LoopIndex[tm.Loop]]
-				samples[i] = collector.Sample{Terminal: i, At: step.At, AirflowM3s: ts.AirflowM3s, AirflowSetM3s: ts.AirflowSetM3s,
-					DischargeC: ts.DischargeC, SupplyC: a.SupplyC, ValveFrac: ts.ValveCmd, HotWaterC: l.SupplyC,
-					ZoneC: ts.ZoneC, ZoneSetC: ts.ZoneSetC, PlantOn: l.PlantOn, FanOn: a.FanOn, Occupied: a.Occupied}
-			}
+			simSamples(s, step, samples)
 			out = en.StepTerminals(samples, out[:0])
 			chk.check(out)
 			return nil

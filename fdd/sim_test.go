@@ -12,6 +12,7 @@ import (
 
 	"risewatch/collector"
 	"risewatch/sim"
+	"risewatch/site"
 )
 
 // campusDays is the demo-campus length of the acceptance run: the last
@@ -59,15 +60,7 @@ func runCampus(t *testing.T, sc *sim.Scenario) (*campusRun, error) {
 	samples := make([]collector.Sample, n)
 	var out []Evidence
 	err = sm.Run(context.Background(), func(st *sim.Step) error {
-		for i := range st.Terminals {
-			ts := &st.Terminals[i]
-			tm := &s.Terminals[i]
-			a := st.AHUs[s.AHUIndex[tm.AHU]]
-			l := st.Loops[s.LoopIndex[tm.Loop]]
-			samples[i] = collector.Sample{Terminal: i, At: st.At, AirflowM3s: ts.AirflowM3s, AirflowSetM3s: ts.AirflowSetM3s,
-				DischargeC: ts.DischargeC, SupplyC: a.SupplyC, ValveFrac: ts.ValveCmd, HotWaterC: l.SupplyC,
-				ZoneC: ts.ZoneC, ZoneSetC: ts.ZoneSetC, PlantOn: l.PlantOn, FanOn: a.FanOn, Occupied: a.Occupied}
-		}
+		simSamples(s, st, samples)
 		t0 := time.Now()
 		out = en.Step(samples, out[:0])
 		r.elapsed += time.Since(t0)
@@ -237,5 +230,19 @@ func TestDemoCampusAcceptance(t *testing.T) {
 		if b.Rejected != "" || b.Source != "learned" {
 			t.Logf("baseline %s: %s UA %.2f flow %.2f %s", faulted.ids[i], b.Source, b.UAFactor, b.FlowFactor, b.Rejected)
 		}
+	}
+}
+
+// simSamples fills samples (one per terminal of s) from a simulator step:
+// each terminal's own points with its AHU's and loop's.
+func simSamples(s *site.Site, st *sim.Step, samples []collector.Sample) {
+	for i := range st.Terminals {
+		ts := &st.Terminals[i]
+		tm := &s.Terminals[i]
+		a := st.AHUs[s.AHUIndex[tm.AHU]]
+		l := st.Loops[s.LoopIndex[tm.Loop]]
+		samples[i] = collector.Sample{Terminal: i, At: st.At, AirflowM3s: ts.AirflowM3s, AirflowSetM3s: ts.AirflowSetM3s,
+			DischargeC: ts.DischargeC, SupplyC: a.SupplyC, ValveFrac: ts.ValveCmd, HotWaterC: l.SupplyC,
+			ZoneC: ts.ZoneC, ZoneSetC: ts.ZoneSetC, PlantOn: l.PlantOn, FanOn: a.FanOn, Occupied: a.Occupied}
 	}
 }
