@@ -74,7 +74,8 @@ type rowMeta struct {
 	endLine int64 // line after the record, relative
 	ns      int64 // the worker's instant for the row's time
 	t0, t1  int   // the time cell in chunk.tcells
-	r0      int   // first reading in chunk.readings
+	seg     int   // the row's readings are in chunk.segs[seg] …
+	r0      int   // … from r0 (to the next row's r0 in the same segment, or the segment's end)
 	nset    int   // cells set (row mode)
 }
 
@@ -91,6 +92,16 @@ type event struct {
 // of them. Slots are reused; their buffers keep their capacity. The merge
 // writes the input fields before it publishes the slot as chunkQueued;
 // the output fields belong to whoever moved the state from chunkQueued.
+//
+// A worker's readings go into segments of the sequential reader's batch
+// size (batchReading plus one row: segCap), a new one begun at the first
+// row that finds the current one at batchReading, so a batch the merge
+// sends is (a part of) one segment. When the consumer owns what it is
+// sent (Run), the merge hands each segment over whole and clears its
+// entry; the worker then takes the next from the batches the consumer
+// handed back (batchPool), which are all of that size: a steady read
+// allocates none. When batches are reused after emit (ReadStream), the
+// slot keeps its segments (segs[len:cap] too) from one chunk to the next.
 type chunk struct {
 	buf   []byte
 	data  []byte // whole records (the last chunk: the rest of the stream)
@@ -101,8 +112,7 @@ type chunk struct {
 	rows     []rowMeta
 	events   []event
 	tcells   []byte
-	readings []collector.Reading
-	lastN    int // readings of this slot's previous chunk (capacity hint)
+	segs     [][]collector.Reading // the readings; an entry is nil once handed to the consumer
 	vals     []float64
 	qual     []collector.Quality
 	set      []bool
@@ -206,9 +216,6 @@ func (p *parser) readRowsParallel(ctx context.Context, sc *scanner, emit emitFun
 func (p *parser) getSlot() (*chunk, bool) {
 	if p.slots != nil {
 		if c, ok := p.slots.Get().(*chunk); ok {
-			if !p.reuse {
-				c.readings = nil
-			}
 			return c, true
 		}
 	}
@@ -345,11 +352,12 @@ func (p *parser) merge(ctx context.Context, sc *scanner, pl *pipe, rd *chunkRead
 			consumed, lines, open, err = p.seqChunk(c, sc, emit)
 			mine = true
 		case chunkParsed:
+			if p.pool != nil && !p.reuse {
+				// Room in the pool for what the slots may hold at once.
+				p.pool.reserve(batchPoolSize + cap(pl.free)*len(c.segs))
+			}
 			err = p.mergeChunk(c, sc.offset, sc.line, emit)
 			consumed, lines, open = c.consumed, c.lines, c.open
-			if !p.reuse {
-				c.readings = nil // the consumer owns them
-			}
 			mine = true
 		case chunkParsing:
 			if a := firstQueued(rd.queued[1:]); a != nil {
@@ -568,20 +576,8 @@ func recordsEnd(b []byte, quote byte) int {
 func (p *parser) parseChunk(c *chunk, final bool) {
 	c.rows, c.events, c.tcells = c.rows[:0], c.events[:0], c.tcells[:0]
 	c.vals, c.qual, c.set = c.vals[:0], c.qual[:0], c.set[:0]
-	switch {
-	case p.rowFn != nil:
-		p.batch = nil // row mode has no readings
-	case p.reuse:
-		p.batch = c.readings[:0]
-	default:
-		n := c.lastN + c.lastN/8 + len(p.cols)
-		if p.pool != nil {
-			p.batch = p.pool.get(n)
-		}
-		if p.batch == nil {
-			p.batch = make([]collector.Reading, 0, n)
-		}
-	}
+	c.segs = c.segs[:0]
+	p.batch = nil // rowTime begins the first segment
 	if p.rowFn != nil {
 		p.ensureRow()
 	}
@@ -606,13 +602,44 @@ func (p *parser) parseChunk(c *chunk, final bool) {
 		}
 	}
 	p.out = nil
-	c.readings, c.lastN = p.batch, len(p.batch)
-	p.batch = nil
+	if p.batch != nil {
+		c.segs = append(c.segs, p.batch)
+		p.batch = nil
+	}
 	c.consumed, c.lines, c.open = sc.consumed(), sc.line, sc.open
 }
 
+// segCap is the capacity of a worker's segment of readings: the
+// sequential reader's batch (ensureBatch), so that the batches of either
+// path fit the other's requests to the pool.
+func (p *parser) segCap() int { return max(p.f.batchReading+len(p.cols), len(p.cols)) }
+
+// nextSeg ends the worker's current segment (p.batch) and begins the next
+// of c: the slot's own from an earlier chunk, a handed-back batch, or a
+// new one.
+func (p *parser) nextSeg(c *chunk) {
+	if p.batch != nil {
+		c.segs = append(c.segs, p.batch)
+		p.batch = nil
+	}
+	n := p.segCap()
+	if k := len(c.segs); k < cap(c.segs) {
+		if s := c.segs[:k+1][k]; cap(s) >= n {
+			p.batch = s[:0]
+		}
+	}
+	if p.batch == nil && !p.reuse && p.pool != nil {
+		p.batch = p.pool.get(n)
+	}
+	if p.batch == nil {
+		p.batch = make([]collector.Reading, 0, n)
+	}
+}
+
 // mergeChunk delivers one chunk; base and line are the stream offset and
-// line number of its start.
+// line number of its start. A batch is the rows of one segment since the
+// last batch sent from it, up to the segment's end or the first row the
+// merge rejects; the chunk's last batch carries its end.
 func (p *parser) mergeChunk(c *chunk, base, line int64, emit emitFunc) error {
 	ev := c.events
 	e := 0
@@ -621,16 +648,25 @@ func (p *parser) mergeChunk(c *chunk, base, line int64, emit emitFunc) error {
 	if rowMode {
 		p.ensureRow()
 	}
-	bs := 0                     // start of the pending batch in c.readings
+	give := !p.reuse            // the consumer owns what it is sent
+	si := -1                    // the segment of the pending batch …
+	var seg []collector.Reading // … (c.segs[si], kept here once its entry is cleared)
+	bs := 0                     // start of the pending batch in seg
 	var lastEnd, lastLine int64 // end of the last row delivered, relative
 	send := func(b []collector.Reading, off, ln int64) error {
+		if give && si >= 0 && len(b) > 0 {
+			c.segs[si] = nil // handed over: the slot never writes it again
+		}
 		p.st.Readings += int64(len(b))
 		return emit(b, base+off, line+ln)
 	}
 	for i := range c.rows {
 		rm := &c.rows[i]
-		r1 := len(c.readings)
-		if i+1 < len(c.rows) {
+		if !rowMode && rm.seg != si {
+			si, seg, bs = rm.seg, c.segs[rm.seg], 0
+		}
+		r1 := len(seg)
+		if i+1 < len(c.rows) && c.rows[i+1].seg == rm.seg {
 			r1 = c.rows[i+1].r0
 		}
 		for ; e < len(ev) && ev[e].row == i && ev[e].bad; e++ {
@@ -651,7 +687,9 @@ func (p *parser) mergeChunk(c *chunk, base, line int64, emit emitFunc) error {
 			for ; e < len(ev) && ev[e].row == i; e++ {
 			}
 			if !rowMode && rm.r0 > bs {
-				if err := send(c.readings[bs:rm.r0:rm.r0], lastEnd, lastLine); err != nil {
+				// Capacity cut at the batch's end: the segment's later rows
+				// are sent apart.
+				if err := send(seg[bs:rm.r0:rm.r0], lastEnd, lastLine); err != nil {
 					return err
 				}
 			}
@@ -677,11 +715,14 @@ func (p *parser) mergeChunk(c *chunk, base, line int64, emit emitFunc) error {
 		if ns != rm.ns {
 			at := time.Unix(0, ns).UTC()
 			for k := rm.r0; k < r1; k++ {
-				c.readings[k].At = at
+				seg[k].At = at
 			}
 		}
-		if r1-bs >= p.f.batchReading {
-			if err := send(c.readings[bs:r1:r1], rm.endOff, rm.endLine); err != nil {
+		if r1 == len(seg) && rm.seg+1 < len(c.segs) && r1 > bs {
+			// The segment's last row, not the chunk's last segment: the
+			// rest of the segment, with its capacity (nothing after it is
+			// sent).
+			if err := send(seg[bs:r1], rm.endOff, rm.endLine); err != nil {
 				return err
 			}
 			bs = r1
@@ -690,6 +731,5 @@ func (p *parser) mergeChunk(c *chunk, base, line int64, emit emitFunc) error {
 	for ; e < len(ev); e++ {
 		p.badRow(line+ev[e].line, ev[e].msg)
 	}
-	end := len(c.readings)
-	return send(c.readings[bs:end:end], c.consumed, c.lines)
+	return send(seg[bs:], c.consumed, c.lines)
 }

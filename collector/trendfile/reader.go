@@ -306,7 +306,10 @@ func (p *parser) rowTime(cell []byte, line int64) (time.Time, bool) {
 		// checks the order and parses the time again in file order.
 		t0 := len(o.tcells)
 		o.tcells = append(o.tcells, cell...)
-		o.rows = append(o.rows, rowMeta{line: line, ns: ns, t0: t0, t1: len(o.tcells), r0: len(p.batch)})
+		if p.rowFn == nil && (p.batch == nil || len(p.batch) >= p.f.batchReading || cap(p.batch)-len(p.batch) < len(p.cols)) {
+			p.nextSeg(o) // the row's readings start the next segment
+		}
+		o.rows = append(o.rows, rowMeta{line: line, ns: ns, t0: t0, t1: len(o.tcells), seg: len(o.segs), r0: len(p.batch)})
 		return time.Unix(0, ns).UTC(), true
 	}
 	if p.hasT && ns < p.lastT {
@@ -327,11 +330,6 @@ func (p *parser) ensureBatch(extra int) {
 		if p.batch == nil {
 			p.batch = make([]collector.Reading, 0, n)
 		}
-	}
-	if p.out != nil && cap(p.batch)-len(p.batch) < extra {
-		// A worker's batch holds its whole chunk: grow it geometrically.
-		p.batch = append(make([]collector.Reading, 0, 2*cap(p.batch)+extra), p.batch...)
-		return
 	}
 	if cap(p.batch)-len(p.batch) < extra {
 		p.batch = append(make([]collector.Reading, 0, len(p.batch)+p.f.batchReading+extra), p.batch...)

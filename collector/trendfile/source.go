@@ -82,14 +82,19 @@ func (s *Source) Recycle(b []collector.Reading) { s.batches.put(b) }
 
 var _ collector.Recycler = (*Source)(nil)
 
-// batchPool holds handed-back batches for Run's flushes (at most
-// batchPoolSize; more go to the garbage collector). Safe for concurrent use.
+// batchPool holds handed-back batches for Run's flushes and the parallel
+// reader's segments (at most limit; more go to the garbage collector).
+// Safe for concurrent use.
 type batchPool struct {
-	free chan []collector.Reading // made by New
+	mu    sync.Mutex
+	free  [][]collector.Reading
+	limit int // 0: batchPoolSize
 }
 
 // batchPoolSize covers the batches in flight between a source and the
-// assembler (their channels hold a few each) with room to spare.
+// assembler (their channels hold a few each) with room to spare; the
+// parallel reader raises the limit by what its chunk slots hold
+// (reserve).
 const batchPoolSize = 16
 
 // put keeps b for reuse if there is room.
@@ -99,23 +104,41 @@ func (bp *batchPool) put(b []collector.Reading) {
 	}
 	// Not cleared: a reading refers only to point names, which live as
 	// long as the source, and every reuse overwrites what it appends.
-	select {
-	case bp.free <- b[:0]:
-	default:
+	bp.mu.Lock()
+	if len(bp.free) < max(bp.limit, batchPoolSize) {
+		bp.free = append(bp.free, b[:0])
 	}
+	bp.mu.Unlock()
 }
 
 // get returns an empty handed-back batch with room for at least n
 // readings, or nil if none is at hand (a smaller one is dropped).
 func (bp *batchPool) get(n int) []collector.Reading {
-	select {
-	case b := <-bp.free:
-		if cap(b) >= n {
-			return b
-		}
-	default:
+	bp.mu.Lock()
+	defer bp.mu.Unlock()
+	k := len(bp.free) - 1
+	if k < 0 {
+		return nil
 	}
-	return nil
+	b := bp.free[k]
+	bp.free[k] = nil
+	bp.free = bp.free[:k]
+	if cap(b) < n {
+		return nil
+	}
+	return b
+}
+
+// reserve raises the pool's limit to at least n batches.
+func (bp *batchPool) reserve(n int) {
+	bp.mu.Lock()
+	if n > bp.limit {
+		bp.limit = n
+		if cap(bp.free) < n {
+			bp.free = append(make([][]collector.Reading, 0, n), bp.free...)
+		}
+	}
+	bp.mu.Unlock()
 }
 
 // parser returns a parser for one file of this source.
@@ -165,8 +188,7 @@ func New(cfg Config) (*Source, error) {
 		return nil, fmt.Errorf("trend source %s: workers %d: want 0 (one per CPU) or more", cfg.Name, cfg.Workers)
 	}
 	f.workers = cfg.Workers
-	s := &Source{cfg: cfg, fmt: f, pts: pts, log: cfg.Logger, markEvery: markBytes,
-		batches: batchPool{free: make(chan []collector.Reading, batchPoolSize)}}
+	s := &Source{cfg: cfg, fmt: f, pts: pts, log: cfg.Logger, markEvery: markBytes}
 	if cfg.Progress != nil {
 		s.files = map[string]*fileState{}
 		cfg.Progress.Register(cfg.Name, s.commit)
