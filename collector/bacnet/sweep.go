@@ -65,7 +65,7 @@ func (s *Source) SweepTrends(ctx context.Context, emit func([]collector.Reading)
 	tr := &TrendReader{Client: c, Checkpoints: s.cp, Location: s.loc, Page: page}
 	follow := s.following()
 	if follow {
-		tr.known = s.knownNext
+		tr.known, tr.readFrom = s.knownNext, s.readFrom
 	}
 	s.parallel(logs, func(l *sweepLog) {
 		l.cur, l.err = tr.open(ctx, s.devices[l.p.device], l.p.trend)
@@ -73,6 +73,18 @@ func (s *Source) SweepTrends(ctx context.Context, emit func([]collector.Reading)
 			s.opened(l.cur)
 		}
 	})
+	if follow {
+		untied := 0
+		for _, l := range logs {
+			if l.err == nil && l.cur.untied {
+				untied++
+			}
+		}
+		if untied > 0 {
+			s.log.Info("bacnet: trend-log positions not tied to the watermark (stored per sweep, as before an upgrade): those logs are read again from the watermark less the lookback",
+				"source", s.name, "logs", untied)
+		}
+	}
 	var batch []collector.Reading
 	var delivered [][]TrendRecord
 	for ctx.Err() == nil {

@@ -1,6 +1,7 @@
 package bacnet
 
 import (
+	"bytes"
 	"context"
 	"fmt"
 	"strconv"
@@ -55,8 +56,20 @@ func (m *MemCheckpoints) PutMany(kv map[string][]byte) error {
 	return nil
 }
 
-// trendPosition is what a checkpoint holds: the sequence number of the last
-// record delivered.
+// trendPosition is what a checkpoint holds: the sequence number of the
+// last record not read again, "seq N".
+//
+// A Progress commit (Source.UseProgress) stores the same value under the
+// log's key and its tiedKey, the position first: the two agree when the
+// position keeps the watermark's rule (no record stamped at or after that
+// commit's readFrom is at or before Seq). A position alone, or different
+// from its tied copy, says only that Seq was delivered: a sweep stores it
+// so without UseProgress, and so did every daemon before trend-log
+// checkpoints followed the watermark, ahead of what its consumer had
+// accepted. A reader that follows a Progress therefore does not trust
+// such an untied position past the records its readFrom needs
+// (TrendReader.untiedResume). (A second key, not a second form of the
+// value: the value stays what every reader of the store parses.)
 type trendPosition struct {
 	Seq uint32
 }
@@ -71,6 +84,10 @@ func decodePosition(b []byte) (trendPosition, error) {
 	}
 	return trendPosition{Seq: uint32(n)}, nil
 }
+
+// tiedKey is the key of the copy a Progress commit stores of a log's
+// position (see trendPosition).
+func tiedKey(key string) string { return key + "/tied" }
 
 // TrendKey is the checkpoint key of one trend log.
 func TrendKey(device, trendLog uint32) string {
@@ -106,6 +123,11 @@ type TrendReader struct {
 	// sequence number of the next record to read); it takes the place of
 	// the stored checkpoint, which then lags behind (Source.UseProgress).
 	known func(key string) (next uint32, ok bool)
+	// readFrom, when set (with known), gives the Progress's readFrom
+	// (watermark less lookback; ok false when no watermark is stored): a
+	// stored position not tied to the watermark is resumed no later than
+	// the first record stamped at or after it (untiedResume).
+	readFrom func() (from time.Time, ok bool)
 }
 
 // Backfill reads every record of trend log tl on d that follows the log's
@@ -155,9 +177,12 @@ type trendCursor struct {
 	empty  bool // the log holds no record
 	res    TrendResult
 	// stored is the resume sequence number of the stored checkpoint (its
-	// Seq + 1), when hasStored; set when open read it.
+	// Seq + 1), when hasStored; set when open read a tied one.
 	stored    uint32
 	hasStored bool
+	// untied: open found a position not tied to the watermark and, reading
+	// for a Progress, resumed at or before the records its readFrom needs.
+	untied bool
 }
 
 // open reads the log's record count and total record count (ASHRAE 135
@@ -210,7 +235,23 @@ func (r *TrendReader) open(ctx context.Context, d *Device, tl uint32) (*trendCur
 				return c, fmt.Errorf("%s: %w", c.key, err)
 			}
 			next, ok = pos.Seq+1, true
-			c.stored, c.hasStored = next, true
+			tied := r.readFrom == nil // only a Progress needs to know
+			if !tied {
+				cp, found, err := r.Checkpoints.Get(tiedKey(c.key))
+				if err != nil {
+					c.done = true
+					return c, fmt.Errorf("%s: checkpoint: %w", tiedKey(c.key), err)
+				}
+				tied = found && bytes.Equal(cp, raw)
+			}
+			switch {
+			case tied:
+				c.stored, c.hasStored = next, true
+			case int32(next-oldest) > 0 && int32(next-(c.newest+1)) <= 0:
+				// Within the buffer (else the rules below apply). Not
+				// hasStored: the next commit stores a tied position.
+				next, c.untied = r.untiedResume(ctx, c, next, oldest), true
+			}
 		}
 	}
 	if ok {
@@ -226,6 +267,45 @@ func (r *TrendReader) open(ctx context.Context, d *Device, tl uint32) (*trendCur
 	}
 	c.done = int32(c.newest-c.next) < 0
 	return c, nil
+}
+
+// untiedResume is where a log read for a Progress resumes from an untied
+// stored position next (oldest < next ≤ newest + 1): next when no record
+// before it is stamped at or after readFrom, else the first record that
+// is. The device finds it: ReadRange by time (ASHRAE 135 clause 15.8.1.1.4.3)
+// from one second before readFrom with a count of 1 answers the first
+// record in the buffer stamped after that reference, and every record
+// before it is older. When that cannot be told (no watermark stored, the
+// device refuses or answers without a first sequence number) it is the
+// oldest record: reading again is safe (the assembler drops the steps
+// before the watermark), skipping is not.
+func (r *TrendReader) untiedResume(ctx context.Context, c *trendCursor, next, oldest uint32) uint32 {
+	from, ok := time.Time{}, false
+	if r.readFrom != nil {
+		from, ok = r.readFrom()
+	}
+	if !ok {
+		return oldest
+	}
+	rd, rt := wire.DateTimeOf(from.Add(-time.Second).In(c.loc))
+	ack, err := r.Client.ReadRange(ctx, c.d, wire.ReadRangeRequest{Object: c.obj,
+		PropertyRef: wire.PropertyRef{Prop: wire.PropLogBuffer, Index: wire.NoIndex},
+		Kind:        wire.RangeByTime, RefDate: rd, RefTime: rt, Count: 1})
+	switch {
+	case err != nil:
+		return oldest
+	case ack.ItemCount == 0 && !ack.Flags.More:
+		return next // every record predates readFrom
+	case ack.ItemCount == 0 || !ack.HasFirstSeq:
+		return oldest
+	}
+	switch first := ack.FirstSeq; {
+	case int32(first-oldest) < 0:
+		return oldest // the buffer moved on since the counts were read
+	case int32(first-next) < 0:
+		return first
+	}
+	return next
 }
 
 // fetch reads the next page (at least one record unless it sets done).

@@ -162,6 +162,22 @@ func (s *Source) following() bool {
 	return s.prog != nil
 }
 
+// readFrom is the TrendReader's readFrom (Progress mode): the watermark
+// less the lookback, ok false when no watermark is stored.
+func (s *Source) readFrom() (time.Time, bool) {
+	s.tmu.Lock()
+	p := s.prog
+	s.tmu.Unlock()
+	if p == nil {
+		return time.Time{}, false
+	}
+	wm := p.Watermark()
+	if wm.IsZero() {
+		return time.Time{}, false
+	}
+	return wm.Add(-p.Lookback()), true
+}
+
 // knownNext is the TrendReader's in-process position of a log (Progress
 // mode): where the last delivered record left it.
 func (s *Source) knownNext(key string) (uint32, bool) {
@@ -225,7 +241,8 @@ func (s *Source) commitTrends(_, readFrom time.Time) error {
 		if tk.hasStored && tk.stored == r {
 			continue
 		}
-		kv[key] = trendPosition{Seq: r - 1}.encode() // the stored value names the last record not read again
+		v := trendPosition{Seq: r - 1}.encode() // the stored value names the last record not read again
+		kv[key], kv[tiedKey(key)] = v, v
 		resume[key] = r
 	}
 	if len(kv) == 0 {
@@ -239,8 +256,13 @@ func (s *Source) commitTrends(_, readFrom time.Time) error {
 	}
 	for key, r := range resume {
 		if !batch {
-			if err := cp.Put(key, kv[key]); err != nil {
-				return fmt.Errorf("source %s: %s: checkpoint: %w", s.name, key, err)
+			// The position before its tied copy: a crash between the two
+			// leaves an untied position (read again from readFrom), never
+			// a tied copy of a position not stored.
+			for _, k := range []string{key, tiedKey(key)} {
+				if err := cp.Put(k, kv[k]); err != nil {
+					return fmt.Errorf("source %s: %s: checkpoint: %w", s.name, k, err)
+				}
 			}
 		}
 		tk := s.tracks[key]
