@@ -137,12 +137,31 @@ func BenchmarkTrendIngestRows(b *testing.B) {
 // BenchmarkTrendIngestSource is the same through Source.Run and a channel,
 // the path of `risewatch analyze` and the daemon: the consumer hands each
 // batch back when done (collector.Recycler), as collector.Assembler.Run does.
+// "cpu-ms/op" is the process CPU time per read (getrusage: all goroutines,
+// the garbage collector's too).
 func BenchmarkTrendIngestSource(b *testing.B) {
 	path, s, size := benchFile(b)
+	benchSource(b, path, s, size, 0)
+}
+
+// BenchmarkTrendIngestSourceSequential is BenchmarkTrendIngestSource with
+// the sequential reader (Workers 1): its cpu-ms/op against the parallel
+// reader's is what the helpers cost in CPU on the consumer's path.
+func BenchmarkTrendIngestSourceSequential(b *testing.B) {
+	path, s, size := benchFile(b)
+	benchSource(b, path, s, size, 1)
+}
+
+func benchSource(b *testing.B, path string, s *site.Site, size int64, workers int) {
 	b.SetBytes(size)
 	b.ReportAllocs()
+	var cpu time.Duration
 	for b.Loop() {
-		src := newSource(b, s, site.TrendfileConfig{Path: path})
+		src, err := New(Config{Name: srcName, Site: s, File: site.TrendfileConfig{Path: path}, Workers: workers, Logger: quietLog()})
+		if err != nil {
+			b.Fatal(err)
+		}
+		c0 := cpuTime()
 		out := make(chan []collector.Reading, 4)
 		errc := make(chan error, 1)
 		go func() { errc <- src.Run(context.Background(), out); close(out) }()
@@ -152,7 +171,9 @@ func BenchmarkTrendIngestSource(b *testing.B) {
 		if err := <-errc; err != nil {
 			b.Fatal(err)
 		}
+		cpu += cpuTime() - c0
 	}
+	b.ReportMetric(float64(cpu)/1e6/float64(b.N), "cpu-ms/op")
 }
 
 // BenchmarkEncodingCSV is the baseline: Go's encoding/csv tokenising the
