@@ -269,16 +269,22 @@ func (r *TrendReader) open(ctx context.Context, d *Device, tl uint32) (*trendCur
 	return c, nil
 }
 
+// untiedMargin is how far before readFrom untiedResume asks the device:
+// the reference is a wall time in the device's zone, which a device may
+// read in the repeated hour after a change from summer time (an hour
+// later than meant), and a minute more for rounding.
+const untiedMargin = time.Hour + time.Minute
+
 // untiedResume is where a log read for a Progress resumes from an untied
 // stored position next (oldest < next ≤ newest + 1): next when no record
-// before it is stamped at or after readFrom, else the first record that
-// is. The device finds it: ReadRange by time (ASHRAE 135 clause 15.8.1.1.4.3)
-// from one second before readFrom with a count of 1 answers the first
-// record in the buffer stamped after that reference, and every record
-// before it is older. When that cannot be told (no watermark stored, the
-// device refuses or answers without a first sequence number) it is the
-// oldest record: reading again is safe (the assembler drops the steps
-// before the watermark), skipping is not.
+// before it is stamped at or after readFrom − untiedMargin, else the
+// first record that is. The device finds it: ReadRange by time (ASHRAE
+// 135 clause 15.8.1.1.4.3) with a count of 1 answers the first record in
+// the buffer stamped after the reference time, and every record before it
+// is older. When that cannot be told (no watermark stored, the device
+// refuses or answers without a first sequence number) it is the oldest
+// record: reading again is safe (the assembler drops the steps before the
+// watermark), skipping is not.
 func (r *TrendReader) untiedResume(ctx context.Context, c *trendCursor, next, oldest uint32) uint32 {
 	from, ok := time.Time{}, false
 	if r.readFrom != nil {
@@ -287,7 +293,7 @@ func (r *TrendReader) untiedResume(ctx context.Context, c *trendCursor, next, ol
 	if !ok {
 		return oldest
 	}
-	rd, rt := wire.DateTimeOf(from.Add(-time.Second).In(c.loc))
+	rd, rt := wire.DateTimeOf(from.Add(-untiedMargin).In(c.loc))
 	ack, err := r.Client.ReadRange(ctx, c.d, wire.ReadRangeRequest{Object: c.obj,
 		PropertyRef: wire.PropertyRef{Prop: wire.PropLogBuffer, Index: wire.NoIndex},
 		Kind:        wire.RangeByTime, RefDate: rd, RefTime: rt, Count: 1})
@@ -295,7 +301,7 @@ func (r *TrendReader) untiedResume(ctx context.Context, c *trendCursor, next, ol
 	case err != nil:
 		return oldest
 	case ack.ItemCount == 0 && !ack.Flags.More:
-		return next // every record predates readFrom
+		return next // every record predates the reference
 	case ack.ItemCount == 0 || !ack.HasFirstSeq:
 		return oldest
 	}

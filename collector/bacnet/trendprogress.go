@@ -34,6 +34,12 @@ import (
 // before a crash that the device overwrote before the restart are counted
 // there too (they cannot be read again).
 //
+// A commit stores each position twice, under the log's key and its tied
+// key (see trendPosition), so that a position stored any other way (per
+// sweep, as before an upgrade to this rule) is known for what it is: such
+// a log is resumed no later than its first record stamped at or after
+// readFrom (TrendReader.untiedResume), the next commit ties it.
+//
 // Present values polled by the source have no history to re-read: a
 // value polled but not accepted before a crash is gone, and the steps it
 // fed are rebuilt from the point's trend log when it has one (else the

@@ -64,12 +64,16 @@ func TestTrendCheckpointsUpgradeFromPerSweepPositions(t *testing.T) {
 
 // TestTrendUntiedPositionResume: where a log read for a Progress resumes
 // from each kind of stored position, on a 1-min log of 300 records
-// (record k stamped minute k−1) with the watermark at minute 100 and the
-// default lookback (readFrom minute 79: record 80).
+// (record k stamped minute k−1) with the watermark at minute 200 and the
+// default lookback (readFrom minute 179): an untied position no later than
+// the first record after readFrom − untiedMargin (minute 118), record 120.
 func TestTrendUntiedPositionResume(t *testing.T) {
 	rg := newWMRig(t, 2000)
 	rg.log(t, 300)
-	wm := wmStart.Add(100 * time.Minute)
+	wm := wmStart.Add(200 * time.Minute)
+	if wm.Add(-collector.DefaultMaxGap-collector.DefaultInterval-untiedMargin) != wmStart.Add(118*time.Minute) {
+		t.Fatal("the cases below assume the default lookback and untiedMargin")
+	}
 	for _, tc := range []struct {
 		name      string
 		stored    string // device 70 trend-log 1's checkpoint ("" none)
@@ -77,11 +81,12 @@ func TestTrendUntiedPositionResume(t *testing.T) {
 		watermark bool
 		first     uint32 // the first record the sweep reads
 	}{
-		{"untied past readFrom", "seq 250", "", true, 80},
-		{"untied before readFrom", "seq 50", "", true, 51},
-		{"untied at readFrom", "seq 79", "", true, 80},
+		{"untied past readFrom", "seq 250", "", true, 120},
+		{"untied within the margin", "seq 150", "", true, 120},
+		{"untied before the margin", "seq 50", "", true, 51},
+		{"untied at the margin", "seq 119", "", true, 120},
 		{"untied, no watermark", "seq 250", "", false, 1},
-		{"tied copy of another position", "seq 250", "seq 240", true, 80},
+		{"tied copy of another position", "seq 250", "seq 240", true, 120},
 		{"tied", "seq 250", "seq 250", true, 251},
 		{"none", "", "", true, 1},
 	} {
