@@ -28,16 +28,18 @@ type Evaluator struct {
 	explain     []uint32
 	loopExplain []uint32 // len nL+1; slot nL is always 0 (terminals without a loop)
 
-	ops []operating // per terminal heating-operation time
-
 	// Hot path (see prefilter.go): per terminal and prefilter word, the
 	// rules that apply to the terminal (en) and those whose tracker may not
 	// be idle (busy: pending, clearing or holding a fault; a stale bit only
 	// costs a look), at bit 2k for rule k of the word; gateOK[m*nW+w] the
-	// rules whose need/forbid gates hold under gate mask m.
+	// rules whose need/forbid gates hold under gate mask m. Word 0 is in
+	// hot, with the terminal's operating time, so that one record touches
+	// one entry; words 1 … nW−1 are in enX and busyX at t*(nW−1)+w−1 (see
+	// enAt, busyAt).
+	hot         []termHot
 	pf          prefilter
 	nW          int
-	en, busy    []uint64
+	enX, busyX  []uint64
 	gateOK      []uint64
 	noPrefilter bool         // tests: look at every rule, as without the prefilter
 	out         []Transition // stepTerminals' transitions while it runs (nil between steps)
@@ -64,6 +66,29 @@ type tracker struct {
 	clrSince, clrLast int64
 	f                 *fault // non-nil while this rule holds the fault open
 	off               bool   // rule does not apply to this entity (disabled, only/except)
+}
+
+// termHot is what the hot path reads and writes per terminal record: the
+// operating time and prefilter word 0's en and busy bits.
+type termHot struct {
+	op       operating
+	en, busy uint64
+}
+
+// enAt is the en word w of terminal t.
+func (e *Evaluator) enAt(t, w int) *uint64 {
+	if w == 0 {
+		return &e.hot[t].en
+	}
+	return &e.enX[t*(e.nW-1)+w-1]
+}
+
+// busyAt is the busy word w of terminal t.
+func (e *Evaluator) busyAt(t, w int) *uint64 {
+	if w == 0 {
+		return &e.hot[t].busy
+	}
+	return &e.busyX[t*(e.nW-1)+w-1]
 }
 
 // operating accumulates how long a terminal's heating is in operation (fan
@@ -131,7 +156,7 @@ func NewEvaluator(s *site.Site, rs *Ruleset) (*Evaluator, error) {
 	}
 	e.explain = make([]uint32, e.nT)
 	e.loopExplain = make([]uint32, e.nL+1)
-	e.ops = make([]operating, e.nT)
+	e.hot = make([]termHot, e.nT)
 	e.trk = make([]tracker, e.nT*len(e.term))
 	for t, term := range s.Terminals {
 		for r, c := range e.term {
@@ -140,8 +165,8 @@ func NewEvaluator(s *site.Site, rs *Ruleset) (*Evaluator, error) {
 	}
 	e.pf = buildPrefilter(e.term, rs.sch.terminal)
 	e.nW = len(e.pf.words)
-	e.en = make([]uint64, e.nT*e.nW)
-	e.busy = make([]uint64, e.nT*e.nW)
+	e.enX = make([]uint64, e.nT*max(e.nW-1, 0))
+	e.busyX = make([]uint64, e.nT*max(e.nW-1, 0))
 	e.gateOK = make([]uint64, (gateMaskMax+1)*e.nW)
 	for r, c := range e.term {
 		w, bit := r/rulesPerWord, uint64(1)<<(2*uint(r%rulesPerWord))
@@ -152,7 +177,7 @@ func NewEvaluator(s *site.Site, rs *Ruleset) (*Evaluator, error) {
 		}
 		for t := range s.Terminals {
 			if !e.trk[t*len(e.term)+r].off {
-				e.en[t*e.nW+w] |= bit
+				*e.enAt(t, w) |= bit
 			}
 		}
 	}
@@ -328,7 +353,7 @@ func (e *Evaluator) release(tk *tracker, c *compiled, gatesOK bool, p unsafe.Poi
 // total and, with the fan and plant on, heating-operation time (gaps
 // beyond maxGapNs are not counted).
 func (e *Evaluator) accumulateOperating(t int, at int64, mask gateMask) {
-	e.addOperating(&e.ops[t], at, mask)
+	e.addOperating(&e.hot[t].op, at, mask)
 }
 
 // addOperating is accumulateOperating on the terminal's sums o (the hot
@@ -354,7 +379,7 @@ func (e *Evaluator) operatingHoursPerWeek(t int) float64 {
 	if t < 0 || t >= e.nT {
 		return 60
 	}
-	o := e.ops[t]
+	o := e.hot[t].op
 	if o.totalNs < int64(24*time.Hour) {
 		return 60
 	}

@@ -34,8 +34,7 @@ func (e *Evaluator) stepTerminals(ev []fdd.Evidence, out []Transition) []Transit
 	// appends to e.out): the fewer there are, the fewer the compiler
 	// spills and reloads per record.
 	e.out = out
-	nT := e.nT
-	busy, en, ops := e.busy[:nT], e.en[:nT], e.ops[:nT]
+	hot := e.hot[:e.nT]
 	gateOK := e.gateOK[:gateMaskMax+1]
 	gap := opGap(e.maxGapNs)
 	wall, ext := stampOf(&ev[0].At)
@@ -44,7 +43,7 @@ func (e *Evaluator) stepTerminals(ev []fdd.Evidence, out []Transition) []Transit
 	for i := range ev {
 		x := &ev[i]
 		t := x.Terminal
-		if uint(t) >= uint(nT) {
+		if uint(t) >= uint(len(hot)) {
 			continue
 		}
 		if w, xt := stampOf(&x.At); w != wall || xt != ext {
@@ -53,8 +52,9 @@ func (e *Evaluator) stepTerminals(ev []fdd.Evidence, out []Transition) []Transit
 			season = e.seasonMask(at)
 		}
 		mask := flagMask(x) | season // gateMaskOf, by hand: the compiler does not inline it
-		addOp(&ops[t], at, gap, mask)
-		if m, set := gateOK[mask&gateMaskMax]&en[t], busy[t]; m|set != 0 {
+		h := &hot[t]
+		addOp(&h.op, at, gap, mask)
+		if m, set := gateOK[mask&gateMaskMax]&h.en, h.busy; m|set != 0 {
 			e.stepRecord(x, m, set, at, mask)
 		}
 	}
@@ -132,7 +132,7 @@ func addOp(o *operating, at int64, gap uint64, mask gateMask) {
 // with the prefilter off, in tests).
 func (e *Evaluator) stepTerminalsWide(ev []fdd.Evidence, out []Transition) []Transition {
 	nW, nT := e.nW, e.nT
-	busy, en, gateOK, words := e.busy, e.en, e.gateOK, e.pf.words
+	gateOK, words := e.gateOK, e.pf.words
 	for i := range ev {
 		x := &ev[i]
 		t := x.Terminal
@@ -144,9 +144,8 @@ func (e *Evaluator) stepTerminalsWide(ev []fdd.Evidence, out []Transition) []Tra
 		e.accumulateOperating(t, at, mask)
 		p := unsafe.Pointer(x)
 		for w := 0; w < nW; w++ {
-			j := t*nW + w
-			set := busy[j]
-			if m := gateOK[int(mask)*nW+w] & en[j]; m&^set != 0 {
+			set := *e.busyAt(t, w)
+			if m := gateOK[int(mask)*nW+w] & *e.enAt(t, w); m&^set != 0 {
 				if e.noPrefilter {
 					set |= m
 				} else {
@@ -221,7 +220,7 @@ var (
 func (e *Evaluator) stepRules(t, w int, set uint64, ev *fdd.Evidence, p unsafe.Pointer, at int64, mask gateMask, out []Transition) []Transition {
 	n := len(e.term)
 	trks := e.trk[t*n : t*n+n]
-	busy := &e.busy[t*e.nW+w]
+	busy := e.busyAt(t, w)
 	for ; set != 0; set &= set - 1 {
 		k := bits.TrailingZeros64(set) &^ 1
 		r := w*rulesPerWord + k/2
@@ -277,7 +276,7 @@ func (e *Evaluator) rebuildBusy() {
 		for r := 0; r < n; r++ {
 			tk := &e.trk[t*n+r]
 			if tk.since != 0 || tk.f != nil {
-				e.busy[t*e.nW+r/rulesPerWord] |= 1 << (2 * uint(r%rulesPerWord))
+				*e.busyAt(t, r/rulesPerWord) |= 1 << (2 * uint(r%rulesPerWord))
 			}
 		}
 	}

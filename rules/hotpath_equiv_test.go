@@ -301,9 +301,9 @@ func sameHotPath(t *testing.T, fast, slow *Evaluator, nT int) {
 	if ea, eb := fast.Export(), slow.Export(); !reflect.DeepEqual(ea, eb) {
 		t.Errorf("exported state differs:\n%+v\n%+v", ea, eb)
 	}
-	for k := range fast.ops {
-		if fast.ops[k] != slow.ops[k] {
-			t.Errorf("terminal %d: operating time %+v on the hot path, %+v on the plain one", k, fast.ops[k], slow.ops[k])
+	for k := range fast.hot {
+		if fast.hot[k].op != slow.hot[k].op {
+			t.Errorf("terminal %d: operating time %+v on the hot path, %+v on the plain one", k, fast.hot[k].op, slow.hot[k].op)
 		}
 	}
 }

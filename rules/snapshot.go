@@ -120,7 +120,7 @@ func (e *Evaluator) Export() Snapshot {
 	}
 	for t := 0; t < e.nT; t++ {
 		addT(EntityTerminal, e.site.Terminals[t].ID, e.term, e.trackers(EntityTerminal, t))
-		if o := e.ops[t]; o.lastAt != 0 {
+		if o := e.hot[t].op; o.lastAt != 0 {
 			s.Operating = append(s.Operating, OperatingRecord{Terminal: e.site.Terminals[t].ID, LastAt: tm(o.lastAt), TotalSec: float64(o.totalNs) / 1e9, OpSec: float64(o.opNs) / 1e9})
 		}
 	}
@@ -227,7 +227,7 @@ func (e *Evaluator) Import(s Snapshot) (ImportStats, error) {
 		if t < 0 {
 			continue
 		}
-		e.ops[t] = operating{lastAt: ns(r.LastAt), totalNs: secNs(r.TotalSec), opNs: secNs(r.OpSec)}
+		e.hot[t].op = operating{lastAt: ns(r.LastAt), totalNs: secNs(r.TotalSec), opNs: secNs(r.OpSec)}
 	}
 	return st, nil
 }
