@@ -201,6 +201,19 @@ type pfWord struct {
 	// lits are the literals as built, one per clause literal in rule and
 	// clause order, for plainPass.
 	lits []pfPlain
+
+	// What pass reads (set by setFast): the first unrollMax literals of ge
+	// and le as arrays with their counts, the literals beyond them (geLong,
+	// leLong), and geDOff, geDOffB, the pair of fields of geD when geDOne.
+	// rare is set when pass has anything beyond the unrolled literals, the
+	// scores and the one pair of geD: literals beyond unrollMax, geD on more
+	// than one pair, or leD.
+	geA, leA       *[unrollMax]pfLit
+	nGE, nLE       int
+	geLong, leLong []pfLit
+	geDOff         uint32
+	geDOffB        uint32
+	rare           bool
 }
 
 // pfPlain is a literal as built: a ≥ t or, with le, a ≤ t; with dif the
@@ -312,8 +325,26 @@ func buildPrefilter(rules []*compiled, s *schema) prefilter {
 				pw.geDOne = pw.geDOne && l.off == pw.geD[0].off && l.offB == pw.geD[0].offB
 			}
 		}
+		pw.setFast()
 	}
 	return pf
+}
+
+// setFast sets what pass reads from the literal lists.
+func (w *pfWord) setFast() {
+	w.geA, w.nGE = (*[unrollMax]pfLit)(w.ge[:unrollMax]), min(len(w.ge), unrollMax)
+	w.leA, w.nLE = (*[unrollMax]pfLit)(w.le[:unrollMax]), min(len(w.le), unrollMax)
+	w.geLong, w.leLong = nil, nil
+	if len(w.ge) > unrollMax {
+		w.geLong = w.ge[unrollMax:]
+	}
+	if len(w.le) > unrollMax {
+		w.leLong = w.le[unrollMax:]
+	}
+	if w.geDOne {
+		w.geDOff, w.geDOffB = w.geD[0].off, w.geD[0].offB
+	}
+	w.rare = w.geLong != nil || w.leLong != nil || len(w.leD) != 0 || (len(w.geD) != 0 && !w.geDOne)
 }
 
 // pass returns the bits (2k) of the rules of word w whose clauses all hold
@@ -323,7 +354,11 @@ func buildPrefilter(rules []*compiled, s *schema) prefilter {
 // count that falls through one unrolled literal per case: no loop counter,
 // no bounds checks, no call, the literal's fields read straight from the
 // fixed-size array padLits makes room for (about half the instructions of
-// a loop per literal).
+// a loop per literal). The arrays and counts are fields set once by
+// setFast, and all that the built-in rules do not have (literals beyond
+// unrollMax, leD, geD on more than one pair of fields) is behind one flag,
+// rare: pass is a leaf without a frame, and each switch is a load of the
+// count and a jump.
 //
 // The literals on signature scores are skipped together when the bitwise OR
 // of all scores' IEEE 754 bit patterns is below the pattern of their
@@ -333,16 +368,21 @@ func buildPrefilter(rules []*compiled, s *schema) prefilter {
 // terminal every score is near 0.
 func (w *pfWord) pass(p unsafe.Pointer) uint64 {
 	m := w.preset
-	ge, le := w.ge, w.le
-	if len(ge) > unrollMax {
-		m |= passGE(ge[unrollMax:], p)
-		ge = ge[:unrollMax]
+	if w.rare {
+		// Literals beyond the unrolled ones, geD not on one pair of
+		// fields, leD: none on the built-in rules.
+		m |= passGE(w.geLong, p) | passLE(w.leLong, p)
+		if !w.geDOne {
+			m |= passGED(w.geD, p)
+		}
+		for i := range w.leD {
+			l := &w.leD[i]
+			if f64(p, l.off)-f64(p, l.offB) <= l.t {
+				m |= l.bit
+			}
+		}
 	}
-	if len(le) > unrollMax {
-		m |= passLE(le[unrollMax:], p)
-		le = le[:unrollMax]
-	}
-	switch a := (*[unrollMax]pfLit)(ge[:unrollMax]); len(ge) {
+	switch a := w.geA; w.nGE {
 	case 8:
 		if f64(p, a[7].off) >= a[7].t {
 			m |= a[7].bit
@@ -383,7 +423,7 @@ func (w *pfWord) pass(p unsafe.Pointer) uint64 {
 			m |= a[0].bit
 		}
 	}
-	switch a := (*[unrollMax]pfLit)(le[:unrollMax]); len(le) {
+	switch a := w.leA; w.nLE {
 	case 8:
 		if f64(p, a[7].off) <= a[7].t {
 			m |= a[7].bit
@@ -430,22 +470,14 @@ func (w *pfWord) pass(p unsafe.Pointer) uint64 {
 			m |= passGE(w.scoreGE, p)
 		}
 	}
-	// The literals on differences of two fields (few: a loop; unrolled
-	// like the others they measured slower). When they are all on one pair
-	// of fields (the two low-DAT rules' setpoint minus DAT ≥ 8 K and
-	// ≥ 17 K) and that difference is below the smallest threshold, or NaN,
-	// every one of them fails: one subtraction and compare instead of the
-	// loop.
-	if len(w.geD) != 0 {
-		if l := &w.geD[0]; !w.geDOne || f64(p, l.off)-f64(p, l.offB) >= w.geDMin {
-			m |= passGED(w.geD, p)
-		}
-	}
-	for i := range w.leD {
-		l := &w.leD[i]
-		if f64(p, l.off)-f64(p, l.offB) <= l.t {
-			m |= l.bit
-		}
+	// The literals on differences of two fields (few). When they are all
+	// on one pair of fields (the two low-DAT rules' setpoint minus DAT ≥ 8 K
+	// and ≥ 17 K) and that difference is below the smallest threshold, or
+	// NaN, every one of them fails: one subtraction and compare instead of
+	// the loop. Other differences are evaluated with the rare literals
+	// above.
+	if w.geDOne && f64(p, w.geDOff)-f64(p, w.geDOffB) >= w.geDMin {
+		m |= passGED(w.geD, p)
 	}
 	return m & (m >> 1) & evenBits
 }
