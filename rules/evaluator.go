@@ -41,6 +41,7 @@ type Evaluator struct {
 	nW          int
 	enX, busyX  []uint64
 	gateOK      []uint64
+	lpf         prefilter    // of the loop rules (stepLoop)
 	noPrefilter bool         // tests: look at every rule, as without the prefilter
 	out         []Transition // stepTerminals' transitions while it runs (nil between steps)
 
@@ -163,7 +164,7 @@ func NewEvaluator(s *site.Site, rs *Ruleset) (*Evaluator, error) {
 			e.trk[t*len(e.term)+r].off = !c.appliesTo(term.ID)
 		}
 	}
-	e.pf = buildPrefilter(e.term, rs.sch.terminal)
+	e.pf = buildPrefilter(e.term, rs.sch.terminal, true)
 	e.nW = len(e.pf.words)
 	e.enX = make([]uint64, e.nT*max(e.nW-1, 0))
 	e.busyX = make([]uint64, e.nT*max(e.nW-1, 0))
@@ -181,6 +182,7 @@ func NewEvaluator(s *site.Site, rs *Ruleset) (*Evaluator, error) {
 			}
 		}
 	}
+	e.lpf = buildPrefilter(e.loop, rs.sch.loop, false)
 	e.ltrk = make([]tracker, e.nL*len(e.loop))
 	for l, lp := range s.Loops {
 		for r, c := range e.loop {
@@ -273,10 +275,22 @@ func (e *Evaluator) stepLoop(lv *fdd.LoopEvidence, out []Transition) []Transitio
 	n := len(e.loop)
 	trks := e.ltrk[l*n : l*n+n]
 	p := unsafe.Pointer(lv)
+	pfW, pfBits := -1, uint64(0) // the prefilter bits of word pfW at lv
 	for r, c := range e.loop {
 		tk := &trks[r]
 		if tk.off {
 			continue
+		}
+		if tk.f == nil && tk.since == 0 && !e.noPrefilter {
+			// An idle tracker changes only when the gates hold and the
+			// condition is true, which needs the rule's prefilter clauses
+			// (prefilter.go); pend leaves it as it is otherwise.
+			if w := r / rulesPerWord; w != pfW {
+				pfW, pfBits = w, e.lpf.words[w].pass(p)
+			}
+			if pfBits&(1<<(2*uint(r%rulesPerWord))) == 0 {
+				continue
+			}
 		}
 		gatesOK := mask&c.need == c.need && mask&c.forbid == 0 && c.gates.eval(p) == triTrue
 		if tk.f == nil {

@@ -314,3 +314,117 @@ func sameHotPath(t *testing.T, fast, slow *Evaluator, nT int) {
 func sameTransitions(a, b []Transition) bool {
 	return len(a) == len(b) && fmt.Sprintf("%+v", a) == fmt.Sprintf("%+v", b)
 }
+
+// loopRules add a loop rule with literals of several kinds (the built-in
+// loop rule has one on short_fraction, short being a count).
+const loopRules = `
+rules:
+  - id: x-loop-low
+    kind: cold-loop
+    scope: loop
+    severity: 3
+    gates: [plant_on]
+    when:
+      any:
+        - {field: hw_low_k, op: ">=", value: 5 K}
+        - all:
+            - {field: mean_perf_index, op: "<", value: 0.5}
+            - {field: score, op: ">=", value: 0.7}
+    for: 20m
+    clear_for: 10m
+`
+
+// TestLoopPrefilterSameLifecycle runs slowly changing loop evidence, its
+// values now and then at, one ulp around or far from a threshold or NaN,
+// through an evaluator whose loop rules skip idle trackers the prefilter
+// rejects and through one that looks at every loop rule (noPrefilter):
+// transitions, pending timers and the exported state must be identical.
+func TestLoopPrefilterSameLifecycle(t *testing.T) {
+	rs, err := Build(mustParse(t, loopRules))
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := testSite(3, 2)
+	fast, err := NewEvaluator(s, rs)
+	if err != nil {
+		t.Fatal(err)
+	}
+	slow, err := NewEvaluator(s, rs)
+	if err != nil {
+		t.Fatal(err)
+	}
+	slow.noPrefilter = true
+	if len(fast.loop) < 2 || len(fast.lpf.words) != 1 || len(fast.lpf.words[0].lits) < 3 {
+		t.Fatalf("%d loop rules, %d prefilter words: want the built-in and the extra loop rule in one word with their literals", len(fast.loop), len(fast.lpf.words))
+	}
+	rng := rand.New(rand.NewPCG(31, 7))
+	near := func(v float64) float64 {
+		switch rng.IntN(6) {
+		case 0:
+			return math.Nextafter(v, math.Inf(1))
+		case 1:
+			return math.Nextafter(v, math.Inf(-1))
+		case 2:
+			return math.NaN()
+		case 3:
+			return v
+		}
+		return v + 2*(rng.Float64()-0.5)
+	}
+	loops := make([]fdd.LoopEvidence, len(s.Loops))
+	for l := range loops {
+		loops[l] = fdd.LoopEvidence{Loop: l, PlantOn: true, Terminals: 6, ShortFraction: 0.1, MeanPerfIndex: 0.9, Score: 0.1}
+	}
+	var a, b []Transition
+	opened, cleared, rejected := 0, 0, 0
+	at := t0
+	for step := 0; step < 8000; step++ {
+		at = at.Add(time.Minute)
+		if rng.IntN(300) == 0 {
+			at = at.Add(time.Duration(rng.IntN(40)) * time.Minute) // a gap
+		}
+		for l := range loops {
+			x := &loops[l]
+			switch u := rng.IntN(60); u {
+			case 0:
+				x.ShortFraction, x.Short = near(0.6), rng.IntN(9)
+			case 1:
+				x.LowSupplyK = near(5)
+			case 2:
+				x.MeanPerfIndex, x.Score = near(0.5), near(0.7)
+			case 3:
+				x.PlantOn = rng.IntN(5) != 0
+			case 4:
+				x.ShortFraction, x.LowSupplyK, x.MeanPerfIndex, x.Score = 0.1, 0, 0.9, 0.1 // healthy again
+			}
+			x.At = at
+			if fast.lpf.words[0].pass(unsafe.Pointer(x)) == 0 {
+				rejected++
+			}
+		}
+		a = fast.Step(nil, loops, a[:0])
+		b = slow.Step(nil, loops, b[:0])
+		if !sameTransitions(a, b) {
+			t.Fatalf("step %d: transitions differ:\nloop prefilter: %+v\nplain:          %+v", step, a, b)
+		}
+		for _, tr := range a {
+			switch {
+			case tr.To == StateOpen && tr.From != StateOpen:
+				opened++
+			case tr.To == StateClear:
+				cleared++
+			}
+		}
+		if step%200 == 0 {
+			if pa, pb := fast.Pending(), slow.Pending(); !reflect.DeepEqual(pa, pb) {
+				t.Fatalf("step %d: pending differs:\n%v\n%v", step, pa, pb)
+			}
+		}
+	}
+	if opened < 5 || cleared < 3 || rejected == 0 {
+		t.Errorf("not exercised: %d loop faults opened, %d cleared, %d records rejected by the prefilter", opened, cleared, rejected)
+	}
+	if ea, eb := fast.Export(), slow.Export(); !reflect.DeepEqual(ea, eb) {
+		t.Errorf("exported state differs:\n%+v\n%+v", ea, eb)
+	}
+}

@@ -272,7 +272,9 @@ type prefilter struct {
 // whose best clause is on a signature score keeps that one only (scores are
 // near 0 on a healthy terminal; a second literal would cost more than it
 // saves); otherwise it keeps its best two.
-func buildPrefilter(rules []*compiled, s *schema) prefilter {
+// The signature-score run of pass is taken out for terminal rules only
+// (scores: the record is an fdd.Evidence).
+func buildPrefilter(rules []*compiled, s *schema, scores bool) prefilter {
 	var pf prefilter
 	for r, c := range rules {
 		w, k := r/rulesPerWord, uint(r%rulesPerWord)
@@ -312,7 +314,7 @@ func buildPrefilter(rules []*compiled, s *schema) prefilter {
 			// Evidence read in address order.
 			sort.SliceStable(ls, func(i, j int) bool { return ls[i].off < ls[j].off })
 		}
-		if a, b, bits := scoreRun(pw.ge); b > a {
+		if a, b, bits := scoreRun(pw.ge); scores && b > a {
 			pw.scoreGE = append([]pfLit(nil), pw.ge[a:b]...)
 			pw.ge = append(pw.ge[:a:a], pw.ge[b:]...)
 			pw.scoreMinBits = bits
