@@ -106,6 +106,13 @@ type Evidence struct {
 	OnsetHours         float64 `rule:"onset_h"`               // hours from the last healthy high-command performance to the first loss (NaN: short since monitoring began)
 	RejectedUAFactor   float64 `rule:"rejected_ua_factor"`    // learned UA factor rejected as unlike the rated coil (NaN if none)
 	ZoneDeficitK       float64 `rule:"zone_deficit_k"`        // smoothed heating setpoint − zone temperature (NaN without zone points)
+
+	// Added by the fdd engine, third round (additive): zone sensor health.
+	// The zone readings never gate a sample (see collector.ZoneOK).
+	ZoneC             float64 `rule:"zone_c"`           // zone temperature as read, plausible or not (NaN when missing)
+	ZoneSetC          float64 `rule:"zone_set_c"`       // zone heating setpoint as read, plausible or not (NaN when missing)
+	ZoneBadMinutes    float64 `rule:"zone_bad_min"`     // minutes the zone temperature has been implausible: present outside collector.ZoneMinC..ZoneMaxC, or missing while its point is configured and the box's airflow and valve arrive
+	ZoneSetBadMinutes float64 `rule:"zone_set_bad_min"` // the same for the heating setpoint (collector.ZoneSetMinC..ZoneSetMaxC)
 }
 
 // LoopEvidence is the running evidence for one hot-water loop at one step.

@@ -1,6 +1,8 @@
 package fdd
 
 import (
+	"math"
+
 	"risewatch/collector"
 )
 
@@ -16,12 +18,59 @@ const (
 	airflowNegM3s    = -0.01 // small negative readings are zero-offset noise
 )
 
-// zonePlausible reports whether a sample's zone temperature and heating
-// setpoint are both present and inside the plausibility ranges
-// (collector.ZoneMinC..., NaN fails). They do not gate a sample; outside
-// the ranges they are treated as missing (an open or shorted room sensor, a
-// setpoint in the wrong unit), as in every consumer.
-func zonePlausible(s *collector.Sample) bool { return s.ZoneOK() && s.ZoneSetOK() }
+// Zone sensor runs: gate follows how long a terminal's zone temperature and
+// heating setpoint have been implausible (data-quality evidence; the zone
+// readings never gate a sample) and sets inputs.zoneOK when both are
+// present and plausible: only then do they enter the zone-deficit evidence
+// (outside the ranges they are treated as missing, as in every consumer).
+// A reading counts as implausible when it is present (flag clear, not NaN)
+// but outside its range of collector.ZoneOK or ZoneSetOK (an open or
+// shorted room sensor, a setpoint in the wrong unit), or missing while the
+// terminal's point is configured and the box's airflow and valve arrive:
+// the controller reports, this point does not. A plausible reading ends
+// the run; a missing one of a point that is not configured, or while the
+// box's own points are missing too (the controller or the trend log is
+// down: input-data-quality's case), holds it.
+//
+// The common case, both readings present and plausible, is tested on the
+// readings' IEEE 754 bit patterns: non-negative floats order like their
+// patterns (as unsigned integers) and every negative one and NaN lies
+// above the pattern of ZoneMaxC, so bits(z) ≤ bits(45) is 0 ≤ z ≤ 45 for
+// every z but −0, and bits(zs) − bits(5) ≤ bits(35) − bits(5) (unsigned)
+// is 5 ≤ zs ≤ 35. Every other sample (−0 among them) takes zoneRuns, which
+// tests with collector.ZoneOK and ZoneSetOK.
+const (
+	zoneMaxBits     = 0x4046800000000000                  // math.Float64bits(collector.ZoneMaxC), 45
+	zoneSetMinBits  = 0x4014000000000000                  // math.Float64bits(collector.ZoneSetMinC), 5
+	zoneSetSpanBits = 0x4041800000000000 - zoneSetMinBits // math.Float64bits(collector.ZoneSetMaxC) − zoneSetMinBits, 35
+)
+
+// zoneRuns updates the zone runs of a sample that failed the bit-pattern
+// test and reports whether both readings are plausible.
+func zoneRuns(s *collector.Sample, t *termStatic, st *termState) bool {
+	zok, sok := s.ZoneOK(), s.ZoneSetOK()
+	reporting := s.Flags&(collector.FlagAirflow|collector.FlagValve) == 0
+	switch {
+	case zok:
+		st.zoneBadRun = 0
+	case implausible(s.Flags&collector.FlagZone == 0, s.ZoneC, t.zonePoint, reporting):
+		st.zoneBadRun++
+	}
+	switch {
+	case sok:
+		st.zoneSetBadRun = 0
+	case implausible(s.Flags&collector.FlagZoneSet == 0, s.ZoneSetC, t.zoneSetPoint, reporting):
+		st.zoneSetBadRun++
+	}
+	return zok && sok
+}
+
+// implausible reports whether a zone reading that failed its range test
+// counts toward its run (zoneRuns): present (not flagged, not NaN), or
+// missing from a configured point while the controller reports.
+func implausible(unflagged bool, x float64, configured, reporting bool) bool {
+	return unflagged && x == x || configured && reporting
+}
 
 // gatedFlags are the sample flags gate looks at.
 const gatedFlags = collector.FlagAirflow | collector.FlagDischarge | collector.FlagSupply | collector.FlagValve |
@@ -33,17 +82,27 @@ type inputs struct {
 	fanOn, plantOn     bool
 	hwAssumed          bool // HW temperature is the loop design value
 	datOK              bool // DAT itself is present and in range
+	zoneOK             bool // zone temperature and heating setpoint present and plausible
 }
 
 // gate checks one sample against the data-quality rules and returns the
-// gate mask and the cleaned inputs. Required points: airflow, discharge,
-// valve (GateMissing); AHU supply air (GateNoAHU); loop supply temperature
-// when the loop defines one (GateNoLoop; otherwise the design value is used).
+// gate mask and the cleaned inputs; it also follows the zone sensor runs in
+// st (see zoneMaxBits), which never gate. Required points: airflow,
+// discharge, valve (GateMissing); AHU supply air (GateNoAHU); loop supply
+// temperature when the loop defines one (GateNoLoop; otherwise the design
+// value is used).
 // Fan and plant status fall back to inference when the site defines no point:
 // fan on when airflow exceeds a third of the box minimum, plant on when the
 // hot water is at least 8 K above the supply air [I].
-func gate(s *collector.Sample, t *termStatic, in *inputs) Gate {
+func gate(s *collector.Sample, t *termStatic, st *termState, in *inputs) Gate {
 	f := s.Flags
+	zoneOK := true
+	if f&(collector.FlagZone|collector.FlagZoneSet) != 0 || math.Float64bits(s.ZoneC) > zoneMaxBits ||
+		math.Float64bits(s.ZoneSetC)-zoneSetMinBits > zoneSetSpanBits {
+		zoneOK = zoneRuns(s, t, st)
+	} else {
+		st.zoneBadRun, st.zoneSetBadRun = 0, 0
+	}
 	v, dat, sat, u, hw := s.AirflowM3s, s.DischargeC, s.SupplyC, s.ValveFrac, s.HotWaterC
 	// Fast path: every point the gate reads present and in range (a NaN or
 	// ±Inf fails the range comparisons and takes the full path). Zone,
@@ -54,11 +113,11 @@ func gate(s *collector.Sample, t *termStatic, in *inputs) Gate {
 		// Field by field: a composite literal is built in a temporary
 		// and copied.
 		in.v, in.dat, in.sat, in.u, in.hw = fmax(v, 0), dat, sat, fmax(0, fmin(1, u)), hw
-		in.fanOn, in.plantOn, in.hwAssumed, in.datOK = s.FanOn, s.PlantOn, false, true
+		in.fanOn, in.plantOn, in.hwAssumed, in.datOK, in.zoneOK = s.FanOn, s.PlantOn, false, true, zoneOK
 		return 0
 	}
 	var g Gate
-	*in = inputs{v: v, dat: dat, sat: sat, u: u, hw: hw}
+	*in = inputs{v: v, dat: dat, sat: sat, u: u, hw: hw, zoneOK: zoneOK}
 	if f&(collector.FlagAirflow|collector.FlagDischarge|collector.FlagValve) != 0 {
 		g |= GateMissing
 	}

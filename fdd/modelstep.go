@@ -372,6 +372,7 @@ func (en *Engine) publish(e *Evidence, s *collector.Sample, st *termState, t *te
 	e.ZScore = v.z
 	e.DATBadMinutes = 0 // a usable sample's DAT is present and in range (process reset the run)
 	e.ZoneDeficitK = st.zoneDef.v
+	en.zoneOut(e, s, st)
 }
 
 // publishMid writes the fields of publish that change only with

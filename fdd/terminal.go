@@ -23,6 +23,8 @@ type termStatic struct {
 	fanPoint   bool    // AHU defines a fan status point
 	plantPoint bool    // loop defines a plant-enabled point
 	hwPoint    bool    // loop defines a supply temperature point
+
+	zonePoint, zoneSetPoint bool // the site configures the zone temperature (heating setpoint) point
 }
 
 // termState is the bounded running state of one terminal. Its size does not
@@ -42,6 +44,11 @@ type termState struct {
 	perfAge   int // steps since the last heating-steady sample
 	leakAge   int
 	evalCur   int // index of the evaluation in use
+
+	// zoneBadRun and zoneSetBadRun: consecutive samples with an
+	// implausible zone temperature and heating setpoint (gate, zoneRuns).
+	zoneBadRun, zoneSetBadRun int
+
 	// pubGen counts changes of the published values that move only on
 	// the response cadence, a leak inversion or a baseline change (the
 	// slow fields of publish): StepView rewrites them when it moved.
@@ -157,7 +164,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	learning := !st.learnedBase && !st.learnDone
 
 	var in inputs
-	g := gate(s, t, &in)
+	g := gate(s, t, st, &in) // and the zone sensor runs, on every path
 
 	// DAT health (kept even on gated samples; it is data-quality evidence):
 	// the run of a missing or out-of-range DAT while the other points are
@@ -221,7 +228,7 @@ func (en *Engine) process(s *collector.Sample, t *termStatic, st *termState, e *
 	}
 	st.rev.add(in.u, cfg.HuntingDeadband, en.revAlpha)
 
-	if zonePlausible(s) {
+	if in.zoneOK {
 		st.zoneDef.add(s.ZoneSetC-s.ZoneC, en.leakAlpha)
 	}
 	// Field by field: a composite literal is built in a temporary and copied.
@@ -332,6 +339,26 @@ func (en *Engine) idle(e *Evidence, s *collector.Sample, st *termState, in *inpu
 	e.DATFlatMinutes = float64(st.flatRun) * en.minPerStep
 	e.Learning = learning
 	e.DATBadMinutes = float64(st.datBadRun) * en.minPerStep
+	en.zoneOut(e, s, st)
+}
+
+// zoneOut writes the zone readings (NaN when flagged missing) and the zone
+// runs of gate, in minutes (every path, every sample). Both readings
+// present and both runs 0 is the common case: it only copies and clears.
+func (en *Engine) zoneOut(e *Evidence, s *collector.Sample, st *termState) {
+	zc, zs, f := s.ZoneC, s.ZoneSetC, s.Flags
+	if f&collector.FlagZone != 0 {
+		zc = nan
+	}
+	if f&collector.FlagZoneSet != 0 {
+		zs = nan
+	}
+	e.ZoneC, e.ZoneSetC = zc, zs
+	e.ZoneBadMinutes, e.ZoneSetBadMinutes = 0, 0
+	if st.zoneBadRun|st.zoneSetBadRun != 0 {
+		e.ZoneBadMinutes = float64(st.zoneBadRun) * en.minPerStep
+		e.ZoneSetBadMinutes = float64(st.zoneSetBadRun) * en.minPerStep
+	}
 }
 
 // idleTemplate is the evidence of a sample without running evidence, less
@@ -342,6 +369,7 @@ func (en *Engine) idleTemplate() Evidence {
 	setNaN(&e)
 	e.ValveFrac, e.AirflowM3s, e.SupplyC, e.DischargeC, e.HotWaterC = nan, nan, nan, nan, nan
 	e.ClosedMinutes, e.ReversalsPerHour, e.DATFlatMinutes, e.DATBadMinutes = 0, 0, 0, 0
+	e.ZoneC, e.ZoneSetC, e.ZoneBadMinutes, e.ZoneSetBadMinutes = nan, nan, 0, 0
 	e.Scores, e.Best = [kindCount]float64{}, KindNone
 	e.WastedHeatW, e.AddedCoolingW, e.ShortfallW = 0, 0, 0
 	e.EWMALimit = en.ewmaLim

@@ -7,6 +7,7 @@ import (
 	"time"
 
 	"risewatch/collector"
+	"risewatch/site"
 )
 
 // TestStepViewSameAsStep: StepView, which updates the engine's own records
@@ -25,6 +26,12 @@ func TestStepViewSameAsStep(t *testing.T) {
 		fLeak, fFouled, fHunting, fOffset, fReversed, fFailed}
 	s := testSite(t, nTerm, true)
 	s.Terminals[nTerm-1].Valve.Cv = 0 // no water-flow model: GateNoModel path
+	// Zone points configured on terminals 5-8 (missing readings count
+	// there); 9 and 10 carry zone readings without configured points.
+	for i := 5; i <= 8; i++ {
+		s.Terminals[i].Points.ZoneTemp = site.PointRef{Name: s.Terminals[i].ID + ".ZNT", Kind: site.PointTrendColumn}
+		s.Terminals[i].Points.ZoneSetpoint = site.PointRef{Name: s.Terminals[i].ID + ".ZNSP", Kind: site.PointTrendColumn}
+	}
 	gens := make([]*gen, nTerm)
 	for i := range gens {
 		gens[i] = newGen(t, faults[i], uint64(i+1), t0.Add(20*time.Hour))
@@ -52,11 +59,18 @@ func TestStepViewSameAsStep(t *testing.T) {
 		steps = 10 * 60
 	}
 	var cold, reordered, partial int
+	// Zone sensors going bad and recovering on an idle record (fan off or
+	// data-gated), and bad while active.
+	var idleBad, idleRecover, activeBad int
+	prevBad := make([]bool, nTerm)
 	for k := 0; k < steps; k++ {
 		at := t0.Add(time.Duration(k) * time.Minute)
 		all = all[:0]
 		for i, g := range gens {
 			x := g.sample(i, at, i)
+			if i >= 5 && i <= 10 {
+				zoneSpell(&x, k+53*i)
+			}
 			switch (k + 7*i) % 97 { // data gates now and then
 			case 0:
 				x.Flags |= collector.FlagAirflow
@@ -90,6 +104,19 @@ func TestStepViewSameAsStep(t *testing.T) {
 			t.Fatalf("step %d: %d, %d and %d evidences", k, len(a), len(b), len(c))
 		}
 		for i := range a {
+			if ti := a[i].Terminal; ti < nTerm {
+				bad := a[i].ZoneBadMinutes > 0 || a[i].ZoneSetBadMinutes > 0
+				idle := !a[i].Usable || a[i].Gates&GateFanOff != 0
+				switch {
+				case idle && bad && !prevBad[ti]:
+					idleBad++
+				case idle && !bad && prevBad[ti]:
+					idleRecover++
+				case !idle && bad:
+					activeBad++
+				}
+				prevBad[ti] = bad
+			}
 			if f := firstBitDifference(&a[i], &b[i]); f != "" {
 				t.Fatalf("step %d record %d (terminal %d): field %s: Step %v, StepView %v", k, i, a[i].Terminal, f,
 					reflect.ValueOf(a[i]).FieldByName(f), reflect.ValueOf(b[i]).FieldByName(f))
@@ -114,6 +141,32 @@ func TestStepViewSameAsStep(t *testing.T) {
 	}
 	if cold == 0 || reordered == 0 || partial == 0 {
 		t.Errorf("paths not covered: %d cold-loop steps, %d reordered, %d partial", cold, reordered, partial)
+	}
+	if idleBad == 0 || idleRecover == 0 || activeBad == 0 {
+		t.Errorf("zone paths not covered: %d idle records going bad, %d recovering, %d active bad", idleBad, idleRecover, activeBad)
+	}
+}
+
+// zoneSpell gives a sample zone readings (zone 19 °C below its 21 °C
+// heating setpoint, so a short box still counts toward a cold loop) with,
+// by m, spells of an open room sensor (−40 °C), a setpoint in °F (70), a
+// flagged-missing zone temperature, an unflagged NaN, and a shorted sensor
+// (120 °C) with a zero setpoint.
+func zoneSpell(x *collector.Sample, m int) {
+	x.Flags &^= collector.FlagZone | collector.FlagZoneSet
+	x.ZoneC, x.ZoneSetC = 19, 21
+	switch p := m % 230; {
+	case p < 25:
+		x.ZoneC = -40
+	case p >= 60 && p < 80:
+		x.ZoneSetC = 70
+	case p >= 110 && p < 125:
+		x.Flags |= collector.FlagZone
+		x.ZoneC = math.NaN()
+	case p >= 150 && p < 160:
+		x.ZoneC = math.NaN()
+	case p >= 180 && p < 190:
+		x.ZoneC, x.ZoneSetC = 120, 0
 	}
 }
 
