@@ -55,10 +55,11 @@ type Engine struct {
 // viewSlot says what a record of the engine's view holds, so the next
 // write to it for the same terminal can leave alone what did not change.
 type viewSlot struct {
-	term int    // terminal whose evidence the record holds (−1: none)
-	kind uint8  // which path wrote it (rec*)
-	gen  uint32 // termState.pubGen of its slow fields (kind recActive)
-	mid  uint32 // termState.midGen of its publishMid fields (kind recActive)
+	rec  *Evidence // the record (Engine.view at the slot's position)
+	term int       // terminal whose evidence the record holds (−1: none)
+	kind uint8     // which path wrote it (rec*)
+	gen  uint32    // termState.pubGen of its slow fields (kind recActive)
+	mid  uint32    // termState.midGen of its publishMid fields (kind recActive)
 }
 
 // What the last write left in a record.
@@ -158,6 +159,7 @@ func (en *Engine) initTerminal(i int, pf physicsFactory) {
 		ts.fanOnM3s = t.MinAirflowM3s / 3
 	}
 	st := &en.state[i]
+	ts.st = st
 	nIn, nDAT := en.cfg.SteadyWindow, datWindow(en.cfg.SteadyWindow)
 	st.in.initRing(en.ringIn[i*nIn:(i+1)*nIn:(i+1)*nIn], en.steadyLimits())
 	st.dat.initRing(en.ringDAT[i*nDAT : (i+1)*nDAT : (i+1)*nDAT])
@@ -297,7 +299,7 @@ func (en *Engine) StepView(samples []collector.Sample) []Evidence {
 		en.view = make([]Evidence, len(samples))
 		en.slots = make([]viewSlot, len(samples))
 		for k := range en.slots {
-			en.slots[k].term = -1
+			en.slots[k].rec, en.slots[k].term = &en.view[k], -1
 		}
 	}
 	en.resetLoops()
@@ -325,7 +327,7 @@ func (en *Engine) StepTerminals(samples []collector.Sample, out []Evidence) []Ev
 func (en *Engine) stepTerminals(samples []collector.Sample, out []Evidence, loops bool) []Evidence {
 	n := len(out)
 	out = slices.Grow(out, len(samples))[:n+len(samples)]
-	terms, state := en.terms, en.state
+	terms := en.terms
 	for k := range samples {
 		s := &samples[k]
 		i := s.Terminal
@@ -338,32 +340,33 @@ func (en *Engine) stepTerminals(samples []collector.Sample, out []Evidence, loop
 		if loops {
 			acc = t.acc
 		}
-		en.process(s, t, &state[i], e, &sl, acc)
+		en.process(s, t, t.st, e, &sl, acc)
 		n++
 	}
 	return out[:n]
 }
 
 // stepView is stepTerminals into the engine's records (StepView), with
-// the loop sums.
+// the loop sums. The terminal's state and the slot's record are reached
+// through pointers (termStatic.st, viewSlot.rec): the loop keeps few
+// values live across its call to process, so few are reloaded after it.
 func (en *Engine) stepView(samples []collector.Sample) []Evidence {
 	n := 0
-	terms, state := en.terms, en.state
-	out, slots := en.view[:len(samples)], en.slots[:len(samples)]
+	terms, slots := en.terms, en.slots[:len(samples)]
 	for k := range samples {
 		s := &samples[k]
 		i := s.Terminal
 		if uint(i) >= uint(len(terms)) {
 			continue
 		}
-		t, e, sl := &terms[i], &out[n], &slots[n]
+		t, sl := &terms[i], &slots[n]
 		if sl.term != i {
 			sl.term, sl.kind = i, recNone
 		}
-		en.process(s, t, &state[i], e, sl, t.acc)
+		en.process(s, t, t.st, sl.rec, sl, t.acc)
 		n++
 	}
-	return out[:n]
+	return en.view[:n]
 }
 
 // Loops returns the loop evidence of the last Step (or AggregateLoops call).

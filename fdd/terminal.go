@@ -11,8 +11,9 @@ import (
 type termStatic struct {
 	idx        int
 	id         string
-	loop, ahu  int      // indices, −1 if unknown
-	acc        *loopAcc // the loop's sums in Engine.loops (nil without a loop)
+	loop, ahu  int        // indices, −1 if unknown
+	acc        *loopAcc   // the loop's sums in Engine.loops (nil without a loop)
+	st         *termState // the terminal's running state in Engine.state
 	phys       coilPhysics
 	flow       flowCurve // installed flow at baseline (flow factor 1)
 	modelErr   error
