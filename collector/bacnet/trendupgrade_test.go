@@ -101,19 +101,7 @@ func TestTrendUntiedPositionResume(t *testing.T) {
 			if tc.watermark {
 				w.ck["assembler"] = []byte(strconv.FormatInt(wm.UnixNano(), 10))
 			}
-			prog, err := collector.OpenProgress(w, "assembler", time.Hour)
-			if err != nil {
-				t.Fatal(err)
-			}
-			src, err := NewSource("bas", rg.cfg, rg.refs, w, time.UTC, quietLogger())
-			if err != nil {
-				t.Fatal(err)
-			}
-			src.UseProgress(prog)
-			if err := src.Start(ctxT(t)); err != nil {
-				t.Fatal(err)
-			}
-			defer src.Close()
+			src := startProgressSource(t, rg, w)
 			res, err := src.SweepTrends(ctxT(t), func([]collector.Reading) error { return nil })
 			if err != nil {
 				t.Fatal(err)

@@ -483,19 +483,7 @@ func TestTrendCheckpointWrappedBufferIsCountedGap(t *testing.T) {
 	}
 	before := len(w.out)
 	rg.log(t, 300) // a 1-min log of 120 records loses 180 of its 300 new ones
-	prog, err := collector.OpenProgress(batchWorld{w}, "assembler", time.Hour)
-	if err != nil {
-		t.Fatal(err)
-	}
-	src, err := NewSource("bas", rg.cfg, rg.refs, batchWorld{w}, time.UTC, quietLogger())
-	if err != nil {
-		t.Fatal(err)
-	}
-	src.UseProgress(prog)
-	if err := src.Start(ctxT(t)); err != nil {
-		t.Fatal(err)
-	}
-	defer src.Close()
+	src := startProgressSource(t, rg, batchWorld{w})
 	raw, ok, _ := w.Get(TrendKey(70, 1))
 	pos, err := decodePosition(raw)
 	if !ok || err != nil {
@@ -589,14 +577,7 @@ func TestTrendCheckpointsOldModeStillPerSweep(t *testing.T) {
 	rg := newWMRig(t, 500)
 	rg.log(t, 60)
 	w := &world{ck: map[string][]byte{}}
-	src, err := NewSource("bas", rg.cfg, rg.refs, w, time.UTC, quietLogger())
-	if err != nil {
-		t.Fatal(err)
-	}
-	if err := src.Start(ctxT(t)); err != nil {
-		t.Fatal(err)
-	}
-	defer src.Close()
+	src := startSource(t, rg, w, nil)
 	if _, err := src.SweepTrends(ctxT(t), func([]collector.Reading) error { return nil }); err != nil {
 		t.Fatal(err)
 	}
@@ -604,4 +585,34 @@ func TestTrendCheckpointsOldModeStillPerSweep(t *testing.T) {
 	if !ok || string(b) != "seq 60" {
 		t.Fatalf("device 70 trend-log 1 checkpoint %q (stored %v), want \"seq 60\"", b, ok)
 	}
+}
+
+// startProgressSource is startSource following a Progress opened on ck
+// under the key "assembler" with an hour's lookback.
+func startProgressSource(t testing.TB, rg *wmRig, ck Checkpoints) *Source {
+	t.Helper()
+	prog, err := collector.OpenProgress(ck, "assembler", time.Hour)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return startSource(t, rg, ck, prog)
+}
+
+// startSource builds the rig's source over the checkpoint store ck,
+// following prog when it is not nil, and starts it; the test's cleanup
+// closes it.
+func startSource(t testing.TB, rg *wmRig, ck Checkpoints, prog *collector.Progress) *Source {
+	t.Helper()
+	src, err := NewSource("bas", rg.cfg, rg.refs, ck, time.UTC, quietLogger())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if prog != nil {
+		src.UseProgress(prog)
+	}
+	if err := src.Start(ctxT(t)); err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { src.Close() })
+	return src
 }
