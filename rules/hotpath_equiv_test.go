@@ -275,22 +275,8 @@ func sameHotPath(t *testing.T, fast, slow *Evaluator, nT int) {
 		}
 		a = fast.Step(ev, nil, a[:0])
 		b = slow.Step(ev, nil, b[:0])
-		if !sameTransitions(a, b) {
-			t.Fatalf("step %d: transitions differ:\nhot path:   %+v\nplain path: %+v", step, a, b)
-		}
-		for _, tr := range a {
-			switch {
-			case tr.To == StateOpen && tr.From != StateOpen:
-				opened++
-			case tr.To == StateClear:
-				cleared++
-			}
-		}
-		if step%500 == 0 {
-			if pa, pb := fast.Pending(), slow.Pending(); !reflect.DeepEqual(pa, pb) {
-				t.Fatalf("step %d: pending differs:\n%v\n%v", step, pa, pb)
-			}
-		}
+		o, c := compareStep(t, step, step%500 == 0, fast, slow, a, b)
+		opened, cleared = opened+o, cleared+c
 	}
 	if opened < 10 || cleared < 5 || oddSteps == 0 {
 		t.Errorf("not exercised: %d faults opened, %d cleared, %d odd steps", opened, cleared, oddSteps)
@@ -404,22 +390,8 @@ func TestLoopPrefilterSameLifecycle(t *testing.T) {
 		}
 		a = fast.Step(nil, loops, a[:0])
 		b = slow.Step(nil, loops, b[:0])
-		if !sameTransitions(a, b) {
-			t.Fatalf("step %d: transitions differ:\nloop prefilter: %+v\nplain:          %+v", step, a, b)
-		}
-		for _, tr := range a {
-			switch {
-			case tr.To == StateOpen && tr.From != StateOpen:
-				opened++
-			case tr.To == StateClear:
-				cleared++
-			}
-		}
-		if step%200 == 0 {
-			if pa, pb := fast.Pending(), slow.Pending(); !reflect.DeepEqual(pa, pb) {
-				t.Fatalf("step %d: pending differs:\n%v\n%v", step, pa, pb)
-			}
-		}
+		o, c := compareStep(t, step, step%200 == 0, fast, slow, a, b)
+		opened, cleared = opened+o, cleared+c
 	}
 	if opened < 5 || cleared < 3 || rejected == 0 {
 		t.Errorf("not exercised: %d loop faults opened, %d cleared, %d records rejected by the prefilter", opened, cleared, rejected)
@@ -427,4 +399,28 @@ func TestLoopPrefilterSameLifecycle(t *testing.T) {
 	if ea, eb := fast.Export(), slow.Export(); !reflect.DeepEqual(ea, eb) {
 		t.Errorf("exported state differs:\n%+v\n%+v", ea, eb)
 	}
+}
+
+// compareStep fails the test when one step's transitions of the fast and
+// the plain evaluator differ (and, with pending, their pending trackers),
+// and counts the faults the step opened and cleared.
+func compareStep(t *testing.T, step int, pending bool, fast, slow *Evaluator, a, b []Transition) (opened, cleared int) {
+	t.Helper()
+	if !sameTransitions(a, b) {
+		t.Fatalf("step %d: transitions differ:\nfast path:  %+v\nplain path: %+v", step, a, b)
+	}
+	for _, tr := range a {
+		switch {
+		case tr.To == StateOpen && tr.From != StateOpen:
+			opened++
+		case tr.To == StateClear:
+			cleared++
+		}
+	}
+	if pending {
+		if pa, pb := fast.Pending(), slow.Pending(); !reflect.DeepEqual(pa, pb) {
+			t.Fatalf("step %d: pending differs:\n%v\n%v", step, pa, pb)
+		}
+	}
+	return opened, cleared
 }
