@@ -10,6 +10,7 @@ import (
 	"unsafe"
 
 	"risewatch/fdd"
+	"risewatch/site"
 )
 
 // litRules have literals of every kind in first and second clauses: a ≥ t,
@@ -181,18 +182,10 @@ func TestHotPathSameLifecycle(t *testing.T) {
 				t.Fatal(err)
 			}
 			s := testSite(2, 8)
-			fast, err := NewEvaluator(s, rs)
-			if err != nil {
-				t.Fatal(err)
-			}
+			fast, slow := fastAndPlain(t, s, rs)
 			if fast.nW != 1 {
 				t.Fatalf("%d prefilter words, want 1 (the one-word hot path)", fast.nW)
 			}
-			slow, err := NewEvaluator(s, rs)
-			if err != nil {
-				t.Fatal(err)
-			}
-			slow.noPrefilter = true
 			sameHotPath(t, fast, slow, len(s.Terminals))
 		})
 	}
@@ -331,15 +324,7 @@ func TestLoopPrefilterSameLifecycle(t *testing.T) {
 		t.Fatal(err)
 	}
 	s := testSite(3, 2)
-	fast, err := NewEvaluator(s, rs)
-	if err != nil {
-		t.Fatal(err)
-	}
-	slow, err := NewEvaluator(s, rs)
-	if err != nil {
-		t.Fatal(err)
-	}
-	slow.noPrefilter = true
+	fast, slow := fastAndPlain(t, s, rs)
 	if len(fast.loop) < 2 || len(fast.lpf.words) != 1 || len(fast.lpf.words[0].lits) < 3 {
 		t.Fatalf("%d loop rules, %d prefilter words: want the built-in and the extra loop rule in one word with their literals", len(fast.loop), len(fast.lpf.words))
 	}
@@ -423,4 +408,20 @@ func compareStep(t *testing.T, step int, pending bool, fast, slow *Evaluator, a,
 		}
 	}
 	return opened, cleared
+}
+
+// fastAndPlain builds two evaluators of rs over s: one as the product runs
+// it and one that looks at every rule (noPrefilter), the reference the
+// equivalence tests compare it with.
+func fastAndPlain(t *testing.T, s *site.Site, rs *Ruleset) (fast, slow *Evaluator) {
+	t.Helper()
+	fast, err := NewEvaluator(s, rs)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if slow, err = NewEvaluator(s, rs); err != nil {
+		t.Fatal(err)
+	}
+	slow.noPrefilter = true
+	return fast, slow
 }

@@ -315,18 +315,10 @@ func manyRulesYAML() string {
 
 func samePrefilterLifecycle(t *testing.T, rs *Ruleset, words int) {
 	s := testSite(2, 6)
-	fast, err := NewEvaluator(s, rs)
-	if err != nil {
-		t.Fatal(err)
-	}
+	fast, slow := fastAndPlain(t, s, rs)
 	if fast.nW < words {
 		t.Fatalf("%d prefilter words, want at least %d", fast.nW, words)
 	}
-	slow, err := NewEvaluator(s, rs)
-	if err != nil {
-		t.Fatal(err)
-	}
-	slow.noPrefilter = true
 	rng := rand.New(rand.NewPCG(5, 6))
 	ev := make([]fdd.Evidence, len(s.Terminals))
 	for k := range ev {
