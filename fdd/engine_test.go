@@ -52,7 +52,7 @@ func TestGatesAbsurdValues(t *testing.T) {
 			if e.Usable {
 				t.Fatalf("%s: sample marked usable", c.name)
 			}
-			for k := KindLeakingValve; k < kindCount; k++ {
+			for k := KindLeakingValve; k < scoredKinds; k++ {
 				if k == KindDataQuality || k == KindDATFailed {
 					continue
 				}

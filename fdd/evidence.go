@@ -73,8 +73,8 @@ type Evidence struct {
 	CUSUMLowK float64 `rule:"cusum_low"` // lower CUSUM of standardised residual
 	EWMAResid float64 `rule:"ewma_residual"`
 
-	Scores [kindCount]float64 `rule:"-"` // signature score 0..1 per Kind (fdd's isolation)
-	Best   Kind               `rule:"-"` // kind with the highest score above threshold, or KindNone
+	Scores [scoredKinds]float64 `rule:"-"` // signature score 0..1 per Kind (fdd's isolation); kinds from scoredKinds on have none
+	Best   Kind                 `rule:"-"` // kind with the highest score above threshold, or KindNone
 
 	WastedHeatW   float64 `rule:"wasted_heat_w"`
 	AddedCoolingW float64 `rule:"added_cooling_w"`

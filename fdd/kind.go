@@ -21,8 +21,15 @@ const (
 	KindHunting            // "hunting": valve/DAT oscillation
 	KindLowDischarge       // "low-discharge": Guideline 36 style low DAT against setpoint/expected
 	KindDataQuality        // "data-quality": inputs missing/stale/out of range
+	// Kinds after KindDataQuality are rules-layer findings the engine does
+	// not score (Evidence.Scores has scoredKinds entries).
+	KindZoneSensor // "zone-sensor": room temperature or heating setpoint reading implausible or missing
 	kindCount
 )
+
+// scoredKinds is the number of kinds with a signature score in
+// Evidence.Scores (KindNone through KindDataQuality).
+const scoredKinds = KindDataQuality + 1
 
 var kindNames = [...]string{
 	KindNone:          "none",
@@ -37,6 +44,7 @@ var kindNames = [...]string{
 	KindHunting:       "hunting",
 	KindLowDischarge:  "low-discharge",
 	KindDataQuality:   "data-quality",
+	KindZoneSensor:    "zone-sensor",
 }
 
 // String returns the stable identifier.

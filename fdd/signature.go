@@ -226,11 +226,12 @@ func (c *scoreCache) finish(e *Evidence, en *Engine, st *termState) {
 	}
 }
 
-// scoreSignatures writes all kindCount = 12 scores by hand: these fail to
-// compile when a kind is added, so the assignments above are kept complete.
+// scoreSignatures writes all scoredKinds = 12 scores by hand: these fail to
+// compile when a scored kind is added, so the assignments above are kept
+// complete.
 var (
-	_ [kindCount - 12]struct{}
-	_ [12 - kindCount]struct{}
+	_ [scoredKinds - 12]struct{}
+	_ [12 - scoredKinds]struct{}
 )
 
 // datFailedScore: a DAT frozen at one value while the valve or SAT moved, or
@@ -260,7 +261,7 @@ func scoreDataQuality(e *Evidence, en *Engine, st *termState) {
 // sensor kinds win ties (a failed sensor explains everything else). One pass
 // in the order of bestOrder keeps the first kind holding the maximum
 // (written out: this runs for every sample with a score near threshold).
-func bestKind(sc *[kindCount]float64, threshold float64) Kind {
+func bestKind(sc *[scoredKinds]float64, threshold float64) Kind {
 	best, bs := KindNone, 0.0
 	if s := sc[KindDATFailed]; s > bs {
 		best, bs = KindDATFailed, s
@@ -301,6 +302,7 @@ func bestKind(sc *[kindCount]float64, threshold float64) Kind {
 	return best
 }
 
-// bestOrder is the tie-break order of bestKind (every kind but KindNone).
+// bestOrder is the tie-break order of bestKind (every scored kind but
+// KindNone).
 var bestOrder = [...]Kind{KindDATFailed, KindDATOffset, KindColdLoop, KindReversedValve, KindStuckValve,
 	KindLeakingValve, KindStarvedCoil, KindFouledCoil, KindHunting, KindLowDischarge, KindDataQuality}

@@ -371,7 +371,7 @@ func (en *Engine) idleTemplate() Evidence {
 	e.ValveFrac, e.AirflowM3s, e.SupplyC, e.DischargeC, e.HotWaterC = nan, nan, nan, nan, nan
 	e.ClosedMinutes, e.ReversalsPerHour, e.DATFlatMinutes, e.DATBadMinutes = 0, 0, 0, 0
 	e.ZoneC, e.ZoneSetC, e.ZoneBadMinutes, e.ZoneSetBadMinutes = nan, nan, 0, 0
-	e.Scores, e.Best = [kindCount]float64{}, KindNone
+	e.Scores, e.Best = [scoredKinds]float64{}, KindNone
 	e.WastedHeatW, e.AddedCoolingW, e.ShortfallW = 0, 0, 0
 	e.EWMALimit = en.ewmaLim
 	return e

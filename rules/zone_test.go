@@ -83,7 +83,7 @@ func TestZoneImplausibleRule(t *testing.T) {
 	// holds from minute badTo.
 	clearAt := minute(badTo).Add(time.Duration(r.ClearFor))
 	for i, reading := range []string{"room temperature has read " + units.FormatTemp(-40, false), "heating setpoint has read " + units.FormatTemp(80, false)} {
-		id := s.Terminals[i].ID + "/" + fdd.KindDataQuality.String()
+		id := s.Terminals[i].ID + "/" + fdd.KindZoneSensor.String()
 		op, ok := firstOf(trs, id, StateOpen)
 		if !ok {
 			t.Fatalf("%s: never opened; transitions %v", id, trs)
@@ -104,11 +104,66 @@ func TestZoneImplausibleRule(t *testing.T) {
 		}
 	}
 	for _, tr := range trs {
-		if tr.Entity == s.Terminals[2].ID && tr.Kind == fdd.KindDataQuality {
+		if tr.Entity == s.Terminals[2].ID && tr.Kind == fdd.KindZoneSensor {
 			t.Errorf("box without zone points: %s %v -> %v by %s", tr.FaultID, tr.From, tr.To, tr.Rule)
 		}
 	}
 	if r.ClearFor <= 0 {
 		t.Errorf("rule %s: clear persistence %v; want it positive", zoneRuleID, r.ClearFor)
+	}
+}
+
+// TestZoneSensorOwnFault: a room sensor that fails while the discharge
+// sensor is dead still raises its own finding. The dead-DAT rule suppresses
+// the coil kinds and data-quality (the box's evidence is void), not the
+// zone-sensor kind, which is a different device; and the zone finding is
+// not folded into the box's data-quality fault.
+func TestZoneSensorOwnFault(t *testing.T) {
+	s := testSite(1, 1)
+	tm := &s.Terminals[0]
+	tm.Points.ZoneTemp = site.PointRef{Name: tm.ID + ".ZNT", Kind: site.PointTrendColumn}
+	tm.Points.ZoneSetpoint = site.PointRef{Name: tm.ID + ".ZNSP", Kind: site.PointTrendColumn}
+	en, err := fdd.NewEngine(s, fdd.DefaultConfig())
+	if err != nil {
+		t.Fatal(err)
+	}
+	rs, err := Default()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r, ok := rs.Rule(zoneRuleID); !ok || r.Kind != fdd.KindZoneSensor.String() {
+		t.Fatalf("built-in rule %s: kind %v, want %v", zoneRuleID, r.Kind, fdd.KindZoneSensor)
+	}
+	ev, err := NewEvaluator(s, rs)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var trs []Transition
+	smp := make([]collector.Sample, 1)
+	for k := 0; k < 300; k++ {
+		// The DAT repeats one value while the valve and SAT move (a dead
+		// sensor); the room sensor reads open circuit throughout.
+		u := 0.4 + 0.3*math.Sin(float64(k)/7)
+		smp[0] = collector.Sample{Terminal: 0, At: minute(k), AirflowM3s: 0.14, AirflowSetM3s: 0.14, DischargeC: 24,
+			SupplyC: 13 + 0.5*math.Sin(float64(k)/5), ValveFrac: u, HotWaterC: 60, ZoneC: -40, ZoneSetC: 21.5,
+			PlantOn: true, FanOn: true, Occupied: true}
+		trs = ev.Step(en.StepView(smp), en.Loops(), trs)
+	}
+	dat := tm.ID + "/" + fdd.KindDATFailed.String()
+	if _, ok := firstOf(trs, dat, StateOpen); !ok {
+		t.Fatalf("%s never opened (the test needs a dead DAT); transitions %v", dat, trs)
+	}
+	zone := tm.ID + "/" + fdd.KindZoneSensor.String()
+	op, ok := firstOf(trs, zone, StateOpen)
+	if !ok {
+		t.Fatalf("%s never opened while %s was open; transitions %v", zone, dat, trs)
+	}
+	if op.Rule != zoneRuleID {
+		t.Errorf("%s opened by %s, want %s", zone, op.Rule, zoneRuleID)
+	}
+	for _, tr := range trs {
+		if tr.Kind == fdd.KindDataQuality && tr.Rule == zoneRuleID {
+			t.Errorf("zone rule fed the data-quality fault: %+v", tr)
+		}
 	}
 }
