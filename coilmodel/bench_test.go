@@ -79,3 +79,43 @@ func BenchmarkInvertUA(b *testing.B) {
 	}
 	cpu.report(b)
 }
+
+// BenchmarkRiseSensitivities: the rise and its airflow, water-flow and ln UA
+// sensitivities at the detector's steps (one full evaluation plus the
+// frozen-property partial re-computations); BenchmarkFourRuns is the same
+// by four full evaluations.
+func BenchmarkRiseSensitivities(b *testing.B) {
+	k, err := NewCalibrated(benchCoil(b))
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.ReportAllocs()
+	var sink float64
+	op := benchOp
+	cpu := startCPU()
+	for i := 0; b.Loop(); i++ {
+		op.WaterFlowM3s = benchOp.WaterFlowM3s * (1 + float64(i&7)*0.01)
+		s := k.RiseSensitivities(op, 1, fddSteps(op))
+		sink += s.RiseK + s.DLnUA
+	}
+	cpu.report(b)
+	_ = sink
+}
+
+func BenchmarkFourRuns(b *testing.B) {
+	k, err := NewCalibrated(benchCoil(b))
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.ReportAllocs()
+	var sink float64
+	op := benchOp
+	cpu := startCPU()
+	for i := 0; b.Loop(); i++ {
+		op.WaterFlowM3s = benchOp.WaterFlowM3s * (1 + float64(i&7)*0.01)
+		s := forward(k, op, 1, fddSteps(op))
+		sink += s.RiseK + s.DLnUA
+	}
+	cpu.report(b)
+	_ = sink
+}
