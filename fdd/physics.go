@@ -200,27 +200,43 @@ func (e *evaluation) taylor(v, eat, mw, thw float64) float64 {
 	return e.f + e.dV*(v-e.v) + e.dE*(eat-e.eat) + e.dM*(mw-e.mw) + e.dT*(thw-e.thw)
 }
 
-// evaluate runs the model at the inputs and forward differences for the
-// sensitivities (4 evaluations; the UA one uses the riser at UA × 1.05).
+// evaluate runs the model at the inputs with forward differences for the
+// sensitivities: airflow + 2 %, water flow + 2 % (+ 1e−8 m³/s) and UA ×
+// uaStep, where rUA is r at UA × uaStep (how the engine builds them). A
+// calibrated coil (scaledRiser, *coilmodel.Calibrated) gives all three from
+// one model evaluation (Calibrated.RiseSensitivities: the perturbed points
+// re-compute only what their input changes, with the base evaluation's
+// fluid properties); any other riser takes four evaluations, the UA one
+// with rUA.
 func evaluate(r, rUA riser, v, eat, mw, thw float64) evaluation {
 	op := coilmodel.Operating{AirflowM3s: v, EnteringAirC: eat, WaterFlowM3s: mw, EnteringWaterC: thw}
-	f := r.ExpectedRise(op)
-	e := evaluation{ok: true, v: v, eat: eat, mw: mw, thw: thw, f: f}
 	hv := 0.02 * v
-	o := op
-	o.AirflowM3s = v + hv
-	e.dV = (r.ExpectedRise(o) - f) / hv
+	hm := 0.02*mw + 1e-8
+	var s coilmodel.Sensitivities
+	steps := coilmodel.SensitivitySteps{AirflowM3s: hv, WaterFlowM3s: hm, UAFactor: uaStep}
+	switch k := r.(type) {
+	case scaledRiser:
+		s = k.k.RiseSensitivities(op, k.ua, steps)
+	case *coilmodel.Calibrated:
+		s = k.RiseSensitivities(op, k.UAMultiplier(), steps)
+	default:
+		s.RiseK = r.ExpectedRise(op)
+		o := op
+		o.AirflowM3s = v + hv
+		s.DAirflow = (r.ExpectedRise(o) - s.RiseK) / hv
+		o = op
+		o.WaterFlowM3s = mw + hm
+		s.DWaterFlow = (r.ExpectedRise(o) - s.RiseK) / hm
+		s.DLnUA = (rUA.ExpectedRise(op) - s.RiseK) / math.Log(uaStep)
+	}
+	f := s.RiseK
+	e := evaluation{ok: true, v: v, eat: eat, mw: mw, thw: thw, f: f, dV: s.DAirflow, dM: s.DWaterFlow, dLU: s.DLnUA}
 	// Temperatures: ΔT_air = P·(T_hw − EAT) with the effectiveness P nearly
 	// independent of the inlet temperatures (properties vary little over the
 	// trust region), so ∂f/∂T_hw = f/(T_hw − EAT) = −∂f/∂EAT.
 	if d := thw - eat; math.Abs(d) > 1e-3 {
 		e.dT, e.dE = f/d, -f/d
 	}
-	hm := 0.02*mw + 1e-8
-	o = op
-	o.WaterFlowM3s = mw + hm
-	e.dM = (r.ExpectedRise(o) - f) / hm
-	e.dLU = (rUA.ExpectedRise(op) - f) / math.Log(uaStep)
 	if !finite(f) || !finite(e.dV) || !finite(e.dE) || !finite(e.dM) || !finite(e.dT) || !finite(e.dLU) {
 		return evaluation{}
 	}
