@@ -3,8 +3,10 @@
 // either directly on that port or behind a simulated BACnet/IP router on
 // remote networks. Devices hold analog/binary objects and trend logs that
 // fill as the caller advances time, and can misbehave on purpose (silence,
-// slow replies, Reject of ReadPropertyMultiple, segmented answers,
-// duplicated and malformed packets). It reuses collector/bacnet/wire.
+// slow replies, Reject of ReadPropertyMultiple, ReadRange by time refused
+// or answered without its first sequence number or by a search that takes
+// the log's stamps to ascend, a trend-log clock stepped back, segmented
+// answers, duplicated and malformed packets). It reuses collector/bacnet/wire.
 package bacnetdev
 
 import (
@@ -25,6 +27,27 @@ type Misbehaviour struct {
 	DropFirst      int           // the first N confirmed requests are ignored (forces retries)
 	// DropSegmentACKs ignores this many Segment-ACKs (forces window resends).
 	DropSegmentACKs int
+	// RejectReadRangeByTime answers a ReadRange by time (ASHRAE 135 clause
+	// 15.8.1.1.4.3) with Reject invalid-tag, as a device of a revision
+	// before that choice ([7]) does; by position and by sequence number
+	// are answered.
+	RejectReadRangeByTime bool
+	// ErrorReadRangeByTime answers a ReadRange by time with Error
+	// services/optional-functionality-not-supported.
+	ErrorReadRangeByTime bool
+	// OmitFirstSeqByTime leaves the first-sequence-number out of answers
+	// to ReadRange by time (it is required there when items are returned).
+	OmitFirstSeqByTime bool
+	// ByTimeBisect finds a ReadRange by time's reference by bisection, as
+	// a device that takes its log's stamps to ascend does: on a log whose
+	// clock stepped back (ClockOffset lowered) the answer may start after
+	// records stamped later than the reference. Without it the buffer is
+	// searched from the oldest record (by count > 0) or the newest (< 0).
+	ByTimeBisect bool
+	// ClockOffset is added to the stamp of every record logged from now on
+	// (Advance and Record): lowering it steps the trend logs' clock back,
+	// so records later in sequence are stamped earlier.
+	ClockOffset time.Duration
 }
 
 // DeviceConfig describes one simulated device.
@@ -210,11 +233,12 @@ func (d *Device) Advance(now time.Time) {
 			continue
 		}
 		l.last = now
-		d.appendRecord(l, now, o.Value, o.Flags)
+		d.appendRecord(l, now.Add(d.cfg.ClockOffset), o.Value, o.Flags)
 	}
 }
 
-// Record appends one record to a trend log directly.
+// Record appends one record to a trend log directly, stamped at (plus
+// ClockOffset when set).
 func (d *Device) Record(trendLog uint32, at time.Time, v float64, flags [4]bool) error {
 	d.mu.Lock()
 	defer d.mu.Unlock()
@@ -222,8 +246,38 @@ func (d *Device) Record(trendLog uint32, at time.Time, v float64, flags [4]bool)
 	if !ok {
 		return fmt.Errorf("bacnetdev: device %d has no trend-log %d", d.cfg.Instance, trendLog)
 	}
-	d.appendRecord(l, at, v, flags)
+	d.appendRecord(l, at.Add(d.cfg.ClockOffset), v, flags)
 	return nil
+}
+
+// StoredRecord is one record a trend log holds, as the device stores it.
+type StoredRecord struct {
+	Seq   uint32
+	At    time.Time
+	Value float64 // the stored REAL (float32) widened
+	Flags [4]bool // in-alarm, fault, overridden, out-of-service
+}
+
+// TrendRecords returns the records a trend log holds, oldest first (for
+// tests that check what a reader delivered against the device).
+func (d *Device) TrendRecords(trendLog uint32) ([]StoredRecord, error) {
+	d.mu.Lock()
+	defer d.mu.Unlock()
+	l, ok := d.logs[trendLog]
+	if !ok {
+		return nil, fmt.Errorf("bacnetdev: device %d has no trend-log %d", d.cfg.Instance, trendLog)
+	}
+	n := l.count()
+	oldest := l.total - uint32(n) + 1
+	out := make([]StoredRecord, n)
+	for i := range out {
+		r := l.rec(i)
+		out[i] = StoredRecord{Seq: oldest + uint32(i), At: time.Unix(0, r.at).In(d.cfg.Location), Value: float64(r.value)}
+		for b := range out[i].Flags {
+			out[i].Flags[b] = r.flags&(1<<b) != 0
+		}
+	}
+	return out, nil
 }
 
 func (d *Device) appendRecord(l *trendLog, at time.Time, v float64, flags [4]bool) {

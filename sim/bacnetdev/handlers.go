@@ -72,6 +72,14 @@ func (s *Server) confirmed(d *Device, rp reply, a wire.APDU) {
 			reject(wire.RejectInvalidTag)
 			return
 		}
+		if q.Kind == wire.RangeByTime && m.RejectReadRangeByTime {
+			reject(wire.RejectInvalidTag)
+			return
+		}
+		if q.Kind == wire.RangeByTime && m.ErrorReadRangeByTime {
+			fail(&wire.PropertyError{Class: wire.ErrClassServices, Code: wire.ErrCodeOptionalNotSupported})
+			return
+		}
 		budget := respMax - ackHeader - 24
 		if a.SegmentedAccepted && d.cfg.Segmentation.CanTransmit() {
 			budget = (respMax - ackHeader) * min(maxSegs(a.MaxSegments), 16)

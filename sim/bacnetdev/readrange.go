@@ -2,6 +2,7 @@ package bacnetdev
 
 import (
 	"slices"
+	"sort"
 
 	"risewatch/collector/bacnet/wire"
 )
@@ -45,14 +46,23 @@ func (d *Device) readRange(q wire.ReadRangeRequest, budget int) (wire.ReadRangeA
 			return wire.ReadRangeACK{}, &wire.PropertyError{Class: wire.ErrClassServices, Code: 37} // value-out-of-range
 		}
 		ref := refT.UnixNano()
-		if q.Count > 0 {
+		switch {
+		case d.cfg.ByTimeBisect && q.Count > 0:
+			if i := sort.Search(n, func(i int) bool { return l.rec(i).at > ref }); i < n {
+				lo, hi = span(int64(i), q.Count, n)
+			}
+		case d.cfg.ByTimeBisect:
+			if i := sort.Search(n, func(i int) bool { return l.rec(i).at >= ref }) - 1; i >= 0 {
+				lo, hi = span(int64(i), q.Count, n)
+			}
+		case q.Count > 0:
 			for i := 0; i < n; i++ {
 				if l.rec(i).at > ref {
 					lo, hi = span(int64(i), q.Count, n)
 					break
 				}
 			}
-		} else {
+		default:
 			for i := n - 1; i >= 0; i-- {
 				if l.rec(i).at < ref {
 					lo, hi = span(int64(i), q.Count, n)
@@ -100,6 +110,9 @@ func (d *Device) readRange(q wire.ReadRangeRequest, budget int) (wire.ReadRangeA
 	ack.Flags.First, ack.Flags.Last = lo == 0, hi == n-1
 	if q.Kind == wire.RangeBySequence || q.Kind == wire.RangeByTime {
 		ack.FirstSeq, ack.HasFirstSeq = oldest+uint32(lo), true
+		if q.Kind == wire.RangeByTime && d.cfg.OmitFirstSeqByTime {
+			ack.HasFirstSeq = false
+		}
 	}
 	return ack, nil
 }
