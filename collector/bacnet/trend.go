@@ -275,15 +275,29 @@ func (r *TrendReader) open(ctx context.Context, d *Device, tl uint32) (*trendCur
 // later than meant), and a minute more for rounding.
 const untiedMargin = time.Hour + time.Minute
 
+// untiedStepBack is how far back of the reference untiedResume checks the
+// records before a resume point the device named: a single step back of
+// the log's clock (records later in sequence stamped earlier) of up to
+// this much is always seen. It covers a device logging wall time across
+// the end of summer time (an hour) and clock corrections (seconds to
+// minutes) with room to spare; each untied log is checked once, so the
+// cost is two hours of records, at most what reading from the oldest
+// record would cost.
+const untiedStepBack = 2 * time.Hour
+
 // untiedResume is where a log read for a Progress resumes from an untied
 // stored position next (oldest < next ≤ newest + 1): next when no record
-// before it is stamped at or after readFrom − untiedMargin, else the
-// first record that is. The device finds it: ReadRange by time (ASHRAE
-// 135 clause 15.8.1.1.4.3) with a count of 1 answers the first record in
-// the buffer stamped after the reference time, and every record before it
-// is older. When that cannot be told (no watermark stored, the device
-// refuses or answers without a first sequence number) it is the oldest
-// record: reading again is safe (the assembler drops the steps before the
+// before it is stamped after ref = readFrom − untiedMargin, else the first
+// record that is. The device finds it: ReadRange by time (ASHRAE 135
+// clause 15.8.1.1.4.3) with a count of 1 answers the first record in the
+// buffer stamped after the reference time. On a log whose clock stepped
+// back that need not be the first in sequence (a device that bisects its
+// buffer, taking the stamps to ascend, may name one after records stamped
+// later than ref), so the records before the resume point are checked
+// (untiedChecked). When that cannot be told (no watermark stored, the
+// device refuses or answers without a first sequence number, the check
+// fails or finds a record stamped after ref) it is the oldest record:
+// reading again is safe (the assembler drops the steps before the
 // watermark), skipping is not.
 func (r *TrendReader) untiedResume(ctx context.Context, c *trendCursor, next, oldest uint32) uint32 {
 	from, ok := time.Time{}, false
@@ -293,25 +307,71 @@ func (r *TrendReader) untiedResume(ctx context.Context, c *trendCursor, next, ol
 	if !ok {
 		return oldest
 	}
-	rd, rt := wire.DateTimeOf(from.Add(-untiedMargin).In(c.loc))
+	ref := from.Add(-untiedMargin).In(c.loc)
+	rd, rt := wire.DateTimeOf(ref)
 	ack, err := r.Client.ReadRange(ctx, c.d, wire.ReadRangeRequest{Object: c.obj,
 		PropertyRef: wire.PropertyRef{Prop: wire.PropLogBuffer, Index: wire.NoIndex},
 		Kind:        wire.RangeByTime, RefDate: rd, RefTime: rt, Count: 1})
+	at := next
 	switch {
 	case err != nil:
 		return oldest
 	case ack.ItemCount == 0 && !ack.Flags.More:
-		return next // every record predates the reference
+		// every record predates the reference
 	case ack.ItemCount == 0 || !ack.HasFirstSeq:
 		return oldest
-	}
-	switch first := ack.FirstSeq; {
-	case int32(first-oldest) < 0:
+	case int32(ack.FirstSeq-oldest) < 0:
 		return oldest // the buffer moved on since the counts were read
-	case int32(first-next) < 0:
-		return first
+	case int32(ack.FirstSeq-next) < 0:
+		at = ack.FirstSeq
 	}
-	return next
+	if !r.untiedChecked(ctx, c, at, oldest, ref) {
+		return oldest
+	}
+	return at
+}
+
+// untiedChecked reports whether the records before at (oldest < at) are
+// stamped at or before ref, reading them by sequence number backward from
+// at − 1 (count −Page, ASHRAE 135 clause 15.8.1.1.4.2) until the oldest
+// record or one stamped at or before ref − untiedStepBack; every record
+// read must be at or before ref. That sees any single step back of the
+// clock of up to untiedStepBack before at that left a record stamped
+// after ref before the step: the records between the step and at are
+// stamped from the step's new time on, later than ref − untiedStepBack,
+// so the read goes past the step and meets that record. A record stamped
+// after ref before the oldest one read needs the clock to have stepped
+// back by more than untiedStepBack in all (plus the time logged) between
+// the two. A device that answers out of order (not ending at the record
+// asked for, no first sequence number) fails the check. Stamps in the
+// repeated hour after a change from summer time may be read an hour off;
+// ref is untiedMargin before readFrom, so a record at or after readFrom is
+// still seen after ref (near that hour the check may fail where it need
+// not: the log is then read from its oldest record).
+func (r *TrendReader) untiedChecked(ctx context.Context, c *trendCursor, at, oldest uint32, ref time.Time) bool {
+	floor := ref.Add(-untiedStepBack)
+	for last := at - 1; int32(last-oldest) >= 0; {
+		ack, err := r.Client.ReadRange(ctx, c.d, wire.ReadRangeRequest{Object: c.obj,
+			PropertyRef: wire.PropertyRef{Prop: wire.PropLogBuffer, Index: wire.NoIndex},
+			Kind:        wire.RangeBySequence, Ref: last, Count: -c.page})
+		n := uint32(len(ack.Records))
+		if err != nil || n == 0 || !ack.HasFirstSeq || ack.FirstSeq+n-1 != last || int32(ack.FirstSeq-oldest) < 0 {
+			return false
+		}
+		reached := false
+		for _, l := range ack.Records {
+			t, err := wire.ToTime(l.Date, l.Time, c.loc)
+			if err != nil || t.After(ref) {
+				return false
+			}
+			reached = reached || !t.After(floor)
+		}
+		if reached {
+			return true
+		}
+		last = ack.FirstSeq - 1
+	}
+	return true // back to the oldest record
 }
 
 // fetch reads the next page (at least one record unless it sets done).

@@ -3,6 +3,7 @@ package bacnet
 import (
 	"cmp"
 	"errors"
+	"fmt"
 	"slices"
 	"strconv"
 	"testing"
@@ -223,5 +224,164 @@ func TestTrendUpgradeWithByTimeRefused(t *testing.T) {
 			d.SetMisbehaviour(bacnetdev.Misbehaviour{})
 		}
 		sameWMSteps(t, w.out, cleanWM(t, rg))
+	}
+}
+
+// TestTrendUntiedClockSteppedBack: the controllers' clock steps back
+// three hours after 400 minutes of logging (records later in sequence
+// stamped earlier) and they bisect their buffers to answer ReadRange by
+// time, so the record they name for the reference follows records
+// stamped after it, some of them at or after readFrom. Resuming there
+// would skip those; every log must be read from a point before every
+// record stamped after the reference. With no step (the control) the
+// device's answer is checked and kept.
+func TestTrendUntiedClockSteppedBack(t *testing.T) {
+	for _, tc := range []struct {
+		name string
+		step time.Duration
+	}{
+		{"clock stepped back 3 h", 3 * time.Hour},
+		{"no step", 0},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			rg := newWMRig(t, 2000)
+			rg.log(t, 400)
+			m := bacnetdev.Misbehaviour{ByTimeBisect: true, ClockOffset: -tc.step}
+			for _, d := range rg.devs {
+				d.SetMisbehaviour(m)
+			}
+			rg.log(t, 200) // stamped minutes 400..599 less the step
+			// readFrom minute 379, the reference 318: with the step the
+			// records of minutes 319..399 precede those of minutes
+			// 220..419 in sequence.
+			br := newByTimeRig(t, rg, 400)
+			recs := deviceRecords(t, rg, wmLogs[0])
+			exact, ok := firstAfter(recs, br.ref)
+			if !ok {
+				t.Fatal("no record after the reference")
+			}
+			ack, err := br.byTime(t)
+			if err != nil || !ack.HasFirstSeq {
+				t.Fatalf("by-time answer %+v, %v", ack, err)
+			}
+			if tc.step > 0 {
+				// The device's answer comes after records stamped at or
+				// after readFrom: resuming there loses them.
+				if !slices.ContainsFunc(recs, func(r bacnetdev.StoredRecord) bool {
+					return int32(r.Seq-ack.FirstSeq) < 0 && !r.At.Before(br.readFrom)
+				}) {
+					t.Fatalf("by-time answer %d (first after the reference %d): no record before it at or after readFrom; the case shows nothing", ack.FirstSeq, exact)
+				}
+			} else if ack.FirstSeq != exact {
+				t.Fatalf("by-time answer %d on an ascending log, want %d", ack.FirstSeq, exact)
+			}
+			res, got := br.sweep(t)
+			for li, l := range wmLogs {
+				recs := deviceRecords(t, rg, l)
+				exact, ok := firstAfter(recs, br.ref)
+				if !ok {
+					t.Fatalf("%s: no record after the reference", l.name)
+				}
+				r := res[TrendKey(l.dev, l.tl)]
+				if int32(r.FirstSeq-exact) > 0 {
+					t.Fatalf("%s: sweep from record %d skips records %d..%d, the first stamped after the reference is %d", l.name, r.FirstSeq, exact, r.FirstSeq-1, exact)
+				}
+				// The device's answer, checked and kept, or the oldest record
+				// when the check found the step (always on the 1-min log,
+				// whose answer was seen to skip above).
+				switch {
+				case tc.step == 0 && r.FirstSeq != exact:
+					t.Fatalf("%s: sweep from record %d on an ascending log, want the device's answer %d", l.name, r.FirstSeq, exact)
+				case tc.step > 0 && r.FirstSeq != recs[0].Seq && (r.FirstSeq != exact || li == 0):
+					t.Fatalf("%s: sweep from record %d, want the oldest %d", l.name, r.FirstSeq, recs[0].Seq)
+				}
+				sameAsDevice(t, l, r, got[l.name], recs, r.FirstSeq)
+			}
+		})
+	}
+}
+
+// TestTrendUntiedStepBackOverPages: the check of a by-time answer reads
+// back as far as it must, page by page. A device without segmentation
+// (answers of about 20 records) logs every 20 s; its clock steps back
+// 100 min (less than untiedStepBack), and the record it names by
+// bisection lies about 90 records after the step: the records between
+// the two, all stamped at or before the reference, fill several pages
+// before the check reaches the step's earlier records, stamped after it.
+// The log must be read from its oldest record. Without the step the
+// check stops two hours before the reference and the answer is kept.
+// Both hold for an untied position after the device's answer (the answer
+// is checked) and between the step and the answer (the position is).
+func TestTrendUntiedStepBackOverPages(t *testing.T) {
+	t0 := time.Date(2025, 10, 6, 0, 0, 0, 0, time.UTC)
+	at := func(k int) time.Time { return t0.Add(time.Duration(k) * 20 * time.Second) } // record k+1 before the step
+	readFrom := t0.Add(490 * time.Minute)
+	ref := readFrom.Add(-untiedMargin)
+	for _, tc := range []struct {
+		step   time.Duration
+		stored uint32 // the untied position: after the device's answer, or between the step and it
+	}{{100 * time.Minute, 2090}, {100 * time.Minute, 1550}, {0, 2090}, {0, 1550}} {
+		step := tc.step
+		t.Run(fmt.Sprintf("step back %s from seq %d", step, tc.stored), func(t *testing.T) {
+			s, d := newSim(t, bacnetdev.DeviceConfig{Instance: 80, MaxAPDU: 480, Segmentation: wire.NoSegmentation,
+				Misbehaviour: bacnetdev.Misbehaviour{ByTimeBisect: true}}, 1)
+			d.AddTrendLog(bacnetdev.TrendLogConfig{Instance: 1, Logged: ai(1), BufferSize: 3000})
+			for k := 0; k < 2100; k++ {
+				if k == 1500 { // minute 500
+					d.SetMisbehaviour(bacnetdev.Misbehaviour{ByTimeBisect: true, ClockOffset: -step})
+				}
+				if err := d.Record(1, at(k), float64(k), [4]bool{}); err != nil {
+					t.Fatal(err)
+				}
+			}
+			recs, err := d.TrendRecords(1)
+			if err != nil || len(recs) != 2100 {
+				t.Fatalf("%d records, %v", len(recs), err)
+			}
+			exact, _ := firstAfter(recs, ref)
+			c := newClient(t, Options{Timeout: time.Second, Retries: 1})
+			dev := c.AddDevice(80, Address{IP: s.Addr()})
+			ck := &MemCheckpoints{}
+			if err := ck.Put(TrendKey(80, 1), trendPosition{Seq: tc.stored}.encode()); err != nil {
+				t.Fatal(err)
+			}
+			tr := &TrendReader{Client: c, Checkpoints: ck, Page: 100,
+				known:    func(string) (uint32, bool) { return 0, false },
+				readFrom: func() (time.Time, bool) { return readFrom, true }}
+			var got []TrendRecord
+			res, err := tr.Backfill(ctxT(t), dev, 1, func(rs []TrendRecord) error { got = append(got, rs...); return nil })
+			if err != nil {
+				t.Fatal(err)
+			}
+			if step == 0 {
+				if res.FirstSeq != exact || int(exact) < 6*60*3 {
+					t.Fatalf("ascending log: read from record %d, want the device's answer %d", res.FirstSeq, exact)
+				}
+			} else {
+				// The device's answer (bisected: the record after the
+				// reference past the step, some pages of records after it)
+				// follows records stamped at or after readFrom.
+				rd, rt := wire.DateTimeOf(ref)
+				ack, err := c.ReadRange(ctxT(t), dev, wire.ReadRangeRequest{Object: wire.ObjectID{Type: wire.ObjectTrendLog, Instance: 1},
+					PropertyRef: wire.PropertyRef{Prop: wire.PropLogBuffer, Index: wire.NoIndex},
+					Kind:        wire.RangeByTime, RefDate: rd, RefTime: rt, Count: 1})
+				answer := ack.FirstSeq
+				if err != nil || !ack.HasFirstSeq || answer-1500 < 3*20 || recs[1499].At.Before(readFrom) || tc.stored < 1500 {
+					t.Fatalf("by-time answer %+v, %v: the case shows nothing", ack, err)
+				}
+				if res.FirstSeq != recs[0].Seq {
+					t.Fatalf("log stepped back: read from record %d (the device names %d), want the oldest %d", res.FirstSeq, answer, recs[0].Seq)
+				}
+			}
+			if res.Lost != 0 || res.LastSeq != 2100 || len(got) != int(2100-res.FirstSeq+1) {
+				t.Fatalf("backfill %+v, %d records delivered", res, len(got))
+			}
+			for i, r := range got {
+				want := recs[int(res.FirstSeq)-1+i]
+				if r.Seq != want.Seq || !r.At.Equal(want.At) || r.Value != want.Value {
+					t.Fatalf("record %d: %d %s %v, the device's %d %s %v", i, r.Seq, r.At, r.Value, want.Seq, want.At, want.Value)
+				}
+			}
+		})
 	}
 }
