@@ -99,8 +99,8 @@ func (en *Engine) evaluationNear(st *termState, v, eat, mw, thw float64) *evalua
 // a few per cent of command, a large share of a small flow), so a bin needs
 // more than one anchor. On the demo campus over distinct days (days 3-8 of
 // the scenario) 16 slots need 0.010 evaluations per terminal-sample where
-// one per bin and two spare (8) needed 0.017; each evaluation is four model
-// runs. Power of two: the replacement index wraps with a mask.
+// one per bin and two spare (8) needed 0.017; an evaluation costs about 1.8
+// model runs (RiseSensitivities). Power of two: the index wraps with a mask.
 const evalCache = 16
 
 // residualVar is the variance of the residual r = DAT − SAT − g − f(V, SAT+g,
