@@ -25,28 +25,8 @@ const zoneRuleID = "sensor-zone-implausible"
 // after its clear persistence once the readings are plausible, and never
 // open on box 3.
 func TestZoneImplausibleRule(t *testing.T) {
-	s := testSite(1, 3)
-	for i := 0; i < 2; i++ {
-		tm := &s.Terminals[i]
-		tm.Points.ZoneTemp = site.PointRef{Name: tm.ID + ".ZNT", Kind: site.PointTrendColumn}
-		tm.Points.ZoneSetpoint = site.PointRef{Name: tm.ID + ".ZNSP", Kind: site.PointTrendColumn}
-	}
-	en, err := fdd.NewEngine(s, fdd.DefaultConfig())
-	if err != nil {
-		t.Fatal(err)
-	}
-	rs, err := Default()
-	if err != nil {
-		t.Fatal(err)
-	}
-	r, ok := rs.Rule(zoneRuleID)
-	if !ok {
-		t.Fatalf("no built-in rule %s", zoneRuleID)
-	}
-	ev, err := NewEvaluator(s, rs)
-	if err != nil {
-		t.Fatal(err)
-	}
+	s, en, r, ev := zoneRig(t, 3, 2)
+	var err error
 	const badFrom, badTo, end = 20, 80, 200
 	var trs []Transition
 	smp := make([]collector.Sample, 3)
@@ -119,24 +99,10 @@ func TestZoneImplausibleRule(t *testing.T) {
 // zone-sensor kind, which is a different device; and the zone finding is
 // not folded into the box's data-quality fault.
 func TestZoneSensorOwnFault(t *testing.T) {
-	s := testSite(1, 1)
+	s, en, r, ev := zoneRig(t, 1, 1)
 	tm := &s.Terminals[0]
-	tm.Points.ZoneTemp = site.PointRef{Name: tm.ID + ".ZNT", Kind: site.PointTrendColumn}
-	tm.Points.ZoneSetpoint = site.PointRef{Name: tm.ID + ".ZNSP", Kind: site.PointTrendColumn}
-	en, err := fdd.NewEngine(s, fdd.DefaultConfig())
-	if err != nil {
-		t.Fatal(err)
-	}
-	rs, err := Default()
-	if err != nil {
-		t.Fatal(err)
-	}
-	if r, ok := rs.Rule(zoneRuleID); !ok || r.Kind != fdd.KindZoneSensor.String() {
+	if r.Kind != fdd.KindZoneSensor.String() {
 		t.Fatalf("built-in rule %s: kind %v, want %v", zoneRuleID, r.Kind, fdd.KindZoneSensor)
-	}
-	ev, err := NewEvaluator(s, rs)
-	if err != nil {
-		t.Fatal(err)
 	}
 	var trs []Transition
 	smp := make([]collector.Sample, 1)
@@ -166,4 +132,34 @@ func TestZoneSensorOwnFault(t *testing.T) {
 			t.Errorf("zone rule fed the data-quality fault: %+v", tr)
 		}
 	}
+}
+
+// zoneRig is a site of n boxes on one loop whose first configured boxes
+// have zone temperature and heating setpoint points, the fdd engine and the
+// built-in rules' evaluator over it, and the built-in zone rule.
+func zoneRig(t *testing.T, n, configured int) (*site.Site, *fdd.Engine, Rule, *Evaluator) {
+	t.Helper()
+	s := testSite(1, n)
+	for i := 0; i < configured; i++ {
+		tm := &s.Terminals[i]
+		tm.Points.ZoneTemp = site.PointRef{Name: tm.ID + ".ZNT", Kind: site.PointTrendColumn}
+		tm.Points.ZoneSetpoint = site.PointRef{Name: tm.ID + ".ZNSP", Kind: site.PointTrendColumn}
+	}
+	en, err := fdd.NewEngine(s, fdd.DefaultConfig())
+	if err != nil {
+		t.Fatal(err)
+	}
+	rs, err := Default()
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, ok := rs.Rule(zoneRuleID)
+	if !ok {
+		t.Fatalf("no built-in rule %s", zoneRuleID)
+	}
+	ev, err := NewEvaluator(s, rs)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return s, en, r, ev
 }
