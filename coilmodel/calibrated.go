@@ -28,7 +28,7 @@ func (k *Calibrated) UAMultiplier() float64 { return k.m.uaMult }
 // ExpectedRise is the air temperature rise LAT − EAT (K) at op, the same
 // value Rate gives. Zero or negative water flow gives 0; zero airflow gives
 // EWT − EAT. It does not validate op (call op.Validate at the edge); a NaN
-// input gives NaN. No allocations.
+// flow or temperature in op gives NaN. No allocations.
 func (k *Calibrated) ExpectedRise(op Operating) float64 {
 	return k.ExpectedRiseWith(op, k.m.uaMult, 1)
 }

@@ -128,6 +128,8 @@ func (m *model) eval(f flows, uaMult float64, st *state) {
 	if !(f.mAir > 0) || !(f.qWater > 0) {
 		st.latC, st.lwtC = f.eat, f.ewt
 		switch {
+		case f.mAir != f.mAir || f.qWater != f.qWater: // a NaN flow: no rating
+			st.latC, st.lwtC = math.NaN(), math.NaN()
 		case f.mAir > 0: // no water: the coil settles at the air temperature
 			st.lwtC = f.eat
 		case f.qWater > 0: // no air: still air reaches the water temperature

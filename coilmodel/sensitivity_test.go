@@ -393,3 +393,32 @@ func TestRiseSensitivitiesNoAllocs(t *testing.T) {
 	}
 	_ = sink
 }
+
+// TestExpectedRiseNaNInputs: as the ExpectedRise doc says, a NaN in the
+// operating point (either flow, either temperature) gives a NaN rise.
+// Before this held, a NaN airflow took the still-air branch and gave
+// EWT − EAT.
+func TestExpectedRiseNaNInputs(t *testing.T) {
+	nan := math.NaN()
+	for _, c := range sensCoils(t) {
+		for name, edit := range map[string]func(*Operating){
+			"airflow":    func(o *Operating) { o.AirflowM3s = nan },
+			"water flow": func(o *Operating) { o.WaterFlowM3s = nan },
+			"both flows": func(o *Operating) { o.AirflowM3s, o.WaterFlowM3s = nan, nan },
+			"NaN air, no water": func(o *Operating) {
+				o.AirflowM3s, o.WaterFlowM3s = nan, 0
+			},
+			"no air, NaN water": func(o *Operating) {
+				o.AirflowM3s, o.WaterFlowM3s = 0, nan
+			},
+			"EAT": func(o *Operating) { o.EnteringAirC = nan },
+			"EWT": func(o *Operating) { o.EnteringWaterC = nan },
+		} {
+			op := ipOp(500, 55, 1.5, 180)
+			edit(&op)
+			if r := c.k.ExpectedRise(op); !math.IsNaN(r) {
+				t.Errorf("%s, NaN %s: rise %v, want NaN", c.name, name, r)
+			}
+		}
+	}
+}
