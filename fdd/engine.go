@@ -148,6 +148,7 @@ func (en *Engine) initTerminal(i int, pf physicsFactory) {
 		ts.fanPoint = s.AHUs[ai].FanStatus.Defined()
 	}
 	ts.zonePoint, ts.zoneSetPoint = t.Points.ZoneTemp.Defined(), t.Points.ZoneSetpoint.Defined()
+	ts.zoneStaleRun = uint16(min(en.cfg.stepsFor(zoneStaleMinutes), math.MaxUint16))
 	maxA := math.Max(t.MaxAirflowM3s, t.HeatingAirflowM3s)
 	if maxA > 0 {
 		ts.maxAirM3s = 3 * maxA // far above any box's cooling maximum [I]

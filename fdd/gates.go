@@ -45,8 +45,15 @@ const (
 	zoneSetSpanBits = 0x4041800000000000 - zoneSetMinBits // math.Float64bits(collector.ZoneSetMaxC) − zoneSetMinBits, 35
 )
 
+// zoneStaleMinutes is how long the zone readings may stay implausible
+// before the zone deficit they last gave is forgotten: two time constants of
+// its 15-minute EWMA [I]. A loop is then judged as for a terminal without
+// zone points (the deficit unknown), not on a room condition an hour old.
+const zoneStaleMinutes = 30
+
 // zoneRuns updates the zone runs of a sample that failed the bit-pattern
-// test and reports whether both readings are plausible.
+// test and reports whether both readings are plausible. A run reaching
+// termStatic.zoneStaleRun clears the zone deficit.
 func zoneRuns(s *collector.Sample, t *termStatic, st *termState) bool {
 	zok, sok := s.ZoneOK(), s.ZoneSetOK()
 	reporting := s.Flags&(collector.FlagAirflow|collector.FlagValve) == 0
@@ -61,6 +68,9 @@ func zoneRuns(s *collector.Sample, t *termStatic, st *termState) bool {
 		st.zoneSetBadRun = 0
 	case implausible(s.Flags&collector.FlagZoneSet == 0, s.ZoneSetC, t.zoneSetPoint, reporting):
 		st.zoneSetBadRun++
+	}
+	if r := int(t.zoneStaleRun); st.zoneBadRun == r || st.zoneSetBadRun == r {
+		st.zoneDef = newEWMA()
 	}
 	return zok && sok
 }

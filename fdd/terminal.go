@@ -26,6 +26,10 @@ type termStatic struct {
 	hwPoint    bool    // loop defines a supply temperature point
 
 	zonePoint, zoneSetPoint bool // the site configures the zone temperature (heating setpoint) point
+	// zoneStaleRun is the run of implausible zone readings (either one)
+	// after which the zone deficit is forgotten (zoneRuns), in steps; a
+	// uint16 fits the struct's padding.
+	zoneStaleRun uint16
 }
 
 // termState is the bounded running state of one terminal. Its size does not

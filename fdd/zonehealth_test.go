@@ -172,3 +172,66 @@ func TestZoneBitLimits(t *testing.T) {
 		}
 	}
 }
+
+// TestZoneDeficitForgottenWhenStale: while the zone readings are
+// implausible the deficit holds its last value, for zoneStaleMinutes; then
+// it is forgotten (NaN, as without zone points, so a loop is not judged on
+// a room condition of long ago), and the first plausible reading after
+// that starts it afresh. A shorter bad run keeps the deficit throughout.
+func TestZoneDeficitForgottenWhenStale(t *testing.T) {
+	s := testSite(t, 1, true)
+	s.Terminals[0].Points.ZoneTemp = site.PointRef{Name: "VAV-A0.ZNT", Kind: site.PointTrendColumn}
+	s.Terminals[0].Points.ZoneSetpoint = site.PointRef{Name: "VAV-A0.ZNSP", Kind: site.PointTrendColumn}
+	const start = 7 * 60 // 07:00, fan on (schedule 06:00-20:00)
+	run := func(badFrom, badTo int) []Evidence {
+		en, err := NewEngine(s, DefaultConfig())
+		if err != nil {
+			t.Fatal(err)
+		}
+		g := newGen(t, fNone, 3, t0.Add(48*time.Hour))
+		var out []Evidence
+		for k := -start; k < 120; k++ {
+			x := g.sample(0, t0.Add(time.Duration(k+start)*time.Minute), 0)
+			x.Flags &^= collector.FlagZone | collector.FlagZoneSet
+			x.ZoneC, x.ZoneSetC = 22.5, 21 // a met zone: deficit −1.5 K
+			if k >= badFrom && k < badTo {
+				x.ZoneC = -40 // open room sensor
+			} else if k >= badTo {
+				x.ZoneC = 19 // recovered, now 2 K short
+			}
+			ev := en.StepView([]collector.Sample{x})
+			if k >= 0 {
+				out = append(out, ev[0])
+			}
+		}
+		return out
+	}
+	// Step is 1 minute in the test site.
+	long := run(10, 10+zoneStaleMinutes+15)
+	for k, e := range long {
+		d := e.ZoneDeficitK
+		switch {
+		case k < 10+zoneStaleMinutes-1:
+			if math.Abs(d-(-1.5)) > 1e-9 {
+				t.Fatalf("minute %d: deficit %v, want the held −1.5 K", k, d)
+			}
+		case k < 10+zoneStaleMinutes+15:
+			if !math.IsNaN(d) {
+				t.Fatalf("minute %d (bad run %v min): deficit %v, want NaN (forgotten)", k, e.ZoneBadMinutes, d)
+			}
+		case k == 10+zoneStaleMinutes+15:
+			if d != 2 {
+				t.Fatalf("minute %d: first plausible reading gives deficit %v, want 2 K afresh", k, d)
+			}
+		}
+	}
+	short := run(10, 10+zoneStaleMinutes-5)
+	for k, e := range short[:10+zoneStaleMinutes-5] {
+		if math.Abs(e.ZoneDeficitK-(-1.5)) > 1e-9 {
+			t.Fatalf("short bad run, minute %d: deficit %v, want the held −1.5 K", k, e.ZoneDeficitK)
+		}
+	}
+	if d := short[len(short)-1].ZoneDeficitK; !(d > 1.5 && d < 2) {
+		t.Fatalf("short bad run: deficit at the end %v, want between the old −1.5 and the new 2 K, near 2", d)
+	}
+}
