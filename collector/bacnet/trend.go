@@ -134,8 +134,11 @@ type TrendReader struct {
 // checkpoint, passing them to deliver in pages, and moves the checkpoint
 // after each page deliver accepted. Records are never delivered twice and
 // never skipped silently: records the device overwrote before they were
-// read are counted in TrendResult.Lost. Without a checkpoint the whole
-// buffer is read.
+// read are counted in TrendResult.Lost; an answer that starts elsewhere
+// than asked while the device still holds the record asked for, or that
+// stops short of the newest record without more-items (a record left
+// out), ends the backfill with an error before its records are delivered.
+// Without a checkpoint the whole buffer is read.
 func (r *TrendReader) Backfill(ctx context.Context, d *Device, tl uint32, deliver func([]TrendRecord) error) (TrendResult, error) {
 	c, err := r.open(ctx, d, tl)
 	if err != nil {
@@ -196,21 +199,11 @@ func (r *TrendReader) open(ctx context.Context, d *Device, tl uint32) (*trendCur
 	if c.page <= 0 {
 		c.page = 100
 	}
-	st := r.Client.ReadMany(ctx, d, []Read{
-		{c.obj, wire.PropertyRef{Prop: wire.PropRecordCount, Index: wire.NoIndex}},
-		{c.obj, wire.PropertyRef{Prop: wire.PropTotalRecordCount, Index: wire.NoIndex}},
-	})
-	for _, s := range st {
-		if s.Err != nil {
-			c.done = true
-			return c, fmt.Errorf("device %d trend-log %d: %w", d.Instance, tl, s.Err)
-		}
-		if len(s.Values) != 1 || s.Values[0].Tag != wire.TagUnsigned {
-			c.done = true
-			return c, fmt.Errorf("device %d trend-log %d: record counts are not Unsigned", d.Instance, tl)
-		}
+	count, total, err := c.counts(ctx)
+	if err != nil {
+		c.done = true
+		return c, err
 	}
-	count, total := uint32(st[0].Values[0].U), uint32(st[1].Values[0].U)
 	if count == 0 {
 		c.done, c.empty = true, true
 		return c, nil
@@ -267,6 +260,23 @@ func (r *TrendReader) open(ctx context.Context, d *Device, tl uint32) (*trendCur
 	}
 	c.done = int32(c.newest-c.next) < 0
 	return c, nil
+}
+
+// counts reads the log's record-count and total-record-count.
+func (c *trendCursor) counts(ctx context.Context) (count, total uint32, err error) {
+	st := c.r.Client.ReadMany(ctx, c.d, []Read{
+		{c.obj, wire.PropertyRef{Prop: wire.PropRecordCount, Index: wire.NoIndex}},
+		{c.obj, wire.PropertyRef{Prop: wire.PropTotalRecordCount, Index: wire.NoIndex}},
+	})
+	for _, s := range st {
+		if s.Err != nil {
+			return 0, 0, fmt.Errorf("device %d trend-log %d: %w", c.d.Instance, c.tl, s.Err)
+		}
+		if len(s.Values) != 1 || s.Values[0].Tag != wire.TagUnsigned {
+			return 0, 0, fmt.Errorf("device %d trend-log %d: record counts are not Unsigned", c.d.Instance, c.tl)
+		}
+	}
+	return uint32(st[0].Values[0].U), uint32(st[1].Values[0].U), nil
 }
 
 // untiedMargin is how far before readFrom untiedResume asks the device:
@@ -396,11 +406,35 @@ func (c *trendCursor) fetch(ctx context.Context) ([]TrendRecord, error) {
 	if ack.HasFirstSeq {
 		first = ack.FirstSeq
 	}
-	if int32(first-c.next) > 0 {
-		c.res.Lost += uint64(first - c.next) // wrapped past us between reads
-	} else if first != c.next {
+	if int32(first-c.next) < 0 {
 		c.done = true
 		return nil, fmt.Errorf("device %d trend-log %d: asked from record %d, answer starts at %d", d.Instance, tl, c.next, first)
+	}
+	// An answer of fewer records than asked, more-items unset, says it
+	// holds every record from first on (a device that cuts an answer to
+	// fit sets more-items): it ends at or after the newest record counted
+	// in open, as records only leave a log at its oldest end. One that ends
+	// before it left records out, and the records after the hole would
+	// take wrong sequence numbers (a hole in a full page cannot be seen).
+	n := uint32(len(ack.Records))
+	if end := first + n - 1; !ack.Flags.More && int32(n) < c.page && int32(end-c.newest) < 0 {
+		c.done = true
+		return nil, fmt.Errorf("device %d trend-log %d: answer of records %d..%d without more-items ends before record %d: records left out", d.Instance, tl, first, end, c.newest)
+	}
+	if int32(first-c.next) > 0 {
+		// Records next..first−1 were not sent: lost if the buffer wrapped
+		// past them since the counts were read, a faulty answer (shifted or
+		// misnumbered) if the device still holds any record before first.
+		count, total, err := c.counts(ctx)
+		if err != nil {
+			c.done = true
+			return nil, err
+		}
+		if oldest := total - count + 1; count == 0 || int32(oldest-first) < 0 {
+			c.done = true
+			return nil, fmt.Errorf("device %d trend-log %d: asked from record %d, answer starts at %d, yet the log holds records from %d", d.Instance, tl, c.next, first, oldest)
+		}
+		c.res.Lost += uint64(first - c.next) // wrapped past us between reads
 	}
 	recs := make([]TrendRecord, 0, len(ack.Records))
 	for i, l := range ack.Records {

@@ -48,6 +48,31 @@ type Misbehaviour struct {
 	// (Advance and Record): lowering it steps the trend logs' clock back,
 	// so records later in sequence are stamped earlier.
 	ClockOffset time.Duration
+	// BySeqShift moves the reference of a ReadRange by sequence number
+	// (ASHRAE 135 clause 15.8.1.1.4.2) this many records later (earlier
+	// when negative), clipped to the buffer, as a device that counts its
+	// records off by some does: a forward read (count > 0) starts, a
+	// backward one (count < 0) ends, that far from the record asked for.
+	// The first-sequence-number is that of the first record sent.
+	BySeqShift int32
+	// BySeqSkip leaves the record of this sequence number (0: none) out of
+	// answers to ReadRange by sequence number, as a device with a slot it
+	// cannot read does: the answer holds one record fewer, without
+	// more-items, and the first-sequence-number is that of the first
+	// record sent, so it and the record count disagree with the records
+	// around the hole.
+	BySeqSkip uint32
+	// BySeqFirstSeqOffset is added to the first-sequence-number of answers
+	// to ReadRange by sequence number (the records are the right ones), as
+	// a device that numbers its answers wrongly does. With BySeqShift set
+	// to its negation the answer names the record asked for but holds
+	// records shifted from it.
+	BySeqFirstSeqOffset int32
+	// BySeqBackwardOnly confines BySeqShift, BySeqSkip and
+	// BySeqFirstSeqOffset to ReadRange by sequence number with a negative
+	// count (records before the reference); forward reads are answered
+	// rightly.
+	BySeqBackwardOnly bool
 }
 
 // DeviceConfig describes one simulated device.

@@ -29,6 +29,8 @@ func (d *Device) readRange(q wire.ReadRangeRequest, budget int) (wire.ReadRangeA
 	}
 	n := l.count()
 	oldest := l.total - uint32(n) + 1
+	// faulty: the by-sequence misbehaviours apply to this request.
+	faulty := q.Kind == wire.RangeBySequence && (!d.cfg.BySeqBackwardOnly || q.Count < 0)
 	lo, hi := 0, -1 // inclusive index range, empty when hi < lo
 	switch q.Kind {
 	case wire.RangeAll:
@@ -38,7 +40,11 @@ func (d *Device) readRange(q wire.ReadRangeRequest, budget int) (wire.ReadRangeA
 	case wire.RangeBySequence:
 		off := q.Ref - oldest // modulo 2^32
 		if n > 0 && off < uint32(n) {
-			lo, hi = span(int64(off), q.Count, n)
+			ref := int64(off)
+			if faulty {
+				ref = min(max(ref+int64(d.cfg.BySeqShift), 0), int64(n)-1)
+			}
+			lo, hi = span(ref, q.Count, n)
 		}
 	case wire.RangeByTime:
 		refT, err := wire.ToTime(q.RefDate, q.RefTime, d.cfg.Location)
@@ -75,43 +81,45 @@ func (d *Device) readRange(q wire.ReadRangeRequest, budget int) (wire.ReadRangeA
 	if hi < lo {
 		return ack, nil
 	}
-	// Cut to fit: forward counts keep the oldest, backward counts the newest.
+	// Cut to fit: forward counts keep the oldest, backward counts the
+	// newest. loK and hiK are the first and last index sent.
 	var sel []wire.LogRecord
 	var scratch []byte
 	size, total := 0, hi-lo+1
+	loK, hiK := n, -1
 	for k := 0; k < total; k++ {
 		i := lo + k
 		if q.Count < 0 {
 			i = hi - k
 		}
+		if faulty && d.cfg.BySeqSkip != 0 && oldest+uint32(i) == d.cfg.BySeqSkip {
+			continue
+		}
 		r := l.record(i, d.cfg.Location)
 		scratch = wire.AppendLogRecord(scratch[:0], r)
 		if size += len(scratch); size > budget {
+			ack.Flags.More = true
 			break
 		}
 		sel = append(sel, r)
+		loK, hiK = min(loK, i), max(hiK, i)
 	}
-	if keep := len(sel); keep < total {
-		ack.Flags.More = true
-		if q.Count < 0 {
-			lo = hi - keep + 1
-		} else {
-			hi = lo + keep - 1
-		}
-		if keep == 0 {
-			return ack, nil
-		}
+	if len(sel) == 0 {
+		return ack, nil
 	}
 	if q.Count < 0 {
 		slices.Reverse(sel)
 	}
 	ack.Records = sel
 	ack.ItemCount = uint32(len(ack.Records))
-	ack.Flags.First, ack.Flags.Last = lo == 0, hi == n-1
+	ack.Flags.First, ack.Flags.Last = loK == 0, hiK == n-1
 	if q.Kind == wire.RangeBySequence || q.Kind == wire.RangeByTime {
-		ack.FirstSeq, ack.HasFirstSeq = oldest+uint32(lo), true
+		ack.FirstSeq, ack.HasFirstSeq = oldest+uint32(loK), true
 		if q.Kind == wire.RangeByTime && d.cfg.OmitFirstSeqByTime {
 			ack.HasFirstSeq = false
+		}
+		if faulty {
+			ack.FirstSeq += uint32(d.cfg.BySeqFirstSeqOffset) // modulo 2^32
 		}
 	}
 	return ack, nil

@@ -1,6 +1,7 @@
 package bacnetdev
 
 import (
+	"slices"
 	"testing"
 	"time"
 
@@ -113,4 +114,91 @@ func TestByTimeOnSteppedClock(t *testing.T) {
 			t.Errorf("%+v: by sequence %+v, want records from 3 with their first sequence number", tc.m, s)
 		}
 	}
+}
+
+// TestBySeqFaults: each by-sequence misbehaviour, on records 1..20 (value
+// = sequence number), changes answers to ReadRange by sequence number as
+// its doc says, forward (from record 5, count 4) and backward (to record
+// 10, count −4), and leaves by-time answers alone. BySeqBackwardOnly keeps
+// forward reads right.
+func TestBySeqFaults(t *testing.T) {
+	d := newDevice(DeviceConfig{Instance: 1})
+	ai := wire.ObjectID{Type: wire.ObjectAnalogInput, Instance: 1}
+	d.AddObject(Object{ID: ai})
+	d.AddTrendLog(TrendLogConfig{Instance: 1, Logged: ai, BufferSize: 50})
+	t0 := time.Date(2025, 1, 14, 0, 0, 0, 0, time.UTC)
+	for i := 1; i <= 20; i++ {
+		if err := d.Record(1, t0.Add(time.Duration(i)*time.Minute), float64(i), [4]bool{}); err != nil {
+			t.Fatal(err)
+		}
+	}
+	tl := wire.ObjectID{Type: wire.ObjectTrendLog, Instance: 1}
+	prop := wire.PropertyRef{Prop: wire.PropLogBuffer, Index: wire.NoIndex}
+	read := func(q wire.ReadRangeRequest) wire.ReadRangeACK {
+		t.Helper()
+		q.Object, q.PropertyRef = tl, prop
+		ack, perr := d.readRange(q, 1000)
+		if perr != nil {
+			t.Fatal(perr)
+		}
+		return ack
+	}
+	// answer is what an answer should hold: its first sequence number,
+	// the values (= the true sequence numbers) of its records, its flags.
+	type answer struct {
+		first      uint32
+		values     []float64
+		more, last bool
+	}
+	check := func(what string, m Misbehaviour, a wire.ReadRangeACK, w answer) {
+		t.Helper()
+		var vals []float64
+		for _, r := range a.Records {
+			vals = append(vals, r.Value)
+		}
+		if !a.HasFirstSeq || a.FirstSeq != w.first || a.ItemCount != uint32(len(w.values)) ||
+			!slices.Equal(vals, w.values) || a.Flags.More != w.more || a.Flags.Last != w.last {
+			t.Errorf("%+v, %s: first %d (%v) count %d values %v more %v last %v; want first %d values %v more %v last %v",
+				m, what, a.FirstSeq, a.HasFirstSeq, a.ItemCount, vals, a.Flags.More, a.Flags.Last, w.first, w.values, w.more, w.last)
+		}
+	}
+	for _, tc := range []struct {
+		m        Misbehaviour
+		fwd, bwd answer
+	}{
+		{Misbehaviour{}, answer{5, []float64{5, 6, 7, 8}, false, false}, answer{7, []float64{7, 8, 9, 10}, false, false}},
+		{Misbehaviour{BySeqShift: 2}, answer{7, []float64{7, 8, 9, 10}, false, false}, answer{9, []float64{9, 10, 11, 12}, false, false}},
+		{Misbehaviour{BySeqShift: -3}, answer{2, []float64{2, 3, 4, 5}, false, false}, answer{4, []float64{4, 5, 6, 7}, false, false}},
+		{Misbehaviour{BySeqSkip: 8}, answer{5, []float64{5, 6, 7}, false, false}, answer{7, []float64{7, 9, 10}, false, false}},
+		{Misbehaviour{BySeqSkip: 5}, answer{6, []float64{6, 7, 8}, false, false}, answer{7, []float64{7, 8, 9, 10}, false, false}},
+		{Misbehaviour{BySeqFirstSeqOffset: 1}, answer{6, []float64{5, 6, 7, 8}, false, false}, answer{8, []float64{7, 8, 9, 10}, false, false}},
+		{Misbehaviour{BySeqShift: 2, BySeqFirstSeqOffset: -2}, answer{5, []float64{7, 8, 9, 10}, false, false}, answer{7, []float64{9, 10, 11, 12}, false, false}},
+		{Misbehaviour{BySeqShift: 2, BySeqBackwardOnly: true}, answer{5, []float64{5, 6, 7, 8}, false, false}, answer{9, []float64{9, 10, 11, 12}, false, false}},
+		{Misbehaviour{BySeqSkip: 8, BySeqBackwardOnly: true}, answer{5, []float64{5, 6, 7, 8}, false, false}, answer{7, []float64{7, 9, 10}, false, false}},
+		{Misbehaviour{BySeqFirstSeqOffset: 1, BySeqBackwardOnly: true}, answer{5, []float64{5, 6, 7, 8}, false, false}, answer{8, []float64{7, 8, 9, 10}, false, false}},
+	} {
+		d.SetMisbehaviour(tc.m)
+		check("forward from 5", tc.m, read(wire.ReadRangeRequest{Kind: wire.RangeBySequence, Ref: 5, Count: 4}), tc.fwd)
+		check("backward to 10", tc.m, read(wire.ReadRangeRequest{Kind: wire.RangeBySequence, Ref: 10, Count: -4}), tc.bwd)
+		rd, rt := wire.DateTimeOf(t0.Add(4*time.Minute + time.Second))
+		check("by time after minute 4", tc.m, read(wire.ReadRangeRequest{Kind: wire.RangeByTime, RefDate: rd, RefTime: rt, Count: 2}),
+			answer{5, []float64{5, 6}, false, false})
+	}
+	// A shift past the buffer's end is clipped to it; a skip at the end
+	// leaves the newest record out, so the answer is not the last.
+	d.SetMisbehaviour(Misbehaviour{BySeqShift: 5})
+	check("forward from 19, shifted past the end", d.misbehaviour(), read(wire.ReadRangeRequest{Kind: wire.RangeBySequence, Ref: 19, Count: 4}),
+		answer{20, []float64{20}, false, true})
+	d.SetMisbehaviour(Misbehaviour{BySeqSkip: 20})
+	check("forward from 18, newest skipped", d.misbehaviour(), read(wire.ReadRangeRequest{Kind: wire.RangeBySequence, Ref: 18, Count: 4}),
+		answer{18, []float64{18, 19}, false, false})
+	// A skip inside an answer cut to the octet budget still sets more-items
+	// and keeps the oldest records sent.
+	one := len(wire.AppendLogRecord(nil, read(wire.ReadRangeRequest{Kind: wire.RangeBySequence, Ref: 1, Count: 1}).Records[0]))
+	d.SetMisbehaviour(Misbehaviour{BySeqSkip: 6})
+	ack, perr := d.readRange(wire.ReadRangeRequest{Object: tl, PropertyRef: prop, Kind: wire.RangeBySequence, Ref: 4, Count: 10}, 3*one)
+	if perr != nil {
+		t.Fatal(perr)
+	}
+	check("forward from 4, budget of 3 records", d.misbehaviour(), ack, answer{4, []float64{4, 5, 7}, true, false})
 }
