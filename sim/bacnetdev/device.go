@@ -5,7 +5,8 @@
 // fill as the caller advances time, and can misbehave on purpose (silence,
 // slow replies, Reject of ReadPropertyMultiple, ReadRange by time refused
 // or answered without its first sequence number or by a search that takes
-// the log's stamps to ascend, a trend-log clock stepped back, segmented
+// the log's stamps to ascend, a trend-log clock stepped back, ReadRange by
+// sequence answers shifted, with a record left out or misnumbered, segmented
 // answers, duplicated and malformed packets). It reuses collector/bacnet/wire.
 package bacnetdev
 
