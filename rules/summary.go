@@ -3,6 +3,7 @@ package rules
 import (
 	"fmt"
 	"math"
+	"sort"
 	"strings"
 
 	"risewatch/fdd"
@@ -11,6 +12,16 @@ import (
 
 // Summary is a one-cell digest of the evidence for tables: the two or three
 // numbers that justify the fault, in SI with IP in brackets.
+//
+// A kind may be raised by more than one rule, and t.Evidence.Extra holds
+// the fields of the rule that holds the fault (its conditions and its show
+// list), so each kind's digest follows the rule's evidence: a stuck valve
+// found open at 0 % command is told by its closed-valve rise, one that does
+// not respond by its rise span; a discharge sensor offset by whichever of
+// the offset tests gave a value; a failed sensor by its missing minutes or
+// its flat ones. When none of a kind's numbers is known (a rule of the
+// site's own), the digest lists the rule's own fields instead, formatted by
+// the unit their names end in.
 func (t *Transition) Summary() string {
 	ev := &t.Evidence
 	x := func(k string) float64 {
@@ -19,65 +30,173 @@ func (t *Transition) Summary() string {
 		}
 		return math.NaN()
 	}
+	known := 0 // values printed that are not "n/a"
 	dk := func(v float64) string {
-		if math.IsNaN(v) {
+		if !finite(v) {
 			return "n/a"
 		}
+		known++
 		return units.FormatTempDiff(v, false) + " (" + units.FormatTempDiff(v, true) + ")"
 	}
 	pc := func(v float64) string {
-		if math.IsNaN(v) {
+		if !finite(v) {
 			return "n/a"
 		}
+		known++
 		return units.FormatPercent(v)
 	}
 	var parts []string
 	add := func(f string, a ...any) { parts = append(parts, fmt.Sprintf(f, a...)) }
 	switch t.Kind {
 	case fdd.KindLeakingValve:
-		if v := x("dat_minus_sat_k"); !math.IsNaN(v) && math.IsNaN(ev.LeakRiseK) {
+		if v := x("dat_minus_sat_k"); finite(v) && !finite(ev.LeakRiseK) {
 			add("DAT−SAT %s at valve %s", dk(v), pc(ev.ValveFrac))
 		} else {
 			add("leak rise %s", dk(ev.LeakRiseK))
-			if !math.IsNaN(ev.LeakFlowFrac) {
+			if finite(ev.LeakFlowFrac) {
 				add("leak %s of design flow", pc(ev.LeakFlowFrac))
 			}
 		}
 		if w := t.Impact.WastedHeatW; w > 0 {
-			add("%s wasted", units.FormatPower(w, false))
+			add("%s wasted", powerBoth(w))
 		}
 	case fdd.KindFouledCoil:
 		add("UA %s of baseline", pc(ev.UAFactor))
-		add("flow %s", pc(ev.FlowFactor))
+		add("apparent water flow %s", pc(ev.FlowFactor))
 	case fdd.KindStarvedCoil:
-		add("water flow %s of baseline", pc(ev.FlowFactor))
-		if v := x("shortfall_high_k"); !math.IsNaN(v) {
+		add("apparent water flow %s of baseline", pc(ev.FlowFactor))
+		if v := x("shortfall_high_k"); finite(v) {
 			add("short %s at high command", dk(-v))
 		}
 	case fdd.KindStuckValve, fdd.KindReversedValve:
+		if cf := x("closed_capacity_frac"); finite(cf) {
+			rise := x("leak_rise_k")
+			if !finite(rise) {
+				rise = ev.LeakRiseK
+			}
+			u := x("valve")
+			if !finite(u) {
+				u = ev.ValveFrac
+			}
+			add("rise %s at %s command", dk(rise), pc(u))
+			add("%s of full-open", pc(cf))
+			break
+		}
 		add("rise span %s over %s command", dk(x("rise_span_k")), pc(x("valve_span")))
-		if v := x("rise_valve_corr"); !math.IsNaN(v) {
+		if v := x("rise_valve_corr"); finite(v) {
 			add("corr %.2f", v)
 		}
 	case fdd.KindColdLoop:
 		add("%s of boxes short", pc(x("short_fraction")))
-		if v := x("hw_low_k"); !math.IsNaN(v) {
+		if v := x("hw_low_k"); finite(v) {
 			add("supply %s low", dk(v))
 		}
 	case fdd.KindDATOffset:
-		add("offset %s with no heat", dk(x("offset_k")))
+		switch off, closed, below := x("offset_k"), x("closed_offset_k"), x("leak_rise_k"); {
+		case finite(off):
+			add("offset %s with no heat", dk(off))
+		case finite(closed):
+			add("offset %s at closed valve", dk(closed))
+		case finite(below) && below < 0:
+			add("DAT %s below supply at closed valve", dk(-below))
+		}
 	case fdd.KindDATFailed:
-		add("flat %.0f min", x("dat_flat_min"))
+		if b := x("dat_bad_min"); finite(b) && b >= 1 {
+			known++
+			add("missing or out of range %s", minutes(b))
+		} else if f := x("dat_flat_min"); finite(f) {
+			known++
+			add("unchanged for %s", minutes(f))
+		}
+	case fdd.KindZoneSensor:
+		if z := x("zone_bad_min"); finite(z) && z >= 1 {
+			known++
+			add("room temperature implausible %s", minutes(z))
+		}
+		if s := x("zone_set_bad_min"); finite(s) && s >= 1 {
+			known++
+			add("heating setpoint implausible %s", minutes(s))
+		}
 	case fdd.KindHunting:
-		add("%.0f reversals/h", x("reversals_per_hour"))
+		if v := x("reversals_per_hour"); finite(v) {
+			known++
+			add("%.0f reversals/h", v)
+		}
 	case fdd.KindLowDischarge:
-		if v := x("dat_set_c") - x("dat_c"); !math.IsNaN(v) {
+		if v := x("dat_set_c") - x("dat_c"); finite(v) {
 			add("DAT %s below setpoint", dk(v))
 		} else {
 			add("rise %s vs expected %s", dk(ev.ObservedRiseK), dk(ev.ExpectedRiseK))
 		}
 	default:
-		add("%s", t.Title)
+		return t.Title
+	}
+	if known == 0 {
+		if s := fieldDigest(ev.Extra, 3); s != "" {
+			return s
+		}
+		return t.Title
 	}
 	return strings.Join(parts, ", ")
+}
+
+// powerBoth formats a power in SI with IP in brackets: "2.21 kW (7.5 MBH)".
+func powerBoth(w float64) string {
+	return units.FormatPower(w, false) + " (" + units.FormatPower(w, true) + ")"
+}
+
+// minutes formats a duration in minutes as minutes, hours or days,
+// whichever reads best: "45 min", "5.2 h", "10.8 d".
+func minutes(m float64) string {
+	switch {
+	case m < 120:
+		return fmt.Sprintf("%.0f min", m)
+	case m < 48*60:
+		return fmt.Sprintf("%.1f h", m/60)
+	default:
+		return fmt.Sprintf("%.1f d", m/(24*60))
+	}
+}
+
+// fieldDigest lists up to n known values of evidence fields, by name, each
+// formatted by the unit its name ends in (the evidence field naming of
+// fdd/evidence.go: _k a temperature difference, _c a temperature, _frac a
+// fraction, _min minutes, _w a power, _m3s a water flow); score and gate
+// fields are left out (they say which test passed, not how far).
+func fieldDigest(extra map[string]float64, n int) string {
+	names := make([]string, 0, len(extra))
+	for k, v := range extra {
+		if finite(v) && !strings.HasPrefix(k, "score.") && !strings.HasPrefix(k, "gate_") {
+			names = append(names, k)
+		}
+	}
+	sort.Strings(names)
+	var parts []string
+	for _, k := range names {
+		if len(parts) == n {
+			break
+		}
+		parts = append(parts, strings.ReplaceAll(k, "_", " ")+" "+formatField(k, extra[k]))
+	}
+	return strings.Join(parts, ", ")
+}
+
+// formatField formats one evidence value by the unit its field name ends in.
+func formatField(name string, v float64) string {
+	switch {
+	case strings.HasSuffix(name, "_k"):
+		return units.FormatTempDiff(v, false) + " (" + units.FormatTempDiff(v, true) + ")"
+	case strings.HasSuffix(name, "_c"):
+		return units.FormatTemp(v, false) + " (" + units.FormatTemp(v, true) + ")"
+	case strings.HasSuffix(name, "_frac"):
+		return units.FormatPercent(v)
+	case strings.HasSuffix(name, "_min"):
+		return minutes(v)
+	case strings.HasSuffix(name, "_w"):
+		return powerBoth(v)
+	case strings.HasSuffix(name, "_m3s"):
+		return units.FormatWaterFlow(v, false) + " (" + units.FormatWaterFlow(v, true) + ")"
+	default:
+		return fmt.Sprintf("%.3g", v)
+	}
 }

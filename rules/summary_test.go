@@ -1,0 +1,154 @@
+package rules
+
+import (
+	"math"
+	"strings"
+	"testing"
+
+	"risewatch/fdd"
+)
+
+// showExtra is the Evidence.Extra the evaluator publishes for built-in rule
+// id (transition in fault.go): every field the rule shows (its conditions'
+// fields and its show list), here NaN unless vals gives it. A name in vals
+// the rule does not show fails the test, so the cases below follow
+// builtin.yaml.
+func showExtra(t *testing.T, e *Evaluator, id string, vals map[string]float64) (fdd.Kind, map[string]float64) {
+	t.Helper()
+	for _, c := range append(append([]*compiled(nil), e.term...), e.loop...) {
+		if c.rule.ID != id {
+			continue
+		}
+		extra := make(map[string]float64, len(c.show))
+		for _, f := range c.show {
+			extra[f.name] = math.NaN()
+		}
+		for k, v := range vals {
+			if _, ok := extra[k]; !ok {
+				t.Fatalf("rule %s does not show %s (shows %v)", id, k, extra)
+			}
+			extra[k] = v
+		}
+		return c.kind, extra
+	}
+	t.Fatalf("no built-in rule %s", id)
+	return 0, nil
+}
+
+// TestSummaryFollowsTheHoldingRule: the table's evidence digest gives the
+// numbers of the rule that holds the fault, never "n/a" where that rule
+// has them: the kinds raised by more than one rule, or by one rule through
+// more than one test, each in the form that rule's evidence takes. Every
+// figure is the rule's own value formatted (°F beside °C, MBH beside kW).
+func TestSummaryFollowsTheHoldingRule(t *testing.T) {
+	e, err := NewEvaluator(testSite(1, 1), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	nan := math.NaN()
+	noTerm := Evidence{ObservedRiseK: nan, ExpectedRiseK: nan, SigmaK: nan, ValveFrac: nan, AirflowM3s: nan,
+		UAFactor: nan, FlowFactor: nan, LeakRiseK: nan, LeakFlowFrac: nan}
+	cases := []struct {
+		rule string
+		vals map[string]float64
+		ev   func(*Evidence)
+		want []string
+	}{
+		{"model-valve-open-at-zero", map[string]float64{"valve": 0, "closed_capacity_frac": 0.85, "leak_rise_k": 12.5},
+			nil, []string{"rise 12.5 K (22.5 °F) at 0 % command", "85 % of full-open"}},
+		{"model-valve-open-at-zero", map[string]float64{"closed_capacity_frac": 0.9},
+			func(ev *Evidence) { ev.LeakRiseK, ev.ValveFrac = 11, 0 }, []string{"rise 11.0 K (19.8 °F) at 0 % command", "90 % of full-open"}},
+		{"model-valve-stuck", map[string]float64{"rise_span_k": 0.4, "valve_span": 0.8, "rise_valve_corr": 0.1},
+			nil, []string{"rise span 0.4 K (0.7 °F) over 80 % command", "corr 0.10"}},
+		{"sensor-dat-offset", map[string]float64{"offset_k": 2.5},
+			nil, []string{"offset 2.5 K (4.5 °F) with no heat"}},
+		{"sensor-dat-offset", map[string]float64{"closed_offset_k": -2},
+			nil, []string{"offset -2.0 K (-3.6 °F) at closed valve"}},
+		{"sensor-dat-offset", map[string]float64{"leak_rise_k": -1.8},
+			nil, []string{"DAT 1.8 K (3.2 °F) below supply at closed valve"}},
+		{"sensor-dat-dead", map[string]float64{"dat_bad_min": 45, "dat_flat_min": 0},
+			nil, []string{"missing or out of range 45 min"}},
+		{"sensor-dat-dead", map[string]float64{"dat_bad_min": 0, "dat_flat_min": 15601},
+			nil, []string{"unchanged for 10.8 d"}},
+		{"sensor-dat-dead", map[string]float64{"dat_bad_min": 0, "dat_flat_min": 300},
+			nil, []string{"unchanged for 5.0 h"}},
+		{"sensor-zone-implausible", map[string]float64{"zone_bad_min": 30, "zone_set_bad_min": 0},
+			nil, []string{"room temperature implausible 30 min"}},
+		{"sensor-zone-implausible", map[string]float64{"zone_bad_min": 0, "zone_set_bad_min": 200},
+			nil, []string{"heating setpoint implausible 3.3 h"}},
+		{"control-hunting", map[string]float64{"reversals_per_hour": 48},
+			nil, []string{"48 reversals/h"}},
+		{"model-coil-starved", map[string]float64{"shortfall_high_k": 5.2},
+			func(ev *Evidence) { ev.FlowFactor = 0.76 }, []string{"apparent water flow 76 % of baseline", "short -5.2 K (-9.4 °F) at high command"}},
+		{"model-coil-fouled", nil,
+			func(ev *Evidence) { ev.UAFactor, ev.FlowFactor = 0.83, 1.02 }, []string{"UA 83 % of baseline", "apparent water flow 102 %"}},
+		{"g36-valve-leak", map[string]float64{"valve": 0, "dat_minus_sat_k": 4},
+			func(ev *Evidence) { ev.ValveFrac = 0 }, []string{"DAT−SAT 4.0 K (7.2 °F) at valve 0 %"}},
+		{"loop-cold-supply", map[string]float64{"short_fraction": 0.78},
+			nil, []string{"78 % of boxes short"}},
+	}
+	for _, c := range cases {
+		kind, extra := showExtra(t, e, c.rule, c.vals)
+		ev := noTerm
+		if c.ev != nil {
+			c.ev(&ev)
+		}
+		ev.Extra = extra
+		tr := Transition{Kind: kind, Rule: c.rule, Title: "title of " + c.rule, Evidence: ev}
+		got := tr.Summary()
+		if strings.Contains(got, "n/a") {
+			t.Errorf("%s %v: summary %q has n/a", c.rule, c.vals, got)
+		}
+		for _, w := range c.want {
+			if !strings.Contains(got, w) {
+				t.Errorf("%s %v: summary %q lacks %q", c.rule, c.vals, got, w)
+			}
+		}
+	}
+}
+
+// TestSummaryLeakWasteInBothUnits: the leak digest gives the wasted heat in
+// kW and MBH (1 kW = 3.412 MBH, 1 Btu/h = 0.29307 W: ASHRAE Handbook —
+// Fundamentals, ch. 38 conversion factors).
+func TestSummaryLeakWasteInBothUnits(t *testing.T) {
+	tr := Transition{Kind: fdd.KindLeakingValve, Evidence: Evidence{LeakRiseK: 8.8, LeakFlowFrac: 0.12}}
+	tr.Impact.WastedHeatW = 2210
+	got := tr.Summary()
+	for _, w := range []string{"leak rise 8.8 K (15.8 °F)", "leak 12 % of design flow", "2.21 kW (7.5 MBH) wasted"} {
+		if !strings.Contains(got, w) {
+			t.Errorf("summary %q lacks %q", got, w)
+		}
+	}
+}
+
+// TestSummaryFallsBackToTheRulesFields: a rule of the site's own whose kind
+// digest has no number (here a fouled-coil rule on the low-command
+// shortfall, with UA and flow factors unknown) is summarised by its own
+// known fields, each in its unit; score and gate fields are left out; with
+// no known field at all, the rule's title.
+func TestSummaryFallsBackToTheRulesFields(t *testing.T) {
+	nan := math.NaN()
+	tr := Transition{Kind: fdd.KindFouledCoil, Title: "Coil short at low command",
+		Evidence: Evidence{UAFactor: nan, FlowFactor: nan, Extra: map[string]float64{
+			"shortfall_low_k": 2, "score.fouled-coil": 0.9, "gate_unsteady": 1, "closed_min": 90, "leak_flow_frac": nan,
+		}}}
+	got := tr.Summary()
+	want := "closed min 90 min, shortfall low k 2.0 K (3.6 °F)"
+	if got != want {
+		t.Errorf("summary %q, want %q", got, want)
+	}
+	tr.Evidence.Extra = map[string]float64{"leak_flow_frac": nan}
+	if got := tr.Summary(); got != tr.Title {
+		t.Errorf("no known field: summary %q, want the title %q", got, tr.Title)
+	}
+}
+
+// TestMinutesFormat: minutes read as minutes below 2 h, hours below 2 days,
+// days beyond.
+func TestMinutesFormat(t *testing.T) {
+	for m, want := range map[float64]string{0: "0 min", 45: "45 min", 119: "119 min", 120: "2.0 h", 2879: "48.0 h", 2880: "2.0 d", 15601: "10.8 d"} {
+		if got := minutes(m); got != want {
+			t.Errorf("minutes(%v) = %q, want %q", m, got, want)
+		}
+	}
+}
