@@ -77,15 +77,10 @@ var msgFuncs = template.FuncMap{
 		return units.FormatPercent(f)
 	},
 	"mins": func(m float64) string {
-		switch {
-		case na(m):
+		if na(m) {
 			return "n/a"
-		case m < 90:
-			return fmt.Sprintf("%.0f min", m)
-		case m < 48*60:
-			return fmt.Sprintf("%.1f h", m/60)
 		}
-		return fmt.Sprintf("%.1f d", m/1440)
+		return minutes(m)
 	},
 	"money": func(v float64, cur string) string {
 		if na(v) {

@@ -64,7 +64,14 @@ func (t *Transition) Summary() string {
 		add("UA %s of baseline", pc(ev.UAFactor))
 		add("apparent water flow %s", pc(ev.FlowFactor))
 	case fdd.KindStarvedCoil:
-		add("apparent water flow %s of baseline", pc(ev.FlowFactor))
+		// The flow factor tells a starved coil only when it is down; the
+		// rule also opens on the rise at high command (perf_high), where
+		// the fit may put the loss in UA and leave the flow at or above 1.
+		if f, ph := ev.FlowFactor, x("perf_high"); finite(f) && f < 0.95 || !finite(ph) {
+			add("apparent water flow %s of baseline", pc(f))
+		} else {
+			add("rise at high command %s of the model's", pc(ph))
+		}
 		if v := x("shortfall_high_k"); finite(v) {
 			add("short %s at high command", dk(-v))
 		}
@@ -146,10 +153,10 @@ func powerBoth(w float64) string {
 }
 
 // minutes formats a duration in minutes as minutes, hours or days,
-// whichever reads best: "45 min", "5.2 h", "10.8 d".
+// whichever reads best: "45 min", "5.2 h", "10.8 d" (messages' mins too).
 func minutes(m float64) string {
 	switch {
-	case m < 120:
+	case m < 90:
 		return fmt.Sprintf("%.0f min", m)
 	case m < 48*60:
 		return fmt.Sprintf("%.1f h", m/60)

@@ -78,8 +78,12 @@ func TestSummaryFollowsTheHoldingRule(t *testing.T) {
 			nil, []string{"heating setpoint implausible 3.3 h"}},
 		{"control-hunting", map[string]float64{"reversals_per_hour": 48},
 			nil, []string{"48 reversals/h"}},
-		{"model-coil-starved", map[string]float64{"shortfall_high_k": 5.2},
-			func(ev *Evidence) { ev.FlowFactor = 0.76 }, []string{"apparent water flow 76 % of baseline", "short -5.2 K (-9.4 °F) at high command"}},
+		{"model-coil-starved", map[string]float64{"shortfall_high_k": -5.2, "perf_high": 0.7},
+			func(ev *Evidence) { ev.FlowFactor = 0.76 }, []string{"apparent water flow 76 % of baseline", "short 5.2 K (9.4 °F) at high command"}},
+		// Opened on the high-command rise with the fit's flow at 147 %:
+		// that rise, not a flow "short" of baseline at 147 %.
+		{"model-coil-starved", map[string]float64{"shortfall_high_k": -2.9, "perf_high": 0.8},
+			func(ev *Evidence) { ev.FlowFactor = 1.47 }, []string{"rise at high command 80 % of the model's", "short 2.9 K (5.2 °F) at high command"}},
 		{"model-coil-fouled", nil,
 			func(ev *Evidence) { ev.UAFactor, ev.FlowFactor = 0.83, 1.02 }, []string{"UA 83 % of baseline", "apparent water flow 102 %"}},
 		{"g36-valve-leak", map[string]float64{"valve": 0, "dat_minus_sat_k": 4},
@@ -133,7 +137,7 @@ func TestSummaryFallsBackToTheRulesFields(t *testing.T) {
 			"shortfall_low_k": 2, "score.fouled-coil": 0.9, "gate_unsteady": 1, "closed_min": 90, "leak_flow_frac": nan,
 		}}}
 	got := tr.Summary()
-	want := "closed min 90 min, shortfall low k 2.0 K (3.6 °F)"
+	want := "closed min 1.5 h, shortfall low k 2.0 K (3.6 °F)"
 	if got != want {
 		t.Errorf("summary %q, want %q", got, want)
 	}
@@ -143,12 +147,85 @@ func TestSummaryFallsBackToTheRulesFields(t *testing.T) {
 	}
 }
 
-// TestMinutesFormat: minutes read as minutes below 2 h, hours below 2 days,
-// days beyond.
+// TestMinutesFormat: minutes read as minutes below 1.5 h, hours below 2
+// days, days beyond.
 func TestMinutesFormat(t *testing.T) {
-	for m, want := range map[float64]string{0: "0 min", 45: "45 min", 119: "119 min", 120: "2.0 h", 2879: "48.0 h", 2880: "2.0 d", 15601: "10.8 d"} {
+	for m, want := range map[float64]string{0: "0 min", 45: "45 min", 89: "89 min", 90: "1.5 h", 120: "2.0 h", 2879: "48.0 h", 2880: "2.0 d", 15601: "10.8 d"} {
 		if got := minutes(m); got != want {
 			t.Errorf("minutes(%v) = %q, want %q", m, got, want)
+		}
+	}
+}
+
+// TestMessagesGiveOnlyKnownFigures: a rule message raised through one of
+// its tests names the figures of that test and no "n/a" for another that
+// gave none: the discharge-offset tests (the no-heat offset is unknown
+// while the plant runs all winter), a dead sensor missing rather than
+// flat, a starved coil opened on its high-command rise while the fitted
+// flow is not down.
+func TestMessagesGiveOnlyKnownFigures(t *testing.T) {
+	e, err := NewEvaluator(testSite(1, 1), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rule := func(id string) *compiled {
+		for _, r := range e.term {
+			if r.rule.ID == id {
+				return r
+			}
+		}
+		t.Fatalf("no rule %s", id)
+		return nil
+	}
+	nan := math.NaN()
+	base := map[string]float64{"sat_c": 15.7, "dat_c": 19.2, "airflow_m3s": 0.0887, "closed_offset_sigma_k": 0.1,
+		"flow_factor_sigma": 0.07, "shortfall_low_k": 0.2, "shortfall_high_k": -2.9}
+	for _, tc := range []struct {
+		rule string
+		vals map[string]float64
+		want []string
+		not  []string
+	}{
+		{"sensor-dat-offset", map[string]float64{"offset_k": nan, "leak_rise_k": 2.8, "closed_offset_k": 2.6},
+			[]string{"gain: 2.8 K (5.0 °F) with the valve closed, of which 2.6 K (4.7 °F) (±0.1 K (0.2 °F)) does not change with airflow (supply"}, nil},
+		{"sensor-dat-offset", map[string]float64{"offset_k": 2.5, "leak_rise_k": nan, "closed_offset_k": nan},
+			[]string{"gain: by 2.5 K (4.5 °F) with no hot water available (supply"}, nil},
+		{"sensor-dat-offset", map[string]float64{"offset_k": 2.5, "leak_rise_k": 2.8, "closed_offset_k": nan},
+			[]string{"by 2.5 K (4.5 °F) with no hot water available; 2.8 K (5.0 °F) with the valve closed (supply"}, nil},
+		{"sensor-dat-offset", map[string]float64{"offset_k": nan, "leak_rise_k": -1.8, "closed_offset_k": nan},
+			[]string{"gain: -1.8 K (-3.2 °F) with the valve closed (supply"}, nil},
+		{"sensor-dat-offset", map[string]float64{"offset_k": nan, "leak_rise_k": nan, "closed_offset_k": 2.6},
+			[]string{"gain: 2.6 K (4.7 °F) (±0.1 K (0.2 °F)) with the valve closed that does not change with airflow (supply"}, nil},
+		{"sensor-dat-dead", map[string]float64{"dat_bad_min": 3600, "dat_flat_min": 1, "dat_c": -40},
+			[]string{"missing or out of range for 2.5 d while the fan ran; last reading -40.0 °C"}, []string{"same value"}},
+		{"sensor-dat-dead", map[string]float64{"dat_bad_min": 0, "dat_flat_min": 15601},
+			[]string{"has read the same value for 10.8 d while the fan ran"}, []string{"missing"}},
+		{"model-coil-starved", map[string]float64{"flow_factor": 0.76},
+			[]string{"about 76 % of its baseline water flow (±7 %): it is short mostly at high command"}, nil},
+		{"model-coil-starved", map[string]float64{"flow_factor": 1.47},
+			[]string{"The coil is short mostly at high command"}, []string{"147 %"}},
+	} {
+		c := rule(tc.rule)
+		vals := map[string]float64{}
+		for k, v := range base {
+			vals[k] = v
+		}
+		for k, v := range tc.vals {
+			vals[k] = v
+		}
+		got := c.render(&msgData{Entity: "VAV-1-01", Rule: c.rule.ID, Title: c.rule.Title, E: vals})
+		if strings.Contains(got, "n/a") || strings.Contains(got, "template error") {
+			t.Errorf("%s %v: message has n/a or an error: %s", tc.rule, tc.vals, got)
+		}
+		for _, w := range tc.want {
+			if !strings.Contains(got, w) {
+				t.Errorf("%s %v: message lacks %q:\n%s", tc.rule, tc.vals, w, got)
+			}
+		}
+		for _, w := range tc.not {
+			if strings.Contains(got, w) {
+				t.Errorf("%s %v: message has %q:\n%s", tc.rule, tc.vals, w, got)
+			}
 		}
 	}
 }
