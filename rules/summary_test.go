@@ -204,6 +204,22 @@ func TestMessagesGiveOnlyKnownFigures(t *testing.T) {
 			[]string{"about 76 % of its baseline water flow (±7 %): it is short mostly at high command"}, nil},
 		{"model-coil-starved", map[string]float64{"flow_factor": 1.47},
 			[]string{"The coil is short mostly at high command"}, []string{"147 %"}},
+		{"model-coil-starved", map[string]float64{"flow_factor": 0.6, "shortfall_low_k": nan},
+			[]string{"(-2.9 K (-5.2 °F) against the model at high command), about"}, nil},
+		{"model-coil-starved", map[string]float64{"flow_factor": 0.6, "shortfall_low_k": nan, "shortfall_high_k": nan},
+			[]string{"as a coil limited by its water flow is, about"}, nil},
+		{"model-coil-fouled", map[string]float64{"ua_factor": 0.61, "flow_factor": 0.92, "shortfall_low_k": nan, "shortfall_high_k": -6.6},
+			[]string{"with an apparent water flow of 92 % of baseline; its rise against the model is -6.6 K (-11.9 °F) at high command (fouling"}, nil},
+		{"model-coil-fouled", map[string]float64{"ua_factor": 0.61, "flow_factor": 0.92, "shortfall_low_k": -1.3, "shortfall_high_k": -5.1},
+			[]string{"-1.3 K (-2.3 °F) at low and mid command and -5.1 K (-9.2 °F) at high command"}, nil},
+		{"model-coil-fouled", map[string]float64{"ua_factor": 0.61, "flow_factor": 0.92, "shortfall_low_k": nan, "shortfall_high_k": nan},
+			[]string{"of 92 % of baseline, about"}, nil},
+		{"g36-low-dat-8k", map[string]float64{"dat_c": 16.4, "dat_set_c": nan, "residual_k": -9, "valve": 1, "expected_rise_k": 12, "rise_k": 3, "hw_c": 60},
+			[]string{"is 9.0 K (16.2 °F) below what the coil should give (there is no discharge setpoint) (model expects a rise of 12.0 K"}, nil},
+		{"g36-low-dat-8k", map[string]float64{"dat_c": 16.4, "dat_set_c": 26, "residual_k": nan, "valve": 1, "expected_rise_k": nan, "hw_c": 60},
+			[]string{"is 9.6 K (17.3 °F) below its setpoint 26.0 °C (78.8 °F) with the valve at 100 %"}, nil},
+		{"g36-low-dat-17k", map[string]float64{"dat_c": 16.4, "dat_set_c": nan, "residual_k": -18, "valve": 1, "hw_c": 60},
+			[]string{"is 18.0 K (32.4 °F) below what the coil should give"}, nil},
 	} {
 		c := rule(tc.rule)
 		vals := map[string]float64{}

@@ -81,8 +81,11 @@ func TestAnalyzeSimOutput(t *testing.T) {
 	}
 	var doc struct {
 		Faults []struct {
-			Entity string `json:"entity"`
-			Kind   string `json:"kind"`
+			FaultID string `json:"fault_id"`
+			Entity  string `json:"entity"`
+			Kind    string `json:"kind"`
+			Summary string `json:"summary"`
+			Message string `json:"message"`
 		} `json:"faults"`
 		Evaluation struct {
 			Injected    int `json:"injected"`
@@ -103,6 +106,11 @@ func TestAnalyzeSimOutput(t *testing.T) {
 	found := false
 	for _, f := range doc.Faults {
 		found = found || f.Entity == "VAV-Q-203"
+		// The digest and the message give the figures of the test that
+		// raised the fault, never a placeholder for one that did not.
+		if strings.Contains(f.Summary, "n/a") || strings.Contains(f.Message, "n/a") || strings.Contains(f.Message, "template error") {
+			t.Errorf("--json: %s: summary %q, message %q", f.FaultID, f.Summary, f.Message)
+		}
 	}
 	if !found {
 		t.Errorf("--json: no fault on VAV-Q-203: %+v", doc.Faults)
