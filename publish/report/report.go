@@ -191,8 +191,8 @@ func WriteCSV(w io.Writer, in Input) error {
 	cw := csv.NewWriter(w)
 	cur := in.currency()
 	header := []string{"rank", "terminal", "fault", "severity", "since", "weekly_cost_" + strings.ToLower(cur),
-		"weekly_heat_kwh", "weekly_cooling_kwh", "confidence_pct", "observed_rise_k", "expected_rise_k",
-		"valve_pct", "message", "likely_causes", "checks", "inlet", "rows", "fpi", "face", "zone", "location", "ahu", "loop"}
+		"weekly_heat_kwh", "weekly_heat_therm", "weekly_cooling_kwh", "weekly_cooling_ton_h", "confidence_pct",
+		"observed_rise_k", "observed_rise_f", "expected_rise_k", "expected_rise_f", "valve_pct", "message", "likely_causes", "checks", "inlet", "rows", "fpi", "face", "zone", "location", "ahu", "loop"}
 	if err := cw.Write(header); err != nil {
 		return err
 	}
@@ -209,10 +209,15 @@ func WriteCSV(w io.Writer, in Input) error {
 		if since.IsZero() {
 			since = t.At
 		}
+		im, ev := &t.Impact, &t.Evidence
+		// 1 therm = 100,000 Btu; 1 ton of refrigeration = 12,000 Btu/h
+		// (NIST SP 811, B.8); a temperature difference of 1 K is 1.8 °F.
 		row := []string{strconv.Itoa(i + 1), t.Entity, t.Kind.String(), strconv.Itoa(int(t.Severity)),
-			since.In(loc).Format("2006-01-02 15:04"), num(t.Impact.WeeklyCost, 2), num(t.Impact.WeeklyHeatKWh, 1),
-			num(t.Impact.WeeklyCoolKWh, 1), num(t.Confidence*100, 0), num(t.Evidence.ObservedRiseK, 2),
-			num(t.Evidence.ExpectedRiseK, 2), num(t.Evidence.ValveFrac*100, 0), t.Message,
+			since.In(loc).Format("2006-01-02 15:04"), num(im.WeeklyCost, 2),
+			num(im.WeeklyHeatKWh, 1), num(im.WeeklyHeatKWh/units.KWhPerTherm, 2),
+			num(im.WeeklyCoolKWh, 1), num(units.WToBtuh(im.WeeklyCoolKWh*1000)/12000, 2), num(t.Confidence*100, 0),
+			num(ev.ObservedRiseK, 2), num(units.DeltaKToF(ev.ObservedRiseK), 2),
+			num(ev.ExpectedRiseK, 2), num(units.DeltaKToF(ev.ExpectedRiseK), 2), num(ev.ValveFrac*100, 0), t.Message,
 			strings.Join(t.Causes, "; "), strings.Join(t.Checks, "; "), cl[1], cl[2], cl[3], cl[4], cl[5], cl[6], t.AHU, t.Loop}
 		if err := cw.Write(row); err != nil {
 			return err

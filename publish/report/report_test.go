@@ -7,6 +7,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 	"time"
@@ -71,14 +72,52 @@ func TestCSVWorkListRankedByCost(t *testing.T) {
 	if len(recs) != 3 {
 		t.Fatalf("%d rows, want header + 2", len(recs))
 	}
-	if recs[1][1] != "VAV-1-07" || recs[2][1] != "VAV-1-03" {
+	col := map[string]int{}
+	for i, h := range recs[0] {
+		col[h] = i
+	}
+	get := func(row int, name string) string {
+		i, ok := col[name]
+		if !ok {
+			t.Fatalf("no column %s in %v", name, recs[0])
+		}
+		return recs[row][i]
+	}
+	if get(1, "terminal") != "VAV-1-07" || get(2, "terminal") != "VAV-1-03" {
 		t.Errorf("not ranked by weekly cost: %v, %v", recs[1][:3], recs[2][:3])
 	}
-	if recs[1][5] != "14.20" || recs[1][16] != "2" || recs[1][15] != "12 in" {
+	if get(1, "weekly_cost_usd") != "14.20" || get(1, "rows") != "2" || get(1, "inlet") != "12 in" {
 		t.Errorf("row 1 = %v", recs[1])
 	}
-	if !strings.HasPrefix(buf.String(), "") || !strings.Contains(recs[2][20], "room 114") {
+	if !strings.Contains(get(2, "location"), "room 114") {
 		t.Errorf("location missing: %v", recs[2])
+	}
+	// SI and IP side by side: a rise of 1 K is 1.8 °F; 1 therm is
+	// 29.3071 kWh and 1 ton-hour 3.51685 kWh (NIST SP 811, B.8).
+	for r := 1; r < len(recs); r++ {
+		pairs := []struct {
+			si, ip string
+			per    float64 // SI units per IP unit
+		}{
+			{"observed_rise_k", "observed_rise_f", 1 / 1.8},
+			{"expected_rise_k", "expected_rise_f", 1 / 1.8},
+			{"weekly_heat_kwh", "weekly_heat_therm", 29.3071},
+			{"weekly_cooling_kwh", "weekly_cooling_ton_h", 3.51685},
+		}
+		for _, p := range pairs {
+			si, ip := get(r, p.si), get(r, p.ip)
+			if si == "" && ip == "" {
+				continue
+			}
+			a, err1 := strconv.ParseFloat(si, 64)
+			b, err2 := strconv.ParseFloat(ip, 64)
+			if err1 != nil || err2 != nil || math.Abs(b*p.per-a) > 0.01*math.Max(1, math.Abs(a)) {
+				t.Errorf("row %d: %s %q and %s %q disagree", r, p.si, si, p.ip, ip)
+			}
+		}
+	}
+	if get(1, "observed_rise_f") == "" {
+		t.Errorf("row 1: no observed rise in °F: %v", recs[1])
 	}
 }
 
