@@ -13,16 +13,7 @@ import (
 // answers by sequence number and by time from the ring, and cuts answers to
 // the octet budget with more-items set.
 func TestTrendRingWraps(t *testing.T) {
-	d := newDevice(DeviceConfig{Instance: 1})
-	ai := wire.ObjectID{Type: wire.ObjectAnalogInput, Instance: 1}
-	d.AddObject(Object{ID: ai})
-	d.AddTrendLog(TrendLogConfig{Instance: 1, Logged: ai, BufferSize: 5})
-	t0 := time.Date(2025, 1, 14, 0, 0, 0, 0, time.UTC)
-	for i := 1; i <= 12; i++ {
-		if err := d.Record(1, t0.Add(time.Duration(i)*time.Minute), float64(i), [4]bool{false, i == 9, false, false}); err != nil {
-			t.Fatal(err)
-		}
-	}
+	d, t0 := oneLog(t, 5, 12, nil, func(i int) [4]bool { return [4]bool{false, i == 9, false, false} })
 	tl := wire.ObjectID{Type: wire.ObjectTrendLog, Instance: 1}
 	prop := wire.PropertyRef{Prop: wire.PropLogBuffer, Index: wire.NoIndex}
 	ack, perr := d.readRange(wire.ReadRangeRequest{Object: tl, PropertyRef: prop, Kind: wire.RangeBySequence, Ref: 9, Count: 10}, 1000)
@@ -56,19 +47,11 @@ func TestTrendRingWraps(t *testing.T) {
 // after records stamped later than the reference; OmitFirstSeqByTime
 // leaves the first sequence number out of by-time answers only.
 func TestByTimeOnSteppedClock(t *testing.T) {
-	d := newDevice(DeviceConfig{Instance: 1})
-	ai := wire.ObjectID{Type: wire.ObjectAnalogInput, Instance: 1}
-	d.AddObject(Object{ID: ai})
-	d.AddTrendLog(TrendLogConfig{Instance: 1, Logged: ai, BufferSize: 20})
-	t0 := time.Date(2025, 1, 14, 0, 0, 0, 0, time.UTC)
-	for i := 1; i <= 12; i++ {
+	d, t0 := oneLog(t, 20, 12, func(d *Device, i int) {
 		if i == 7 {
 			d.SetMisbehaviour(Misbehaviour{ClockOffset: -4 * time.Minute})
 		}
-		if err := d.Record(1, t0.Add(time.Duration(i)*time.Minute), float64(i), [4]bool{}); err != nil {
-			t.Fatal(err)
-		}
-	}
+	}, nil)
 	recs, err := d.TrendRecords(1)
 	if err != nil || len(recs) != 12 {
 		t.Fatalf("%d records, %v", len(recs), err)
@@ -122,16 +105,7 @@ func TestByTimeOnSteppedClock(t *testing.T) {
 // 10, count −4), and leaves by-time answers alone. BySeqBackwardOnly keeps
 // forward reads right.
 func TestBySeqFaults(t *testing.T) {
-	d := newDevice(DeviceConfig{Instance: 1})
-	ai := wire.ObjectID{Type: wire.ObjectAnalogInput, Instance: 1}
-	d.AddObject(Object{ID: ai})
-	d.AddTrendLog(TrendLogConfig{Instance: 1, Logged: ai, BufferSize: 50})
-	t0 := time.Date(2025, 1, 14, 0, 0, 0, 0, time.UTC)
-	for i := 1; i <= 20; i++ {
-		if err := d.Record(1, t0.Add(time.Duration(i)*time.Minute), float64(i), [4]bool{}); err != nil {
-			t.Fatal(err)
-		}
-	}
+	d, t0 := oneLog(t, 50, 20, nil, nil)
 	tl := wire.ObjectID{Type: wire.ObjectTrendLog, Instance: 1}
 	prop := wire.PropertyRef{Prop: wire.PropLogBuffer, Index: wire.NoIndex}
 	read := func(q wire.ReadRangeRequest) wire.ReadRangeACK {
@@ -201,4 +175,30 @@ func TestBySeqFaults(t *testing.T) {
 		t.Fatal(perr)
 	}
 	check("forward from 4, budget of 3 records", d.misbehaviour(), ack, answer{4, []float64{4, 5, 7}, true, false})
+}
+
+// oneLog is a device with analog input 1 logged by trend log 1 (buffer
+// size records), holding records 1..n stamped t0 + i min with value i;
+// before record i, each(i) may change the device (nil: nothing) and
+// flags(i) gives its status flags (nil: none).
+func oneLog(t *testing.T, size, n int, each func(d *Device, i int), flags func(i int) [4]bool) (*Device, time.Time) {
+	t.Helper()
+	d := newDevice(DeviceConfig{Instance: 1})
+	ai := wire.ObjectID{Type: wire.ObjectAnalogInput, Instance: 1}
+	d.AddObject(Object{ID: ai})
+	d.AddTrendLog(TrendLogConfig{Instance: 1, Logged: ai, BufferSize: size})
+	t0 := time.Date(2025, 1, 14, 0, 0, 0, 0, time.UTC)
+	for i := 1; i <= n; i++ {
+		if each != nil {
+			each(d, i)
+		}
+		var f [4]bool
+		if flags != nil {
+			f = flags(i)
+		}
+		if err := d.Record(1, t0.Add(time.Duration(i)*time.Minute), float64(i), f); err != nil {
+			t.Fatal(err)
+		}
+	}
+	return d, t0
 }
