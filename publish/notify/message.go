@@ -98,8 +98,19 @@ func (c *Config) itemFor(e Event) itemView {
 	if im.ShortfallW > 0 {
 		matters = append(matters, "heat the zone asked for and did not get "+both(units.FormatPower(im.ShortfallW, c.IP), units.FormatPower(im.ShortfallW, !c.IP))+" (comfort)")
 	}
-	if im.WeeklyHeatKWh+im.WeeklyCoolKWh > 0 {
-		matters = append(matters, fmt.Sprintf("about %.0f kWh a week", im.WeeklyHeatKWh+im.WeeklyCoolKWh))
+	// Weekly energy, each in its own IP unit: 1 therm = 100,000 Btu, 1 ton
+	// of refrigeration = 12,000 Btu/h (NIST SP 811, B.8).
+	pair := func(si, ip string) string {
+		if c.IP {
+			return both(ip, si)
+		}
+		return both(si, ip)
+	}
+	if h := im.WeeklyHeatKWh; h > 0 {
+		matters = append(matters, "about "+pair(fmt.Sprintf("%.0f kWh", h), fmt.Sprintf("%.1f therm", h/units.KWhPerTherm))+" of heat a week")
+	}
+	if cl := im.WeeklyCoolKWh; cl > 0 {
+		matters = append(matters, "about "+pair(fmt.Sprintf("%.0f kWh", cl), fmt.Sprintf("%.1f ton-h", units.WToBtuh(cl*1000)/12000))+" of cooling a week")
 	}
 	if im.WeeklyCost > 0 {
 		matters = append(matters, fmt.Sprintf("about %s a week", c.money(im.WeeklyCost)))

@@ -356,6 +356,8 @@ func TestGroupedAlertOverRealSMTPWithSTARTTLSAndAuth(t *testing.T) {
 				"valve command 0 %", "airflow 250 cfm (118.0 L/s)", // 0.118 m³/s × 2118.88 cfm per m³/s = 250.0 cfm
 				"estimated leak flow 6 % of design",
 				"about USD 11.40 a week", "What to check first:", "close the valve by override",
+				// 55 kWh / 29.3071 kWh per therm = 1.88; 55 kWh × 3412.14 Btu/kWh / 12,000 Btu per ton-h = 15.6
+				"about 1.9 therm (55 kWh) of heat a week", "about 15.6 ton-h (55 kWh) of cooling a week",
 				"http://127.0.0.1:9470/faults/VAV-1-03%2Fleaking-valve/ack",
 				"risewatch ack --fault VAV-1-03/leaking-valve",
 				"advisory only", "scald",
