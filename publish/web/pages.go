@@ -164,18 +164,25 @@ func (s *Server) faultRows(fs []rules.Transition) []faultRow {
 		if _, ok := st.TerminalIndex[f.Entity]; ok {
 			r.Link = "/terminals/" + url.PathEscape(f.Entity)
 		}
-		ev := f.Evidence
-		var parts []string
-		if !math.IsNaN(ev.ObservedRiseK) {
-			parts = append(parts, "rise "+s.dT(ev.ObservedRiseK))
+		// The numbers of the rule holding the fault (the analyze table's
+		// digest, SI with IP beside it); the rise, expected rise and
+		// command of its last record where the digest has none.
+		if sum := f.Summary(); sum != "" && sum != f.Title {
+			r.Evidence = sum
+		} else {
+			ev := f.Evidence
+			var parts []string
+			if !math.IsNaN(ev.ObservedRiseK) {
+				parts = append(parts, "rise "+s.dT(ev.ObservedRiseK))
+			}
+			if !math.IsNaN(ev.ExpectedRiseK) && ev.ExpectedRiseK != 0 {
+				parts = append(parts, "expected "+s.dT(ev.ExpectedRiseK))
+			}
+			if !math.IsNaN(ev.ValveFrac) {
+				parts = append(parts, "valve "+units.FormatPercent(ev.ValveFrac))
+			}
+			r.Evidence = strings.Join(parts, ", ")
 		}
-		if !math.IsNaN(ev.ExpectedRiseK) && ev.ExpectedRiseK != 0 {
-			parts = append(parts, "expected "+s.dT(ev.ExpectedRiseK))
-		}
-		if !math.IsNaN(ev.ValveFrac) {
-			parts = append(parts, "valve "+units.FormatPercent(ev.ValveFrac))
-		}
-		r.Evidence = strings.Join(parts, ", ")
 		out = append(out, r)
 	}
 	sort.SliceStable(out, func(i, j int) bool { return out[i].cost > out[j].cost })

@@ -46,7 +46,8 @@ func newTestBackend() *testBackend {
 	return &testBackend{site: s, now: now, faults: []rules.Transition{{
 		FaultID: "VAV-1-03/leaking-valve", Entity: "VAV-1-03", Kind: fdd.KindLeakingValve, To: rules.StateOpen, At: now.Add(-3 * time.Hour),
 		Since: now.Add(-4 * time.Hour), Confidence: 0.9, AHU: "AHU-1", Loop: "HW-1", Message: "Valve closed, discharge 7.4 °F above supply.",
-		Evidence: rules.Evidence{ObservedRiseK: 4.1, ValveFrac: 0}, Impact: rules.Impact{WeeklyCost: 5.93}}}}
+		Evidence: rules.Evidence{ObservedRiseK: 4.1, ValveFrac: 0, LeakRiseK: 4.1, LeakFlowFrac: 0.05, ExpectedRiseK: math.NaN()},
+		Impact:   rules.Impact{WeeklyCost: 5.93}}}}
 }
 
 func (b *testBackend) Site() *site.Site { return b.site }
@@ -195,7 +196,8 @@ func TestPagesRender(t *testing.T) {
 	ts := httptest.NewServer(s.Handler())
 	defer ts.Close()
 	for path, wants := range map[string][]string{
-		"/":                   {"Larkspur Commons", "VAV-1-03", "leaking-valve", "USD 5.93", "HW-1", "180.0 °F", "advisory only"},
+		// The fault's evidence digest: 4.1 K × 1.8 = 7.4 °F.
+		"/":                   {"Larkspur Commons", "VAV-1-03", "leaking-valve", "USD 5.93", "HW-1", "180.0 °F", "advisory only", "leak rise 4.1 K (7.4 °F), leak 5 % of design flow"},
 		"/terminals/VAV-1-07": {"<svg", "Air temperature rise, observed and expected (°F)", "12.5 in", "10 FPI", "No open faults."},
 		"/terminals/VAV-1-03": {"Acknowledge", "Snooze", "Leak rise with valve closed"},
 		"/sources":            {"exports", "trendfile", "bad-row 2"},
