@@ -99,13 +99,16 @@ func (t *Transition) Summary() string {
 			add("supply %s low", dk(v))
 		}
 	case fdd.KindDATOffset:
+		// The test that fired: the no-heat offset when there is one, else
+		// the larger of a closed-valve reading below supply and the
+		// closed-valve offset (the rule's any: branches).
 		switch off, closed, below := x("offset_k"), x("closed_offset_k"), x("leak_rise_k"); {
 		case finite(off):
 			add("offset %s with no heat", dk(off))
+		case finite(below) && below < 0 && !(math.Abs(closed) >= -below):
+			add("DAT %s below supply at closed valve", dk(-below))
 		case finite(closed):
 			add("offset %s at closed valve", dk(closed))
-		case finite(below) && below < 0:
-			add("DAT %s below supply at closed valve", dk(-below))
 		}
 	case fdd.KindDATFailed:
 		if b := x("dat_bad_min"); finite(b) && b >= 1 {

@@ -66,6 +66,12 @@ func TestSummaryFollowsTheHoldingRule(t *testing.T) {
 			nil, []string{"offset -2.0 K (-3.6 °F) at closed valve"}},
 		{"sensor-dat-offset", map[string]float64{"leak_rise_k": -1.8},
 			nil, []string{"DAT 1.8 K (3.2 °F) below supply at closed valve"}},
+		// Fired on the closed-valve reading below supply while the
+		// closed-valve offset is small: the reading below supply.
+		{"sensor-dat-offset", map[string]float64{"leak_rise_k": -1.7, "closed_offset_k": -0.8},
+			nil, []string{"DAT 1.7 K (3.1 °F) below supply at closed valve"}},
+		{"sensor-dat-offset", map[string]float64{"leak_rise_k": 2.8, "closed_offset_k": 2.6},
+			nil, []string{"offset 2.6 K (4.7 °F) at closed valve"}},
 		{"sensor-dat-dead", map[string]float64{"dat_bad_min": 45, "dat_flat_min": 0},
 			nil, []string{"missing or out of range 45 min"}},
 		{"sensor-dat-dead", map[string]float64{"dat_bad_min": 0, "dat_flat_min": 15601},
