@@ -72,11 +72,7 @@ func WritePDF(w io.Writer, in Input) error {
 				if i < len(r) {
 					txt = r[i]
 				}
-				// Trim to the cell so columns stay aligned.
-				for pdf.GetStringWidth(tr(txt)) > widths[i]-1.5 && len(txt) > 1 {
-					txt = txt[:len(txt)-1]
-				}
-				pdf.CellFormat(widths[i], 5.5, tr(txt), "1", 0, "L", false, 0, "")
+				pdf.CellFormat(widths[i], 5.5, tr(fitCell(txt, widths[i]-1.5, func(s string) float64 { return pdf.GetStringWidth(tr(s)) })), "1", 0, "L", false, 0, "")
 			}
 			pdf.Ln(-1)
 		}
@@ -307,4 +303,19 @@ func weekPlot(pts []Point, ip bool, title string) ([]byte, error) {
 		return nil, err
 	}
 	return buf.Bytes(), nil
+}
+
+// fitCell trims txt to the width w (mm) that width measures, so a table's
+// columns stay aligned: whole characters come off the end (never part of a
+// multi-byte one, such as the ° of a temperature) and an ellipsis marks the
+// cut, so a reader knows the text goes on (the fault's page has it whole).
+func fitCell(txt string, w float64, width func(string) float64) string {
+	if width(txt) <= w {
+		return txt
+	}
+	r := []rune(txt)
+	for len(r) > 0 && width(string(r)+"…") > w {
+		r = r[:len(r)-1]
+	}
+	return strings.TrimRight(string(r), " ,;:") + "…"
 }

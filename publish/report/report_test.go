@@ -11,6 +11,7 @@ import (
 	"strings"
 	"testing"
 	"time"
+	"unicode/utf8"
 
 	"risewatch/coilmodel"
 	"risewatch/fdd"
@@ -149,6 +150,7 @@ func TestPDFPagesAndTextWithPoppler(t *testing.T) {
 	text := string(out)
 	for _, want := range []string{
 		"Weekly reheat coil report — Larkspur Commons",
+		"…", // a summary-table cell cut to its column (fitCell), in cp1252
 		"2 open fault(s), estimated USD 20.13 a week",
 		"VAV-1-07", "fouled-coil", "leaking-valve",
 		"Observed air temperature rise 16.2 °F (9.0 K), expected 24.3 °F (13.5 K)", // 9 K × 1.8 = 16.2 °F
@@ -198,5 +200,27 @@ func TestScheduleAndWeeks(t *testing.T) {
 	}
 	if _, _, err := ParseWeek("2026-W60", loc); err == nil {
 		t.Error("week 60 accepted")
+	}
+}
+
+// TestFitCellWholeCharactersAndEllipsis: a cell's text is cut to its width
+// at whole characters (the 2-byte ° is never split into invalid UTF-8),
+// the cut marked with an ellipsis; text that fits is left alone.
+func TestFitCellWholeCharactersAndEllipsis(t *testing.T) {
+	runes := func(s string) float64 { return float64(utf8.RuneCountInString(s)) }
+	for _, c := range []struct {
+		in   string
+		w    float64
+		want string
+	}{
+		{"rise 8.8 °F", 20, "rise 8.8 °F"},
+		{"rise 8.8 °F at 0 % command", 11, "rise 8.8 °…"},
+		{"rise 8.8 °F at 0 % command", 10, "rise 8.8…"},
+		{"check the valve; then the actuator", 17, "check the valve…"},
+	} {
+		got := fitCell(c.in, c.w, runes)
+		if got != c.want || !utf8.ValidString(got) || runes(got) > c.w {
+			t.Errorf("fitCell(%q, %v) = %q, want %q", c.in, c.w, got, c.want)
+		}
 	}
 }
