@@ -48,25 +48,29 @@ func lineChart(title, yLabel string, w, h int, series []Series) template.HTML {
 	if ymax-ymin < 1e-9 {
 		ymax, ymin = ymax+1, ymin-1
 	}
-	pad := 0.05 * (ymax - ymin)
-	ymin, ymax = ymin-pad, ymax+pad
+	yt := valueTicks(ymin, ymax, 5)
+	ymin, ymax = yt[0], yt[len(yt)-1]
+	prec := max(0, -int(math.Floor(math.Log10(yt[1]-yt[0])+1e-9)))
 	sx := func(t time.Time) float64 { return ml + pw*float64(t.Sub(t0))/float64(t1.Sub(t0)) }
 	sy := func(y float64) float64 { return mt + ph*(1-(y-ymin)/(ymax-ymin)) }
 	// Axes, grid and labels.
 	fmt.Fprintf(&b, `<rect x="%d" y="%d" width="%.0f" height="%.0f" fill="#fbfbfb" stroke="#bbb"/>`, ml, mt, pw, ph)
-	for i := 0; i <= 4; i++ {
-		y := ymin + (ymax-ymin)*float64(i)/4
-		fmt.Fprintf(&b, `<line x1="%d" x2="%.1f" y1="%.1f" y2="%.1f" stroke="#e4e4e4"/><text x="%d" y="%.1f" font-size="10" text-anchor="end">%.1f</text>`,
-			ml, ml+pw, sy(y), sy(y), ml-4, sy(y)+3, y)
+	for _, y := range yt {
+		fmt.Fprintf(&b, `<line x1="%d" x2="%.1f" y1="%.1f" y2="%.1f" stroke="#e4e4e4"/><text x="%d" y="%.1f" font-size="10" text-anchor="end">%.*f</text>`,
+			ml, ml+pw, sy(y), sy(y), ml-4, sy(y)+3, prec, y)
 	}
-	span := t1.Sub(t0)
-	format := "15:04"
-	if span > 36*time.Hour {
-		format = "Mon 2"
-	}
-	for i := 0; i <= 5; i++ {
-		t := t0.Add(time.Duration(float64(span) * float64(i) / 5))
-		fmt.Fprintf(&b, `<text x="%.1f" y="%d" font-size="10" text-anchor="middle">%s</text>`, sx(t), h-10, t.Format(format))
+	ticks, format := timeTicks(t0, t1, 8)
+	for _, t := range ticks {
+		// A label at either end of the axis is anchored inside the chart.
+		anchor := "middle"
+		switch x := sx(t); {
+		case x > ml+pw-20:
+			anchor = "end"
+		case x < ml+20:
+			anchor = "start"
+		}
+		fmt.Fprintf(&b, `<line x1="%.1f" x2="%.1f" y1="%d" y2="%.1f" stroke="#eeeeee"/><text x="%.1f" y="%d" font-size="10" text-anchor="%s">%s</text>`,
+			sx(t), sx(t), mt, mt+ph, sx(t), h-10, anchor, t.Format(format))
 	}
 	fmt.Fprintf(&b, `<text x="10" y="%.0f" font-size="10" transform="rotate(-90 10 %.0f)" text-anchor="middle">%s</text>`, mt+ph/2, mt+ph/2, template.HTMLEscapeString(yLabel))
 	// Lines.
@@ -97,4 +101,73 @@ func lineChart(title, yLabel string, w, h int, series []Series) template.HTML {
 	}
 	b.WriteString(`</svg>`)
 	return template.HTML(b.String())
+}
+
+// niceStep is the tick step of "nice numbers for graph labels" (Heckbert,
+// Graphics Gems, 1990): 1, 2 or 5 times a power of ten, the smallest not
+// below raw.
+func niceStep(raw float64) float64 {
+	p := math.Pow(10, math.Floor(math.Log10(raw)))
+	for _, m := range []float64{1, 2, 5, 10} {
+		if m*p >= raw*(1-1e-12) {
+			return m * p
+		}
+	}
+	return 10 * p
+}
+
+// valueTicks returns evenly spaced round values from at or below lo to at
+// or above hi, about n intervals apart (Heckbert's loose labelling): the
+// axis runs from the first to the last.
+func valueTicks(lo, hi float64, n int) []float64 {
+	step := niceStep((hi - lo) / float64(n))
+	first, last := math.Floor(lo/step+1e-9), math.Ceil(hi/step-1e-9)
+	var out []float64
+	for k := first; k <= last; k++ {
+		v := k * step
+		if v == 0 {
+			v = 0 // no −0 label
+		}
+		out = append(out, v)
+	}
+	if len(out) < 2 {
+		out = append(out, out[0]+step)
+	}
+	return out
+}
+
+// timeTicks returns tick times inside [t0, t1] on round wall-clock
+// boundaries of t0's zone — local midnights for spans of days (every
+// k-th day to keep at most max ticks), whole hours otherwise — and the
+// label format.
+func timeTicks(t0, t1 time.Time, maxTicks int) ([]time.Time, string) {
+	span := t1.Sub(t0)
+	loc := t0.Location()
+	var out []time.Time
+	if span > 36*time.Hour {
+		days := int(span.Hours()/24) + 1
+		every := (days + maxTicks - 1) / maxTicks
+		y, m, d := t0.Date()
+		for t := time.Date(y, m, d, 0, 0, 0, 0, loc); !t.After(t1); t = t.AddDate(0, 0, every) {
+			if !t.Before(t0) {
+				out = append(out, t)
+			}
+		}
+		return out, "Mon 2"
+	}
+	hours := int(span.Hours()) + 1
+	every := 1
+	for _, e := range []int{1, 2, 3, 4, 6, 12, 24} {
+		every = e
+		if hours/e <= maxTicks {
+			break
+		}
+	}
+	y, m, d := t0.Date()
+	for t := time.Date(y, m, d, t0.Hour(), 0, 0, 0, loc); !t.After(t1); t = t.Add(time.Hour) {
+		if !t.Before(t0) && t.Hour()%every == 0 {
+			out = append(out, t)
+		}
+	}
+	return out, "15:04"
 }
