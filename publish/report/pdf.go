@@ -7,6 +7,7 @@ import (
 	"io"
 	"math"
 	"strings"
+	"time"
 
 	"github.com/go-pdf/fpdf"
 	"gonum.org/v1/plot"
@@ -164,7 +165,7 @@ func WritePDF(w io.Writer, in Input) error {
 			}
 		}
 		if pts := in.Series[t.Entity]; len(pts) > 1 {
-			png, err := weekPlot(pts, in.IP, t.Entity)
+			png, err := weekPlot(pts, in.IP, t.Entity, loc)
 			if err != nil {
 				return fmt.Errorf("report: plot %s: %w", t.Entity, err)
 			}
@@ -233,7 +234,7 @@ func orDash(s string) string {
 
 // weekPlot draws observed and expected rise (left axis, °F or K) and valve
 // command scaled onto the same axis (0-100 % mapped to the rise range) as PNG.
-func weekPlot(pts []Point, ip bool, title string) ([]byte, error) {
+func weekPlot(pts []Point, ip bool, title string, loc *time.Location) ([]byte, error) {
 	p := plot.New()
 	p.Title.Text = title + ": air temperature rise and valve command"
 	unit := "K"
@@ -243,7 +244,7 @@ func weekPlot(pts []Point, ip bool, title string) ([]byte, error) {
 		conv = units.DeltaKToF
 	}
 	p.Y.Label.Text = "rise, " + unit + " (valve % scaled to the same axis)"
-	p.X.Tick.Marker = plot.TimeTicks{Format: "Mon 15h"}
+	p.X.Tick.Marker = dayTicks{loc: loc}
 	obs, exp, valve := plotter.XYs{}, plotter.XYs{}, plotter.XYs{}
 	maxRise := 1.0
 	for _, pt := range pts {
@@ -293,6 +294,8 @@ func weekPlot(pts []Point, ip bool, title string) ([]byte, error) {
 	}
 	p.Legend.Top = true
 	p.Legend.Left = true
+	// Headroom above the highest rise for the legend, so it covers no line.
+	p.Y.Min, p.Y.Max = math.Min(0, p.Y.Min), maxRise*1.45
 	p.Add(plotter.NewGrid())
 	wt, err := p.WriterTo(7*vg.Inch, 3.5*vg.Inch, "png")
 	if err != nil {
@@ -318,4 +321,30 @@ func fitCell(txt string, w float64, width func(string) float64) string {
 		r = r[:len(r)-1]
 	}
 	return strings.TrimRight(string(r), " ,;:") + "…"
+}
+
+// dayTicks marks a week plot's time axis (Unix seconds) at local
+// midnights, labelled with the day ("Mon 13"), and at local noons without
+// a label.
+type dayTicks struct{ loc *time.Location }
+
+// Ticks implements plot.Ticker.
+func (d dayTicks) Ticks(lo, hi float64) []plot.Tick {
+	loc := d.loc
+	if loc == nil {
+		loc = time.UTC
+	}
+	t0, t1 := time.Unix(int64(math.Floor(lo)), 0).In(loc), time.Unix(int64(math.Ceil(hi)), 0).In(loc)
+	y, m, dd := t0.Date()
+	var out []plot.Tick
+	for day := time.Date(y, m, dd, 0, 0, 0, 0, loc); !day.After(t1); day = day.AddDate(0, 0, 1) {
+		noon := day.Add(12 * time.Hour)
+		if !day.Before(t0) {
+			out = append(out, plot.Tick{Value: float64(day.Unix()), Label: day.Format("Mon 2")})
+		}
+		if !noon.Before(t0) && !noon.After(t1) {
+			out = append(out, plot.Tick{Value: float64(noon.Unix())})
+		}
+	}
+	return out
 }

@@ -148,8 +148,24 @@ func (in *Input) evidenceLines(t rules.Transition) []string {
 	if im.ShortfallW > 0 {
 		l = append(l, "Heating shortfall "+dual(in.IP, units.FormatPower, im.ShortfallW))
 	}
-	l = append(l, fmt.Sprintf("Weekly impact: %.0f kWh heat, %.0f kWh cooling, %s %.2f; confidence %.0f %%",
-		im.WeeklyHeatKWh, im.WeeklyCoolKWh, in.currency(), im.WeeklyCost, t.Confidence*100))
+	// 1 therm = 100,000 Btu; 1 ton of refrigeration = 12,000 Btu/h (NIST
+	// SP 811, B.8).
+	energy := func(kwh float64, ipUnit string, perIP float64) string {
+		si, ip := fmt.Sprintf("%.0f kWh", kwh), fmt.Sprintf("%.1f %s", kwh/perIP, ipUnit)
+		if in.IP {
+			return ip + " (" + si + ")"
+		}
+		return si + " (" + ip + ")"
+	}
+	var impact []string
+	if im.WeeklyHeatKWh > 0 {
+		impact = append(impact, energy(im.WeeklyHeatKWh, "therm", units.KWhPerTherm)+" heat")
+	}
+	if im.WeeklyCoolKWh > 0 {
+		impact = append(impact, energy(im.WeeklyCoolKWh, "ton-h", units.BtuhToW(12000)/1000)+" cooling")
+	}
+	impact = append(impact, fmt.Sprintf("%s %.2f", in.currency(), im.WeeklyCost))
+	l = append(l, fmt.Sprintf("Weekly impact: %s; confidence %.0f %%", strings.Join(impact, ", "), t.Confidence*100))
 	return l
 }
 

@@ -224,3 +224,56 @@ func TestFitCellWholeCharactersAndEllipsis(t *testing.T) {
 		}
 	}
 }
+
+// TestWeeklyImpactInBothUnits: the fault page's weekly energy is in therms
+// and ton-hours beside kWh, IP first for an IP report: 79 kWh / 29.3071 kWh
+// per therm = 2.70; 79 kWh / 3.51685 kWh per ton-hour = 22.5 (NIST SP 811,
+// B.8).
+func TestWeeklyImpactInBothUnits(t *testing.T) {
+	in := testInput()
+	for _, c := range []struct {
+		ip   bool
+		want string
+	}{
+		{true, "Weekly impact: 2.7 therm (79 kWh) heat, 22.5 ton-h (79 kWh) cooling, USD 5.93"},
+		{false, "Weekly impact: 79 kWh (2.7 therm) heat, 79 kWh (22.5 ton-h) cooling, USD 5.93"},
+	} {
+		in.IP = c.ip
+		lines := strings.Join(in.evidenceLines(in.Open[0]), "\n")
+		if !strings.Contains(lines, c.want) {
+			t.Errorf("IP %v: evidence lacks %q:\n%s", c.ip, c.want, lines)
+		}
+	}
+	// A fault that wastes no energy (a fouled coil's cost is comfort) lists
+	// only its cost.
+	if lines := strings.Join(in.evidenceLines(in.Open[1]), "\n"); !strings.Contains(lines, "Weekly impact: USD 14.20; confidence 80 %") {
+		t.Errorf("fouled coil: %s", lines)
+	}
+}
+
+// TestDayTicksAtLocalMidnight: the week plot's time axis is labelled at the
+// site's midnights ("Mon 12" ... "Sun 18") with unlabelled noons between.
+func TestDayTicksAtLocalMidnight(t *testing.T) {
+	loc := time.FixedZone("CST", -6*3600)
+	start := time.Date(2026, 1, 12, 0, 0, 0, 0, loc)
+	ticks := dayTicks{loc: loc}.Ticks(float64(start.Unix()), float64(start.Add(7*24*time.Hour-time.Hour).Unix()))
+	var labels []string
+	noons := 0
+	for _, tk := range ticks {
+		at := time.Unix(int64(tk.Value), 0).In(loc)
+		switch {
+		case tk.Label != "":
+			if at.Hour() != 0 || at.Minute() != 0 {
+				t.Errorf("labelled tick %s not at midnight", at)
+			}
+			labels = append(labels, tk.Label)
+		case at.Hour() == 12:
+			noons++
+		default:
+			t.Errorf("tick at %s", at)
+		}
+	}
+	if got := strings.Join(labels, ","); got != "Mon 12,Tue 13,Wed 14,Thu 15,Fri 16,Sat 17,Sun 18" || noons != 7 {
+		t.Errorf("labels %s, %d noons", got, noons)
+	}
+}
