@@ -11,6 +11,7 @@ import (
 
 	"github.com/go-pdf/fpdf"
 	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/font"
 	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/vg"
 
@@ -294,6 +295,11 @@ func weekPlot(pts []Point, ip bool, title string, loc *time.Location) ([]byte, e
 	}
 	p.Legend.Top = true
 	p.Legend.Left = true
+	// Sans-serif text like the report's body (gonum's default is serif).
+	for _, f := range []*font.Font{&p.Title.TextStyle.Font, &p.X.Label.TextStyle.Font, &p.Y.Label.TextStyle.Font,
+		&p.X.Tick.Label.Font, &p.Y.Tick.Label.Font, &p.Legend.TextStyle.Font} {
+		f.Variant = "Sans"
+	}
 	// Headroom above the highest rise for the legend, so it covers no line.
 	p.Y.Min, p.Y.Max = math.Min(0, p.Y.Min), maxRise*1.45
 	p.Add(plotter.NewGrid())
