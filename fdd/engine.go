@@ -232,6 +232,7 @@ func (en *Engine) applyBaseline(i int, b Baseline) error {
 	st.midGen++
 	st.resp = response{}
 	st.respStats = st.resp.stats()
+	st.perfRef = perfRef{} // healthy performance against the previous model
 	st.slow.update(st)
 	st.pubGen++
 	return nil

@@ -412,6 +412,8 @@ func (en *Engine) publishSlow(e *Evidence, st *termState) {
 	e.ExpectedSpanK = r.expSpan
 	e.EWMALimit = en.ewmaLim
 	e.PerfHigh, e.PerfLow = r.perfHigh, r.perfLow
+	e.PerfHighRef = st.perfRef.level()
+	e.PerfHighRel = r.perfHigh / e.PerfHighRef
 	if ce := &st.closedEst; ce.ok {
 		e.ClosedOffsetK, e.ClosedOffsetSigmaK, e.ClosedHeatK = ce.a, ce.sig, ce.heat
 	} else {

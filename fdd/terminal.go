@@ -80,6 +80,7 @@ type termState struct {
 	designFlow                        float64 // full-open installed flow at the baseline flow factor, m³/s
 	leakFlow                          float64 // leak flow / design flow; −1 until estimated
 	perfHighLast                      float64 // last valid high-command performance (NaN until seen)
+	perfRef                           perfRef // the coil's own healthy high-command performance against the current model
 	cmpShare                          float64 // cached cmp.share()
 	onsetH                            float64 // OnsetHours of shortSince and healthyAt (NaN if no loss)
 	learnedUA                         float64 // learned UA factor that was rejected (0 if none)
@@ -110,6 +111,55 @@ type termState struct {
 	base       Baseline
 	healthyAt  time.Time // last time the high-command performance was healthy
 	shortSince time.Time // first loss of high-command performance after healthyAt
+}
+
+// perfRefMaxN is the number of healthy high-command performance values the
+// reference averages before it becomes an exponentially weighted mean of
+// about that many: one value per response cadence (16 steps), so at 1-minute
+// steps about 17 h of high-command heating, several mornings' warm-ups [I].
+const perfRefMaxN = 64
+
+// perfRefSettle is the number of healthy values before the reference
+// guards itself against a loss in progress (perfRef.add) [I].
+const perfRefSettle = 8
+
+// perfRef is a coil's demonstrated healthy high-command performance
+// (observed / expected rise, response cadence values in the healthy band
+// p ≥ 1 − capLossLo/2 of the onset logic). The expected rise comes from the
+// rated calibration or a learned fit, either of which misjudges an
+// individual coil by some percent (a learned fit is rejected when it lies
+// outside the rating band, which leaves the rated model in use); dividing
+// by the coil's own healthy level takes that calibration bias out of a
+// later capacity loss.
+type perfRef struct {
+	mean float64
+	n    int
+}
+
+// add takes one performance value of the healthy band. A value short of
+// the coil's own level by more than the healthy margin (half the start of
+// the capacity-loss ramp, as for the band) is a loss in progress against
+// that level, not a new healthy level: it is left out, so a coil the model
+// under-rates does not pull its reference down while it loses capacity.
+// The first perfRefSettle values are all taken, so that one early value
+// cannot hold the reference up.
+func (r *perfRef) add(p float64) {
+	if r.n >= perfRefSettle && p < r.mean*(1-capLossLo/2) {
+		return
+	}
+	if r.n < perfRefMaxN {
+		r.n++
+	}
+	r.mean += (p - r.mean) / float64(r.n)
+}
+
+// level is the reference: the healthy mean, or 1 (the model itself) while
+// the coil has not yet been seen healthy against the current model.
+func (r *perfRef) level() float64 {
+	if r.n == 0 {
+		return 1
+	}
+	return r.mean
 }
 
 // setOnset caches OnsetHours after healthyAt or shortSince changed.
@@ -318,6 +368,7 @@ func (en *Engine) responseCadence(st *termState, s *collector.Sample) {
 		switch {
 		case p >= 1-capLossLo/2:
 			st.healthyAt, st.shortSince = s.At, time.Time{}
+			st.perfRef.add(p)
 			st.setOnset()
 		case p < 1-capLossLo && st.shortSince.IsZero() && !st.healthyAt.IsZero():
 			st.shortSince = s.At
@@ -415,4 +466,5 @@ func setNaN(e *Evidence) {
 	e.PerfAvg, e.PerfHigh, e.PerfLow = nan, nan, nan
 	e.ClosedOffsetK, e.ClosedOffsetSigmaK, e.ClosedHeatK, e.ClosedCapacityFrac = nan, nan, nan, nan
 	e.PerfHighLast, e.StarvedShare, e.RejectedUAFactor, e.ZoneDeficitK, e.OnsetHours, e.ClosedRiseK = nan, nan, nan, nan, nan, nan
+	e.PerfHighRef, e.PerfHighRel = nan, nan
 }

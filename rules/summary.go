@@ -71,6 +71,12 @@ func (t *Transition) Summary() string {
 			add("apparent water flow %s of baseline", pc(f))
 		} else {
 			add("rise at high command %s of the model's", pc(ph))
+			// Against a model that misjudges this coil (by 2 points or
+			// more), the rule may have opened on the coil's own healthy
+			// level instead.
+			if r := x("perf_high_rel"); finite(r) && math.Abs(r-ph) >= 0.02 {
+				add("%s of its healthy level", pc(r))
+			}
 		}
 		if v := x("shortfall_high_k"); finite(v) {
 			add("short %s at high command", dk(-v))

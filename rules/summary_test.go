@@ -90,6 +90,10 @@ func TestSummaryFollowsTheHoldingRule(t *testing.T) {
 		// that rise, not a flow "short" of baseline at 147 %.
 		{"model-coil-starved", map[string]float64{"shortfall_high_k": -2.9, "perf_high": 0.8},
 			func(ev *Evidence) { ev.FlowFactor = 1.47 }, []string{"rise at high command 80 % of the model's", "short 2.9 K (5.2 °F) at high command"}},
+		// Opened on the coil's own healthy level: the model under-rates
+		// this coil, so its rise at 86 % of the model's is 82 % of its own.
+		{"model-coil-starved", map[string]float64{"shortfall_high_k": -2.1, "perf_high": 0.86, "perf_high_rel": 0.82},
+			func(ev *Evidence) { ev.FlowFactor = 1.6 }, []string{"rise at high command 86 % of the model's, 82 % of its healthy level"}},
 		{"model-coil-fouled", nil,
 			func(ev *Evidence) { ev.UAFactor, ev.FlowFactor = 0.83, 1.02 }, []string{"UA 83 % of baseline", "apparent water flow 102 %"}},
 		{"g36-valve-leak", map[string]float64{"valve": 0, "dat_minus_sat_k": 4},
