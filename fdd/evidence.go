@@ -114,9 +114,9 @@ type Evidence struct {
 	ZoneBadMinutes    float64 `rule:"zone_bad_min"`     // minutes the zone temperature has been implausible: present outside collector.ZoneMinC..ZoneMaxC, or missing while its point is configured and the box's airflow and valve arrive
 	ZoneSetBadMinutes float64 `rule:"zone_set_bad_min"` // the same for the heating setpoint (collector.ZoneSetMinC..ZoneSetMaxC)
 
-	// Added by the fdd engine, fourth round (additive): capacity against the
-	// coil's own healthy level, which takes a per-coil calibration bias of the
-	// model (rated, or learned) out of a capacity loss.
+	// Capacity against the coil's own healthy level, which takes a per-coil
+	// calibration bias of the model (rated, or learned) out of a capacity
+	// loss.
 	PerfHighRef float64 `rule:"perf_high_ref"` // mean high-command performance while healthy against the current model (1 until seen healthy)
 	PerfHighRel float64 `rule:"perf_high_rel"` // PerfHigh / PerfHighRef: high-command capacity relative to the coil's demonstrated healthy level
 }
