@@ -176,7 +176,7 @@ func WriteCSV(w io.Writer, rows []FaultRow) error {
 			cleared = r.ClearedAt.Format(time.RFC3339)
 		}
 		// 1 ton of refrigeration = 12,000 Btu/h = 3.516853 kW (NIST SP 811, B.8).
-		tonH := units.WToBtuh(r.WeeklyCool*1000) / 12000
+		tonH := r.WeeklyCool / units.KWhPerTonHour
 		_ = cw.Write([]string{strconv.Itoa(r.Rank), r.FaultID, r.Entity, r.Kind, r.Rule, strconv.Itoa(r.Severity), r.State,
 			r.Since.Format(time.RFC3339), r.OpenedAt.Format(time.RFC3339), cleared, f(r.Confidence, 2), r.Summary,
 			f(r.WeeklyHeat, 1), f(r.WeeklyHeat/units.KWhPerTherm, 2), f(r.WeeklyCool, 1), f(tonH, 2), f(r.WeeklyCost, 2), r.Currency,

@@ -120,3 +120,7 @@ func KvToCv(kv float64) float64 { return kv / CvToKv(1) }
 
 // KWhPerTherm is 100,000 Btu (IT) in kilowatt-hours.
 const KWhPerTherm = 1e5 * JoulePerBtuIT / 3.6e6
+
+// KWhPerTonHour is one ton of refrigeration (12,000 Btu/h, NIST SP 811,
+// B.8) for an hour, in kilowatt-hours (3.5169).
+const KWhPerTonHour = 12000 * JoulePerBtuIT / 3.6e6

@@ -110,7 +110,7 @@ func (c *Config) itemFor(e Event) itemView {
 		matters = append(matters, "about "+pair(fmt.Sprintf("%.0f kWh", h), fmt.Sprintf("%.1f therm", h/units.KWhPerTherm))+" of heat a week")
 	}
 	if cl := im.WeeklyCoolKWh; cl > 0 {
-		matters = append(matters, "about "+pair(fmt.Sprintf("%.0f kWh", cl), fmt.Sprintf("%.1f ton-h", units.WToBtuh(cl*1000)/12000))+" of cooling a week")
+		matters = append(matters, "about "+pair(fmt.Sprintf("%.0f kWh", cl), fmt.Sprintf("%.1f ton-h", cl/units.KWhPerTonHour))+" of cooling a week")
 	}
 	if im.WeeklyCost > 0 {
 		matters = append(matters, fmt.Sprintf("about %s a week", c.money(im.WeeklyCost)))

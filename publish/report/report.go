@@ -162,7 +162,7 @@ func (in *Input) evidenceLines(t rules.Transition) []string {
 		impact = append(impact, energy(im.WeeklyHeatKWh, "therm", units.KWhPerTherm)+" heat")
 	}
 	if im.WeeklyCoolKWh > 0 {
-		impact = append(impact, energy(im.WeeklyCoolKWh, "ton-h", units.BtuhToW(12000)/1000)+" cooling")
+		impact = append(impact, energy(im.WeeklyCoolKWh, "ton-h", units.KWhPerTonHour)+" cooling")
 	}
 	impact = append(impact, fmt.Sprintf("%s %.2f", in.currency(), im.WeeklyCost))
 	l = append(l, fmt.Sprintf("Weekly impact: %s; confidence %.0f %%", strings.Join(impact, ", "), t.Confidence*100))
@@ -231,7 +231,7 @@ func WriteCSV(w io.Writer, in Input) error {
 		row := []string{strconv.Itoa(i + 1), t.Entity, t.Kind.String(), strconv.Itoa(int(t.Severity)),
 			since.In(loc).Format("2006-01-02 15:04"), num(im.WeeklyCost, 2),
 			num(im.WeeklyHeatKWh, 1), num(im.WeeklyHeatKWh/units.KWhPerTherm, 2),
-			num(im.WeeklyCoolKWh, 1), num(units.WToBtuh(im.WeeklyCoolKWh*1000)/12000, 2), num(t.Confidence*100, 0),
+			num(im.WeeklyCoolKWh, 1), num(im.WeeklyCoolKWh/units.KWhPerTonHour, 2), num(t.Confidence*100, 0),
 			num(ev.ObservedRiseK, 2), num(units.DeltaKToF(ev.ObservedRiseK), 2),
 			num(ev.ExpectedRiseK, 2), num(units.DeltaKToF(ev.ExpectedRiseK), 2), num(ev.ValveFrac*100, 0), t.Message,
 			strings.Join(t.Causes, "; "), strings.Join(t.Checks, "; "), cl[1], cl[2], cl[3], cl[4], cl[5], cl[6], t.AHU, t.Loop}
