@@ -38,31 +38,62 @@ type msgData struct {
 
 func na(v float64) bool { return math.IsNaN(v) || math.IsInf(v, 0) }
 
+// The formatting shared by message templates and Transition.Summary: SI
+// first, IP in brackets; a missing value prints as "n/a".
+func fmtTemp(c float64) string {
+	if na(c) {
+		return "n/a"
+	}
+	return units.FormatTemp(c, false) + " (" + units.FormatTemp(c, true) + ")"
+}
+
+func fmtDTemp(k float64) string {
+	if na(k) {
+		return "n/a"
+	}
+	return units.FormatTempDiff(k, false) + " (" + units.FormatTempDiff(k, true) + ")"
+}
+
+func fmtAirflow(m3s float64) string {
+	if na(m3s) {
+		return "n/a"
+	}
+	return units.FormatAirflow(m3s, false) + " (" + units.FormatAirflow(m3s, true) + ")"
+}
+
+func fmtWaterFlow(m3s float64) string {
+	if na(m3s) {
+		return "n/a"
+	}
+	return units.FormatWaterFlow(m3s, false) + " (" + units.FormatWaterFlow(m3s, true) + ")"
+}
+
+func fmtPower(w float64) string {
+	if na(w) {
+		return "n/a"
+	}
+	return units.FormatPower(w, false) + " (" + units.FormatPower(w, true) + ")"
+}
+
+func fmtPct(f float64) string {
+	if na(f) {
+		return "n/a"
+	}
+	return units.FormatPercent(f)
+}
+
+func fmtMins(m float64) string {
+	if na(m) {
+		return "n/a"
+	}
+	return minutes(m)
+}
+
 var msgFuncs = template.FuncMap{
-	"temp": func(c float64) string {
-		if na(c) {
-			return "n/a"
-		}
-		return units.FormatTemp(c, false) + " (" + units.FormatTemp(c, true) + ")"
-	},
-	"dtemp": func(k float64) string {
-		if na(k) {
-			return "n/a"
-		}
-		return units.FormatTempDiff(k, false) + " (" + units.FormatTempDiff(k, true) + ")"
-	},
-	"flow": func(m3s float64) string {
-		if na(m3s) {
-			return "n/a"
-		}
-		return units.FormatAirflow(m3s, false) + " (" + units.FormatAirflow(m3s, true) + ")"
-	},
-	"power": func(w float64) string {
-		if na(w) {
-			return "n/a"
-		}
-		return units.FormatPower(w, false) + " (" + units.FormatPower(w, true) + ")"
-	},
+	"temp":  fmtTemp,
+	"dtemp": fmtDTemp,
+	"flow":  fmtAirflow,
+	"power": fmtPower,
 	"energy": func(kwh float64) string {
 		if na(kwh) {
 			return "n/a"
@@ -70,18 +101,8 @@ var msgFuncs = template.FuncMap{
 		// 1 therm = 100,000 Btu (units.KWhPerTherm).
 		return fmt.Sprintf("%.0f kWh (%.1f therm)", kwh, kwh/units.KWhPerTherm)
 	},
-	"pct": func(f float64) string {
-		if na(f) {
-			return "n/a"
-		}
-		return units.FormatPercent(f)
-	},
-	"mins": func(m float64) string {
-		if na(m) {
-			return "n/a"
-		}
-		return minutes(m)
-	},
+	"pct":  fmtPct,
+	"mins": fmtMins,
 	"money": func(v float64, cur string) string {
 		if na(v) {
 			return "n/a"

@@ -7,7 +7,6 @@ import (
 	"strings"
 
 	"risewatch/fdd"
-	"risewatch/units"
 )
 
 // Summary is a one-cell digest of the evidence for tables: the two or three
@@ -31,20 +30,15 @@ func (t *Transition) Summary() string {
 		return math.NaN()
 	}
 	known := 0 // values printed that are not "n/a"
-	dk := func(v float64) string {
-		if !finite(v) {
-			return "n/a"
+	count := func(f func(float64) string) func(float64) string {
+		return func(v float64) string {
+			if finite(v) {
+				known++
+			}
+			return f(v)
 		}
-		known++
-		return units.FormatTempDiff(v, false) + " (" + units.FormatTempDiff(v, true) + ")"
 	}
-	pc := func(v float64) string {
-		if !finite(v) {
-			return "n/a"
-		}
-		known++
-		return units.FormatPercent(v)
-	}
+	dk, pc := count(fmtDTemp), count(fmtPct)
 	var parts []string
 	add := func(f string, a ...any) { parts = append(parts, fmt.Sprintf(f, a...)) }
 	switch t.Kind {
@@ -58,7 +52,7 @@ func (t *Transition) Summary() string {
 			}
 		}
 		if w := t.Impact.WastedHeatW; w > 0 {
-			add("%s wasted", powerBoth(w))
+			add("%s wasted", fmtPower(w))
 		}
 	case fdd.KindFouledCoil:
 		add("UA %s of baseline", pc(ev.UAFactor))
@@ -156,11 +150,6 @@ func (t *Transition) Summary() string {
 	return strings.Join(parts, ", ")
 }
 
-// powerBoth formats a power in SI with IP in brackets: "2.21 kW (7.5 MBH)".
-func powerBoth(w float64) string {
-	return units.FormatPower(w, false) + " (" + units.FormatPower(w, true) + ")"
-}
-
 // minutes formats a duration in minutes as minutes, hours or days,
 // whichever reads best: "45 min", "5.2 h", "10.8 d" (messages' mins too).
 func minutes(m float64) string {
@@ -201,17 +190,17 @@ func fieldDigest(extra map[string]float64, n int) string {
 func formatField(name string, v float64) string {
 	switch {
 	case strings.HasSuffix(name, "_k"):
-		return units.FormatTempDiff(v, false) + " (" + units.FormatTempDiff(v, true) + ")"
+		return fmtDTemp(v)
 	case strings.HasSuffix(name, "_c"):
-		return units.FormatTemp(v, false) + " (" + units.FormatTemp(v, true) + ")"
+		return fmtTemp(v)
 	case strings.HasSuffix(name, "_frac"):
-		return units.FormatPercent(v)
+		return fmtPct(v)
 	case strings.HasSuffix(name, "_min"):
-		return minutes(v)
+		return fmtMins(v)
 	case strings.HasSuffix(name, "_w"):
-		return powerBoth(v)
+		return fmtPower(v)
 	case strings.HasSuffix(name, "_m3s"):
-		return units.FormatWaterFlow(v, false) + " (" + units.FormatWaterFlow(v, true) + ")"
+		return fmtWaterFlow(v)
 	default:
 		return fmt.Sprintf("%.3g", v)
 	}
