@@ -186,7 +186,8 @@ func fieldDigest(extra map[string]float64, n int) string {
 	return strings.Join(parts, ", ")
 }
 
-// formatField formats one evidence value by the unit its field name ends in.
+// formatField formats one evidence value by the unit its field name ends in
+// (an airflow is air, L/s and cfm; any other _m3s is water, L/s and gpm).
 func formatField(name string, v float64) string {
 	switch {
 	case strings.HasSuffix(name, "_k"):
@@ -199,6 +200,8 @@ func formatField(name string, v float64) string {
 		return fmtMins(v)
 	case strings.HasSuffix(name, "_w"):
 		return fmtPower(v)
+	case strings.HasPrefix(name, "airflow") && strings.HasSuffix(name, "_m3s"):
+		return fmtAirflow(v)
 	case strings.HasSuffix(name, "_m3s"):
 		return fmtWaterFlow(v)
 	default:

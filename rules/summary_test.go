@@ -292,3 +292,18 @@ func TestEveryBuiltinMessageRenders(t *testing.T) {
 		}
 	}
 }
+
+// TestFieldDigestFlowUnits: in a site rule's digest an airflow reads in
+// L/s and cfm, a water flow in L/s and gpm (0.0944 m³/s = 200 cfm;
+// 6.31e-5 m³/s = 1.0 gpm, 1 US gal = 3.785412 L).
+func TestFieldDigestFlowUnits(t *testing.T) {
+	got := fieldDigest(map[string]float64{"airflow_m3s": 0.0944, "leak_flow_m3s": 6.31e-5}, 3)
+	for _, w := range []string{"airflow m3s 94.4 L/s (200 cfm)", "leak flow m3s", "gpm"} {
+		if !strings.Contains(got, w) {
+			t.Errorf("digest %q lacks %q", got, w)
+		}
+	}
+	if strings.Count(got, "gpm") != 1 {
+		t.Errorf("digest %q: the airflow reads as a water flow", got)
+	}
+}
