@@ -98,8 +98,7 @@ var msgFuncs = template.FuncMap{
 		if na(kwh) {
 			return "n/a"
 		}
-		// 1 therm = 100,000 Btu (units.KWhPerTherm).
-		return fmt.Sprintf("%.0f kWh (%.1f therm)", kwh, kwh/units.KWhPerTherm)
+		return units.FormatHeatEnergy(kwh, false) + " (" + units.FormatHeatEnergy(kwh, true) + ")"
 	},
 	"pct":  fmtPct,
 	"mins": fmtMins,

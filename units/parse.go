@@ -359,6 +359,24 @@ func FormatPower(w float64, ip bool) string {
 	return fmtNum(w/1000, 2) + " kW"
 }
 
+// FormatHeatEnergy formats an amount of heat (kWh inside): "2.7 therm" or
+// "79 kWh" (1 therm = 100,000 Btu, KWhPerTherm).
+func FormatHeatEnergy(kwh float64, ip bool) string {
+	if ip {
+		return fmtNum(kwh/KWhPerTherm, 1) + " therm"
+	}
+	return fmtNum(kwh, 0) + " kWh"
+}
+
+// FormatCoolingEnergy formats an amount of cooling (kWh inside): "22.5
+// ton-h" or "79 kWh" (1 ton of refrigeration = 12,000 Btu/h, KWhPerTonHour).
+func FormatCoolingEnergy(kwh float64, ip bool) string {
+	if ip {
+		return fmtNum(kwh/KWhPerTonHour, 1) + " ton-h"
+	}
+	return fmtNum(kwh, 0) + " kWh"
+}
+
 // FormatAirDP formats an air-side pressure difference (Pa inside): "0.25 in. w.c." or "62 Pa".
 func FormatAirDP(pa float64, ip bool) string {
 	if ip {

@@ -98,19 +98,11 @@ func (c *Config) itemFor(e Event) itemView {
 	if im.ShortfallW > 0 {
 		matters = append(matters, "heat the zone asked for and did not get "+both(units.FormatPower(im.ShortfallW, c.IP), units.FormatPower(im.ShortfallW, !c.IP))+" (comfort)")
 	}
-	// Weekly energy, each in its own IP unit: 1 therm = 100,000 Btu, 1 ton
-	// of refrigeration = 12,000 Btu/h (NIST SP 811, B.8).
-	pair := func(si, ip string) string {
-		if c.IP {
-			return both(ip, si)
-		}
-		return both(si, ip)
-	}
 	if h := im.WeeklyHeatKWh; h > 0 {
-		matters = append(matters, "about "+pair(fmt.Sprintf("%.0f kWh", h), fmt.Sprintf("%.1f therm", h/units.KWhPerTherm))+" of heat a week")
+		matters = append(matters, "about "+both(units.FormatHeatEnergy(h, c.IP), units.FormatHeatEnergy(h, !c.IP))+" of heat a week")
 	}
 	if cl := im.WeeklyCoolKWh; cl > 0 {
-		matters = append(matters, "about "+pair(fmt.Sprintf("%.0f kWh", cl), fmt.Sprintf("%.1f ton-h", cl/units.KWhPerTonHour))+" of cooling a week")
+		matters = append(matters, "about "+both(units.FormatCoolingEnergy(cl, c.IP), units.FormatCoolingEnergy(cl, !c.IP))+" of cooling a week")
 	}
 	if im.WeeklyCost > 0 {
 		matters = append(matters, fmt.Sprintf("about %s a week", c.money(im.WeeklyCost)))

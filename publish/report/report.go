@@ -148,21 +148,12 @@ func (in *Input) evidenceLines(t rules.Transition) []string {
 	if im.ShortfallW > 0 {
 		l = append(l, "Heating shortfall "+dual(in.IP, units.FormatPower, im.ShortfallW))
 	}
-	// 1 therm = 100,000 Btu; 1 ton of refrigeration = 12,000 Btu/h (NIST
-	// SP 811, B.8).
-	energy := func(kwh float64, ipUnit string, perIP float64) string {
-		si, ip := fmt.Sprintf("%.0f kWh", kwh), fmt.Sprintf("%.1f %s", kwh/perIP, ipUnit)
-		if in.IP {
-			return ip + " (" + si + ")"
-		}
-		return si + " (" + ip + ")"
-	}
 	var impact []string
 	if im.WeeklyHeatKWh > 0 {
-		impact = append(impact, energy(im.WeeklyHeatKWh, "therm", units.KWhPerTherm)+" heat")
+		impact = append(impact, dual(in.IP, units.FormatHeatEnergy, im.WeeklyHeatKWh)+" heat")
 	}
 	if im.WeeklyCoolKWh > 0 {
-		impact = append(impact, energy(im.WeeklyCoolKWh, "ton-h", units.KWhPerTonHour)+" cooling")
+		impact = append(impact, dual(in.IP, units.FormatCoolingEnergy, im.WeeklyCoolKWh)+" cooling")
 	}
 	impact = append(impact, fmt.Sprintf("%s %.2f", in.currency(), im.WeeklyCost))
 	l = append(l, fmt.Sprintf("Weekly impact: %s; confidence %.0f %%", strings.Join(impact, ", "), t.Confidence*100))
