@@ -16,6 +16,8 @@ import (
 //	{{temp .E.hw_c}}          → "60.0 °C (140.0 °F)"
 //	{{flow .E.airflow_m3s}}   → "141.6 L/s (300 cfm)"
 //	{{power .Impact.WastedHeatW}} → "0.47 kW (1.6 MBH)"
+//	{{energy .Impact.WeeklyHeatKWh}} → "79 kWh (2.7 therm)"
+//	{{coolenergy .Impact.WeeklyCoolKWh}} → "79 kWh (22.5 ton-h)"
 //	{{pct .E.valve}}          → "0 %"
 //	{{mins .E.closed_min}}    → "45 min" / "3.5 h"
 //	{{money .Impact.WeeklyCost}} → "12.40 USD"
@@ -99,6 +101,12 @@ var msgFuncs = template.FuncMap{
 			return "n/a"
 		}
 		return units.FormatHeatEnergy(kwh, false) + " (" + units.FormatHeatEnergy(kwh, true) + ")"
+	},
+	"coolenergy": func(kwh float64) string {
+		if na(kwh) {
+			return "n/a"
+		}
+		return units.FormatCoolingEnergy(kwh, false) + " (" + units.FormatCoolingEnergy(kwh, true) + ")"
 	},
 	"pct":  fmtPct,
 	"mins": fmtMins,

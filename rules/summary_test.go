@@ -307,3 +307,25 @@ func TestFieldDigestFlowUnits(t *testing.T) {
 		t.Errorf("digest %q: the airflow reads as a water flow", got)
 	}
 }
+
+// TestLeakMessageCoolingInTonHours: the leak message gives the week's heat
+// in therms and its cooling in ton-hours beside kWh (246 kWh / 29.3071 =
+// 8.4 therm; 246 kWh / 3.516853 = 69.9 ton-h).
+func TestLeakMessageCoolingInTonHours(t *testing.T) {
+	e, err := NewEvaluator(testSite(1, 1), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range e.term {
+		if c.rule.ID != "model-valve-leak" {
+			continue
+		}
+		got := c.render(&msgData{Rule: c.rule.ID, E: map[string]float64{"leak_rise_k": 8.8, "airflow_m3s": 0.18, "leak_flow_frac": 0.12},
+			Impact: Impact{WastedHeatW: 2210, WeeklyHeatKWh: 246, WeeklyCoolKWh: 246, WeeklyCost: 19.69}, Currency: "USD"})
+		if !strings.Contains(got, "246 kWh (8.4 therm) heat and 246 kWh (69.9 ton-h) cooling a week") {
+			t.Errorf("leak message: %s", got)
+		}
+		return
+	}
+	t.Fatal("no model-valve-leak rule")
+}
