@@ -42,40 +42,18 @@ func na(v float64) bool { return math.IsNaN(v) || math.IsInf(v, 0) }
 
 // The formatting shared by message templates and Transition.Summary: SI
 // first, IP in brackets; a missing value prints as "n/a".
-func fmtTemp(c float64) string {
-	if na(c) {
+func siIP(f func(v float64, ip bool) string, v float64) string {
+	if na(v) {
 		return "n/a"
 	}
-	return units.FormatTemp(c, false) + " (" + units.FormatTemp(c, true) + ")"
+	return f(v, false) + " (" + f(v, true) + ")"
 }
 
-func fmtDTemp(k float64) string {
-	if na(k) {
-		return "n/a"
-	}
-	return units.FormatTempDiff(k, false) + " (" + units.FormatTempDiff(k, true) + ")"
-}
-
-func fmtAirflow(m3s float64) string {
-	if na(m3s) {
-		return "n/a"
-	}
-	return units.FormatAirflow(m3s, false) + " (" + units.FormatAirflow(m3s, true) + ")"
-}
-
-func fmtWaterFlow(m3s float64) string {
-	if na(m3s) {
-		return "n/a"
-	}
-	return units.FormatWaterFlow(m3s, false) + " (" + units.FormatWaterFlow(m3s, true) + ")"
-}
-
-func fmtPower(w float64) string {
-	if na(w) {
-		return "n/a"
-	}
-	return units.FormatPower(w, false) + " (" + units.FormatPower(w, true) + ")"
-}
+func fmtTemp(c float64) string        { return siIP(units.FormatTemp, c) }
+func fmtDTemp(k float64) string       { return siIP(units.FormatTempDiff, k) }
+func fmtAirflow(m3s float64) string   { return siIP(units.FormatAirflow, m3s) }
+func fmtWaterFlow(m3s float64) string { return siIP(units.FormatWaterFlow, m3s) }
+func fmtPower(w float64) string       { return siIP(units.FormatPower, w) }
 
 func fmtPct(f float64) string {
 	if na(f) {
@@ -92,24 +70,14 @@ func fmtMins(m float64) string {
 }
 
 var msgFuncs = template.FuncMap{
-	"temp":  fmtTemp,
-	"dtemp": fmtDTemp,
-	"flow":  fmtAirflow,
-	"power": fmtPower,
-	"energy": func(kwh float64) string {
-		if na(kwh) {
-			return "n/a"
-		}
-		return units.FormatHeatEnergy(kwh, false) + " (" + units.FormatHeatEnergy(kwh, true) + ")"
-	},
-	"coolenergy": func(kwh float64) string {
-		if na(kwh) {
-			return "n/a"
-		}
-		return units.FormatCoolingEnergy(kwh, false) + " (" + units.FormatCoolingEnergy(kwh, true) + ")"
-	},
-	"pct":  fmtPct,
-	"mins": fmtMins,
+	"temp":       fmtTemp,
+	"dtemp":      fmtDTemp,
+	"flow":       fmtAirflow,
+	"power":      fmtPower,
+	"energy":     func(kwh float64) string { return siIP(units.FormatHeatEnergy, kwh) },
+	"coolenergy": func(kwh float64) string { return siIP(units.FormatCoolingEnergy, kwh) },
+	"pct":        fmtPct,
+	"mins":       fmtMins,
 	"money": func(v float64, cur string) string {
 		if na(v) {
 			return "n/a"
