@@ -14,7 +14,10 @@
 // package units), groups comparisons with all/any/not, requires gates
 // (usable, steady, plant_on, fan_on, occupied, heating_season, or their
 // negation with "!"), and holds the condition for a persistence time before
-// a fault opens. A fault clears with hysteresis: either an explicit
+// a fault opens: one run of `for` (short gaps with the gates failing are
+// bridged), or with `within` a total of `for` inside the last `within`,
+// kept in within/24 bins, for faults that come and go with the load
+// (the built-in hunting rule: 4 h within 24 h). A fault clears with hysteresis: either an explicit
 // clear_when group or the negation of the open condition evaluated with each
 // comparison's separate clear threshold, held for clear_for.
 //

@@ -48,6 +48,10 @@ type Evaluator struct {
 	termIdx map[string]int
 	loopIdx map[string]int
 
+	// held is the condition-true time of pending trackers of rules with
+	// a within window (pendWithin), made when such a tracker first holds.
+	held map[*tracker]*heldTime
+
 	faults   map[faultKey]*fault
 	byID     map[string]*fault
 	suppress map[string]time.Time
@@ -119,6 +123,7 @@ func NewEvaluator(s *site.Site, rs *Ruleset) (*Evaluator, error) {
 	}
 	e := &Evaluator{
 		site: s, rs: rs, nT: len(s.Terminals), nL: len(s.Loops),
+		held:   map[*tracker]*heldTime{},
 		faults: map[faultKey]*fault{}, byID: map[string]*fault{}, suppress: map[string]time.Time{},
 		maxGapNs: int64(rs.maxGap),
 	}
@@ -313,6 +318,9 @@ func (e *Evaluator) stepLoop(lv *fdd.LoopEvidence, out []Transition) []Transitio
 // met. A false condition under met gates resets it; an unknown or gated
 // sample holds it unless the gap since the last true sample exceeds max_gap.
 func (e *Evaluator) pend(tk *tracker, c *compiled, gatesOK bool, p unsafe.Pointer, at int64) bool {
+	if c.withinNs > 0 {
+		return e.pendWithin(tk, c, gatesOK, p, at)
+	}
 	if !gatesOK {
 		if tk.since != 0 && at-tk.last > e.maxGapNs {
 			tk.since = 0

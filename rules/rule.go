@@ -30,9 +30,15 @@ type Rule struct {
 	// Gates must all hold for the condition to be judged: usable, steady,
 	// plant_on, fan_on, occupied, heating_season, any truth-valued evidence
 	// field, or a name prefixed with "!" for its negation.
-	Gates     []string `yaml:"gates"`
-	When      *Cond    `yaml:"when"`
-	For       Duration `yaml:"for"`
+	Gates []string `yaml:"gates"`
+	When  *Cond    `yaml:"when"`
+	For   Duration `yaml:"for"`
+	// Within, when set, makes For a total instead of a run: the condition
+	// must have held for For in all within the last Within (judged
+	// records; time between two true records counts as in a run), for
+	// faults that come and go with the load, such as hunting. Held time
+	// is kept in Within/24 bins.
+	Within    Duration `yaml:"within"`
 	ClearWhen *Cond    `yaml:"clear_when"`
 	ClearFor  Duration `yaml:"clear_for"`
 	// Suppresses lists kinds this fault explains on the same entity (for a
@@ -54,7 +60,7 @@ type Rule struct {
 	Line int    `yaml:"-"`
 }
 
-var ruleKeys = []string{"id", "kind", "scope", "title", "source", "severity", "gates", "when", "for", "clear_when", "clear_for", "suppresses", "confidence", "message", "causes", "checks", "show", "except", "only", "disabled"}
+var ruleKeys = []string{"id", "kind", "scope", "title", "source", "severity", "gates", "when", "for", "within", "clear_when", "clear_for", "suppresses", "confidence", "message", "causes", "checks", "show", "except", "only", "disabled"}
 
 // UnmarshalYAML records the line and rejects unknown keys.
 func (r *Rule) UnmarshalYAML(n *yaml.Node) error {
@@ -94,6 +100,7 @@ type Override struct {
 	Thresholds      map[string]string `yaml:"thresholds"`       // threshold name → value
 	ClearThresholds map[string]string `yaml:"clear_thresholds"` // threshold name → clear value
 	For             *Duration         `yaml:"for"`
+	Within          *Duration         `yaml:"within"`
 	ClearFor        *Duration         `yaml:"clear_for"`
 	Severity        *int              `yaml:"severity"`
 	Except          []string          `yaml:"except"` // terminal/loop IDs or path.Match patterns, added
@@ -103,7 +110,7 @@ type Override struct {
 	Line int `yaml:"-"`
 }
 
-var overrideKeys = []string{"id", "disabled", "thresholds", "clear_thresholds", "for", "clear_for", "severity", "except", "only", "message"}
+var overrideKeys = []string{"id", "disabled", "thresholds", "clear_thresholds", "for", "within", "clear_for", "severity", "except", "only", "message"}
 
 // UnmarshalYAML records the line and rejects unknown keys.
 func (o *Override) UnmarshalYAML(n *yaml.Node) error {

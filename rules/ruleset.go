@@ -175,6 +175,9 @@ func applyOverride(r *Rule, o *Override) error {
 	if o.For != nil {
 		r.For = *o.For
 	}
+	if o.Within != nil {
+		r.Within = *o.Within
+	}
 	if o.ClearFor != nil {
 		r.ClearFor = *o.ClearFor
 	}
@@ -260,6 +263,7 @@ type compiled struct {
 	gates        program // extra truth-valued gates (empty: none)
 	when, clear  program
 	forNs        int64
+	withinNs     int64 // Rule.Within (0: For is a run)
 	clearForNs   int64
 	suppress     uint32 // kinds explained (bit per fdd.Kind)
 	severity     Severity
@@ -335,6 +339,17 @@ func compileRule(r *Rule, sch *schemas) (*compiled, error) {
 		c.clear = p.negated()
 	}
 	c.forNs, c.clearForNs = int64(r.For), int64(r.ClearFor)
+	switch {
+	case r.Within < 0:
+		return nil, fmt.Errorf("within %s: must not be negative", time.Duration(r.Within))
+	case r.Within > 0 && r.For <= 0:
+		return nil, fmt.Errorf("within %s needs a positive 'for' (the total time within it)", time.Duration(r.Within))
+	case r.Within > 0 && r.Within < r.For:
+		return nil, fmt.Errorf("within %s is shorter than for %s", time.Duration(r.Within), time.Duration(r.For))
+	case r.Within > 0 && time.Duration(r.Within) < heldBins*time.Minute:
+		return nil, fmt.Errorf("within %s: want at least %s (it is kept in %d bins)", time.Duration(r.Within), heldBins*time.Minute, heldBins)
+	}
+	c.withinNs = int64(r.Within)
 	if c.clearForNs == 0 {
 		c.clearForNs = c.forNs
 	}

@@ -56,6 +56,16 @@ type TrackerRecord struct {
 	ClearSince time.Time
 	ClearLast  time.Time
 	Active     bool // holds its fault open
+	// Held is the condition-true time of a pending rule with a within
+	// window, by bin (empty otherwise).
+	Held []HeldRecord `json:",omitempty"`
+}
+
+// HeldRecord is the held time of one bin of a within window: the bin's
+// start and the seconds the condition held in it.
+type HeldRecord struct {
+	Start time.Time
+	Sec   float64
 }
 
 // SuppressionRecord is one suppression until a date.
@@ -115,6 +125,7 @@ func (e *Evaluator) Export() Snapshot {
 			s.Trackers = append(s.Trackers, TrackerRecord{
 				Entity: ent, EntityKind: ek, Rule: c.rule.ID, Since: tm(tk.since), Last: tm(tk.last),
 				ClearSince: tm(tk.clrSince), ClearLast: tm(tk.clrLast), Active: tk.f != nil,
+				Held: e.exportHeld(tk, c),
 			})
 		}
 	}
@@ -184,6 +195,9 @@ func (e *Evaluator) Import(s Snapshot) (ImportStats, error) {
 			continue
 		}
 		tk.since, tk.last, tk.clrSince, tk.clrLast = ns(r.Since), ns(r.Last), ns(r.ClearSince), ns(r.ClearLast)
+		if tk.f == nil && !r.Active {
+			e.importHeld(tk, c, r.Held)
+		}
 		if r.Active {
 			f := e.faults[faultKey{r.EntityKind, idx, c.kind}]
 			if f == nil {
