@@ -62,20 +62,36 @@ type baselineBlob struct {
 	From            time.Time `json:"from"`
 	To              time.Time `json:"to"`
 	Rejected        string    `json:"rejected,omitempty"`
+	// RejectedUA is the learned UA factor that was not adopted (with
+	// Rejected set; the baseline is then the rated model).
+	RejectedUA jf `json:"rejected_ua_factor,omitempty"`
+	// PerfHighRef over PerfHighRefN values: the coil's healthy
+	// high-command level against this baseline (absent: not seen).
+	PerfHighRef  jf  `json:"perf_high_ref,omitempty"`
+	PerfHighRefN int `json:"perf_high_ref_n,omitempty"`
 }
 
 func toBlob(b fdd.Baseline) baselineBlob {
 	return baselineBlob{b.Terminal, b.Source, jf(b.UAFactor), jf(b.UAFactorSigma), jf(b.FlowFactor), jf(b.FlowFactorSigma),
-		jf(b.Correlation), jf(b.ResidualSigmaK), b.Points, b.From, b.To, b.Rejected}
+		jf(b.Correlation), jf(b.ResidualSigmaK), b.Points, b.From, b.To, b.Rejected,
+		jf(b.RejectedUAFactor), jf(b.PerfHighRef), b.PerfHighRefN}
 }
 
 func (b baselineBlob) baseline() fdd.Baseline {
 	return fdd.Baseline{Terminal: b.Terminal, Source: b.Source, UAFactor: float64(b.UAFactor), UAFactorSigma: float64(b.UAFactorSigma),
 		FlowFactor: float64(b.FlowFactor), FlowFactorSigma: float64(b.FlowFactorSigma), Correlation: float64(b.Correlation),
-		ResidualSigmaK: float64(b.ResidualSigmaK), Points: b.Points, From: b.From, To: b.To, Rejected: b.Rejected}
+		ResidualSigmaK: float64(b.ResidualSigmaK), Points: b.Points, From: b.From, To: b.To, Rejected: b.Rejected,
+		RejectedUAFactor: float64(b.RejectedUA), PerfHighRef: float64(b.PerfHighRef), PerfHighRefN: b.PerfHighRefN}
 }
 
-// loadBaselines adopts the stored learned baselines.
+// settled reports whether a baseline is the end of learning and so worth
+// keeping across a restart: a learned fit, or the rated model after a fit
+// was rejected. A rated baseline still learning is not (a restart learns
+// afresh rather than end learning early).
+func settled(source, rejected string) bool { return source == "learned" || rejected != "" }
+
+// loadBaselines adopts the stored settled baselines (learned, or rated after
+// a rejected fit) with the coils' healthy levels.
 func loadBaselines(ctx context.Context, st *store.Store, eng *fdd.Engine, terminals map[string]int) (int, error) {
 	blobs, err := st.TerminalBlobs(ctx, store.BlobBaseline)
 	if err != nil {
@@ -90,7 +106,7 @@ func loadBaselines(ctx context.Context, st *store.Store, eng *fdd.Engine, termin
 		if err := json.Unmarshal(raw, &b); err != nil {
 			return 0, fmt.Errorf("baseline of %s: %w", id, err)
 		}
-		if b.Source != "learned" {
+		if !settled(b.Source, b.Rejected) {
 			continue
 		}
 		bs = append(bs, b.baseline())
@@ -101,14 +117,15 @@ func loadBaselines(ctx context.Context, st *store.Store, eng *fdd.Engine, termin
 	return len(bs), eng.LoadBaselines(bs)
 }
 
-// saveBaselines writes the learned baselines and the dirty plot series in
-// one transaction.
+// saveBaselines writes the settled baselines (learned, or rated after a
+// rejected fit) with the coils' healthy levels, and the dirty plot series,
+// in one transaction.
 func saveBaselines(ctx context.Context, st *store.Store, eng *fdd.Engine, ring *seriesRing, ids func(int) string) (int, error) {
 	bs := eng.Baselines()
 	n := 0
 	err := saveSeries(ctx, st, ring, ids, func(tx *store.Tx) error {
 		for _, b := range bs {
-			if b.Source != "learned" {
+			if !settled(b.Source, b.Rejected) {
 				continue
 			}
 			raw, err := json.Marshal(toBlob(b))

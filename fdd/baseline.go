@@ -25,6 +25,15 @@ type Baseline struct {
 	Points          int       // steady points used
 	From, To        time.Time // learning period
 	Rejected        string    // why a learned fit was not adopted ("" if adopted or never fitted)
+	// RejectedUAFactor is the learned UA factor that was not adopted (0 if
+	// none; with Rejected set, the baseline is the rated model).
+	RejectedUAFactor float64
+	// PerfHighRef and PerfHighRefN are the coil's demonstrated healthy
+	// high-command performance against this baseline (Evidence.PerfHighRef)
+	// and the number of values behind it (0: not seen healthy yet), so a
+	// restart keeps the coil's own level.
+	PerfHighRef  float64
+	PerfHighRefN int
 }
 
 // CI95 returns the approximate 95 % confidence intervals (±1.96σ, normal

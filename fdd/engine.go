@@ -259,6 +259,7 @@ func (en *Engine) finishLearning(st *termState, t *termStatic) {
 		st.learnedUA = b.UAFactor
 		st.pubGen++
 		rej.Points, rej.From, rej.To = b.Points, b.From, b.To
+		rej.RejectedUAFactor = b.UAFactor
 		st.base = rej
 		return
 	}
@@ -389,18 +390,26 @@ func (en *Engine) TerminalErrors() []error {
 	return out
 }
 
-// Baselines returns every terminal's current baseline.
+// Baselines returns every terminal's current baseline, with the coil's
+// healthy high-command level against it (PerfHighRef).
 func (en *Engine) Baselines() []Baseline {
 	out := make([]Baseline, len(en.state))
 	for i := range en.state {
-		out[i] = en.state[i].base
+		st := &en.state[i]
+		out[i] = st.base
+		out[i].PerfHighRef, out[i].PerfHighRefN = 0, 0
+		if st.perfRef.n > 0 {
+			out[i].PerfHighRef, out[i].PerfHighRefN = st.perfRef.mean, st.perfRef.n
+		}
 	}
 	return out
 }
 
 // LoadBaselines adopts persisted baselines (matched by terminal ID) and ends
-// learning for those terminals. Unknown terminals and implausible factors are
-// reported in the error; the others are applied.
+// learning for those terminals: a learned fit, or the rated model after a
+// rejected fit (Rejected set), with the coil's healthy high-command level
+// against it when one was seen. Unknown terminals and implausible factors
+// are reported in the error; the others are applied.
 func (en *Engine) LoadBaselines(bs []Baseline) error {
 	var errs []error
 	for _, b := range bs {
@@ -413,10 +422,24 @@ func (en *Engine) LoadBaselines(bs []Baseline) error {
 			errs = append(errs, fmt.Errorf("terminal %s: baseline factors UA %g, flow %g must be positive", b.Terminal, b.UAFactor, b.FlowFactor))
 			continue
 		}
+		if b.PerfHighRefN < 0 || b.PerfHighRefN > 0 && !(b.PerfHighRef > 0 && finite(b.PerfHighRef)) {
+			errs = append(errs, fmt.Errorf("terminal %s: healthy high-command level %g over %d values must be positive", b.Terminal, b.PerfHighRef, b.PerfHighRefN))
+			continue
+		}
 		if err := en.applyBaseline(i, b); err != nil {
 			errs = append(errs, err)
 			continue
 		}
+		st := &en.state[i]
+		st.base.PerfHighRef, st.base.PerfHighRefN = 0, 0 // kept in perfRef
+		if b.PerfHighRefN > 0 {
+			st.perfRef = perfRef{mean: b.PerfHighRef, n: min(b.PerfHighRefN, perfRefMaxN)}
+		}
+		st.learnedUA = 0
+		if b.Rejected != "" && b.RejectedUAFactor > 0 && finite(b.RejectedUAFactor) {
+			st.learnedUA = b.RejectedUAFactor
+		}
+		st.slow.update(st)
 		en.state[i].learnDone = true
 		en.state[i].pubGen++
 		en.learn[i].release()

@@ -1,0 +1,76 @@
+package daemon
+
+import (
+	"context"
+	"testing"
+	"time"
+
+	"risewatch/fdd"
+	"risewatch/sim"
+	"risewatch/store"
+)
+
+// TestBaselinesStoredAcrossRestart: a learned baseline and a rejected fit
+// (the rated model) come back from the store with the coils' healthy
+// levels, while a terminal still learning on the rated model is not
+// stored (it learns afresh after a restart).
+func TestBaselinesStoredAcrossRestart(t *testing.T) {
+	ctx := context.Background()
+	sc, err := sim.DemoScenario()
+	if err != nil {
+		t.Fatal(err)
+	}
+	sm, err := sim.New(sc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := sm.Site("")
+	st, err := store.Open(ctx, t.TempDir(), store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st.Close()
+	from, to := time.Date(2025, 1, 6, 7, 0, 0, 0, time.UTC), time.Date(2025, 1, 7, 7, 0, 0, 0, time.UTC)
+	learned := fdd.Baseline{Terminal: s.Terminals[0].ID, Source: "learned", UAFactor: 1.08, UAFactorSigma: 0.01,
+		FlowFactor: 0.9, FlowFactorSigma: 0.02, Correlation: -0.6, ResidualSigmaK: 0.2, Points: 40, From: from, To: to,
+		PerfHighRef: 1.03, PerfHighRefN: 17}
+	rejected := fdd.Baseline{Terminal: s.Terminals[1].ID, Source: "rated", UAFactor: 1, FlowFactor: 1, Points: 22, From: from, To: to,
+		Rejected: "learned UA factor 1.71 out of band", RejectedUAFactor: 1.71, PerfHighRef: 1.12, PerfHighRefN: 64}
+	eng, err := fdd.NewEngine(s, fdd.Config{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := eng.LoadBaselines([]fdd.Baseline{learned, rejected}); err != nil {
+		t.Fatal(err)
+	}
+	ids := func(ti int) string { return s.Terminals[ti].ID }
+	n, err := saveBaselines(ctx, st, eng, newSeriesRing(len(s.Terminals)), ids)
+	if err != nil || n != 2 {
+		t.Fatalf("saved %d baselines (%v), want 2", n, err)
+	}
+	eng2, err := fdd.NewEngine(s, fdd.Config{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	terms := map[string]int{}
+	for i, tm := range s.Terminals {
+		terms[tm.ID] = i
+	}
+	if n, err := loadBaselines(ctx, st, eng2, terms); err != nil || n != 2 {
+		t.Fatalf("loaded %d baselines (%v), want 2", n, err)
+	}
+	got := eng2.Baselines()
+	for i, want := range []fdd.Baseline{learned, rejected} {
+		g := got[i]
+		if !g.From.Equal(want.From) || !g.To.Equal(want.To) {
+			t.Errorf("terminal %d: period %v..%v, want %v..%v", i, g.From, g.To, want.From, want.To)
+		}
+		g.From, g.To = want.From, want.To // time.Time carries its location
+		if g != want {
+			t.Errorf("terminal %d after restart: %+v, want %+v", i, g, want)
+		}
+	}
+	if g := got[2]; g.Source != "rated" || g.Rejected != "" || g.PerfHighRefN != 0 {
+		t.Errorf("terminal 2 (still learning, not stored): %+v", g)
+	}
+}
