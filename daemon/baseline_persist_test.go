@@ -6,6 +6,7 @@ import (
 	"time"
 
 	"risewatch/fdd"
+	"risewatch/rules"
 	"risewatch/sim"
 	"risewatch/store"
 )
@@ -72,5 +73,78 @@ func TestBaselinesStoredAcrossRestart(t *testing.T) {
 	}
 	if g := got[2]; g.Source != "rated" || g.Rejected != "" || g.PerfHighRefN != 0 {
 		t.Errorf("terminal 2 (still learning, not stored): %+v", g)
+	}
+}
+
+// TestRelearnRequestApplied: a relearn request recorded in the store (as
+// `risewatch relearn` does) puts the terminal back on the rated model and
+// learning, deletes its stored baseline so a restart does not restore it,
+// and moves the acknowledgement cursor; a request for a terminal this
+// pipeline does not have is passed over.
+func TestRelearnRequestApplied(t *testing.T) {
+	ctx := context.Background()
+	sc, err := sim.DemoScenario()
+	if err != nil {
+		t.Fatal(err)
+	}
+	sm, err := sim.New(sc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := sm.Site("")
+	st, err := store.Open(ctx, t.TempDir(), store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st.Close()
+	rs, err := rules.Default()
+	if err != nil {
+		t.Fatal(err)
+	}
+	cfg := &Config{Listen: "127.0.0.1:0", Step: time.Minute}
+	cfg.defaults()
+	pl, err := newPipeline(&Daemon{log: quietLog()}, &plan{name: s.Name, site: s, cfg: cfg, rules: rs}, st, true)
+	if err != nil {
+		t.Fatal(err)
+	}
+	id := s.Terminals[3].ID
+	from := time.Date(2025, 1, 6, 7, 0, 0, 0, time.UTC)
+	b := fdd.Baseline{Terminal: id, Source: "learned", UAFactor: 0.92, UAFactorSigma: 0.01, FlowFactor: 1.1, FlowFactorSigma: 0.02,
+		Points: 48, From: from, To: from.Add(24 * time.Hour), PerfHighRef: 0.97, PerfHighRefN: 30}
+	if err := pl.eng.LoadBaselines([]fdd.Baseline{b}); err != nil {
+		t.Fatal(err)
+	}
+	ids := func(ti int) string { return s.Terminals[ti].ID }
+	if n, err := saveBaselines(ctx, st, pl.eng, pl.ring, ids); err != nil || n != 1 {
+		t.Fatalf("saved %d baselines (%v)", n, err)
+	}
+	at := time.Date(2025, 2, 3, 10, 0, 0, 0, time.UTC)
+	for _, term := range []string{"VAV-OTHER-SHARD", id} {
+		if err := st.Acknowledge(ctx, store.Ack{FaultID: store.BaselineID(term), Action: store.ActionRelearn, Who: "tech", At: at, Note: "coil replaced"}); err != nil {
+			t.Fatal(err)
+		}
+	}
+	cursor := pl.prog.AckCursor
+	if err := pl.applyAcks(ctx); err != nil {
+		t.Fatal(err)
+	}
+	if got := pl.eng.Baselines()[3]; got.Source != "rated" || got.UAFactor != 1 || got.PerfHighRefN != 0 {
+		t.Errorf("after the request: baseline %+v, want the rated model", got)
+	}
+	if _, _, ok, err := st.TerminalBlob(ctx, id, store.BlobBaseline); ok || err != nil {
+		t.Errorf("stored baseline of %s still there after the request (err %v)", id, err)
+	}
+	if pl.prog.AckCursor <= cursor {
+		t.Errorf("acknowledgement cursor %d did not move past %d", pl.prog.AckCursor, cursor)
+	}
+	// Applied once: a second poll finds nothing new.
+	if err := pl.eng.LoadBaselines([]fdd.Baseline{b}); err != nil {
+		t.Fatal(err)
+	}
+	if err := pl.applyAcks(ctx); err != nil {
+		t.Fatal(err)
+	}
+	if got := pl.eng.Baselines()[3]; got.Source != "learned" {
+		t.Errorf("the request was applied twice: baseline %+v", got)
 	}
 }

@@ -2,7 +2,10 @@ package daemon
 
 import (
 	"context"
+	"errors"
 	"time"
+
+	"risewatch/fdd"
 
 	"risewatch/publish/notify"
 	"risewatch/rules"
@@ -47,6 +50,10 @@ func (pl *pipeline) applyAcks(ctx context.Context) error {
 			tr, err = pl.ev.Suppress(a.FaultID, a.Until)
 		case store.ActionUnsnooze:
 			tr, err = pl.ev.Suppress(a.FaultID, time.Time{})
+		case store.ActionRelearn:
+			if !pl.relearn(ctx, a) {
+				continue
+			}
 		}
 		if err != nil {
 			pl.d.log.Warn("acknowledgement not applied", "fault", a.FaultID, "action", a.Action, "by", a.Who, "err", err)
@@ -74,6 +81,29 @@ func (pl *pipeline) applyAcks(ctx context.Context) error {
 	pl.open = open
 	pl.mu.Unlock()
 	return err
+}
+
+// relearn applies a relearn request: the terminal's baseline is learned
+// again from the samples that follow, and its stored baseline is deleted
+// so a restart does not bring the old one back. A terminal of another
+// shard (or no longer in the site) is left to its owner. It reports
+// whether the request was for this pipeline.
+func (pl *pipeline) relearn(ctx context.Context, a store.Ack) bool {
+	term, _ := store.BaselineTerminal(a.FaultID)
+	pl.mu.Lock()
+	err := pl.eng.Relearn(term)
+	pl.mu.Unlock()
+	if errors.Is(err, fdd.ErrUnknownTerminal) {
+		return false
+	}
+	if err != nil {
+		pl.d.log.Warn("baseline relearn: the rated model could not be built", "terminal", term, "err", err)
+	}
+	if err := pl.st.DeleteTerminalBlob(ctx, term, store.BlobBaseline); err != nil {
+		pl.d.log.Warn("baseline relearn: the stored baseline was not deleted; a restart before learning ends brings it back", "terminal", term, "err", err)
+	}
+	pl.d.log.Info("baseline relearn: learning again", "terminal", term, "by", a.Who, "note", a.Note)
+	return true
 }
 
 // notifyLoop groups, reminds, digests and delivers e-mail on a timer.

@@ -450,3 +450,31 @@ func (en *Engine) LoadBaselines(bs []Baseline) error {
 	}
 	return errors.Join(errs...)
 }
+
+// ErrUnknownTerminal is returned for a terminal ID the site does not have.
+var ErrUnknownTerminal = errors.New("unknown terminal")
+
+// Relearn discards terminal id's baseline (learned, rejected or restored)
+// and learns it again from the next steady heating samples, as at first
+// start: the rated model stands in meanwhile, and the coil's healthy
+// high-command level and the onset of a loss start afresh. For use after
+// the coil, valve or actuator was replaced or repaired, when the old
+// baseline no longer describes the unit.
+func (en *Engine) Relearn(id string) error {
+	i, ok := lookup(en.site.TerminalIndex, id, len(en.terms), func(k int) string { return en.terms[k].id })
+	if !ok {
+		return fmt.Errorf("relearn %q: %w", id, ErrUnknownTerminal)
+	}
+	st := &en.state[i]
+	en.learn[i] = learner{}
+	st.learnedUA = 0
+	st.healthyAt, st.shortSince = time.Time{}, time.Time{}
+	st.setOnset()
+	err := en.applyBaseline(i, ratedBaseline(id))
+	st.learnDone = en.cfg.LearnMinPoints == 0
+	st.pubGen++
+	if err != nil {
+		return fmt.Errorf("relearn %s: %w", id, err)
+	}
+	return nil
+}

@@ -1,7 +1,9 @@
 package fdd
 
 import (
+	"errors"
 	"math"
+	"strings"
 	"testing"
 	"time"
 
@@ -263,4 +265,51 @@ func FuzzStep(f *testing.F) {
 			}
 		}
 	})
+}
+
+// TestRelearn: after Relearn a terminal with a learned baseline is back on
+// the rated model and learning, then learns its coil again from the
+// samples that follow (here a replaced coil 10 % weaker than the first);
+// an unknown terminal is an error naming it.
+func TestRelearn(t *testing.T) {
+	s := testSite(t, 1, true)
+	cfg := DefaultConfig()
+	cfg.LearnMinPoints = 40
+	cfg.LearnMinHours = 24
+	en, err := NewEngine(s, cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	g := newGen(t, fNone, 3, t0)
+	g.k = g.k.WithUAMultiplier(1.15)
+	runSynthetic(t, en, []*gen{g}, t0, 3, t0)
+	first := en.Baselines()[0]
+	if first.Source != "learned" {
+		t.Fatalf("first baseline %q (%s), want learned", first.Source, first.Rejected)
+	}
+	if err := en.Relearn(s.Terminals[0].ID); err != nil {
+		t.Fatal(err)
+	}
+	if b := en.Baselines()[0]; b.Source != "rated" || b.UAFactor != 1 || b.PerfHighRefN != 0 {
+		t.Fatalf("after Relearn: %+v, want the rated model with no healthy level", b)
+	}
+	g2 := newGen(t, fNone, 3, t0)
+	g2.k = g2.k.WithUAMultiplier(1.15 * 0.9)
+	start := t0.Add(3 * 24 * time.Hour)
+	out := en.Step([]collector.Sample{g2.sample(0, start, 0)}, nil)
+	if !out[0].Learning {
+		t.Error("the sample after Relearn is not marked learning")
+	}
+	runSynthetic(t, en, []*gen{g2}, start.Add(time.Minute), 3, start)
+	second := en.Baselines()[0]
+	t.Logf("first UA factor %.3f, relearned %.3f", first.UAFactor, second.UAFactor)
+	if second.Source != "learned" || !second.From.After(first.To) {
+		t.Fatalf("relearned baseline %+v, want one learned after %v", second, first.To)
+	}
+	if r := second.UAFactor / first.UAFactor; r < 0.85 || r > 0.95 {
+		t.Errorf("relearned UA factor %.3f is %.3f of the first %.3f, want ≈ 0.9 (the replaced coil)", second.UAFactor, r, first.UAFactor)
+	}
+	if err := en.Relearn("VAV-NOPE"); !errors.Is(err, ErrUnknownTerminal) || !strings.Contains(err.Error(), "VAV-NOPE") {
+		t.Errorf("Relearn of an unknown terminal: %v", err)
+	}
 }

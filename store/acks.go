@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"strings"
 	"time"
 )
 
@@ -15,7 +16,24 @@ const (
 	ActionAck      Action = "ack"      // "I have seen it and someone is on it"
 	ActionSnooze   Action = "snooze"   // suppress notifications until Until
 	ActionUnsnooze Action = "unsnooze" // end a snooze early
+	// ActionRelearn asks for a terminal's baseline to be learned again
+	// (after a coil, valve or actuator was replaced or repaired); its
+	// FaultID is BaselineID(terminal).
+	ActionRelearn Action = "relearn"
 )
+
+// baselineSuffix ends the FaultID of a relearn request.
+const baselineSuffix = "/baseline"
+
+// BaselineID is the FaultID under which a relearn request for terminal is
+// recorded.
+func BaselineID(terminal string) string { return terminal + baselineSuffix }
+
+// BaselineTerminal is the terminal of a relearn request's FaultID.
+func BaselineTerminal(id string) (string, bool) {
+	t, ok := strings.CutSuffix(id, baselineSuffix)
+	return t, ok && t != ""
+}
 
 // Ack is one acknowledgement, snooze or unsnooze of a fault by a person.
 type Ack struct {
@@ -49,6 +67,11 @@ func acknowledge(ctx context.Context, q execer, a Ack) error {
 	}
 	switch a.Action {
 	case ActionAck, ActionUnsnooze:
+		a.Until = time.Time{}
+	case ActionRelearn:
+		if _, ok := BaselineTerminal(a.FaultID); !ok {
+			return fmt.Errorf("store: relearn request %q by %s: want <terminal>%s", a.FaultID, a.Who, baselineSuffix)
+		}
 		a.Until = time.Time{}
 	case ActionSnooze:
 		if !a.Until.After(a.At) {

@@ -95,6 +95,25 @@ CREATE TABLE notifications (
 CREATE INDEX notifications_fault ON notifications (fault_id, sent_at);
 CREATE INDEX outbox_channel_due ON outbox (channel, due_at) WHERE sent_at = 0;
 `},
+	// SQLite cannot change a CHECK constraint in place: the table is
+	// rebuilt with its rows and IDs (the daemon's acknowledgement cursor
+	// counts on them; AUTOINCREMENT carries on from the largest).
+	{3, "relearn requests among the acknowledgements", `
+CREATE TABLE acknowledgements_v3 (
+	id       INTEGER PRIMARY KEY AUTOINCREMENT,
+	fault_id TEXT    NOT NULL,
+	action   TEXT    NOT NULL CHECK (action IN ('ack', 'snooze', 'unsnooze', 'relearn')),
+	who      TEXT    NOT NULL,
+	at       INTEGER NOT NULL,
+	until    INTEGER NOT NULL DEFAULT 0,
+	note     TEXT    NOT NULL DEFAULT ''
+);
+INSERT INTO acknowledgements_v3 (id, fault_id, action, who, at, until, note)
+	SELECT id, fault_id, action, who, at, until, note FROM acknowledgements;
+DROP TABLE acknowledgements;
+ALTER TABLE acknowledgements_v3 RENAME TO acknowledgements;
+CREATE INDEX acknowledgements_fault ON acknowledgements (fault_id, at);
+`},
 }
 
 // SchemaVersion is the schema version this build writes.

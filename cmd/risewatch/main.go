@@ -32,6 +32,7 @@ func commands() map[string]command {
 		"report":   {"write the weekly contractor report", runReport},
 		"assess":   {"low-temperature hot-water readiness of every coil on a loop", runAssess},
 		"ack":      {"acknowledge or snooze a fault so its notifications stop", runAck},
+		"relearn":  {"learn a terminal's baseline again after its coil or valve was replaced or repaired", runRelearn},
 	}
 }
 
