@@ -76,6 +76,9 @@ func poison(e *Evidence, k int) {
 	v := reflect.ValueOf(e).Elem()
 	for i := 0; i < v.NumField(); i++ {
 		f := v.Field(i)
+		if !f.CanSet() {
+			continue // the padding
+		}
 		switch f.Kind() {
 		case reflect.Float64:
 			f.SetFloat(-1234.5 - float64(k))
@@ -111,6 +114,9 @@ func firstFieldDifference(a, b *Evidence, sameFloat func(p, q float64) bool) str
 		return x.Equal(y)
 	}
 	for i := 0; i < va.NumField(); i++ {
+		if !va.Type().Field(i).IsExported() {
+			continue // the padding
+		}
 		fa, fb := va.Field(i), vb.Field(i)
 		if fa.Kind() == reflect.Array {
 			for j := 0; j < fa.Len(); j++ {

@@ -120,6 +120,9 @@ func randEvidence(rng *rand.Rand, e *fdd.Evidence, pNaN float64) {
 	v := reflect.ValueOf(e).Elem()
 	for i := 0; i < v.NumField(); i++ {
 		f := v.Field(i)
+		if !f.CanSet() {
+			continue // the padding
+		}
 		switch f.Kind() {
 		case reflect.Float64:
 			f.SetFloat(randValue(rng, pNaN))
@@ -340,7 +343,7 @@ func samePrefilterLifecycle(t *testing.T, rs *Ruleset, words int) {
 				randEvidence(rng, &fresh, 0.05)
 				v, f := reflect.ValueOf(&ev[k]).Elem(), reflect.ValueOf(&fresh).Elem()
 				j := rng.IntN(v.NumField())
-				if v.Type().Field(j).Name != "At" && v.Type().Field(j).Name != "Terminal" {
+				if sf := v.Type().Field(j); sf.IsExported() && sf.Name != "At" && sf.Name != "Terminal" {
 					v.Field(j).Set(f.Field(j))
 				}
 			}
