@@ -46,10 +46,20 @@ type Engine struct {
 	ringIn   [][nCh]float64
 	ringDAT  []float64
 	idleTmpl Evidence // evidence without running values (idle)
+	win      *winConsts
 
 	// StepView's records, by position in the step, and what each holds.
 	view  []Evidence
 	slots []viewSlot
+}
+
+// winConsts are the constants every terminal's steady windows share (one
+// window length, one set of limits): read on every active sample, they stay
+// in cache rather than take lines of each terminal's state.
+type winConsts struct {
+	in  slopeConst2
+	lim steadyLimits
+	dat slopeConst
 }
 
 // viewSlot says what a record of the engine's view holds, so the next
@@ -119,6 +129,7 @@ func newEngine(s *site.Site, cfg Config, pf physicsFactory) (*Engine, error) {
 	en.loops = make([]loopAcc, len(s.Loops))
 	en.loopOut = make([]LoopEvidence, 0, len(s.Loops))
 	nIn, nDAT := c.SteadyWindow, datWindow(c.SteadyWindow)
+	en.win = &winConsts{in: newSlopeConst2(nIn), lim: en.steadyLimits(), dat: newSlopeConst(nDAT)}
 	en.ringIn = make([][nCh]float64, nIn*len(s.Terminals))
 	en.ringDAT = make([]float64, nDAT*len(s.Terminals))
 	for i := range s.Terminals {
@@ -162,8 +173,8 @@ func (en *Engine) initTerminal(i int, pf physicsFactory) {
 	st := &en.state[i]
 	ts.st = st
 	nIn, nDAT := en.cfg.SteadyWindow, datWindow(en.cfg.SteadyWindow)
-	st.in.initRing(en.ringIn[i*nIn:(i+1)*nIn:(i+1)*nIn], en.steadyLimits())
-	st.dat.initRing(en.ringDAT[i*nDAT : (i+1)*nDAT : (i+1)*nDAT])
+	st.in.initShared(en.ringIn[i*nIn:(i+1)*nIn:(i+1)*nIn], &en.win.in, &en.win.lim)
+	st.dat.initShared(en.ringDAT[i*nDAT:(i+1)*nDAT:(i+1)*nDAT], &en.win.dat)
 	st.leakFlow = -1
 	st.perfHighLast = nan
 	st.cmpShare = nan

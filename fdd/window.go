@@ -14,11 +14,11 @@ type window struct {
 	count  int // samples held (≤ n)
 	head   int // index of the next write
 	pushes int
-	sum    float64 // Σ x_j
-	sumSq  float64 // Σ x_j²
-	sumJ   float64 // Σ j·x_j, j = 0 for the oldest sample
-	fullK  slopeConst
-	ring   []float64 // n samples; the engine's windows share one array
+	sum    float64     // Σ x_j
+	sumSq  float64     // Σ x_j²
+	sumJ   float64     // Σ j·x_j, j = 0 for the oldest sample
+	fullK  *slopeConst // constants of a full window (the engine's windows share one)
+	ring   []float64   // n samples; the engine's windows share one array
 }
 
 // slopeConst holds the constants of a full window of n: Σj = n(n−1)/2, the
@@ -41,7 +41,15 @@ func (w *window) init(n int) { w.initRing(make([]float64, n)) }
 
 // initRing sets up a window over ring (its length is the window length).
 func (w *window) initRing(ring []float64) {
-	*w = window{n: len(ring), fullK: newSlopeConst(len(ring)), ring: ring}
+	k := newSlopeConst(len(ring))
+	w.initShared(ring, &k)
+}
+
+// initShared is initRing with the full-window constants k (of len(ring)),
+// which windows of one length share: a constant read on every sample then
+// stays in cache instead of taking a line of each terminal's state.
+func (w *window) initShared(ring []float64, k *slopeConst) {
+	*w = window{n: len(ring), fullK: k, ring: ring}
 }
 
 // reset empties the window (after a gap or a gated sample).
@@ -123,7 +131,7 @@ func (w *window) variance() float64 {
 	var v float64
 	switch {
 	case w.count == w.n:
-		k := &w.fullK
+		k := w.fullK
 		v = (w.sumSq - float64(w.sum*w.sum*k.invN)) * k.invN
 	case w.count < 2:
 		return 0
@@ -154,7 +162,7 @@ func (w *window) slope() float64 {
 
 // fullSlope is slope for a full window (the caller checked full).
 func (w *window) fullSlope() float64 {
-	k := &w.fullK
+	k := w.fullK
 	return (float64(k.n*w.sumJ) - float64(k.sj*w.sum)) * k.invDen
 }
 
@@ -192,11 +200,11 @@ const (
 // channels per SSE2 instruction, valve and airflow in one register, SAT and
 // HW temperature in the other.
 type window4 struct {
-	sum    [nCh]float64 // Σ x_j per channel
-	sumSq  [nCh]float64 // Σ x_j²
-	sumJ   [nCh]float64 // Σ j·x_j, j = 0 for the oldest sample
-	fullK  slopeConst2
-	lim    steadyLimits
+	sum    [nCh]float64   // Σ x_j per channel
+	sumSq  [nCh]float64   // Σ x_j²
+	sumJ   [nCh]float64   // Σ j·x_j, j = 0 for the oldest sample
+	fullK  *slopeConst2   // constants of a full window (shared, as for window)
+	lim    *steadyLimits  // the engine's steady-state limits (shared)
 	ring   [][nCh]float64 // n samples; the engine's windows share one array
 	n      int
 	count  int
@@ -208,9 +216,8 @@ type window4 struct {
 	datSteady, steady bool
 }
 
-// steadyLimits are the engine's steady-state limits, copied into each
-// terminal's window4 by initRing (NewEngine sets them once, before the
-// terminals). tempSlope and hwSlope are adjacent: the assembly loads them
+// steadyLimits are the engine's steady-state limits, shared by every
+// terminal's window4 (NewEngine sets them once, before the terminals). tempSlope and hwSlope are adjacent: the assembly loads them
 // as one pair (SAT, HW).
 type steadyLimits struct {
 	tempSlope, hwSlope float64 // |slope| limits of DAT and SAT, HW temperature, K per step
@@ -244,7 +251,14 @@ func (w *window4) init(n int) { w.initRing(make([][nCh]float64, n), steadyLimits
 // initRing sets up a window over ring (its length is the window length)
 // with the steady limits lim.
 func (w *window4) initRing(ring [][nCh]float64, lim steadyLimits) {
-	*w = window4{n: len(ring), fullK: newSlopeConst2(len(ring)), lim: lim, ring: ring}
+	k := newSlopeConst2(len(ring))
+	w.initShared(ring, &k, &lim)
+}
+
+// initShared is initRing with shared full-window constants k (of
+// len(ring)) and limits lim (see window.initShared).
+func (w *window4) initShared(ring [][nCh]float64, k *slopeConst2, lim *steadyLimits) {
+	*w = window4{n: len(ring), fullK: k, lim: lim, ring: ring}
 }
 
 func (w *window4) reset() {
@@ -329,12 +343,12 @@ func (w *window4) mean(k int) float64 {
 // fullSlope and fullVariance are slope and variance of channel k of a full
 // window (the caller checked full).
 func (w *window4) fullSlope(k int) float64 {
-	c := &w.fullK
+	c := w.fullK
 	return (float64(c.n[0]*w.sumJ[k]) - float64(c.sj[0]*w.sum[k])) * c.invDen[0]
 }
 
 func (w *window4) fullVariance(k int) float64 {
-	c := &w.fullK
+	c := w.fullK
 	v := (w.sumSq[k] - float64(w.sum[k]*w.sum[k]*c.invN[0])) * c.invN[0]
 	if v < 0 {
 		return 0
@@ -378,7 +392,7 @@ func (w *window4) slope(k int) float64 {
 func pushWindowsGo(w *window4, d *window, in *inputs) {
 	w.push4(in.u, in.v, in.sat, in.hw)
 	d.push(in.dat)
-	w.datSteady, w.steady = steadyGo(w, d, &w.lim)
+	w.datSteady, w.steady = steadyGo(w, d, w.lim)
 }
 
 // steadiness reports whether the DAT was steady over its window at the last

@@ -24,6 +24,7 @@ TEXT ·pushWindowsAsm(SB), NOSPLIT, $0-16
 	MOVHPD	inputs_v(DX), X0 // X0 = (valve, airflow)
 	MOVSD	inputs_sat(DX), X1
 	MOVHPD	inputs_hw(DX), X1 // X1 = (SAT, HW)
+	MOVQ	window4_fullK(DI), R13 // the shared constants (R13, and R12 and R11 below)
 	MOVQ	window4_head(DI), AX
 	MOVQ	window4_n(DI), BX
 	MOVQ	window4_count(DI), CX
@@ -70,10 +71,10 @@ slide4:
 	MOVAPD	X5, X12
 	SUBPD	X3, X12
 	SUBPD	X12, X9
-	MOVUPD	window4_fullK+slopeConst2_n1(DI), X11
+	MOVUPD	slopeConst2_n1(R13), X11
 	MULPD	X0, X11
 	ADDPD	X11, X8
-	MOVUPD	window4_fullK+slopeConst2_n1(DI), X12
+	MOVUPD	slopeConst2_n1(R13), X12
 	MULPD	X1, X12
 	ADDPD	X12, X9
 	MOVAPD	X0, X11
@@ -115,6 +116,7 @@ head4:
 
 dat:
 	// The DAT window (scalar): window.push.
+	MOVQ	window_fullK(SI), R12
 	MOVSD	inputs_dat(DX), X0
 	MOVQ	window_head(SI), AX
 	MOVQ	window_n(SI), BX
@@ -154,7 +156,7 @@ slideD:
 	MOVAPD	X10, X3
 	SUBSD	X2, X3
 	SUBSD	X3, X12
-	MOVSD	window_fullK+slopeConst_n1(SI), X3
+	MOVSD	slopeConst_n1(R12), X3
 	MULSD	X0, X3
 	ADDSD	X3, X12
 	MOVAPD	X0, X3
@@ -186,26 +188,27 @@ check:
 	// max(0, (Σx² − Σx·Σx·invN)·invN).
 	CMPQ	CX, BX
 	JNE	unsteady
+	MOVQ	window4_lim(DI), R11
 	PCMPEQL	X14, X14
 	PSRLQ	$1, X14 // |x| mask in both lanes
-	MOVSD	window_fullK+slopeConst_n(SI), X0
+	MOVSD	slopeConst_n(R12), X0
 	MULSD	X12, X0
-	MOVSD	window_fullK+slopeConst_sj(SI), X1
+	MOVSD	slopeConst_sj(R12), X1
 	MULSD	X10, X1
 	SUBSD	X1, X0
-	MULSD	window_fullK+slopeConst_invDen(SI), X0
+	MULSD	slopeConst_invDen(R12), X0
 	ANDPD	X14, X0
-	MOVSD	window4_lim+steadyLimits_tempSlope(DI), X1
+	MOVSD	steadyLimits_tempSlope(R11), X1
 	UCOMISD	X0, X1
 	JCS	unsteady // tempSlope < |slope| or unordered
 	MULSD	X10, X10
-	MOVSD	window_fullK+slopeConst_invN(SI), X3
+	MOVSD	slopeConst_invN(R12), X3
 	MULSD	X3, X10
 	SUBSD	X10, X11
 	MULSD	X3, X11
 	XORPS	X2, X2
 	MAXSD	X11, X2 // X2 = X11 < 0 ? 0 : X11 (NaN stays)
-	MOVSD	window4_lim+steadyLimits_tempVar(DI), X1
+	MOVSD	steadyLimits_tempVar(R11), X1
 	UCOMISD	X2, X1
 	JCS	unsteady
 
@@ -214,41 +217,41 @@ check:
 	MOVQ	window4_count(DI), AX
 	CMPQ	AX, window4_n(DI)
 	JNE	datOnly
-	MOVUPD	window4_fullK+slopeConst2_n(DI), X0
+	MOVUPD	slopeConst2_n(R13), X0
 	MOVAPD	X0, X1
 	MULPD	X8, X0
 	MULPD	X9, X1
-	MOVUPD	window4_fullK+slopeConst2_sj(DI), X2
+	MOVUPD	slopeConst2_sj(R13), X2
 	MOVAPD	X2, X3
 	MULPD	X4, X2
 	MULPD	X5, X3
 	SUBPD	X2, X0
 	SUBPD	X3, X1
-	MOVUPD	window4_fullK+slopeConst2_invDen(DI), X2
+	MOVUPD	slopeConst2_invDen(R13), X2
 	MULPD	X2, X0
 	MULPD	X2, X1
 	ANDPD	X14, X0
 	ANDPD	X14, X1 // X1 = (|slope SAT|, |slope HW|)
-	MOVUPD	window4_fullK+slopeConst2_n1(DI), X2
+	MOVUPD	slopeConst2_n1(R13), X2
 	MULPD	X2, X0 // X0 = |slope|·(n−1) of (valve, airflow)
 
 	// fa = airFrac·(Σx_air·invN); limits fa·fa + 1e-6 (variance) and
 	// 2·fa + 1e-3 (travel).
 	MOVHLPS	X4, X13
-	MULSD	window4_fullK+slopeConst2_invN(DI), X13
-	MULSD	window4_lim+steadyLimits_airFrac(DI), X13
+	MULSD	slopeConst2_invN(R13), X13
+	MULSD	steadyLimits_airFrac(R11), X13
 	MOVAPD	X13, X12
 	MULSD	X13, X12
 	ADDSD	$(1e-6), X12
 	MULSD	$(2.0), X13
 	ADDSD	$(1e-3), X13
-	MOVSD	window4_lim+steadyLimits_span(DI), X10
+	MOVSD	steadyLimits_span(R11), X10
 	UNPCKLPD	X13, X10 // (span, 2·fa + 1e-3)
-	MOVSD	window4_lim+steadyLimits_valveVar(DI), X11
+	MOVSD	steadyLimits_valveVar(R11), X11
 	UNPCKLPD	X12, X11 // (valveVar, fa·fa + 1e-6)
 
 	// Variances, clamped at 0: X3 = (valve, airflow), X4 = (SAT, HW).
-	MOVUPD	window4_fullK+slopeConst2_invN(DI), X2
+	MOVUPD	slopeConst2_invN(R13), X2
 	MULPD	X4, X4
 	MULPD	X5, X5
 	MULPD	X2, X4
@@ -267,10 +270,10 @@ check:
 	ORPD	X11, X10
 
 	// SAT: tempSlope < |slope| or tempVar < variance; HW: !(|slope| ≤ hwSlope).
-	MOVUPD	window4_lim+steadyLimits_tempSlope(DI), X12 // (tempSlope, hwSlope)
+	MOVUPD	steadyLimits_tempSlope(R11), X12 // (tempSlope, hwSlope)
 	MOVAPD	X12, X13
 	CMPPD	X1, X13, $1 // lane 0: tempSlope < |slope SAT|
-	MOVSD	window4_lim+steadyLimits_tempVar(DI), X2
+	MOVSD	steadyLimits_tempVar(R11), X2
 	CMPPD	X4, X2, $1 // lane 0: tempVar < variance SAT
 	ORPD	X2, X13
 	CMPPD	X12, X1, $6 // lane 1: !(|slope HW| ≤ hwSlope)
