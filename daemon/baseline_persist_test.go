@@ -8,6 +8,7 @@ import (
 	"risewatch/fdd"
 	"risewatch/rules"
 	"risewatch/sim"
+	"risewatch/site"
 	"risewatch/store"
 )
 
@@ -17,20 +18,7 @@ import (
 // stored (it learns afresh after a restart).
 func TestBaselinesStoredAcrossRestart(t *testing.T) {
 	ctx := context.Background()
-	sc, err := sim.DemoScenario()
-	if err != nil {
-		t.Fatal(err)
-	}
-	sm, err := sim.New(sc)
-	if err != nil {
-		t.Fatal(err)
-	}
-	s := sm.Site("")
-	st, err := store.Open(ctx, t.TempDir(), store.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer st.Close()
+	s, st := demoSiteStore(t)
 	from, to := time.Date(2025, 1, 6, 7, 0, 0, 0, time.UTC), time.Date(2025, 1, 7, 7, 0, 0, 0, time.UTC)
 	learned := fdd.Baseline{Terminal: s.Terminals[0].ID, Source: "learned", UAFactor: 1.08, UAFactorSigma: 0.01,
 		FlowFactor: 0.9, FlowFactorSigma: 0.02, Correlation: -0.6, ResidualSigmaK: 0.2, Points: 40, From: from, To: to,
@@ -83,20 +71,7 @@ func TestBaselinesStoredAcrossRestart(t *testing.T) {
 // pipeline does not have is passed over.
 func TestRelearnRequestApplied(t *testing.T) {
 	ctx := context.Background()
-	sc, err := sim.DemoScenario()
-	if err != nil {
-		t.Fatal(err)
-	}
-	sm, err := sim.New(sc)
-	if err != nil {
-		t.Fatal(err)
-	}
-	s := sm.Site("")
-	st, err := store.Open(ctx, t.TempDir(), store.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer st.Close()
+	s, st := demoSiteStore(t)
 	rs, err := rules.Default()
 	if err != nil {
 		t.Fatal(err)
@@ -147,4 +122,30 @@ func TestRelearnRequestApplied(t *testing.T) {
 	if got := pl.eng.Baselines()[3]; got.Source != "learned" {
 		t.Errorf("the request was applied twice: baseline %+v", got)
 	}
+}
+
+// demoSite is the demo campus's site (dir: where its trend files would be).
+func demoSite(t *testing.T, dir string) *site.Site {
+	t.Helper()
+	sc, err := sim.DemoScenario()
+	if err != nil {
+		t.Fatal(err)
+	}
+	sm, err := sim.New(sc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return sm.Site(dir)
+}
+
+// demoSiteStore is the demo campus's site and an empty store (closed at
+// the end of the test).
+func demoSiteStore(t *testing.T) (*site.Site, *store.Store) {
+	t.Helper()
+	st, err := store.Open(context.Background(), t.TempDir(), store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { st.Close() })
+	return demoSite(t, ""), st
 }

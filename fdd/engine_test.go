@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"risewatch/collector"
+	"risewatch/site"
 )
 
 // TestGatesAbsurdValues: absurd sensor values never produce fault evidence
@@ -162,16 +163,7 @@ func TestSensibleHeat(t *testing.T) {
 // water flow than the rated model is learned within its confidence
 // intervals, and afterwards nothing is flagged.
 func TestBaselineLearning(t *testing.T) {
-	s := testSite(t, 1, true)
-	cfg := DefaultConfig()
-	cfg.LearnMinPoints = 40
-	cfg.LearnMinHours = 24
-	en, err := NewEngine(s, cfg)
-	if err != nil {
-		t.Fatal(err)
-	}
-	g := newGen(t, fNone, 3, t0)
-	g.k = g.k.WithUAMultiplier(1.15)
+	s, cfg, en, g := learningSetUp(t)
 	g.valve.Cv *= 0.8 // less flow at every command (valve-dominated branch)
 	res := runSynthetic(t, en, []*gen{g}, t0, 4, t0.Add(48*time.Hour))
 	b := en.Baselines()[0]
@@ -272,16 +264,7 @@ func FuzzStep(f *testing.F) {
 // samples that follow (here a replaced coil 10 % weaker than the first);
 // an unknown terminal is an error naming it.
 func TestRelearn(t *testing.T) {
-	s := testSite(t, 1, true)
-	cfg := DefaultConfig()
-	cfg.LearnMinPoints = 40
-	cfg.LearnMinHours = 24
-	en, err := NewEngine(s, cfg)
-	if err != nil {
-		t.Fatal(err)
-	}
-	g := newGen(t, fNone, 3, t0)
-	g.k = g.k.WithUAMultiplier(1.15)
+	s, _, en, g := learningSetUp(t)
 	runSynthetic(t, en, []*gen{g}, t0, 3, t0)
 	first := en.Baselines()[0]
 	if first.Source != "learned" {
@@ -312,4 +295,21 @@ func TestRelearn(t *testing.T) {
 	if err := en.Relearn("VAV-NOPE"); !errors.Is(err, ErrUnknownTerminal) || !strings.Contains(err.Error(), "VAV-NOPE") {
 		t.Errorf("Relearn of an unknown terminal: %v", err)
 	}
+}
+
+// learningSetUp is one terminal with learning after 40 points over 24 h and
+// a healthy coil 15 % better in UA than its rating.
+func learningSetUp(t *testing.T) (*site.Site, Config, *Engine, *gen) {
+	t.Helper()
+	s := testSite(t, 1, true)
+	cfg := DefaultConfig()
+	cfg.LearnMinPoints = 40
+	cfg.LearnMinHours = 24
+	en, err := NewEngine(s, cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	g := newGen(t, fNone, 3, t0)
+	g.k = g.k.WithUAMultiplier(1.15)
+	return s, cfg, en, g
 }
