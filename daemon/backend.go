@@ -78,6 +78,14 @@ func (pl *pipeline) Latest(terminal int) (fdd.Evidence, bool) {
 	return pl.view.get(terminal)
 }
 
+// Baseline is a terminal's current baseline and whether it is still
+// learning (read under the lock the step holds).
+func (pl *pipeline) Baseline(terminal int) (fdd.Baseline, bool) {
+	pl.mu.RLock()
+	defer pl.mu.RUnlock()
+	return pl.eng.Baseline(terminal)
+}
+
 // Series returns a terminal's hourly plot points in [from, to).
 func (pl *pipeline) Series(ctx context.Context, terminal int, from, to time.Time) ([]web.Point, error) {
 	pts, err := pl.ring.points(ctx, terminal, from, to)

@@ -78,7 +78,7 @@ func browse(t *testing.T, base, terminal string) {
 		want            []string
 	}{
 		{"demo-overview", "/", "#faults", []string{terminal}},
-		{"demo-terminal", "/terminals/" + terminal, "main", []string{terminal}},
+		{"demo-terminal", "/terminals/" + terminal, "main", []string{terminal, "Healthy rise at high command", "risewatch relearn"}},
 		{"demo-sources", "/sources", "#sources", []string{DemoSourceName, "bacnet"}},
 	}
 	for _, p := range pages {

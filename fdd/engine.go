@@ -406,14 +406,24 @@ func (en *Engine) TerminalErrors() []error {
 func (en *Engine) Baselines() []Baseline {
 	out := make([]Baseline, len(en.state))
 	for i := range en.state {
-		st := &en.state[i]
-		out[i] = st.base
-		out[i].PerfHighRef, out[i].PerfHighRefN = 0, 0
-		if st.perfRef.n > 0 {
-			out[i].PerfHighRef, out[i].PerfHighRefN = st.perfRef.mean, st.perfRef.n
-		}
+		out[i], _ = en.Baseline(i)
 	}
 	return out
+}
+
+// Baseline is terminal i's current baseline (Baselines for one terminal),
+// and whether it is still learning; false for an index out of range.
+func (en *Engine) Baseline(i int) (b Baseline, learning bool) {
+	if i < 0 || i >= len(en.state) {
+		return Baseline{}, false
+	}
+	st := &en.state[i]
+	b = st.base
+	b.PerfHighRef, b.PerfHighRefN = 0, 0
+	if st.perfRef.n > 0 {
+		b.PerfHighRef, b.PerfHighRefN = st.perfRef.mean, st.perfRef.n
+	}
+	return b, !st.learnedBase && !st.learnDone
 }
 
 // LoadBaselines adopts persisted baselines (matched by terminal ID) and ends

@@ -66,6 +66,8 @@ const terminalTmpl = `{{template "top" .}}
 <table id="coil"><tr><th>Box inlet</th><td>{{.Inlet}}</td><th>Rows</th><td>{{.T.Coil.Rows}}</td><th>Circuits</th><td>{{.T.Coil.Circuits}}</td></tr>
 <tr><th>Fins</th><td>{{.FPI}}</td><th>Face</th><td>{{.Face}}</td><th>UA multiplier (calibration)</th><td>{{.UAMult}}</td></tr>
 <tr><th>Valve Cv</th><td>{{.T.Valve.Cv}}</td><th>Airflow min / heating max</th><td>{{.Airflows}}</td><th>Rated point</th><td>{{.Rated}}</td></tr></table>
+<h2>Baseline</h2>
+<table id="baseline">{{range .Baseline}}<tr><th>{{index . 0}}</th><td>{{index . 1}}</td></tr>{{end}}</table>
 <h2>Latest evidence</h2>
 <table id="evidence">{{range .Evidence}}<tr><th>{{index . 0}}</th><td>{{index . 1}}</td></tr>{{end}}</table>
 <h2>Faults</h2>
@@ -324,7 +326,7 @@ func (s *Server) terminal(w http.ResponseWriter, r *http.Request) {
 		T                                         any
 		RiseChart, FlowChart                      template.HTML
 		Inlet, FPI, Face, UAMult, Airflows, Rated string
-		Evidence                                  [][2]string
+		Evidence, Baseline                        [][2]string
 		Open                                      []faultForm
 		History                                   [][5]string
 	}{page: s.page(t.ID), T: t}
@@ -360,6 +362,7 @@ func (s *Server) terminal(w http.ResponseWriter, r *http.Request) {
 			{"Leak rise with valve closed", s.dT(ev.LeakRiseK)},
 		}
 	}
+	data.Baseline = s.baselineRows(idx, t.ID)
 	faults, err := s.b.Faults(r.Context())
 	if err == nil {
 		for _, f := range faults {
@@ -375,6 +378,41 @@ func (s *Server) terminal(w http.ResponseWriter, r *http.Request) {
 		}
 	}
 	s.render(w, "terminal", data)
+}
+
+// baselineRows describe what terminal idx's expected rise is judged
+// against: the learned fit with its 95 % intervals, or the rated model
+// (still learning, or after a rejected fit), the coil's own healthy
+// high-command level, and how to learn again after a repair.
+func (s *Server) baselineRows(idx int, id string) [][2]string {
+	b, learning := s.b.Baseline(idx)
+	period := func() string {
+		return fmt.Sprintf("%d steady heating points, %s – %s", b.Points,
+			b.From.In(s.loc()).Format("2 Jan 2006 15:04"), b.To.In(s.loc()).Format("2 Jan 2006 15:04"))
+	}
+	var rows [][2]string
+	switch {
+	case b.Source == "learned":
+		uaLo, uaHi, flLo, flHi := b.CI95()
+		rows = append(rows, [2]string{"Model", "learned from this coil's own history"},
+			[2]string{"Learning period", period()},
+			[2]string{"UA / water-flow factor (95 %)", fmt.Sprintf("%.2f (%.2f–%.2f) / %.2f (%.2f–%.2f) of the rated model", b.UAFactor, uaLo, uaHi, b.FlowFactor, flLo, flHi)},
+			[2]string{"Fit residual (1σ)", s.dT(b.ResidualSigmaK)})
+	case b.Rejected != "":
+		rows = append(rows, [2]string{"Model", "rated (submittal data): the learned fit was rejected — " + b.Rejected},
+			[2]string{"Learning period", period()})
+	case learning:
+		rows = append(rows, [2]string{"Model", "rated (submittal data) while the baseline is learned from steady heating samples"})
+	default:
+		rows = append(rows, [2]string{"Model", "rated (submittal data); learning is off"})
+	}
+	level := "not seen healthy yet"
+	if b.PerfHighRefN > 0 {
+		level = fmt.Sprintf("%.2f of the model's rise (%d values)", b.PerfHighRef, b.PerfHighRefN)
+	}
+	rows = append(rows, [2]string{"Healthy rise at high command", level},
+		[2]string{"Learn again after a repair", "risewatch relearn --config FILE --by NAME " + id})
+	return rows
 }
 
 func (s *Server) findFault(r *http.Request) (rules.Transition, bool) {

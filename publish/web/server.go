@@ -59,6 +59,9 @@ type Backend interface {
 	Faults(ctx context.Context) ([]rules.Transition, error) // current: open, acked or suppressed
 	History(ctx context.Context, entity string, limit int) ([]rules.Transition, error)
 	Latest(terminal int) (fdd.Evidence, bool)
+	// Baseline is the terminal's baseline and whether it is still
+	// learning (the zero Baseline with false when unknown).
+	Baseline(terminal int) (fdd.Baseline, bool)
 	Series(ctx context.Context, terminal int, from, to time.Time) ([]Point, error)
 	Sources() []SourceHealth
 	Ack(ctx context.Context, faultID, by, note string) error

@@ -68,6 +68,14 @@ func (b *testBackend) History(_ context.Context, e string, _ int) ([]rules.Trans
 func (b *testBackend) Latest(i int) (fdd.Evidence, bool) {
 	return fdd.Evidence{At: b.now, Usable: true, Steady: true, SupplyC: 13, DischargeC: 15.3, HotWaterC: 80, ObservedRiseK: 2.3 + float64(i), ExpectedRiseK: 0.1, SigmaK: 0.4, UAFactor: 1, FlowFactor: 1, LeakRiseK: 2.2}, true
 }
+func (b *testBackend) Baseline(i int) (fdd.Baseline, bool) {
+	if i == 0 {
+		from := time.Date(2026, 1, 5, 7, 0, 0, 0, b.site.Location)
+		return fdd.Baseline{Terminal: "VAV-1-03", Source: "learned", UAFactor: 1.08, UAFactorSigma: 0.01, FlowFactor: 0.9, FlowFactorSigma: 0.02,
+			ResidualSigmaK: 0.2, Points: 48, From: from, To: from.Add(24 * time.Hour), PerfHighRef: 1.03, PerfHighRefN: 17}, false
+	}
+	return fdd.Baseline{Terminal: "VAV-1-07", Source: "rated", UAFactor: 1, FlowFactor: 1}, true
+}
 func (b *testBackend) Series(_ context.Context, _ int, from, to time.Time) ([]Point, error) {
 	var out []Point
 	for t := from; t.Before(to); t = t.Add(time.Hour) {
@@ -197,10 +205,13 @@ func TestPagesRender(t *testing.T) {
 	defer ts.Close()
 	for path, wants := range map[string][]string{
 		// The fault's evidence digest: 4.1 K × 1.8 = 7.4 °F.
-		"/":                   {"Larkspur Commons", "VAV-1-03", "leaking-valve", "USD 5.93", "HW-1", "180.0 °F", "advisory only", "leak rise 4.1 K (7.4 °F), leak 5 % of design flow"},
-		"/terminals/VAV-1-07": {"<svg", "Air temperature rise, observed and expected (°F)", "12.5 in", "10 FPI", "No open faults."},
-		"/terminals/VAV-1-03": {"Acknowledge", "Snooze", "Leak rise with valve closed"},
-		"/sources":            {"exports", "trendfile", "bad-row 2"},
+		"/": {"Larkspur Commons", "VAV-1-03", "leaking-valve", "USD 5.93", "HW-1", "180.0 °F", "advisory only", "leak rise 4.1 K (7.4 °F), leak 5 % of design flow"},
+		"/terminals/VAV-1-07": {"<svg", "Air temperature rise, observed and expected (°F)", "12.5 in", "10 FPI", "No open faults.",
+			"rated (submittal data) while the baseline is learned", "not seen healthy yet", "risewatch relearn --config FILE --by NAME VAV-1-07"},
+		// 95 % intervals: 1.08 ± 1.96·0.01, 0.90 ± 1.96·0.02; 0.2 K = 0.36 °F.
+		"/terminals/VAV-1-03": {"Acknowledge", "Snooze", "Leak rise with valve closed", "learned from this coil&#39;s own history",
+			"48 steady heating points, 5 Jan 2026 07:00 – 6 Jan 2026 07:00", "1.08 (1.06–1.10) / 0.90 (0.86–0.94)", "1.03 of the model&#39;s rise (17 values)"},
+		"/sources": {"exports", "trendfile", "bad-row 2"},
 	} {
 		resp, err := http.Get(ts.URL + path)
 		if err != nil {
