@@ -317,7 +317,15 @@ func FormatSI(si float64, d Dimension) string {
 // Table formatting. Each helper takes the SI value and ip=true for IP units.
 // Precision follows what a technician reads off a BAS screen.
 
-func fmtNum(v float64, prec int) string { return strconv.FormatFloat(v, 'f', prec, 64) }
+// fmtNum formats v with prec decimals; a value that rounds to zero has no
+// minus sign ("-0.0" reads as a reading below zero on a BAS screen).
+func fmtNum(v float64, prec int) string {
+	s := strconv.FormatFloat(v, 'f', prec, 64)
+	if len(s) > 1 && s[0] == '-' && strings.Trim(s[1:], "0.") == "" {
+		return s[1:]
+	}
+	return s
+}
 
 // FormatTemp formats a temperature (°C inside): "180.0 °F" or "82.2 °C".
 func FormatTemp(c float64, ip bool) string {

@@ -231,3 +231,21 @@ func TestCvKv(t *testing.T) {
 		t.Errorf("KvToCv(1) = %g, want 1.156", cv)
 	}
 }
+
+// TestFormatNoNegativeZero: a value that rounds to zero prints without a
+// minus sign; one that rounds away from zero keeps it.
+func TestFormatNoNegativeZero(t *testing.T) {
+	for _, c := range []struct{ got, want string }{
+		{FormatTempDiff(-0.01, false), "0.0 K"},
+		{FormatTempDiff(-0.01, true), "0.0 °F"},
+		{FormatTempDiff(math.Copysign(0, -1), false), "0.0 K"},
+		{FormatTempDiff(-0.06, false), "-0.1 K"},
+		{FormatTemp(-0.04, false), "0.0 °C"},
+		{FormatAirflow(-0.0001, true), "0 cfm"},
+		{FormatTemp(-10, false), "-10.0 °C"},
+	} {
+		if c.got != c.want {
+			t.Errorf("got %q, want %q", c.got, c.want)
+		}
+	}
+}
