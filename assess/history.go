@@ -133,7 +133,6 @@ type hourAcc struct {
 	n, nOAT, nZone, nZoneSet         int
 	q, dat, dat2, oat, eat, air, vlv float64
 	zone, zoneSet                    float64
-	occStart                         time.Time
 }
 
 type termHist struct {

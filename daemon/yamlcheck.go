@@ -76,8 +76,6 @@ func deref(n *yaml.Node) *yaml.Node {
 	return n
 }
 
-var durationType = reflect.TypeOf(time.Duration(0))
-
 // checkKeys reports every mapping key that names no field of t (by yaml
 // tag), recursively, so a misspelt key is an error with its position
 // rather than silently ignored.

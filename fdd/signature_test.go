@@ -56,3 +56,44 @@ func TestSignaturesSynthetic(t *testing.T) {
 		}
 	}
 }
+
+// TestBestKindFollowsBestOrder: the written-out bestKind is the loop over
+// bestOrder (first kind with the maximum score at or above the threshold),
+// on random scores with many ties, and bestOrder lists every scored kind
+// but KindNone once.
+func TestBestKindFollowsBestOrder(t *testing.T) {
+	seen := map[Kind]bool{}
+	for _, k := range bestOrder {
+		if k == KindNone || k >= scoredKinds || seen[k] {
+			t.Fatalf("bestOrder holds %v out of place", k)
+		}
+		seen[k] = true
+	}
+	if len(seen) != int(scoredKinds)-1 {
+		t.Fatalf("bestOrder has %d kinds, want %d", len(seen), scoredKinds-1)
+	}
+	ref := func(sc *[scoredKinds]float64, threshold float64) Kind {
+		best, bs := KindNone, 0.0
+		for _, k := range bestOrder {
+			if sc[k] > bs {
+				best, bs = k, sc[k]
+			}
+		}
+		if bs < threshold {
+			return KindNone
+		}
+		return best
+	}
+	levels := []float64{0, 0.2, 0.5, 0.5, 0.7, 1}
+	x := uint64(12345)
+	for n := 0; n < 20000; n++ {
+		var sc [scoredKinds]float64
+		for k := range sc {
+			x = x*6364136223846793005 + 1442695040888963407 // LCG (Knuth MMIX)
+			sc[k] = levels[(x>>33)%uint64(len(levels))]
+		}
+		if got, want := bestKind(&sc, 0.5), ref(&sc, 0.5); got != want {
+			t.Fatalf("scores %v: bestKind %v, the order gives %v", sc, got, want)
+		}
+	}
+}

@@ -166,15 +166,6 @@ func (w *window) fullSlope() float64 {
 	return (float64(k.n*w.sumJ) - float64(k.sj*w.sum)) * k.invDen
 }
 
-// last returns the most recent sample.
-func (w *window) last() float64 {
-	i := w.head - 1
-	if i < 0 {
-		i += w.n
-	}
-	return w.ring[i]
-}
-
 // ago returns the sample k steps before the most recent (k < count).
 func (w *window) ago(k int) float64 {
 	i := w.head - 1 - k

@@ -22,12 +22,11 @@ var (
 	ObjZoneSP    = wire.ObjectID{Type: wire.ObjectAnalogValue, Instance: 2}
 	// AHU controller: supply air, fan status, occupancy; loop controller:
 	// hot-water supply and plant enable.
-	ObjSAT       = wire.ObjectID{Type: wire.ObjectAnalogInput, Instance: 1}
-	ObjFan       = wire.ObjectID{Type: wire.ObjectBinaryInput, Instance: 1}
-	ObjOcc       = wire.ObjectID{Type: wire.ObjectBinaryValue, Instance: 1}
-	ObjHWST      = wire.ObjectID{Type: wire.ObjectAnalogInput, Instance: 1}
-	ObjPlantOn   = wire.ObjectID{Type: wire.ObjectBinaryValue, Instance: 1}
-	terminalObjs = []wire.ObjectID{ObjAirflow, ObjAirflowSP, ObjDischarge, ObjValve, ObjZone, ObjZoneSP}
+	ObjSAT     = wire.ObjectID{Type: wire.ObjectAnalogInput, Instance: 1}
+	ObjFan     = wire.ObjectID{Type: wire.ObjectBinaryInput, Instance: 1}
+	ObjOcc     = wire.ObjectID{Type: wire.ObjectBinaryValue, Instance: 1}
+	ObjHWST    = wire.ObjectID{Type: wire.ObjectAnalogInput, Instance: 1}
+	ObjPlantOn = wire.ObjectID{Type: wire.ObjectBinaryValue, Instance: 1}
 )
 
 // TerminalPoints is the number of site points of one simulated terminal.

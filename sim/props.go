@@ -55,10 +55,6 @@ func airViscosity(tC float64) float64 {
 	return 1.716e-5 * math.Pow(t/273.15, 1.5) * (273.15 + 110.4) / (t + 110.4)
 }
 
-// airConductivity is dry-air thermal conductivity (W/(m·K)), from μ·cp/Pr so
-// that the three air properties stay consistent.
-func airConductivity(tC float64) float64 { return airViscosity(tC) * airCp / airPr }
-
 // airPrandtl is μ·cp/k of dry air at tC with the conductivity also by
 // Sutherland's law, k0 = 0.0241 W/(m·K) at 273.15 K and S = 194.4 K (White,
 // Viscous Fluid Flow, 3rd ed., Table 1-3). The rate-inputs physics uses it

@@ -2,7 +2,6 @@ package bacnet
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"slices"
 
@@ -231,6 +230,3 @@ func (c *Client) readEach(ctx context.Context, d *Device, reads []Read, out []Re
 		<-done
 	}
 }
-
-// errNoValue is returned for a property that answered without a value.
-var errNoValue = errors.New("bacnet: property has no value")

@@ -2,7 +2,6 @@ package bacnet
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"log/slog"
 	"net"
@@ -394,5 +393,3 @@ func (c *Client) Resolve(ctx context.Context, instance uint32, addr Address) (*D
 	c.mu.Unlock()
 	return nd, nil
 }
-
-var errBusy = errors.New("bacnet: all 256 invoke IDs in use")

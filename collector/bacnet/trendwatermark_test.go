@@ -28,7 +28,6 @@ type wmLog struct {
 	ai, tl uint32
 	every  int              // minutes between records
 	hole   func(m int) bool // minutes not logged (longer than the hold limit)
-	field  func(collector.Sample) float64
 	set    func(*site.TerminalPoints, site.PointRef)
 	value  func(m int) float64
 }

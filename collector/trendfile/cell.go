@@ -150,7 +150,6 @@ func parseNumber(b []byte, decComma bool) (float64, bool) {
 				return 0, false
 			}
 			exp += e
-			i = len(b)
 		default:
 			return 0, false
 		}

@@ -36,11 +36,10 @@ type format struct {
 	valueColumn  string
 	timeFormat   string
 	loc          *time.Location
-	final        bool // consume an unterminated last line at EOF
-	batchReading int  // readings per batch sent
-	workers      int  // goroutines parsing a wide file (0: GOMAXPROCS; 1: sequential)
-	chunkBytes   int  // input per chunk of the parallel reader (0: default)
-	modeChunks   int  // chunks per measured window of the parallel reader (0: default)
+	batchReading int // readings per batch sent
+	workers      int // goroutines parsing a wide file (0: GOMAXPROCS; 1: sequential)
+	chunkBytes   int // input per chunk of the parallel reader (0: default)
+	modeChunks   int // chunks per measured window of the parallel reader (0: default)
 }
 
 // resolveFormat checks c and fills defaults. A time zone missing from c

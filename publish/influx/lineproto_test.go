@@ -46,7 +46,7 @@ func TestLineBuilderEscaping(t *testing.T) {
 // encoded line parses back to the same measurement, tags and fields.
 func FuzzLineBuilder(f *testing.F) {
 	f.Add("risewatch_terminal", "terminal", "VAV-2-07", "message", `rise 4.2 K "closed"`, 1.5, int64(3))
-	f.Add("m,x y", "k=v", "a,b c", "s", `\"\\`, -0.0, int64(-1))
+	f.Add("m,x y", "k=v", "a,b c", "s", `\"\\`, math.Copysign(0, -1), int64(-1))
 	f.Fuzz(func(t *testing.T, meas, tagK, tagV, strK, strV string, fv float64, iv int64) {
 		// Names are site identifiers and code constants: printable, no
 		// backslash (the parser reads "\\," ambiguously), not starting with

@@ -235,7 +235,7 @@ func (n *Notifier) Flush(ctx context.Context) error {
 			keys = append(keys, it.Key)
 			continue
 		}
-		evs = append(evs, Event{Type: rec.Type, T: rec.T})
+		evs = append(evs, Event(rec))
 		keys = append(keys, it.Key)
 	}
 	sort.Strings(keys)

@@ -166,7 +166,7 @@ func TestPDFPagesAndTextWithPoppler(t *testing.T) {
 		}
 	}
 	// Ranked: the fouled coil (USD 14.20) comes before the leak (USD 5.93).
-	if strings.Index(text, "1. VAV-1-07") < 0 || strings.Index(text, "2. VAV-1-03") < strings.Index(text, "1. VAV-1-07") {
+	if !strings.Contains(text, "1. VAV-1-07") || strings.Index(text, "2. VAV-1-03") < strings.Index(text, "1. VAV-1-07") {
 		t.Error("fault pages not ranked by weekly cost")
 	}
 }

@@ -19,12 +19,6 @@ import (
 // ErrShort is returned when a frame ends inside a field.
 var ErrShort = errors.New("bacnet: truncated data")
 
-// Tag classes (ASHRAE 135 clause 20.2.1.1).
-const (
-	classApplication = 0
-	classContext     = 1
-)
-
 // Application tag numbers (ASHRAE 135 clause 20.2.1.4).
 const (
 	TagNull       = 0
