@@ -20,6 +20,9 @@ type heldTime struct {
 	prev bool // the last judged record was true (at tracker.last)
 }
 
+// heldBinNs is the bin length of c's within window (Within/heldBins).
+func (c *compiled) heldBinNs() int64 { return max(c.withinNs/heldBins, 1) }
+
 // add credits dt of condition-true time to the bin of at.
 func (h *heldTime) add(at, dt, binNs int64) {
 	b := at / binNs
@@ -51,7 +54,7 @@ func (h *heldTime) total(at, binNs int64) int64 {
 // judged. The tracker stays pending (since ≠ 0, so it sees every record)
 // while the window holds any time, and goes idle when it has emptied.
 func (e *Evaluator) pendWithin(tk *tracker, c *compiled, gatesOK bool, p unsafe.Pointer, at int64) bool {
-	binNs := max(c.withinNs/heldBins, 1)
+	binNs := c.heldBinNs()
 	h := e.held[tk]
 	if h != nil && tk.since == 0 {
 		// The tracker was reset elsewhere (a fault opened and
@@ -103,7 +106,7 @@ func (e *Evaluator) exportHeld(tk *tracker, c *compiled) []HeldRecord {
 	if h == nil || c.withinNs <= 0 || tk.f != nil {
 		return nil
 	}
-	binNs := max(c.withinNs/heldBins, 1)
+	binNs := c.heldBinNs()
 	var out []HeldRecord
 	for k := range h.bin {
 		if h.ns[k] > 0 {
@@ -121,7 +124,7 @@ func (e *Evaluator) importHeld(tk *tracker, c *compiled, rs []HeldRecord) {
 	if c.withinNs <= 0 || len(rs) == 0 || tk.since == 0 {
 		return
 	}
-	binNs := max(c.withinNs/heldBins, 1)
+	binNs := c.heldBinNs()
 	h := &heldTime{}
 	for _, r := range rs {
 		if r.Sec > 0 && !r.Start.IsZero() {
