@@ -124,8 +124,9 @@ func TestRelearnRequestApplied(t *testing.T) {
 	}
 }
 
-// demoSite is the demo campus's site (dir: where its trend files would be).
-func demoSite(t *testing.T, dir string) *site.Site {
+// demoSite is the demo campus's site (dir: where its trend files would be)
+// and its scenario.
+func demoSite(t *testing.T, dir string) (*site.Site, *sim.Scenario) {
 	t.Helper()
 	sc, err := sim.DemoScenario()
 	if err != nil {
@@ -135,7 +136,7 @@ func demoSite(t *testing.T, dir string) *site.Site {
 	if err != nil {
 		t.Fatal(err)
 	}
-	return sm.Site(dir)
+	return sm.Site(dir), sc
 }
 
 // demoSiteStore is the demo campus's site and an empty store (closed at
@@ -147,5 +148,6 @@ func demoSiteStore(t *testing.T) (*site.Site, *store.Store) {
 		t.Fatal(err)
 	}
 	t.Cleanup(func() { st.Close() })
-	return demoSite(t, ""), st
+	s, _ := demoSite(t, "")
+	return s, st
 }

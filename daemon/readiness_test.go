@@ -7,22 +7,13 @@ import (
 	"time"
 
 	"risewatch/publish/report"
-	"risewatch/sim"
 )
 
 // TestReadinessSection: with daemon.report.readiness set, the weekly
 // report's input carries the readiness section of every demo terminal
 // (each has a design load in the demo scenario); without it, none.
 func TestReadinessSection(t *testing.T) {
-	sc, err := sim.DemoScenario()
-	if err != nil {
-		t.Fatal(err)
-	}
-	sm, err := sim.New(sc)
-	if err != nil {
-		t.Fatal(err)
-	}
-	s := sm.Site(t.TempDir())
+	s, sc := demoSite(t, t.TempDir())
 	cfg := &Config{}
 	var in report.Input
 	if err := AddReadiness(context.Background(), &in, s, cfg); err != nil || len(in.Sections) != 0 {
