@@ -198,14 +198,25 @@ func MailReport(ctx context.Context, n *notify.Notifier, siteName string, to []s
 	})
 }
 
-// runReport writes (and mails) the report of the full week before at (or,
-// with current, of the week in progress: the demo's first report).
+// reportWeek is the week a report written at at covers: the full week
+// before at, or with current (the demo's first report, written once the
+// history is analysed) the week holding more of the days before at: the
+// week in progress from its fourth day on, else the week before, so a
+// history ending early in a week is not reported as an almost empty week.
+func reportWeek(at time.Time, loc *time.Location, current bool) (start, end time.Time) {
+	if current {
+		start, end = report.WeekOf(at, loc)
+		if at.Sub(start) >= end.Sub(start)/2 {
+			return start, end
+		}
+	}
+	return report.PreviousWeek(at, loc)
+}
+
+// runReport writes (and mails) the report of the week reportWeek gives.
 func (pl *pipeline) runReport(ctx context.Context, at time.Time, mail, current bool) {
 	cfg, s := pl.p.cfg, pl.p.site
-	start, end := report.PreviousWeek(at, cfg.Location())
-	if current {
-		start, end = report.WeekOf(at, cfg.Location())
-	}
+	start, end := reportWeek(at, cfg.Location(), current)
 	in, err := ReportInput(ctx, pl.st, s, pl.ring, start, end, cfg.Report.IP || cfg.Web.IP)
 	if err != nil {
 		pl.d.log.Error("weekly report: gather", "err", err)

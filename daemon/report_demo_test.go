@@ -130,3 +130,33 @@ func TestWeeklyReportFromDemoCampus(t *testing.T) {
 		t.Fatalf("CSV has %d rows, want header + %d", len(rows), len(in.Open))
 	}
 }
+
+// TestReportWeekPicksFullerWeek: the scheduled report covers the full week
+// before; the demo's first report covers the week in progress only once it
+// holds at least half a week of history, else the week before (ISO 8601
+// weeks from Monday 00:00 site time: 2025-W04 is 20-26 January 2025).
+func TestReportWeekPicksFullerWeek(t *testing.T) {
+	loc, err := time.LoadLocation("America/Chicago")
+	if err != nil {
+		t.Fatal(err)
+	}
+	w03 := time.Date(2025, 1, 13, 0, 0, 0, 0, loc)
+	w04 := time.Date(2025, 1, 20, 0, 0, 0, 0, loc)
+	for _, c := range []struct {
+		at      time.Time
+		current bool
+		want    time.Time
+	}{
+		{w04.Add(6 * time.Hour), false, w03},     // Monday 06:00: the scheduled report of last week
+		{w04.Add(80 * time.Hour), false, w03},    // Thursday: still last week
+		{w04.Add(6 * time.Hour), true, w03},      // demo history ending Monday morning: last week
+		{w04.Add(83 * time.Hour), true, w03},     // Thursday 11:00: 83 h of this week, less than half
+		{w04.Add(84 * time.Hour), true, w04},     // Thursday noon: half the week
+		{w04.Add(7*24*time.Hour - 1), true, w04}, // Sunday night: this week
+	} {
+		start, end := reportWeek(c.at, loc, c.current)
+		if !start.Equal(c.want) || !end.Equal(c.want.AddDate(0, 0, 7)) {
+			t.Errorf("reportWeek(%v, current=%v) = %v..%v, want the week from %v", c.at, c.current, start, end, c.want)
+		}
+	}
+}

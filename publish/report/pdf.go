@@ -43,15 +43,26 @@ func WritePDF(w io.Writer, in Input) error {
 		pdf.SetFont("Helvetica", "I", 8)
 		pdf.CellFormat(0, 5, tr(fmt.Sprintf("risewatch weekly coil report · %s · %s · page %d of {nb}", siteName, week, pdf.PageNo())), "", 0, "C", false, 0, "")
 	})
-	pageW, _ := pdf.GetPageSize()
+	pageW, pageH := pdf.GetPageSize()
 	lm, _, rm, _ := pdf.GetMargins()
 	bodyW := pageW - lm - rm
+
+	bottom := pageH - 15 // the automatic page break's margin (SetAutoPageBreak above)
+	width := func(s string) float64 { return pdf.GetStringWidth(tr(s)) }
+	// room starts a new page unless h mm fit above the bottom margin: a
+	// heading keeps with what follows it, a table row with itself.
+	room := func(h float64) {
+		if pdf.GetY()+h > bottom {
+			pdf.AddPage()
+		}
+	}
 
 	h1 := func(s string) {
 		pdf.SetFont("Helvetica", "B", 15)
 		pdf.MultiCell(0, 8, tr(s), "", "L", false)
 	}
 	h2 := func(s string) {
+		room(2 + 6 + 2*4.6) // the heading and two lines under it
 		pdf.Ln(2)
 		pdf.SetFont("Helvetica", "B", 12)
 		pdf.MultiCell(0, 6, tr(s), "", "L", false)
@@ -60,23 +71,62 @@ func WritePDF(w io.Writer, in Input) error {
 		pdf.SetFont("Helvetica", "", 9.5)
 		pdf.MultiCell(0, 4.6, tr(s), "", "L", false)
 	}
+	// table draws a ruled table whose last column wraps (it holds the
+	// free text: a check, a note, a location); the other cells are cut to
+	// their column (fitCell). A row never splits across pages, and a page
+	// the table continues on starts with the header row again.
 	table := func(header []string, widths []float64, rows [][]string) {
-		pdf.SetFont("Helvetica", "B", 8.5)
-		pdf.SetFillColor(225, 232, 240)
-		for i, h := range header {
-			pdf.CellFormat(widths[i], 6, tr(h), "1", 0, "L", true, 0, "")
-		}
-		pdf.Ln(-1)
+		const headH, lineH, padH = 6.0, 3.8, 1.6
 		pdf.SetFont("Helvetica", "", 8.5)
-		for _, r := range rows {
+		cells := make([][][]string, len(rows))
+		heights := make([]float64, len(rows))
+		for r, row := range rows {
+			cells[r] = make([][]string, len(header))
+			n := 1
 			for i := range header {
 				txt := ""
-				if i < len(r) {
-					txt = r[i]
+				if i < len(row) {
+					txt = row[i]
 				}
-				pdf.CellFormat(widths[i], 5.5, tr(fitCell(txt, widths[i]-1.5, func(s string) float64 { return pdf.GetStringWidth(tr(s)) })), "1", 0, "L", false, 0, "")
+				if i == len(header)-1 {
+					cells[r][i] = wrapCell(txt, widths[i]-1.5, width)
+				} else {
+					cells[r][i] = []string{fitCell(txt, widths[i]-1.5, width)}
+				}
+				n = max(n, len(cells[r][i]))
+			}
+			heights[r] = float64(n)*lineH + padH
+		}
+		head := func() {
+			pdf.SetFont("Helvetica", "B", 8.5)
+			pdf.SetFillColor(225, 232, 240)
+			for i, h := range header {
+				pdf.CellFormat(widths[i], headH, tr(h), "1", 0, "L", true, 0, "")
 			}
 			pdf.Ln(-1)
+			pdf.SetFont("Helvetica", "", 8.5)
+		}
+		first := 0.0
+		if len(rows) > 0 {
+			first = heights[0]
+		}
+		room(headH + first)
+		head()
+		for r := range rows {
+			if pdf.GetY()+heights[r] > bottom {
+				pdf.AddPage()
+				head()
+			}
+			x, y := lm, pdf.GetY()
+			for i := range header {
+				pdf.Rect(x, y, widths[i], heights[r], "D")
+				for k, line := range cells[r][i] {
+					pdf.SetXY(x, y+padH/2+float64(k)*lineH)
+					pdf.CellFormat(widths[i], lineH, tr(line), "", 0, "L", false, 0, "")
+				}
+				x += widths[i]
+			}
+			pdf.SetXY(lm, y+heights[r])
 		}
 	}
 	scale := func(ws []float64) []float64 {
@@ -174,9 +224,7 @@ func WritePDF(w io.Writer, in Input) error {
 			pdf.RegisterImageOptionsReader(name, fpdf.ImageOptions{ImageType: "PNG"}, bytes.NewReader(png))
 			pdf.Ln(2)
 			plotH := bodyW * 0.5
-			if pdf.GetY()+plotH > 270 {
-				pdf.AddPage()
-			}
+			room(plotH)
 			pdf.ImageOptions(name, lm, pdf.GetY(), bodyW, plotH, true, fpdf.ImageOptions{ImageType: "PNG"}, 0, "")
 		}
 	}
@@ -327,6 +375,38 @@ func fitCell(txt string, w float64, width func(string) float64) string {
 		r = r[:len(r)-1]
 	}
 	return strings.TrimRight(string(r), " ,;:") + "…"
+}
+
+// wrapCell breaks txt into lines no wider than w (width measures a
+// string), at spaces where it can; a word wider than w on its own is cut
+// into pieces at whole characters. Runs of spaces collapse to one.
+func wrapCell(txt string, w float64, width func(string) float64) []string {
+	var lines []string
+	line := ""
+	for _, word := range strings.Fields(txt) {
+		if line != "" && width(line+" "+word) <= w {
+			line += " " + word
+			continue
+		}
+		if line != "" {
+			lines = append(lines, line)
+			line = ""
+		}
+		for width(word) > w {
+			r := []rune(word)
+			k := 1
+			for k < len(r) && width(string(r[:k+1])) <= w {
+				k++
+			}
+			lines = append(lines, string(r[:k]))
+			word = string(r[k:])
+		}
+		line = word
+	}
+	if line != "" || len(lines) == 0 {
+		lines = append(lines, line)
+	}
+	return lines
 }
 
 // dayTicks marks a week plot's time axis (Unix seconds) at local

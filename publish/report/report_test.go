@@ -3,6 +3,7 @@ package report
 import (
 	"bytes"
 	"encoding/csv"
+	"fmt"
 	"math"
 	"os"
 	"os/exec"
@@ -150,7 +151,7 @@ func TestPDFPagesAndTextWithPoppler(t *testing.T) {
 	text := string(out)
 	for _, want := range []string{
 		"Weekly reheat coil report — Larkspur Commons",
-		"…", // a summary-table cell cut to its column (fitCell), in cp1252
+		"override the valve closed and watch the discharge temperature", // the summary table's check, wrapped whole
 		"2 open fault(s), estimated USD 20.13 a week",
 		"VAV-1-07", "fouled-coil", "leaking-valve",
 		"Observed air temperature rise 16.2 °F (9.0 K), expected 24.3 °F (13.5 K)", // 9 K × 1.8 = 16.2 °F
@@ -200,6 +201,136 @@ func TestScheduleAndWeeks(t *testing.T) {
 	}
 	if _, _, err := ParseWeek("2026-W60", loc); err == nil {
 		t.Error("week 60 accepted")
+	}
+}
+
+// TestPDFLongTablesRepeatHeaderAndWrap: a work list longer than a page
+// continues with its header row on every page, and its free-text column is
+// wrapped, not cut: a technician reading the printed list gets every check
+// whole.
+func TestPDFLongTablesRepeatHeaderAndWrap(t *testing.T) {
+	pdftotext := testenv.LookTool(t, "pdftotext", "apt-get install poppler-utils")
+	for _, ip := range []bool{true, false} { // Letter and A4
+		in := testInput()
+		in.IP = ip
+		base := in.Open[1]
+		in.Open, in.Opened, in.Series = nil, nil, nil
+		const n = 70
+		for i := 0; i < n; i++ {
+			tr := base
+			tr.Entity = fmt.Sprintf("VAV-9-%02d", i)
+			tr.FaultID = tr.Entity + "/fouled-coil"
+			tr.Impact.WeeklyCost = float64(n - i) // ranked in this order
+			tr.Checks = []string{fmt.Sprintf("check %02d: inspect the upstream face of the coil for dust and lint, then comb the fins straight and clean them with a soft brush before retesting", i)}
+			in.Open = append(in.Open, tr)
+		}
+		pages := pdfPages(t, pdftotext, in)
+		seen, summary := 0, ""
+		for p, page := range pages {
+			if strings.Contains(page, "1. VAV-9-00") { // the first fault page: the table is over
+				break
+			}
+			summary += page
+			rows := strings.Count(page, "fouled-coil")
+			if rows == 0 {
+				continue
+			}
+			seen += rows
+			if h, r := strings.Index(page, "Check first"), strings.Index(page, "fouled-coil"); h < 0 || h > r {
+				t.Errorf("ip=%v page %d: table rows without the header row above them", ip, p+1)
+			}
+		}
+		if seen != n {
+			t.Errorf("ip=%v: %d summary rows found before the fault pages, want %d", ip, seen, n)
+		}
+		flat := strings.Join(strings.Fields(summary), " ")
+		for i := 0; i < n; i++ {
+			if want := strings.Join(strings.Fields(in.Open[i].Checks[0]), " "); !strings.Contains(flat, want) {
+				t.Errorf("ip=%v: check %02d not whole in the summary table", ip, i)
+				break
+			}
+		}
+	}
+}
+
+// TestPDFHeadingsKeepWithWhatFollows: however long the list of faults
+// opened this week, no page ends with a heading whose text is on the next.
+func TestPDFHeadingsKeepWithWhatFollows(t *testing.T) {
+	pdftotext := testenv.LookTool(t, "pdftotext", "apt-get install poppler-utils")
+	headings := map[string]bool{"Summary": true, "New this week": true, "Cleared this week": true,
+		"Open faults, highest weekly cost first": true, "What was seen": true, "Evidence": true, "Likely cause": true, "Checks to make": true}
+	for _, ip := range []bool{true, false} {
+		for k := 0; k <= 48; k++ {
+			in := testInput()
+			in.IP, in.Series, in.Sections = ip, nil, nil
+			in.Opened = nil
+			for i := 0; i < k; i++ {
+				tr := in.Open[i%2]
+				tr.Entity = fmt.Sprintf("VAV-8-%02d", i)
+				in.Opened = append(in.Opened, tr)
+			}
+			for p, page := range pdfPages(t, pdftotext, in) {
+				var body []string
+				for _, l := range strings.Split(page, "\n") {
+					if l = strings.TrimSpace(l); l != "" && !strings.Contains(l, "risewatch weekly coil report ·") {
+						body = append(body, l)
+					}
+				}
+				if len(body) > 0 && headings[body[len(body)-1]] {
+					t.Errorf("ip=%v, %d opened: page %d ends with the heading %q", ip, k, p+1, body[len(body)-1])
+				}
+			}
+		}
+	}
+}
+
+// pdfPages writes in as PDF and returns the text of each page (pdftotext
+// -layout).
+func pdfPages(t *testing.T, pdftotext string, in Input) []string {
+	t.Helper()
+	path := filepath.Join(t.TempDir(), "week.pdf")
+	f, err := os.Create(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := WritePDF(f, in); err != nil {
+		t.Fatal(err)
+	}
+	if err := f.Close(); err != nil {
+		t.Fatal(err)
+	}
+	out, err := exec.Command(pdftotext, "-layout", path, "-").Output()
+	if err != nil {
+		t.Fatal(err)
+	}
+	return strings.Split(string(out), "\f")
+}
+
+// TestWrapCellWholeWords: a long cell breaks at spaces into lines within
+// the width; a word wider than the width is cut at whole characters; the
+// words come out in order, none lost.
+func TestWrapCellWholeWords(t *testing.T) {
+	runes := func(s string) float64 { return float64(utf8.RuneCountInString(s)) }
+	for _, c := range []struct {
+		in   string
+		w    float64
+		want []string
+	}{
+		{"rise 8.8 °F", 20, []string{"rise 8.8 °F"}},
+		{"check the valve; then the actuator", 16, []string{"check the valve;", "then the", "actuator"}},
+		{"re-stroke  the   actuator", 12, []string{"re-stroke", "the actuator"}},
+		{"°°°°°°°°°°°°°", 5, []string{"°°°°°", "°°°°°", "°°°"}},
+		{"", 10, []string{""}},
+	} {
+		got := wrapCell(c.in, c.w, runes)
+		if strings.Join(got, "|") != strings.Join(c.want, "|") {
+			t.Errorf("wrapCell(%q, %v) = %q, want %q", c.in, c.w, got, c.want)
+		}
+		for _, l := range got {
+			if runes(l) > c.w || !utf8.ValidString(l) {
+				t.Errorf("wrapCell(%q, %v): line %q too wide or not UTF-8", c.in, c.w, l)
+			}
+		}
 	}
 }
 
