@@ -311,7 +311,7 @@ func (e *Evaluator) transition(f *fault, from, to State, at time.Time) Transitio
 			vals[k] = v
 		}
 	}
-	tr.Message = c.render(&msgData{
+	tr.Message, tr.MessageIP = c.render(&msgData{
 		Entity: f.entity, Kind: f.key.kind.String(), Rule: c.rule.ID, Title: c.rule.Title, Source: c.rule.Source,
 		E: vals, Impact: tr.Impact, Currency: tr.Impact.Currency, Loop: tr.Loop, AHU: tr.AHU,
 	})

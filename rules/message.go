@@ -10,7 +10,8 @@ import (
 )
 
 // Message templates are Go text/template text with the data below. Numbers
-// are SI; the formatting functions print SI first and IP in brackets:
+// are SI; the formatting functions print SI first and IP in brackets (and
+// the other way round in the IP-first rendering, Transition.MessageIP):
 //
 //	{{dtemp .E.leak_rise_k}}  → "3.4 K (6.1 °F)"
 //	{{temp .E.hw_c}}          → "60.0 °C (140.0 °F)"
@@ -40,20 +41,28 @@ type msgData struct {
 
 func na(v float64) bool { return math.IsNaN(v) || math.IsInf(v, 0) }
 
-// The formatting shared by message templates and Transition.Summary: SI
-// first, IP in brackets; a missing value prints as "n/a".
-func siIP(f func(v float64, ip bool) string, v float64) string {
+// unitPair formats v both ways, SI first and IP in brackets or, with
+// ipFirst, the other way round; a missing value prints as "n/a". Message
+// templates and Transition.Summary share it, through unitFmt.
+func unitPair(f func(v float64, ip bool) string, v float64, ipFirst bool) string {
 	if na(v) {
 		return "n/a"
 	}
-	return f(v, false) + " (" + f(v, true) + ")"
+	return f(v, ipFirst) + " (" + f(v, !ipFirst) + ")"
 }
 
-func fmtTemp(c float64) string        { return siIP(units.FormatTemp, c) }
-func fmtDTemp(k float64) string       { return siIP(units.FormatTempDiff, k) }
-func fmtAirflow(m3s float64) string   { return siIP(units.FormatAirflow, m3s) }
-func fmtWaterFlow(m3s float64) string { return siIP(units.FormatWaterFlow, m3s) }
-func fmtPower(w float64) string       { return siIP(units.FormatPower, w) }
+// unitFmt formats values with both units, IP first when ip is set.
+type unitFmt struct{ ip bool }
+
+func (u unitFmt) temp(c float64) string        { return unitPair(units.FormatTemp, c, u.ip) }
+func (u unitFmt) dtemp(k float64) string       { return unitPair(units.FormatTempDiff, k, u.ip) }
+func (u unitFmt) airflow(m3s float64) string   { return unitPair(units.FormatAirflow, m3s, u.ip) }
+func (u unitFmt) waterFlow(m3s float64) string { return unitPair(units.FormatWaterFlow, m3s, u.ip) }
+func (u unitFmt) power(w float64) string       { return unitPair(units.FormatPower, w, u.ip) }
+func (u unitFmt) energy(kwh float64) string    { return unitPair(units.FormatHeatEnergy, kwh, u.ip) }
+func (u unitFmt) coolEnergy(kwh float64) string {
+	return unitPair(units.FormatCoolingEnergy, kwh, u.ip)
+}
 
 func fmtPct(f float64) string {
 	if na(f) {
@@ -69,51 +78,70 @@ func fmtMins(m float64) string {
 	return minutes(m)
 }
 
-var msgFuncs = template.FuncMap{
-	"temp":       fmtTemp,
-	"dtemp":      fmtDTemp,
-	"flow":       fmtAirflow,
-	"power":      fmtPower,
-	"energy":     func(kwh float64) string { return siIP(units.FormatHeatEnergy, kwh) },
-	"coolenergy": func(kwh float64) string { return siIP(units.FormatCoolingEnergy, kwh) },
-	"pct":        fmtPct,
-	"mins":       fmtMins,
-	"money": func(v float64, cur string) string {
-		if na(v) {
-			return "n/a"
-		}
-		return strings.TrimSpace(fmt.Sprintf("%.2f %s", v, cur))
-	},
-	"num": func(v float64, prec int) string {
-		if na(v) {
-			return "n/a"
-		}
-		return fmt.Sprintf("%.*f", prec, v)
-	},
-	"known": func(v float64) bool { return !na(v) },
-	"sub":   func(a, b float64) float64 { return a - b },
-	"add":   func(a, b float64) float64 { return a + b },
-	"mul":   func(a, b float64) float64 { return a * b },
-	"abs":   math.Abs,
+// messageFuncs are the template functions, with both units in the order u
+// gives.
+func messageFuncs(u unitFmt) template.FuncMap {
+	return template.FuncMap{
+		"temp":       u.temp,
+		"dtemp":      u.dtemp,
+		"flow":       u.airflow,
+		"power":      u.power,
+		"energy":     u.energy,
+		"coolenergy": u.coolEnergy,
+		"pct":        fmtPct,
+		"mins":       fmtMins,
+		"money": func(v float64, cur string) string {
+			if na(v) {
+				return "n/a"
+			}
+			return strings.TrimSpace(fmt.Sprintf("%.2f %s", v, cur))
+		},
+		"num": func(v float64, prec int) string {
+			if na(v) {
+				return "n/a"
+			}
+			return fmt.Sprintf("%.*f", prec, v)
+		},
+		"known": func(v float64) bool { return !na(v) },
+		"sub":   func(a, b float64) float64 { return a - b },
+		"add":   func(a, b float64) float64 { return a + b },
+		"mul":   func(a, b float64) float64 { return a * b },
+		"abs":   math.Abs,
+	}
 }
 
+// messageTemplates is a rule's message template twice: with SI units first
+// (Transition.Message) and with IP units first (Transition.MessageIP).
+type messageTemplates struct{ si, ip *template.Template }
+
 // parseMessage compiles a rule's message template.
-func parseMessage(id, text string) (*template.Template, error) {
+func parseMessage(id, text string) (messageTemplates, error) {
 	if strings.TrimSpace(text) == "" {
 		text = "{{.Title}}"
 	}
-	t, err := template.New(id).Funcs(msgFuncs).Option("missingkey=zero").Parse(text)
-	if err != nil {
-		return nil, fmt.Errorf("message: %w", err)
+	var m messageTemplates
+	for _, x := range []struct {
+		t **template.Template
+		u unitFmt
+	}{{&m.si, unitFmt{}}, {&m.ip, unitFmt{ip: true}}} {
+		t, err := template.New(id).Funcs(messageFuncs(x.u)).Option("missingkey=zero").Parse(text)
+		if err != nil {
+			return m, fmt.Errorf("message: %w", err)
+		}
+		*x.t = t
 	}
-	return t, nil
+	return m, nil
 }
 
-// render executes the template; a failing template yields the title and the
-// error text rather than losing the fault.
-func (c *compiled) render(d *msgData) string {
+// render executes the templates, SI first and IP first; a failing template
+// yields the title and the error text rather than losing the fault.
+func (c *compiled) render(d *msgData) (si, ip string) {
+	return execMessage(c.tmpl.si, d), execMessage(c.tmpl.ip, d)
+}
+
+func execMessage(t *template.Template, d *msgData) string {
 	var b strings.Builder
-	if err := c.tmpl.Execute(&b, d); err != nil {
+	if err := t.Execute(&b, d); err != nil {
 		return d.Title + " (message template error: " + err.Error() + ")"
 	}
 	return strings.Join(strings.Fields(b.String()), " ")

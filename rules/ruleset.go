@@ -7,7 +7,6 @@ import (
 	"sort"
 	"strconv"
 	"strings"
-	"text/template"
 	"time"
 
 	"risewatch/fdd"
@@ -269,7 +268,7 @@ type compiled struct {
 	severity     Severity
 	confField    *field
 	confConst    float64
-	tmpl         *template.Template
+	tmpl         messageTemplates
 	show         []*field // fields published in Evidence.Extra
 	except, only []string
 }

@@ -10,7 +10,8 @@ import (
 )
 
 // Summary is a one-cell digest of the evidence for tables: the two or three
-// numbers that justify the fault, in SI with IP in brackets.
+// numbers that justify the fault, in SI with IP in brackets (SummaryIn
+// gives either order).
 //
 // A kind may be raised by more than one rule, and t.Evidence.Extra holds
 // the fields of the rule that holds the fault (its conditions and its show
@@ -21,7 +22,11 @@ import (
 // its flat ones. When none of a kind's numbers is known (a rule of the
 // site's own), the digest lists the rule's own fields instead, formatted by
 // the unit their names end in.
-func (t *Transition) Summary() string {
+func (t *Transition) Summary() string { return t.SummaryIn(false) }
+
+// SummaryIn is Summary with IP units first (SI in brackets) when ip is set.
+func (t *Transition) SummaryIn(ip bool) string {
+	u := unitFmt{ip: ip}
 	ev := &t.Evidence
 	x := func(k string) float64 {
 		if v, ok := ev.Extra[k]; ok {
@@ -38,7 +43,7 @@ func (t *Transition) Summary() string {
 			return f(v)
 		}
 	}
-	dk, pc := count(fmtDTemp), count(fmtPct)
+	dk, pc := count(u.dtemp), count(fmtPct)
 	var parts []string
 	add := func(f string, a ...any) { parts = append(parts, fmt.Sprintf(f, a...)) }
 	switch t.Kind {
@@ -52,7 +57,7 @@ func (t *Transition) Summary() string {
 			}
 		}
 		if w := t.Impact.WastedHeatW; w > 0 {
-			add("%s wasted", fmtPower(w))
+			add("%s wasted", u.power(w))
 		}
 	case fdd.KindFouledCoil:
 		add("UA %s of baseline", pc(ev.UAFactor))
@@ -142,7 +147,7 @@ func (t *Transition) Summary() string {
 		return t.Title
 	}
 	if known == 0 {
-		if s := fieldDigest(ev.Extra, 3); s != "" {
+		if s := fieldDigest(ev.Extra, 3, u); s != "" {
 			return s
 		}
 		return t.Title
@@ -168,7 +173,7 @@ func minutes(m float64) string {
 // fdd/evidence.go: _k a temperature difference, _c a temperature, _frac a
 // fraction, _min minutes, _w a power, _m3s a water flow); score and gate
 // fields are left out (they say which test passed, not how far).
-func fieldDigest(extra map[string]float64, n int) string {
+func fieldDigest(extra map[string]float64, n int, u unitFmt) string {
 	names := make([]string, 0, len(extra))
 	for k, v := range extra {
 		if finite(v) && !strings.HasPrefix(k, "score.") && !strings.HasPrefix(k, "gate_") {
@@ -181,29 +186,29 @@ func fieldDigest(extra map[string]float64, n int) string {
 		if len(parts) == n {
 			break
 		}
-		parts = append(parts, strings.ReplaceAll(k, "_", " ")+" "+formatField(k, extra[k]))
+		parts = append(parts, strings.ReplaceAll(k, "_", " ")+" "+formatField(k, extra[k], u))
 	}
 	return strings.Join(parts, ", ")
 }
 
 // formatField formats one evidence value by the unit its field name ends in
 // (an airflow is air, L/s and cfm; any other _m3s is water, L/s and gpm).
-func formatField(name string, v float64) string {
+func formatField(name string, v float64, u unitFmt) string {
 	switch {
 	case strings.HasSuffix(name, "_k"):
-		return fmtDTemp(v)
+		return u.dtemp(v)
 	case strings.HasSuffix(name, "_c"):
-		return fmtTemp(v)
+		return u.temp(v)
 	case strings.HasSuffix(name, "_frac"):
 		return fmtPct(v)
 	case strings.HasSuffix(name, "_min"):
 		return fmtMins(v)
 	case strings.HasSuffix(name, "_w"):
-		return fmtPower(v)
+		return u.power(v)
 	case strings.HasPrefix(name, "airflow") && strings.HasSuffix(name, "_m3s"):
-		return fmtAirflow(v)
+		return u.airflow(v)
 	case strings.HasSuffix(name, "_m3s"):
-		return fmtWaterFlow(v)
+		return u.waterFlow(v)
 	default:
 		return fmt.Sprintf("%.3g", v)
 	}

@@ -2,6 +2,7 @@ package rules
 
 import (
 	"math"
+	"regexp"
 	"strings"
 	"testing"
 
@@ -133,6 +134,13 @@ func TestSummaryLeakWasteInBothUnits(t *testing.T) {
 			t.Errorf("summary %q lacks %q", got, w)
 		}
 	}
+	// IP first for IP outputs, the same numbers the other way round.
+	got = tr.SummaryIn(true)
+	for _, w := range []string{"leak rise 15.8 °F (8.8 K)", "leak 12 % of design flow", "7.5 MBH (2.21 kW) wasted"} {
+		if !strings.Contains(got, w) {
+			t.Errorf("IP-first summary %q lacks %q", got, w)
+		}
+	}
 }
 
 // TestSummaryFallsBackToTheRulesFields: a rule of the site's own whose kind
@@ -245,13 +253,21 @@ func TestMessagesGiveOnlyKnownFigures(t *testing.T) {
 		for k, v := range tc.vals {
 			vals[k] = v
 		}
-		got := c.render(&msgData{Entity: "VAV-1-01", Rule: c.rule.ID, Title: c.rule.Title, E: vals})
-		if strings.Contains(got, "n/a") || strings.Contains(got, "template error") {
-			t.Errorf("%s %v: message has n/a or an error: %s", tc.rule, tc.vals, got)
+		got, gotIP := c.render(&msgData{Entity: "VAV-1-01", Rule: c.rule.ID, Title: c.rule.Title, E: vals})
+		for _, m := range []string{got, gotIP} {
+			if strings.Contains(m, "n/a") || strings.Contains(m, "template error") {
+				t.Errorf("%s %v: message has n/a or an error: %s", tc.rule, tc.vals, m)
+			}
 		}
 		for _, w := range tc.want {
 			if !strings.Contains(got, w) {
 				t.Errorf("%s %v: message lacks %q:\n%s", tc.rule, tc.vals, w, got)
+			}
+			// The IP-first rendering has each pair the other way round.
+			for _, p := range unitPairRE.FindAllStringSubmatch(w, -1) {
+				if swapped := p[2] + " (" + p[1] + ")"; !strings.Contains(gotIP, swapped) {
+					t.Errorf("%s %v: IP-first message lacks %q:\n%s", tc.rule, tc.vals, swapped, gotIP)
+				}
 			}
 		}
 		for _, w := range tc.not {
@@ -261,6 +277,9 @@ func TestMessagesGiveOnlyKnownFigures(t *testing.T) {
 		}
 	}
 }
+
+// unitPairRE matches a temperature printed SI first, IP in brackets.
+var unitPairRE = regexp.MustCompile(`(-?[0-9.]+ (?:K|°C)) \((-?[0-9.]+ °F)\)`)
 
 // TestEveryBuiltinMessageRenders: every built-in rule's message renders
 // from a full evidence record (every field of its scope known, here 0.5)
@@ -281,12 +300,14 @@ func TestEveryBuiltinMessageRenders(t *testing.T) {
 				for _, name := range scope.sch.order {
 					vals[name] = v
 				}
-				got := c.render(&msgData{Entity: "X-1", Rule: c.rule.ID, Title: c.rule.Title, E: vals, Currency: "USD"})
-				if strings.Contains(got, "template error") || got == "" {
-					t.Errorf("%s (fields %v): %q", c.rule.ID, v, got)
-				}
-				if v == v && strings.Contains(got, "n/a") {
-					t.Errorf("%s, every field known: message has n/a: %s", c.rule.ID, got)
+				si, ip := c.render(&msgData{Entity: "X-1", Rule: c.rule.ID, Title: c.rule.Title, E: vals, Currency: "USD"})
+				for _, got := range []string{si, ip} {
+					if strings.Contains(got, "template error") || got == "" {
+						t.Errorf("%s (fields %v): %q", c.rule.ID, v, got)
+					}
+					if v == v && strings.Contains(got, "n/a") {
+						t.Errorf("%s, every field known: message has n/a: %s", c.rule.ID, got)
+					}
 				}
 			}
 		}
@@ -297,7 +318,7 @@ func TestEveryBuiltinMessageRenders(t *testing.T) {
 // L/s and cfm, a water flow in L/s and gpm (0.0944 m³/s = 200 cfm;
 // 6.31e-5 m³/s = 1.0 gpm, 1 US gal = 3.785412 L).
 func TestFieldDigestFlowUnits(t *testing.T) {
-	got := fieldDigest(map[string]float64{"airflow_m3s": 0.0944, "leak_flow_m3s": 6.31e-5}, 3)
+	got := fieldDigest(map[string]float64{"airflow_m3s": 0.0944, "leak_flow_m3s": 6.31e-5}, 3, unitFmt{})
 	for _, w := range []string{"airflow m3s 94.4 L/s (200 cfm)", "leak flow m3s", "gpm"} {
 		if !strings.Contains(got, w) {
 			t.Errorf("digest %q lacks %q", got, w)
@@ -305,6 +326,9 @@ func TestFieldDigestFlowUnits(t *testing.T) {
 	}
 	if strings.Count(got, "gpm") != 1 {
 		t.Errorf("digest %q: the airflow reads as a water flow", got)
+	}
+	if got := fieldDigest(map[string]float64{"airflow_m3s": 0.0944}, 3, unitFmt{ip: true}); got != "airflow m3s 200 cfm (94.4 L/s)" {
+		t.Errorf("IP-first digest %q", got)
 	}
 }
 
@@ -320,10 +344,17 @@ func TestLeakMessageCoolingInTonHours(t *testing.T) {
 		if c.rule.ID != "model-valve-leak" {
 			continue
 		}
-		got := c.render(&msgData{Rule: c.rule.ID, E: map[string]float64{"leak_rise_k": 8.8, "airflow_m3s": 0.18, "leak_flow_frac": 0.12},
+		got, gotIP := c.render(&msgData{Rule: c.rule.ID, E: map[string]float64{"leak_rise_k": 8.8, "airflow_m3s": 0.18, "leak_flow_frac": 0.12},
 			Impact: Impact{WastedHeatW: 2210, WeeklyHeatKWh: 246, WeeklyCoolKWh: 246, WeeklyCost: 19.69}, Currency: "USD"})
 		if !strings.Contains(got, "246 kWh (8.4 therm) heat and 246 kWh (69.9 ton-h) cooling a week") {
 			t.Errorf("leak message: %s", got)
+		}
+		// IP first (for IP outputs): 8.8 K × 1.8 = 15.8 °F; 0.18 m³/s =
+		// 381 cfm (1 cfm = 4.719474e-4 m³/s).
+		for _, w := range []string{"15.8 °F (8.8 K)", "381 cfm", "8.4 therm (246 kWh) heat and 69.9 ton-h (246 kWh) cooling a week"} {
+			if !strings.Contains(gotIP, w) {
+				t.Errorf("IP-first leak message lacks %q: %s", w, gotIP)
+			}
 		}
 		return
 	}

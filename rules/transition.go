@@ -86,7 +86,8 @@ type Transition struct {
 	Confidence float64 // 0..1
 	Evidence   Evidence
 	Impact     Impact
-	Message    string   // one line, with numbers and units
+	Message    string   // one line, with numbers and units: SI first, IP in brackets
+	MessageIP  string   // Message with IP units first, SI in brackets
 	Causes     []string // likely causes, most likely first
 	Checks     []string // what a technician should check first
 	AHU, Loop  string   // for routing and labels
@@ -99,6 +100,16 @@ type Transition struct {
 	AckedAt         time.Time
 	SuppressedUntil time.Time // zero = not suppressed
 	ExplainedBy     string    // on a clear: the fault ID that explains this one (e.g. "HW-1/cold-loop")
+}
+
+// MessageIn is the message with IP units first when ip is set (SI first
+// otherwise). A transition stored before IP-first messages existed has only
+// Message, which it then returns.
+func (t *Transition) MessageIn(ip bool) string {
+	if ip && t.MessageIP != "" {
+		return t.MessageIP
+	}
+	return t.Message
 }
 
 // IsNotice reports whether outputs should notify people about this

@@ -111,7 +111,7 @@ func (c *Config) itemFor(e Event) itemView {
 		Type:       string(e.Type),
 		Title:      fmt.Sprintf("%s: %s", t.Entity, t.Kind),
 		Since:      t.Since.In(c.Location).Format("Mon 2 Jan 15:04 MST"),
-		Message:    t.Message,
+		Message:    t.MessageIn(c.IP),
 		Seen:       strings.Join(seen, "; "),
 		Matters:    strings.Join(matters, "; "),
 		Confidence: fmt.Sprintf("%.0f %%", t.Confidence*100),

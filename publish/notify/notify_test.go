@@ -599,3 +599,28 @@ func TestConfigValidation(t *testing.T) {
 		}
 	}
 }
+
+// TestAlertMessageInConfiguredUnitOrder: the rule's message in an alert is
+// the one with the configured units first; a transition stored without an
+// IP-first message falls back to the SI-first one.
+func TestAlertMessageInConfiguredUnitOrder(t *testing.T) {
+	tr := leak("VAV-1-03", time.Date(2026, 1, 14, 9, 0, 0, 0, time.UTC))
+	tr.Message, tr.MessageIP = "air 4.2 K (7.6 °F) warmer than supply", "air 7.6 °F (4.2 K) warmer than supply"
+	for _, ip := range []bool{false, true} {
+		c := testConfig()
+		c.IP = ip
+		want := tr.Message
+		if ip {
+			want = tr.MessageIP
+		}
+		if got := c.itemFor(Event{Type: EventOpened, T: tr}).Message; got != want {
+			t.Errorf("ip=%v: alert message %q, want %q", ip, got, want)
+		}
+	}
+	old := tr
+	old.MessageIP = ""
+	c := testConfig()
+	if got := c.itemFor(Event{Type: EventOpened, T: old}).Message; got != old.Message {
+		t.Errorf("stored without an IP-first message: %q, want %q", got, old.Message)
+	}
+}

@@ -181,7 +181,7 @@ func WritePDF(w io.Writer, in Input) error {
 		}
 		var rs [][]string
 		for _, t := range ts {
-			rs = append(rs, []string{t.Entity, t.Kind.String(), t.At.In(loc).Format("Mon Jan 2 15:04"), t.Message})
+			rs = append(rs, []string{t.Entity, t.Kind.String(), t.At.In(loc).Format("Mon Jan 2 15:04"), t.MessageIn(in.IP)})
 		}
 		table([]string{"Terminal", "Fault", "When", "Note"}, scale([]float64{18, 22, 24, 90}), rs)
 	}
@@ -195,9 +195,9 @@ func WritePDF(w io.Writer, in Input) error {
 		cl := in.coilLine(t.Entity)
 		para(fmt.Sprintf("Box inlet %s, %s row(s), %s FPI, coil face %s. Zone %s. Location: %s. AHU %s, loop %s.",
 			orDash(cl[1]), orDash(cl[2]), orDash(cl[3]), orDash(cl[4]), orDash(cl[5]), orDash(cl[6]), orDash(t.AHU), orDash(t.Loop)))
-		if t.Message != "" {
+		if msg := t.MessageIn(in.IP); msg != "" {
 			h2("What was seen")
-			para(t.Message)
+			para(msg)
 		}
 		h2("Evidence")
 		for _, l := range in.evidenceLines(t) {

@@ -224,7 +224,7 @@ func WriteCSV(w io.Writer, in Input) error {
 			num(im.WeeklyHeatKWh, 1), num(im.WeeklyHeatKWh/units.KWhPerTherm, 2),
 			num(im.WeeklyCoolKWh, 1), num(im.WeeklyCoolKWh/units.KWhPerTonHour, 2), num(t.Confidence*100, 0),
 			num(ev.ObservedRiseK, 2), num(units.DeltaKToF(ev.ObservedRiseK), 2),
-			num(ev.ExpectedRiseK, 2), num(units.DeltaKToF(ev.ExpectedRiseK), 2), num(ev.ValveFrac*100, 0), t.Message,
+			num(ev.ExpectedRiseK, 2), num(units.DeltaKToF(ev.ExpectedRiseK), 2), num(ev.ValveFrac*100, 0), t.MessageIn(in.IP),
 			strings.Join(t.Causes, "; "), strings.Join(t.Checks, "; "), cl[1], cl[2], cl[3], cl[4], cl[5], cl[6], t.AHU, t.Loop}
 		if err := cw.Write(row); err != nil {
 			return err

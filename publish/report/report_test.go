@@ -408,3 +408,22 @@ func TestDayTicksAtLocalMidnight(t *testing.T) {
 		t.Errorf("labels %s, %d noons", got, noons)
 	}
 }
+
+// TestPDFMessageInReportUnits: the fault page's "What was seen" is the
+// rule's message with the report's units first.
+func TestPDFMessageInReportUnits(t *testing.T) {
+	pdftotext := testenv.LookTool(t, "pdftotext", "apt-get install poppler-utils")
+	for _, ip := range []bool{false, true} {
+		in := testInput()
+		in.IP, in.Series = ip, nil
+		in.Open[0].Message, in.Open[0].MessageIP = "discharge 4.1 K (7.4 °F) above supply", "discharge 7.4 °F (4.1 K) above supply"
+		want, not := in.Open[0].Message, in.Open[0].MessageIP
+		if ip {
+			want, not = not, want
+		}
+		text := strings.Join(strings.Fields(strings.Join(pdfPages(t, pdftotext, in), " ")), " ")
+		if !strings.Contains(text, want) || strings.Contains(text, not) {
+			t.Errorf("ip=%v: report lacks %q or has %q", ip, want, not)
+		}
+	}
+}

@@ -167,9 +167,9 @@ func (s *Server) faultRows(fs []rules.Transition) []faultRow {
 			r.Link = "/terminals/" + url.PathEscape(f.Entity)
 		}
 		// The numbers of the rule holding the fault (the analyze table's
-		// digest, SI with IP beside it); the rise, expected rise and
+		// digest, in the page's unit order); the rise, expected rise and
 		// command of its last record where the digest has none.
-		if sum := f.Summary(); sum != "" && sum != f.Title {
+		if sum := f.SummaryIn(s.cfg.IP); sum != "" && sum != f.Title {
 			r.Evidence = sum
 		} else {
 			ev := f.Evidence
@@ -289,7 +289,7 @@ func (s *Server) formFor(w http.ResponseWriter, r *http.Request, f rules.Transit
 		since = f.At
 	}
 	return faultForm{Kind: f.Kind.String(), State: f.To.String(), Since: since.In(s.loc()).Format("Mon 2 Jan 15:04"),
-		Message: f.Message, IDPath: url.PathEscape(f.FaultID), CSRF: s.csrfToken(w, r),
+		Message: f.MessageIn(s.cfg.IP), IDPath: url.PathEscape(f.FaultID), CSRF: s.csrfToken(w, r),
 		SnoozeDefault: s.b.Now().In(s.loc()).AddDate(0, 0, 7).Format("2006-01-02")}
 }
 
@@ -374,7 +374,7 @@ func (s *Server) terminal(w http.ResponseWriter, r *http.Request) {
 	hist, err := s.b.History(r.Context(), t.ID, 50)
 	if err == nil {
 		for _, h := range hist {
-			data.History = append(data.History, [5]string{h.At.In(s.loc()).Format("2006-01-02 15:04"), h.Kind.String(), h.From.String(), h.To.String(), h.Message})
+			data.History = append(data.History, [5]string{h.At.In(s.loc()).Format("2006-01-02 15:04"), h.Kind.String(), h.From.String(), h.To.String(), h.MessageIn(s.cfg.IP)})
 		}
 	}
 	s.render(w, "terminal", data)
@@ -456,7 +456,7 @@ func (s *Server) actionForm(w http.ResponseWriter, r *http.Request, verb string)
 		return
 	}
 	ff := s.formFor(w, r, f)
-	s.render(w, "action", actionPage{page: s.page(verb), Heading: verb + " " + f.FaultID, Text: f.Message, Back: s.backFor(f), Fault: &ff})
+	s.render(w, "action", actionPage{page: s.page(verb), Heading: verb + " " + f.FaultID, Text: f.MessageIn(s.cfg.IP), Back: s.backFor(f), Fault: &ff})
 }
 
 func (s *Server) ackPost(w http.ResponseWriter, r *http.Request) { s.actionPost(w, r, false) }

@@ -45,9 +45,10 @@ func newTestBackend() *testBackend {
 	now := time.Date(2026, 1, 14, 10, 0, 0, 0, loc)
 	return &testBackend{site: s, now: now, faults: []rules.Transition{{
 		FaultID: "VAV-1-03/leaking-valve", Entity: "VAV-1-03", Kind: fdd.KindLeakingValve, To: rules.StateOpen, At: now.Add(-3 * time.Hour),
-		Since: now.Add(-4 * time.Hour), Confidence: 0.9, AHU: "AHU-1", Loop: "HW-1", Message: "Valve closed, discharge 7.4 °F above supply.",
-		Evidence: rules.Evidence{ObservedRiseK: 4.1, ValveFrac: 0, LeakRiseK: 4.1, LeakFlowFrac: 0.05, ExpectedRiseK: math.NaN()},
-		Impact:   rules.Impact{WeeklyCost: 5.93}}}}
+		Since: now.Add(-4 * time.Hour), Confidence: 0.9, AHU: "AHU-1", Loop: "HW-1", Message: "Valve closed, discharge 4.1 K (7.4 °F) above supply.",
+		MessageIP: "Valve closed, discharge 7.4 °F (4.1 K) above supply.",
+		Evidence:  rules.Evidence{ObservedRiseK: 4.1, ValveFrac: 0, LeakRiseK: 4.1, LeakFlowFrac: 0.05, ExpectedRiseK: math.NaN()},
+		Impact:    rules.Impact{WeeklyCost: 5.93}}}}
 }
 
 func (b *testBackend) Site() *site.Site { return b.site }
@@ -204,12 +205,12 @@ func TestPagesRender(t *testing.T) {
 	ts := httptest.NewServer(s.Handler())
 	defer ts.Close()
 	for path, wants := range map[string][]string{
-		// The fault's evidence digest: 4.1 K × 1.8 = 7.4 °F.
-		"/": {"Larkspur Commons", "VAV-1-03", "leaking-valve", "USD 5.93", "HW-1", "180.0 °F", "advisory only", "leak rise 4.1 K (7.4 °F), leak 5 % of design flow"},
+		// The fault's evidence digest, IP first as the page is: 4.1 K × 1.8 = 7.4 °F.
+		"/": {"Larkspur Commons", "VAV-1-03", "leaking-valve", "USD 5.93", "HW-1", "180.0 °F", "advisory only", "leak rise 7.4 °F (4.1 K), leak 5 % of design flow"},
 		"/terminals/VAV-1-07": {"<svg", "Air temperature rise, observed and expected (°F)", "12.5 in", "10 FPI", "No open faults.",
 			"rated (submittal data) while the baseline is learned", "not seen healthy yet", "risewatch relearn --config FILE --by NAME VAV-1-07"},
 		// 95 % intervals: 1.08 ± 1.96·0.01, 0.90 ± 1.96·0.02; 0.2 K = 0.36 °F.
-		"/terminals/VAV-1-03": {"Acknowledge", "Snooze", "Leak rise with valve closed", "learned from this coil&#39;s own history",
+		"/terminals/VAV-1-03": {"Acknowledge", "Snooze", "discharge 7.4 °F (4.1 K) above supply", "Leak rise with valve closed", "learned from this coil&#39;s own history",
 			"48 steady heating points, 5 Jan 2026 07:00 – 6 Jan 2026 07:00", "1.08 (1.06–1.10) / 0.90 (0.86–0.94)", "1.03 of the model&#39;s rise (17 values)"},
 		"/sources": {"exports", "trendfile", "bad-row 2"},
 	} {
@@ -229,5 +230,28 @@ func TestPagesRender(t *testing.T) {
 	}
 	if resp, _ := http.Get(ts.URL + "/terminals/NOPE"); resp.StatusCode != http.StatusNotFound {
 		t.Errorf("unknown terminal: %d", resp.StatusCode)
+	}
+}
+
+// TestMessagesInThePagesUnitOrder: a page set to SI shows the SI-first
+// message, one set to IP the IP-first one.
+func TestMessagesInThePagesUnitOrder(t *testing.T) {
+	for _, ip := range []bool{false, true} {
+		s, _ := New(Config{IP: ip}, newTestBackend(), quiet())
+		ts := httptest.NewServer(s.Handler())
+		resp, err := http.Get(ts.URL + "/terminals/VAV-1-03")
+		if err != nil {
+			t.Fatal(err)
+		}
+		body, _ := io.ReadAll(resp.Body)
+		resp.Body.Close()
+		ts.Close()
+		want, not := "discharge 4.1 K (7.4 °F) above", "discharge 7.4 °F (4.1 K) above"
+		if ip {
+			want, not = not, want
+		}
+		if !strings.Contains(string(body), want) || strings.Contains(string(body), not) {
+			t.Errorf("ip=%v: terminal page lacks %q or has %q", ip, want, not)
+		}
 	}
 }
