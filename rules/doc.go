@@ -19,7 +19,12 @@
 // kept in within/24 bins, for faults that come and go with the load
 // (the built-in hunting rule: 4 h within 24 h). A fault clears with hysteresis: either an explicit
 // clear_when group or the negation of the open condition evaluated with each
-// comparison's separate clear threshold, held for clear_for.
+// comparison's separate clear threshold, held for clear_for. A terminal
+// rule may add `evidence_when`, a condition choosing which record its fault
+// shows (in transitions, e-mails and reports): the latest in which it also
+// holds, kept through the pending run, else the latest in which the
+// condition holds; the built-in fouled and starved rules show a steady
+// record with the valve at 60 % or more, where a capacity loss is seen.
 //
 // # Why structured YAML and not an expression language
 //

@@ -51,6 +51,10 @@ type Evaluator struct {
 	// held is the condition-true time of pending trackers of rules with
 	// a within window (pendWithin), made when such a tracker first holds.
 	held map[*tracker]*heldTime
+	// shown is, for pending trackers of rules with evidence_when, the
+	// latest record in which it held (keepShown), for the fault to show
+	// when it opens.
+	shown map[*tracker]*fdd.Evidence
 
 	faults   map[faultKey]*fault
 	byID     map[string]*fault
@@ -123,7 +127,7 @@ func NewEvaluator(s *site.Site, rs *Ruleset) (*Evaluator, error) {
 	}
 	e := &Evaluator{
 		site: s, rs: rs, nT: len(s.Terminals), nL: len(s.Loops),
-		held:   map[*tracker]*heldTime{},
+		held: map[*tracker]*heldTime{}, shown: map[*tracker]*fdd.Evidence{},
 		faults: map[faultKey]*fault{}, byID: map[string]*fault{}, suppress: map[string]time.Time{},
 		maxGapNs: int64(rs.maxGap),
 	}
@@ -333,6 +337,9 @@ func (e *Evaluator) pend(tk *tracker, c *compiled, gatesOK bool, p unsafe.Pointe
 			tk.since = at
 		}
 		tk.last = at
+		if len(c.showWhen) > 0 {
+			e.keepShown(tk, c, p)
+		}
 		return at-tk.since >= c.forNs
 	case triFalse:
 		tk.since = 0
@@ -342,6 +349,40 @@ func (e *Evaluator) pend(tk *tracker, c *compiled, gatesOK bool, p unsafe.Pointe
 		}
 	}
 	return false
+}
+
+// keepShown copies terminal record p for pending tracker tk when rule c's
+// evidence_when holds in it (the condition holds: the callers' case).
+func (e *Evaluator) keepShown(tk *tracker, c *compiled, p unsafe.Pointer) {
+	if c.showWhen.eval(p) != triTrue {
+		return
+	}
+	r := e.shown[tk]
+	if r == nil {
+		r = new(fdd.Evidence)
+		e.shown[tk] = r
+	}
+	*r = *(*fdd.Evidence)(p)
+}
+
+// shownFor is the record fault f of rule c shows on opening at record cur
+// (pending tracker tk): cur when evidence_when holds in it, else the
+// latest record of this pending run in which it held, else cur. It
+// reports whether evidence_when holds in the record returned, and forgets
+// the kept record.
+func (e *Evaluator) shownFor(tk *tracker, c *compiled, cur *fdd.Evidence) (*fdd.Evidence, bool) {
+	if len(c.showWhen) == 0 {
+		return cur, true
+	}
+	r := e.shown[tk]
+	delete(e.shown, tk)
+	if c.showWhen.eval(unsafe.Pointer(cur)) == triTrue {
+		return cur, true
+	}
+	if r != nil && tk.since != 0 && r.At.UnixNano() >= tk.since {
+		return r, true
+	}
+	return cur, false
 }
 
 // release advances an active tracker's clear timer and reports whether the

@@ -26,6 +26,7 @@ type fault struct {
 	suppressTil time.Time
 
 	hasLast    bool
+	lastShown  bool // lastTerm satisfies the rule's evidence_when (or it has none)
 	lastTrueAt int64
 	lastTerm   fdd.Evidence
 	lastLoop   fdd.LoopEvidence
@@ -122,8 +123,10 @@ func (e *Evaluator) activate(ek EntityKind, idx int, c *compiled, tk *tracker, p
 	tk.clrSince = 0
 	f.rules = append(f.rules, c)
 	if ek == EntityTerminal {
-		f.lastTerm = *(*fdd.Evidence)(p)
-		f.observe(&f.lastTerm, f.lastTerm.At.UnixNano(), e.terminalMask(&f.lastTerm, f.lastTerm.At.UnixNano()))
+		cur := (*fdd.Evidence)(p)
+		f.observe(cur, cur.At.UnixNano(), e.terminalMask(cur, cur.At.UnixNano()))
+		shown, ok := e.shownFor(tk, c, cur)
+		f.lastTerm, f.lastShown = *shown, ok
 	} else {
 		f.lastLoop = *(*fdd.LoopEvidence)(p)
 	}

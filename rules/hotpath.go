@@ -262,7 +262,13 @@ func (e *Evaluator) stepRule(t int, c *compiled, tk *tracker, ev *fdd.Evidence, 
 		out = e.deactivate(EntityTerminal, t, c, tk, ev.At, out)
 	} else if gatesOK && f.lastTrueAt != at && c.when.eval(p) == triTrue {
 		f.lastTrueAt = at
-		f.lastTerm = *ev
+		if len(c.showWhen) == 0 {
+			f.lastTerm = *ev
+		} else if c.showWhen.eval(p) == triTrue {
+			f.lastTerm, f.lastShown = *ev, true
+		} else if !f.lastShown {
+			f.lastTerm = *ev
+		}
 		f.hasLast = true
 		f.confidence = c.confidenceAt(p)
 	}

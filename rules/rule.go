@@ -40,7 +40,14 @@ type Rule struct {
 	// is kept in Within/24 bins.
 	Within    Duration `yaml:"within"`
 	ClearWhen *Cond    `yaml:"clear_when"`
-	ClearFor  Duration `yaml:"clear_for"`
+	// EvidenceWhen picks the record whose numbers a terminal fault shows
+	// (its transitions' evidence, the report's, the e-mail's): the latest
+	// in which this also holds, with when and the gates; until one has
+	// been seen, the latest in which when holds. A fouled coil, say, is
+	// better shown by a steady record at high command than by one with the
+	// valve shut.
+	EvidenceWhen *Cond    `yaml:"evidence_when"`
+	ClearFor     Duration `yaml:"clear_for"`
 	// Suppresses lists kinds this fault explains on the same entity (for a
 	// loop rule: on every terminal of the loop).
 	Suppresses []string `yaml:"suppresses"`
@@ -60,7 +67,7 @@ type Rule struct {
 	Line int    `yaml:"-"`
 }
 
-var ruleKeys = []string{"id", "kind", "scope", "title", "source", "severity", "gates", "when", "for", "within", "clear_when", "clear_for", "suppresses", "confidence", "message", "causes", "checks", "show", "except", "only", "disabled"}
+var ruleKeys = []string{"id", "kind", "scope", "title", "source", "severity", "gates", "when", "for", "within", "clear_when", "evidence_when", "clear_for", "suppresses", "confidence", "message", "causes", "checks", "show", "except", "only", "disabled"}
 
 // UnmarshalYAML records the line and rejects unknown keys.
 func (r *Rule) UnmarshalYAML(n *yaml.Node) error {

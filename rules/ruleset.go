@@ -261,6 +261,7 @@ type compiled struct {
 	need, forbid gateMask
 	gates        program // extra truth-valued gates (empty: none)
 	when, clear  program
+	showWhen     program // Rule.EvidenceWhen (empty: none)
 	forNs        int64
 	withinNs     int64 // Rule.Within (0: For is a run)
 	clearForNs   int64
@@ -336,6 +337,14 @@ func compileRule(r *Rule, sch *schemas) (*compiled, error) {
 			return nil, fmt.Errorf("when (clear thresholds): %w", err)
 		}
 		c.clear = p.negated()
+	}
+	if r.EvidenceWhen != nil {
+		if c.loop {
+			return nil, fmt.Errorf("evidence_when: only for terminal rules")
+		}
+		if c.showWhen, err = compileCond(r.EvidenceWhen, s, false); err != nil {
+			return nil, fmt.Errorf("evidence_when: %w", err)
+		}
 	}
 	c.forNs, c.clearForNs = int64(r.For), int64(r.ClearFor)
 	switch {

@@ -75,6 +75,9 @@ func (e *Evaluator) pendWithin(tk *tracker, c *compiled, gatesOK bool, p unsafe.
 				h.add(at, dt, binNs)
 			}
 			h.prev, tk.last = true, at
+			if len(c.showWhen) > 0 {
+				e.keepShown(tk, c, p)
+			}
 		case triFalse:
 			if h != nil {
 				h.prev = false
