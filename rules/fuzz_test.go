@@ -20,6 +20,7 @@ func FuzzParseRules(f *testing.F) {
 	f.Add([]byte(extraRules))
 	f.Add([]byte("rules:\n  - id: w\n    kind: hunting\n    severity: 3\n    when: {any: [{field: valve, op: '<', value: 0.1}, {field: rise_k, op: '>', value: 2}, {field: sat_c, minus: dat_c, op: '<=', value: -1 K}, {field: hw_c, op: '<', value: 40 C}, {field: z, op: '>=', value: 3}]}\n"))
 	f.Add([]byte("rules:\n  - id: h\n    kind: hunting\n    severity: 4\n    when: {field: reversals_per_hour, op: '>=', value: 30}\n    for: 1h\n    within: 6h\n"))
+	f.Add([]byte("rules:\n  - id: u\n    kind: fouled-coil\n    severity: 4\n    when: {field: ua_factor, op: '<=', value: 0.75}\n    for: 6h\n    evidence_when: {all: [{field: steady, is: true}, {field: valve, op: '>=', value: 60 %}]}\n"))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		// A rules file is a few kB; far larger inputs only make each
 		// iteration slower (YAML decoding is linear, and the built-in set
