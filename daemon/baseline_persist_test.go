@@ -151,3 +151,23 @@ func demoSiteStore(t *testing.T) (*site.Site, *store.Store) {
 	s, _ := demoSite(t, "")
 	return s, st
 }
+
+// TestSettledBaselines: a learned fit and the rated model after a rejected
+// fit are kept across a restart; the rated model while learning, first or
+// again after a failed fit, is not.
+func TestSettledBaselines(t *testing.T) {
+	for _, c := range []struct {
+		source, rejected string
+		learning, want   bool
+	}{
+		{"learned", "", false, true},
+		{"rated", "learned UA factor 0.60 (band 1/1.25..1.25) …", false, true},
+		{"rated", "", true, false},
+		{"rated", "baseline fit did not converge: diverged; learning again (period 2 of 3)", true, false},
+		{"rated", "baseline fit did not converge: diverged", false, true},
+	} {
+		if got := settled(c.source, c.rejected, c.learning); got != c.want {
+			t.Errorf("settled(%q, %q, learning %v) = %v, want %v", c.source, c.rejected, c.learning, got, c.want)
+		}
+	}
+}

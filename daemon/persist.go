@@ -87,8 +87,11 @@ func (b baselineBlob) baseline() fdd.Baseline {
 // settled reports whether a baseline is the end of learning and so worth
 // keeping across a restart: a learned fit, or the rated model after a fit
 // was rejected. A rated baseline still learning is not (a restart learns
-// afresh rather than end learning early).
-func settled(source, rejected string) bool { return source == "learned" || rejected != "" }
+// afresh rather than end learning early), nor one learning again after a
+// fit that failed (fdd keeps Rejected set meanwhile).
+func settled(source, rejected string, learning bool) bool {
+	return !learning && (source == "learned" || rejected != "")
+}
 
 // loadBaselines adopts the stored settled baselines (learned, or rated after
 // a rejected fit) with the coils' healthy levels.
@@ -106,7 +109,7 @@ func loadBaselines(ctx context.Context, st *store.Store, eng *fdd.Engine, termin
 		if err := json.Unmarshal(raw, &b); err != nil {
 			return 0, fmt.Errorf("baseline of %s: %w", id, err)
 		}
-		if !settled(b.Source, b.Rejected) {
+		if !settled(b.Source, b.Rejected, false) {
 			continue
 		}
 		bs = append(bs, b.baseline())
@@ -124,8 +127,8 @@ func saveBaselines(ctx context.Context, st *store.Store, eng *fdd.Engine, ring *
 	bs := eng.Baselines()
 	n := 0
 	err := saveSeries(ctx, st, ring, ids, func(tx *store.Tx) error {
-		for _, b := range bs {
-			if !settled(b.Source, b.Rejected) {
+		for i, b := range bs {
+			if _, learning := eng.Baseline(i); !settled(b.Source, b.Rejected, learning) {
 				continue
 			}
 			raw, err := json.Marshal(toBlob(b))

@@ -249,6 +249,13 @@ func (en *Engine) applyBaseline(i int, b Baseline) error {
 	return nil
 }
 
+// fitAttempts is how many learning periods a terminal gets for a fit that
+// does not converge (the points too alike to tell UA from water flow, say:
+// a valve that sat at one command all period); after the last it stays on
+// the rated model. A fit that converges outside the bands is not retried:
+// the coil is not as rated, and a new period would say so again.
+const fitAttempts = 3
+
 // finishLearning fits the baseline from the learning reservoir and adopts it
 // when plausible.
 func (en *Engine) finishLearning(st *termState, t *termStatic) {
@@ -258,7 +265,14 @@ func (en *Engine) finishLearning(st *termState, t *termStatic) {
 	b, err := fitBaseline(t.phys, &t.flow, l)
 	l.release()
 	if err != nil {
+		st.fitFails++
 		st.base.Rejected = err.Error()
+		if st.fitFails < fitAttempts {
+			st.base.Rejected = fmt.Sprintf("%v; learning again (period %d of %d)", err, st.fitFails+1, fitAttempts)
+			st.learnDone = false
+			en.learn[i] = learner{}
+		}
+		st.pubGen++
 		return
 	}
 	b.Terminal = t.id
@@ -488,7 +502,7 @@ func (en *Engine) Relearn(id string) error {
 	}
 	st := &en.state[i]
 	en.learn[i] = learner{}
-	st.learnedUA = 0
+	st.learnedUA, st.fitFails = 0, 0
 	st.healthyAt, st.shortSince = time.Time{}, time.Time{}
 	st.setOnset()
 	err := en.applyBaseline(i, ratedBaseline(id))

@@ -313,3 +313,39 @@ func learningSetUp(t *testing.T) (*site.Site, Config, *Engine, *gen) {
 	g.k = g.k.WithUAMultiplier(1.15)
 	return s, cfg, en, g
 }
+
+// TestFitFailureLearnsAgain: a learning period whose fit fails (here too
+// few points kept for two factors; a fit that does not converge takes the
+// same path) starts a new period rather than settling on the rated model
+// for good; a later period with spread learns
+// the coil; after fitAttempts failed periods the terminal stays rated, and
+// Relearn gives it fresh attempts.
+func TestFitFailureLearnsAgain(t *testing.T) {
+	s, _, en, g := learningSetUp(t)
+	alike := func() {
+		l := &en.learn[0]
+		for k := 0; k < 3; k++ {
+			l.add(learnPoint{at: t0.Add(time.Duration(k) * time.Hour), v: 0.2, eat: 14, u: 0.55, thw: 80, obsRise: 10})
+		}
+		en.finishLearning(&en.state[0], &en.terms[0])
+	}
+	alike()
+	b, learning := en.Baseline(0)
+	if !learning || b.Source != "rated" || !strings.Contains(b.Rejected, "learning again (period 2 of 3)") {
+		t.Fatalf("after a failed fit: learning %v, %+v; want learning again on the rated model", learning, b)
+	}
+	runSynthetic(t, en, []*gen{g}, t0, 3, t0)
+	if b, learning := en.Baseline(0); learning || b.Source != "learned" || b.Rejected != "" {
+		t.Fatalf("second period: learning %v, %+v; want a learned fit", learning, b)
+	}
+	if err := en.Relearn(s.Terminals[0].ID); err != nil {
+		t.Fatal(err)
+	}
+	for k := 1; k <= fitAttempts; k++ {
+		alike()
+		b, learning := en.Baseline(0)
+		if last := k == fitAttempts; learning == last || b.Rejected == "" || strings.Contains(b.Rejected, "learning again") == last {
+			t.Fatalf("failed period %d of %d: learning %v, rejected %q", k, fitAttempts, learning, b.Rejected)
+		}
+	}
+}

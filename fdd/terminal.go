@@ -75,6 +75,7 @@ type termState struct {
 	// finished (or off); saturated: valve ≥ saturatedFrac at the last
 	// heating-steady sample.
 	learnedBase, learnDone, saturated bool
+	fitFails                          uint8   // learning periods whose fit failed (finishLearning)
 	flowScale                         float64 // baseline flow factor
 	secU, secF                        float64 // secant/tangent slope ratios of the running factor fit
 	designFlow                        float64 // full-open installed flow at the baseline flow factor, m³/s
