@@ -131,7 +131,7 @@ func TestLeakImpactAndMessage(t *testing.T) {
 	if math.Abs(tr.Impact.WeeklyHeatKWh-28.2) > 1e-9 || math.Abs(tr.Impact.WeeklyCost-2.538) > 1e-9 {
 		t.Errorf("impact %+v, want 28.2 kWh and 2.538 USD a week", tr.Impact)
 	}
-	for _, want := range []string{"6 % of design water flow", "0.47 kW (1.6 MBH)", "2.54 USD"} {
+	for _, want := range []string{"6 % of design water flow", "0.47 kW (1.6 MBH)", "USD 2.54"} {
 		if !strings.Contains(tr.Message, want) {
 			t.Errorf("message %q lacks %q", tr.Message, want)
 		}

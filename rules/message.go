@@ -21,7 +21,7 @@ import (
 //	{{coolenergy .Impact.WeeklyCoolKWh}} → "79 kWh (22.5 ton-h)"
 //	{{pct .E.valve}}          → "0 %"
 //	{{mins .E.closed_min}}    → "45 min" / "3.5 h"
-//	{{money .Impact.WeeklyCost}} → "12.40 USD"
+//	{{money .Impact.WeeklyCost}} → "USD 12.40"
 //	{{num .E.rise_valve_corr 2}}, {{sub a b}}, {{add a b}}, {{mul a b}}, {{abs a}}
 //	{{if known .E.closed_offset_k}}…{{end}} → only when the value is available
 //
@@ -94,7 +94,7 @@ func messageFuncs(u unitFmt) template.FuncMap {
 			if na(v) {
 				return "n/a"
 			}
-			return strings.TrimSpace(fmt.Sprintf("%.2f %s", v, cur))
+			return moneyText(v, cur)
 		},
 		"num": func(v float64, prec int) string {
 			if na(v) {

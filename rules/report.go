@@ -150,7 +150,13 @@ func costText(v float64, cur string) string {
 	if v == 0 || math.IsNaN(v) {
 		return "-"
 	}
-	return strings.TrimSpace(fmt.Sprintf("%.2f %s", v, cur))
+	return moneyText(v, cur)
+}
+
+// moneyText gives an amount the way every output writes one, the currency
+// code first ("USD 12.40"; "12.40" without a code).
+func moneyText(v float64, cur string) string {
+	return strings.TrimSpace(fmt.Sprintf("%s %.2f", cur, v))
 }
 
 // WriteJSON writes the rows as an indented JSON array.
