@@ -118,7 +118,7 @@ func RunDemo(ctx context.Context, o DemoOptions) error {
 		_ = os.WriteFile(info.SiteFile, y, 0o644)
 	}
 	cfg := &Config{File: "demo", DataDir: o.DataDir, Listen: o.Listen, PersistEvery: time.Minute, MailSpool: info.MailSpool, loc: s.Location,
-		Notify: &notify.Config{From: demoFrom, GroupFor: 5 * time.Second, LinkBase: "http://" + o.Listen,
+		Notify: &notify.Config{From: demoFrom, GroupFor: 5 * time.Second, IP: true, LinkBase: "http://" + o.Listen,
 			Routes: []notify.Route{{Name: "facilities", To: []string{demoOperators}}}},
 		Report: ReportConfig{To: []string{demoContractor}, IP: true, Readiness: &ReadinessConfig{Supply: "120 F"}}, Web: WebConfig{IP: true}}
 	cfg.defaults()

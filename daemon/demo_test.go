@@ -2,6 +2,10 @@ package daemon
 
 import (
 	"context"
+	"io"
+	"mime"
+	"mime/multipart"
+	"net/mail"
 	"os"
 	"path/filepath"
 	"regexp"
@@ -65,7 +69,55 @@ func TestDemoSmoke(t *testing.T) {
 		m, _ := filepath.Glob(filepath.Join(info.MailSpool, "*.eml"))
 		return len(m) > 0
 	})
+	// The demo campus is a US site: its e-mail, like its pages and report,
+	// reads IP first.
+	var alert string
+	waitFor(t, 20*time.Second, "an alert e-mail in the mail spool", func() bool {
+		m, _ := filepath.Glob(filepath.Join(info.MailSpool, "*.eml"))
+		for _, name := range m {
+			if text := mailText(t, name); strings.Contains(text, "== VAV-") {
+				alert = text
+				return true
+			}
+		}
+		return false
+	})
+	if !strings.Contains(alert, " °F (") || strings.Contains(alert, " K (") {
+		t.Errorf("demo alert e-mail does not read IP first:\n%.600s", alert)
+	}
 	browse(t, info.URL, fault)
+}
+
+// mailText is the decoded text/plain part of the message in file name.
+func mailText(t *testing.T, name string) string {
+	t.Helper()
+	f, err := os.Open(name)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	msg, err := mail.ReadMessage(f)
+	if err != nil {
+		t.Fatalf("%s: %v", name, err)
+	}
+	_, params, err := mime.ParseMediaType(msg.Header.Get("Content-Type"))
+	if err != nil {
+		t.Fatalf("%s: %v", name, err)
+	}
+	mr := multipart.NewReader(msg.Body, params["boundary"])
+	for {
+		p, err := mr.NextPart() // decodes quoted-printable parts
+		if err != nil {
+			t.Fatalf("%s: no text/plain part: %v", name, err)
+		}
+		if strings.HasPrefix(p.Header.Get("Content-Type"), "text/plain") {
+			b, err := io.ReadAll(p)
+			if err != nil {
+				t.Fatalf("%s: %v", name, err)
+			}
+			return string(b)
+		}
+	}
 }
 
 // browse loads every page in headless chromium, checks what a person reads

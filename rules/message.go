@@ -23,6 +23,7 @@ import (
 //	{{mins .E.closed_min}}    → "45 min" / "3.5 h"
 //	{{money .Impact.WeeklyCost}} → "USD 12.40"
 //	{{num .E.rise_valve_corr 2}}, {{sub a b}}, {{add a b}}, {{mul a b}}, {{abs a}}
+//	{{pair "3 K" "5 °F"}}     → "3 K (5 °F)", a figure written out both ways
 //	{{if known .E.closed_offset_k}}…{{end}} → only when the value is available
 //
 // A missing field reads as NaN and prints as "n/a".
@@ -64,6 +65,16 @@ func (u unitFmt) coolEnergy(kwh float64) string {
 	return unitPair(units.FormatCoolingEnergy, kwh, u.ip)
 }
 
+// pair gives a figure written out in both units, such as a published
+// limit whose IP and SI values are each rounded ("3 K", "5 °F"), in u's
+// order.
+func (u unitFmt) pair(si, ip string) string {
+	if u.ip {
+		si, ip = ip, si
+	}
+	return si + " (" + ip + ")"
+}
+
 func fmtPct(f float64) string {
 	if na(f) {
 		return "n/a"
@@ -102,6 +113,7 @@ func messageFuncs(u unitFmt) template.FuncMap {
 			}
 			return fmt.Sprintf("%.*f", prec, v)
 		},
+		"pair":  u.pair,
 		"known": func(v float64) bool { return !na(v) },
 		"sub":   func(a, b float64) float64 { return a - b },
 		"add":   func(a, b float64) float64 { return a + b },

@@ -285,10 +285,17 @@ func TestMessagesGiveOnlyKnownFigures(t *testing.T) {
 // unitPairRE matches a temperature printed SI first, IP in brackets.
 var unitPairRE = regexp.MustCompile(`(-?[0-9.]+ (?:K|°C)) \((-?[0-9.]+ °F)\)`)
 
+// A figure followed by its other unit in brackets, SI first and IP first.
+var (
+	siFirst = regexp.MustCompile(`\d ?(K|°C|L/s|kW|kWh|kPa|Pa) \(`)
+	ipFirst = regexp.MustCompile(`\d ?(°F|cfm|gpm|MBH|therm|ton-h|in\. w\.c\.|ft) \(`)
+)
+
 // TestEveryBuiltinMessageRenders: every built-in rule's message renders
 // from a full evidence record (every field of its scope known, here 0.5)
 // without a placeholder or a template error, and from one with every field
-// unknown without a template error.
+// unknown without a template error; each rendering gives every pair of
+// units in its own order.
 func TestEveryBuiltinMessageRenders(t *testing.T) {
 	e, err := NewEvaluator(testSite(1, 1), nil)
 	if err != nil {
@@ -305,6 +312,12 @@ func TestEveryBuiltinMessageRenders(t *testing.T) {
 					vals[name] = v
 				}
 				si, ip := c.render(&msgData{Entity: "X-1", Rule: c.rule.ID, Title: c.rule.Title, E: vals, Currency: "USD"})
+				if m := siFirst.FindString(ip); m != "" {
+					t.Errorf("%s: IP-first message has an SI-first pair %q: %s", c.rule.ID, m, ip)
+				}
+				if m := ipFirst.FindString(si); m != "" {
+					t.Errorf("%s: SI-first message has an IP-first pair %q: %s", c.rule.ID, m, si)
+				}
 				for _, got := range []string{si, ip} {
 					if strings.Contains(got, "template error") || got == "" {
 						t.Errorf("%s (fields %v): %q", c.rule.ID, v, got)
