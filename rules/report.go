@@ -33,8 +33,10 @@ type FaultRow struct {
 	OpenedAt     time.Time          `json:"opened_at"`
 	ClearedAt    *time.Time         `json:"cleared_at,omitempty"`
 	ExplainedBy  string             `json:"explained_by,omitempty"`
-	Summary      string             `json:"summary"`
-	Message      string             `json:"message"`
+	Summary      string             `json:"summary"`    // SI units first
+	SummaryIP    string             `json:"summary_ip"` // IP units first
+	Message      string             `json:"message"`    // SI units first
+	MessageIP    string             `json:"message_ip"` // IP units first
 	Evidence     map[string]float64 `json:"evidence"`
 	WeeklyHeat   float64            `json:"weekly_heat_kwh"`
 	WeeklyCool   float64            `json:"weekly_cooling_kwh"`
@@ -70,7 +72,8 @@ func Rank(trs []Transition, open []Transition) []FaultRow {
 		if tr.Rule != "" {
 			r.Rule, r.Title, r.Source = tr.Rule, tr.Title, tr.Source
 			r.Message, r.Causes, r.Checks = tr.Message, tr.Causes, tr.Checks
-			r.Evidence, r.Summary = tr.Evidence.Map(), tr.Summary()
+			r.Evidence, r.Summary, r.SummaryIP = tr.Evidence.Map(), tr.Summary(), tr.SummaryIn(true)
+			r.MessageIP = tr.MessageIn(true)
 		}
 		r.State, r.Severity, r.Confidence = tr.To.String(), int(tr.Severity), tr.Confidence
 		r.Since, r.OpenedAt = tr.Since, tr.OpenedAt
@@ -128,8 +131,9 @@ func Rank(trs []Transition, open []Transition) []FaultRow {
 	return out
 }
 
-// WriteTable prints the ranked fault table for a terminal.
-func WriteTable(w io.Writer, rows []FaultRow, loc *time.Location) error {
+// WriteTable prints the ranked fault table for a terminal, its evidence
+// with IP units first when ip is set, else SI first.
+func WriteTable(w io.Writer, rows []FaultRow, loc *time.Location, ip bool) error {
 	if loc == nil {
 		loc = time.UTC
 	}
@@ -140,8 +144,12 @@ func WriteTable(w io.Writer, rows []FaultRow, loc *time.Location) error {
 		if r.ClearedAt != nil {
 			state = "cleared " + r.ClearedAt.In(loc).Format("01-02 15:04")
 		}
+		sum := r.Summary
+		if ip {
+			sum = r.SummaryIP
+		}
 		fmt.Fprintf(tw, "%d\t%s\t%s\t%d\t%s\t%s\t%s\t%s\n", r.Rank, r.Entity, r.Kind, r.Severity, state,
-			r.Since.In(loc).Format("2006-01-02 15:04"), r.Summary, costText(r.WeeklyCost, r.Currency))
+			r.Since.In(loc).Format("2006-01-02 15:04"), sum, costText(r.WeeklyCost, r.Currency))
 	}
 	return tw.Flush()
 }
@@ -169,12 +177,13 @@ func WriteJSON(w io.Writer, rows []FaultRow) error {
 	return enc.Encode(rows)
 }
 
-// WriteCSV writes the rows as CSV with SI and IP columns for the energy.
+// WriteCSV writes the rows as CSV with SI and IP columns for the energy,
+// and the summary and message with SI first and with IP first.
 func WriteCSV(w io.Writer, rows []FaultRow) error {
 	cw := csv.NewWriter(w)
 	_ = cw.Write([]string{"rank", "fault_id", "entity", "kind", "rule", "severity", "state", "since", "opened_at", "cleared_at",
 		"confidence", "summary", "weekly_heat_kwh", "weekly_heat_therm", "weekly_cooling_kwh", "weekly_cooling_ton_h", "weekly_cost", "currency",
-		"ahu", "loop", "location", "message"})
+		"ahu", "loop", "location", "message", "summary_ip", "message_ip"})
 	f := func(v float64, p int) string { return strconv.FormatFloat(v, 'f', p, 64) }
 	for _, r := range rows {
 		cleared := ""
@@ -186,7 +195,7 @@ func WriteCSV(w io.Writer, rows []FaultRow) error {
 		_ = cw.Write([]string{strconv.Itoa(r.Rank), r.FaultID, r.Entity, r.Kind, r.Rule, strconv.Itoa(r.Severity), r.State,
 			r.Since.Format(time.RFC3339), r.OpenedAt.Format(time.RFC3339), cleared, f(r.Confidence, 2), r.Summary,
 			f(r.WeeklyHeat, 1), f(r.WeeklyHeat/units.KWhPerTherm, 2), f(r.WeeklyCool, 1), f(tonH, 2), f(r.WeeklyCost, 2), r.Currency,
-			r.AHU, r.Loop, r.Location, r.Message})
+			r.AHU, r.Loop, r.Location, r.Message, r.SummaryIP, r.MessageIP})
 	}
 	cw.Flush()
 	return cw.Error()

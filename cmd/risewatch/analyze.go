@@ -36,10 +36,11 @@ func runAnalyze(ctx context.Context, args []string, stdout, stderr io.Writer) er
 	outDir := fs.String("out", "", "directory to write faults.json, faults.csv and transitions.json")
 	only := fs.String("source", "", "comma-separated trend-file source names to read (default: all trend-file sources)")
 	progress := fs.String("progress", "auto", "progress bar on stderr: auto (when stderr is a terminal), always, never")
+	si := fs.Bool("si", false, "SI units first in the table (default: IP first, SI in brackets)")
 	printRules := fs.Bool("print-rules", false, "print the built-in rules YAML and exit")
 	truthPath := fs.String("eval", "", "ground-truth CSV (entity,fault,severity,start,end; as `risewatch sim` writes): score the faults found against it")
 	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: risewatch analyze --config FILE --from T --to T [--rules FILE] [--eval GROUNDTRUTH] [--json] [--out DIR]")
+		fmt.Fprintln(stderr, "usage: risewatch analyze --config FILE --from T --to T [--rules FILE] [--eval GROUNDTRUTH] [--json] [--out DIR] [--si]")
 		fs.PrintDefaults()
 	}
 	if err := fs.Parse(args); err != nil {
@@ -135,7 +136,7 @@ func runAnalyze(ctx context.Context, args []string, stdout, stderr io.Writer) er
 	}
 	fmt.Fprintf(stdout, "%s: %d terminals, %s to %s, %d steps analysed, %d faults\n\n", s.Name, len(s.Terminals),
 		from.In(loc).Format("2006-01-02 15:04"), to.In(loc).Format("2006-01-02 15:04"), res.steps, len(rows))
-	if err := rules.WriteTable(stdout, rows, loc); err != nil {
+	if err := rules.WriteTable(stdout, rows, loc, !*si); err != nil {
 		return err
 	}
 	if score != nil {

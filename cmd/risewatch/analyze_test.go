@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"context"
+	"encoding/csv"
 	"encoding/json"
 	"fmt"
 	"os"
@@ -69,6 +70,43 @@ func TestAnalyzeSimOutput(t *testing.T) {
 	if all := regexp.MustCompile(fmt.Sprintf(`\|\s*\*\*all\*\*\s*\|\s*%d\s*\|`, injected)); !all.MatchString(table) {
 		t.Errorf("evaluation table does not count %d injected faults:\n%s", injected, table)
 	}
+	// The table reads IP first by default (as `coil rate` and `assess` do),
+	// SI first with --si; the figures are the same either way.
+	faultsPart := table[:strings.Index(table, "Against the ground truth")]
+	if !strings.Contains(faultsPart, " °F (") || strings.Contains(faultsPart, " K (") {
+		t.Errorf("table does not read IP first:\n%s", faultsPart)
+	}
+	var siOut bytes.Buffer
+	if err := runAnalyze(ctx, append(args, "--si"), &siOut, &errb); err != nil {
+		t.Fatalf("analyze --si: %v\n%s", err, errb.String())
+	}
+	if siPart := siOut.String()[:strings.Index(siOut.String(), "Against")]; !strings.Contains(siPart, " K (") || strings.Contains(siPart, " °F (") {
+		t.Errorf("--si table does not read SI first:\n%s", siPart)
+	}
+	csvFile, err := os.Open(filepath.Join(outDir, "faults.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	recs, err := csv.NewReader(csvFile).ReadAll() // every row as long as the header
+	csvFile.Close()
+	if err != nil || len(recs) < 2 {
+		t.Fatalf("faults.csv: %d records, %v", len(recs), err)
+	}
+	col := map[string]int{}
+	for i, h := range recs[0] {
+		col[h] = i
+	}
+	for _, h := range []string{"summary", "summary_ip", "message", "message_ip"} {
+		if _, ok := col[h]; !ok {
+			t.Fatalf("faults.csv has no %s column: %v", h, recs[0])
+		}
+	}
+	for _, r := range recs[1:] {
+		if strings.Contains(r[col["summary_ip"]], " K (") || strings.Contains(r[col["message_ip"]], " K (") ||
+			strings.Contains(r[col["summary"]], " °F (") || r[col["message_ip"]] == "" {
+			t.Errorf("faults.csv %s: summary %q / %q, message_ip %q", r[col["fault_id"]], r[col["summary"]], r[col["summary_ip"]], r[col["message_ip"]])
+		}
+	}
 	for _, f := range []string{"faults.json", "faults.csv", "transitions.json", "evaluation.json", "evaluation.md"} {
 		if st, err := os.Stat(filepath.Join(outDir, f)); err != nil || st.Size() == 0 {
 			t.Errorf("--out %s: %v", f, err)
@@ -81,11 +119,13 @@ func TestAnalyzeSimOutput(t *testing.T) {
 	}
 	var doc struct {
 		Faults []struct {
-			FaultID string `json:"fault_id"`
-			Entity  string `json:"entity"`
-			Kind    string `json:"kind"`
-			Summary string `json:"summary"`
-			Message string `json:"message"`
+			FaultID   string `json:"fault_id"`
+			Entity    string `json:"entity"`
+			Kind      string `json:"kind"`
+			Summary   string `json:"summary"`
+			SummaryIP string `json:"summary_ip"`
+			Message   string `json:"message"`
+			MessageIP string `json:"message_ip"`
 		} `json:"faults"`
 		Evaluation struct {
 			Injected    int `json:"injected"`
@@ -108,8 +148,14 @@ func TestAnalyzeSimOutput(t *testing.T) {
 		found = found || f.Entity == "VAV-Q-203"
 		// The digest and the message give the figures of the test that
 		// raised the fault, never a placeholder for one that did not.
-		if strings.Contains(f.Summary, "n/a") || strings.Contains(f.Message, "n/a") || strings.Contains(f.Message, "template error") {
-			t.Errorf("--json: %s: summary %q, message %q", f.FaultID, f.Summary, f.Message)
+		for _, x := range []string{f.Summary, f.SummaryIP, f.Message, f.MessageIP} {
+			if x == "" || strings.Contains(x, "n/a") || strings.Contains(x, "template error") {
+				t.Errorf("--json: %s: summary %q / %q, message %q / %q", f.FaultID, f.Summary, f.SummaryIP, f.Message, f.MessageIP)
+				break
+			}
+		}
+		if strings.Contains(f.MessageIP, " K (") || strings.Contains(f.Message, " °F (") {
+			t.Errorf("--json: %s: message_ip %q or message %q in the wrong unit order", f.FaultID, f.MessageIP, f.Message)
 		}
 	}
 	if !found {
