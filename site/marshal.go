@@ -80,7 +80,9 @@ func boolean(b bool) *yaml.Node {
 	return &yaml.Node{Kind: yaml.ScalarNode, Tag: "!!bool", Value: strconv.FormatBool(b)}
 }
 
-func qty(x float64, d units.Dimension) *yaml.Node { return text(units.FormatSI(x, d)) }
+// qty writes a quantity the way it was most likely entered ("180 F",
+// "14 in"), reading back as exactly x (units.FormatExact).
+func qty(x float64, d units.Dimension) *yaml.Node { return text(units.FormatExact(x, d)) }
 
 func (w *writer) site(root *yaml.Node) {
 	s := w.s

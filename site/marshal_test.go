@@ -145,6 +145,16 @@ func campus(t testing.TB, n int) *Site {
 func TestMarshalRoundTripGenerated(t *testing.T) {
 	s := campus(t, 200)
 	out := checkRoundTrip(t, s)
+	// Values entered in IP units are written as entered (and read back
+	// bit-identical, above), not as long SI decimals.
+	for _, want := range []string{"design_supply: 180 F", "design_delta_t: 20 F", "branch_dp: 6 ft", " cfm"} {
+		if !bytes.Contains(out, []byte(want)) {
+			t.Errorf("marshalled site lacks %q", want)
+		}
+	}
+	if bytes.Contains(out, []byte("82.2222")) {
+		t.Error("marshalled site writes 180 °F as a long SI decimal")
+	}
 	// Compact: one line per terminal plus a little for the rest.
 	if lines := bytes.Count(out, []byte("\n")); lines > len(s.Terminals)+120 {
 		t.Errorf("%d lines for %d terminals; want about one per terminal", lines, len(s.Terminals))

@@ -93,7 +93,11 @@ func ident(v float64) float64 { return v }
 // unitTable holds every unit. Factors come from units.go (NIST SP 811,
 // Appendix B); none is repeated here.
 func unitTable() []unitDef {
-	// lin: SI = v*scale. show is the spelling used in messages.
+	// lin: SI = v*scale. show is the spelling used in messages. fn: SI =
+	// conv(v); the IP units with a conversion function in units.go use it,
+	// so "315 cfm" reads as exactly CFMToM3s(315) (a value entered in code
+	// and one read from a file agree to the bit, and FormatExact can write
+	// such a value back as it was entered).
 	lin := func(name, show, sym string, d Dimension, scale float64, sp ...string) unitDef {
 		return unitDef{Unit{Name: name, Symbol: sym, Dim: d, scale: scale}, show, append([]string{name, show}, sp...)}
 	}
@@ -110,16 +114,16 @@ func unitTable() []unitDef {
 		lin("delta_degF", "F", "°F", TempDiff, KelvinPerRankine, "°F", "degF", "deg F", "ΔF", "Δ°F", "delta F", "delta degF", "R", "℉"),
 		lin("K", "K", "K", TempDiff, 1, "delta K", "ΔK", "C", "°C", "degC", "deg C", "delta C", "ΔC", "Δ°C", "℃"),
 
-		lin("cfm", "cfm", "cfm", VolumeFlow, CFMToM3s(1), "ft3/min", "ft³/min", "scfm"),
-		lin("L/s", "L/s", "L/s", VolumeFlow, LsToM3s(1), "lps"),
+		fn("cfm", "cfm", "cfm", VolumeFlow, CFMToM3s, M3sToCFM, "ft3/min", "ft³/min", "scfm"),
+		fn("L/s", "L/s", "L/s", VolumeFlow, LsToM3s, M3sToLs, "lps"),
 		lin("m3/s", "m3/s", "m³/s", VolumeFlow, 1, "m³/s"),
 		lin("m3/h", "m3/h", "m³/h", VolumeFlow, 1/SecondsPerHour, "m³/h", "cmh"),
-		lin("gpm", "gpm", "gpm", VolumeFlow, GPMToM3s(1), "usgpm", "gal/min"),
+		fn("gpm", "gpm", "gpm", VolumeFlow, GPMToM3s, M3sToGPM, "usgpm", "gal/min"),
 
 		lin("W", "W", "W", Power, 1, "watt", "watts"),
 		lin("kW", "kW", "kW", Power, 1000),
-		lin("MBH", "MBH", "MBH", Power, MBHToW(1), "MBtu/h", "kBtu/h", "MBtuh"),
-		lin("Btu/h", "Btu/h", "Btu/h", Power, BtuhToW(1), "btuh", "btu/hr"),
+		fn("MBH", "MBH", "MBH", Power, MBHToW, WToMBH, "MBtu/h", "kBtu/h", "MBtuh"),
+		fn("Btu/h", "Btu/h", "Btu/h", Power, BtuhToW, WToBtuh, "btuh", "btu/hr"),
 
 		lin("Pa", "Pa", "Pa", Pressure, 1),
 		lin("kPa", "kPa", "kPa", Pressure, 1000),
@@ -134,7 +138,7 @@ func unitTable() []unitDef {
 		lin("in", "in", "in", Length, InToM(1), "inch", "inches", "\""),
 		lin("ft", "ft", "ft", Length, FtToM(1), "feet", "foot"),
 
-		lin("fpi", "fpi", "fpi", FinDensity, FPIToPerM(1), "fins/in", "fin/in"),
+		fn("fpi", "fpi", "fpi", FinDensity, FPIToPerM, PerMToFPI, "fins/in", "fin/in"),
 		lin("/m", "/m", "/m", FinDensity, 1, "fins/m", "fin/m", "1/m"),
 
 		lin("%", "%", "%", Fraction, 0.01, "percent", "pct"),
@@ -312,6 +316,37 @@ func FormatSI(si float64, d Dimension) string {
 		return num + " W/(m.K)"
 	}
 	return num
+}
+
+// FormatExact writes an SI value in whichever accepted unit of d gives the
+// shortest text that Parse reads back as exactly the same float64: a value
+// entered as "180 F", "14 in" or "10 fpi" and converted to SI is written so
+// again, not as "82.22222222222223 C". Each unit is tried with 0-4 decimals;
+// a value none of them writes exactly is written as FormatSI writes it, and
+// a tie keeps the SI form.
+func FormatExact(si float64, d Dimension) string {
+	best := FormatSI(si, d)
+	if math.IsNaN(si) || math.IsInf(si, 0) {
+		return best
+	}
+	for _, show := range std.names[d] {
+		u, ok := LookupUnit(show, d)
+		if !ok {
+			continue
+		}
+		v := u.FromSI(si)
+		for dec := 0; dec <= 4; dec++ {
+			c := strconv.FormatFloat(v, 'f', dec, 64) + " " + show
+			if len(c) >= len(best) {
+				break
+			}
+			if back, err := Parse(c, d); err == nil && back == si {
+				best = c
+				break
+			}
+		}
+	}
+	return best
 }
 
 // Table formatting. Each helper takes the SI value and ip=true for IP units.

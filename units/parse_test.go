@@ -3,6 +3,7 @@ package units
 import (
 	"errors"
 	"math"
+	"math/rand/v2"
 	"strings"
 	"testing"
 )
@@ -246,6 +247,53 @@ func TestFormatNoNegativeZero(t *testing.T) {
 	} {
 		if c.got != c.want {
 			t.Errorf("got %q, want %q", c.got, c.want)
+		}
+	}
+}
+
+// TestFormatExact: a value entered in IP units and converted to SI is
+// written back in those units (the site file the simulator writes reads
+// "180 F", not "82.22222222222223 C"), and every written value, whatever the
+// unit chosen, reads back bit-identical.
+func TestFormatExact(t *testing.T) {
+	cases := []struct {
+		si   float64
+		d    Dimension
+		want string
+	}{
+		{FToC(180), Temperature, "180 F"},
+		{FToC(55), Temperature, "55 F"},
+		{20, Temperature, "20 C"}, // a tie with "68 F" keeps SI
+		{DeltaFToK(20), TempDiff, "20 F"},
+		{InToM(14), Length, "14 in"},
+		{FPIToPerM(10), FinDensity, "10 fpi"},
+		{CFMToM3s(315), VolumeFlow, "315 cfm"},
+		{GPMToM3s(1.5), VolumeFlow, "1.5 gpm"},
+		{FtWCToPa(6), Pressure, "6 ft"},
+		{240, Length, "240 m"},
+		{0.1 + 0.2, Length, FormatSI(0.1+0.2, Length)}, // no unit writes it exactly in a few digits
+	}
+	for _, c := range cases {
+		if got := FormatExact(c.si, c.d); got != c.want {
+			t.Errorf("FormatExact(%v, %s) = %q, want %q", c.si, c.d, got, c.want)
+		}
+	}
+	rng := rand.New(rand.NewPCG(1, 2))
+	for _, d := range []Dimension{Temperature, TempDiff, VolumeFlow, Power, Pressure, Length, FinDensity, Fraction, Conductivity} {
+		for i := 0; i < 2000; i++ {
+			v := rng.NormFloat64() * math.Pow(10, float64(rng.IntN(8)-4))
+			if i%3 == 0 { // values entered in a unit of d with a few decimals
+				names := Accepted(d)
+				u, _ := LookupUnit(names[rng.IntN(len(names))], d)
+				v = u.ToSI(math.Round(v*100) / 100)
+			}
+			s := FormatExact(v, d)
+			if got, err := Parse(s, d); err != nil || got != v {
+				t.Fatalf("FormatExact(%v, %s) = %q -> %v, %v", v, d, s, got, err)
+			}
+			if len(s) > len(FormatSI(v, d)) {
+				t.Fatalf("FormatExact(%v, %s) = %q, longer than %q", v, d, s, FormatSI(v, d))
+			}
 		}
 	}
 }
