@@ -54,7 +54,7 @@ type Input struct {
 	Generated time.Time
 }
 
-// Advisory is printed on the first page and in the CSV.
+// Advisory is printed on the first page and in every row of the CSV.
 const Advisory = "Advisory only: risewatch reads the building automation system and never writes to it. " +
 	"Confirm each finding on site and follow local codes, the equipment makers' instructions and licensed practice. " +
 	"Hot-water systems can scald and are under pressure: isolate, cool and depressurise a circuit and follow " +
@@ -189,19 +189,45 @@ func (in *Input) coilLine(id string) []string {
 	return []string{tm.ID, inlet, strconv.Itoa(c.Rows), fmt.Sprintf("%.0f", units.PerMToFPI(c.Fin.PerM)), face, tm.Zone, loc}
 }
 
-// WriteCSV writes the work list: one row per open fault, highest cost first.
+// csvBOM starts the CSV: a spreadsheet opening the file by double-click
+// reads it as UTF-8 only with it (without, "°F" shows as "Â°F"). An
+// encoding/csv reader gets it at the start of the first column name
+// ("\ufeffrank") and should trim it.
+const csvBOM = "\ufeff"
+
+// csvHeader names the work list's columns: every quantity's unit is in its
+// name, and every number cell holds a bare number.
+func csvHeader(cur string) []string {
+	return []string{"rank", "terminal", "fault", "state", "severity", "since", "weekly_cost_" + strings.ToLower(cur),
+		"weekly_heat_kwh", "weekly_heat_therm", "weekly_cooling_kwh", "weekly_cooling_ton_h", "confidence_pct",
+		"observed_rise_k", "observed_rise_f", "expected_rise_k", "expected_rise_f", "valve_pct", "message", "likely_causes", "checks",
+		"inlet_in", "oversized_coil", "rows", "fpi", "face_in", "face_mm", "zone", "location", "ahu", "loop", "advisory"}
+}
+
+// numbered joins items as "1. first; 2. second": an item may hold a
+// semicolon of its own ("check the end stop; re-stroke it"), so the numbers
+// tell where each starts.
+func numbered(items []string) string {
+	out := make([]string, len(items))
+	for i, s := range items {
+		out[i] = strconv.Itoa(i+1) + ". " + s
+	}
+	return strings.Join(out, "; ")
+}
+
+// WriteCSV writes the work list: a header row, then one row per open fault,
+// highest cost first. It opens in a spreadsheet as it is: UTF-8 with a byte
+// order mark, the header on the first line, numbers without units (the
+// units are in the column names) and the advisory, with its hot-water
+// safety warning, in the last column of every row, so it stays with a row
+// that is sorted, filtered or copied.
 func WriteCSV(w io.Writer, in Input) error {
-	// The advisory goes first as a comment line (csv.Reader.Comment = '#').
-	if _, err := io.WriteString(w, "# "+Advisory+"\n"); err != nil {
-		return err
+	if _, err := io.WriteString(w, csvBOM); err != nil {
+		return fmt.Errorf("report: csv: %w", err)
 	}
 	cw := csv.NewWriter(w)
-	cur := in.currency()
-	header := []string{"rank", "terminal", "fault", "severity", "since", "weekly_cost_" + strings.ToLower(cur),
-		"weekly_heat_kwh", "weekly_heat_therm", "weekly_cooling_kwh", "weekly_cooling_ton_h", "confidence_pct",
-		"observed_rise_k", "observed_rise_f", "expected_rise_k", "expected_rise_f", "valve_pct", "message", "likely_causes", "checks", "inlet", "rows", "fpi", "face", "zone", "location", "ahu", "loop"}
-	if err := cw.Write(header); err != nil {
-		return err
+	if err := cw.Write(csvHeader(in.currency())); err != nil {
+		return fmt.Errorf("report: csv: %w", err)
 	}
 	loc := in.loc()
 	num := func(v float64, prec int) string {
@@ -211,6 +237,22 @@ func WriteCSV(w io.Writer, in Input) error {
 		return strconv.FormatFloat(v, 'f', prec, 64)
 	}
 	for i, t := range ranked(in.Open) {
+		var inlet, oversized, rows, fpi, faceIn, faceMM string
+		if tm := in.terminal(t.Entity); tm != nil {
+			c := tm.Coil
+			if tm.InletIn > 0 {
+				inlet = strconv.FormatFloat(tm.InletIn, 'f', -1, 64)
+			}
+			oversized = "no"
+			if tm.Oversized {
+				oversized = "yes"
+			}
+			rows, fpi = strconv.Itoa(c.Rows), num(units.PerMToFPI(c.Fin.PerM), 0)
+			if c.FaceWidthM > 0 {
+				faceIn = fmt.Sprintf("%.1f x %.1f", units.MToIn(c.FaceWidthM), units.MToIn(c.FaceHeightM))
+				faceMM = fmt.Sprintf("%.0f x %.0f", c.FaceWidthM*1000, c.FaceHeightM*1000)
+			}
+		}
 		cl := in.coilLine(t.Entity)
 		since := t.Since
 		if since.IsZero() {
@@ -219,17 +261,20 @@ func WriteCSV(w io.Writer, in Input) error {
 		im, ev := &t.Impact, &t.Evidence
 		// 1 therm = 100,000 Btu; 1 ton of refrigeration = 12,000 Btu/h
 		// (NIST SP 811, B.8); a temperature difference of 1 K is 1.8 °F.
-		row := []string{strconv.Itoa(i + 1), t.Entity, t.Kind.String(), strconv.Itoa(int(t.Severity)),
+		row := []string{strconv.Itoa(i + 1), t.Entity, t.Kind.String(), t.To.String(), strconv.Itoa(int(t.Severity)),
 			since.In(loc).Format("2006-01-02 15:04"), num(im.WeeklyCost, 2),
 			num(im.WeeklyHeatKWh, 1), num(im.WeeklyHeatKWh/units.KWhPerTherm, 2),
 			num(im.WeeklyCoolKWh, 1), num(im.WeeklyCoolKWh/units.KWhPerTonHour, 2), num(t.Confidence*100, 0),
 			num(ev.ObservedRiseK, 2), num(units.DeltaKToF(ev.ObservedRiseK), 2),
 			num(ev.ExpectedRiseK, 2), num(units.DeltaKToF(ev.ExpectedRiseK), 2), num(ev.ValveFrac*100, 0), t.MessageIn(in.IP),
-			strings.Join(t.Causes, "; "), strings.Join(t.Checks, "; "), cl[1], cl[2], cl[3], cl[4], cl[5], cl[6], t.AHU, t.Loop}
+			numbered(t.Causes), numbered(t.Checks), inlet, oversized, rows, fpi, faceIn, faceMM, cl[5], cl[6], t.AHU, t.Loop, Advisory}
 		if err := cw.Write(row); err != nil {
-			return err
+			return fmt.Errorf("report: csv: %w", err)
 		}
 	}
 	cw.Flush()
-	return cw.Error()
+	if err := cw.Error(); err != nil {
+		return fmt.Errorf("report: csv: %w", err)
+	}
+	return nil
 }

@@ -65,12 +65,11 @@ func TestCSVWorkListRankedByCost(t *testing.T) {
 	if err := WriteCSV(&buf, testInput()); err != nil {
 		t.Fatal(err)
 	}
-	r := csv.NewReader(&buf)
-	r.Comment = '#'
-	recs, err := r.ReadAll()
+	recs, err := csv.NewReader(&buf).ReadAll()
 	if err != nil {
 		t.Fatal(err)
 	}
+	recs[0][0] = strings.TrimPrefix(recs[0][0], "\ufeff")
 	if len(recs) != 3 {
 		t.Fatalf("%d rows, want header + 2", len(recs))
 	}
@@ -88,7 +87,7 @@ func TestCSVWorkListRankedByCost(t *testing.T) {
 	if get(1, "terminal") != "VAV-1-07" || get(2, "terminal") != "VAV-1-03" {
 		t.Errorf("not ranked by weekly cost: %v, %v", recs[1][:3], recs[2][:3])
 	}
-	if get(1, "weekly_cost_usd") != "14.20" || get(1, "rows") != "2" || get(1, "inlet") != "12 in" {
+	if get(1, "weekly_cost_usd") != "14.20" || get(1, "rows") != "2" || get(1, "inlet_in") != "12" {
 		t.Errorf("row 1 = %v", recs[1])
 	}
 	if !strings.Contains(get(2, "location"), "room 114") {
@@ -120,6 +119,73 @@ func TestCSVWorkListRankedByCost(t *testing.T) {
 	}
 	if get(1, "observed_rise_f") == "" {
 		t.Errorf("row 1: no observed rise in °F: %v", recs[1])
+	}
+}
+
+// TestCSVOpensInSpreadsheet: the work list opens in a spreadsheet as it
+// is: a UTF-8 byte order mark (without it a double-clicked file shows "°F"
+// as "Â°F"), the header on the first line, one row per fault with as many
+// cells as the header, every column that names a unit holding a bare number,
+// the checks numbered (a check may hold a semicolon of its own) and the
+// advisory with its hot-water warning on every row.
+func TestCSVOpensInSpreadsheet(t *testing.T) {
+	in := testInput()
+	in.Open[0].Checks = []string{"check the actuator reaches its closed end stop; re-stroke it", "replace the cartridge"}
+	var buf bytes.Buffer
+	if err := WriteCSV(&buf, in); err != nil {
+		t.Fatal(err)
+	}
+	raw := buf.String()
+	if !strings.HasPrefix(raw, "\ufeffrank,terminal,") {
+		t.Fatalf("CSV does not start with the byte order mark and the header: %.60q", raw)
+	}
+	r := csv.NewReader(strings.NewReader(strings.TrimPrefix(raw, "\ufeff")))
+	r.FieldsPerRecord = 0 // every row as wide as the header
+	recs, err := r.ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(recs) != 1+len(in.Open) {
+		t.Fatalf("%d rows, want header + %d faults", len(recs), len(in.Open))
+	}
+	numeric := func(name string) bool {
+		for _, suf := range []string{"_k", "_f", "_kwh", "_therm", "_ton_h", "_pct", "_in", "_usd"} {
+			if strings.HasSuffix(name, suf) {
+				return true
+			}
+		}
+		return name == "rank" || name == "severity" || name == "rows" || name == "fpi"
+	}
+	col := map[string]int{}
+	for i, h := range recs[0] {
+		col[h] = i
+		if h != strings.ToLower(h) || strings.ContainsAny(h, " ()°%") {
+			t.Errorf("column name %q: want lower case with the unit as a suffix", h)
+		}
+	}
+	for _, name := range []string{"inlet_in", "face_in", "face_mm", "oversized_coil", "state", "advisory"} {
+		if _, ok := col[name]; !ok {
+			t.Errorf("no column %s in %v", name, recs[0])
+		}
+	}
+	for r, row := range recs[1:] {
+		for i, cell := range row {
+			if name := recs[0][i]; numeric(name) && name != "face_in" && cell != "" {
+				if _, err := strconv.ParseFloat(cell, 64); err != nil {
+					t.Errorf("row %d: %s = %q is not a number", r+1, name, cell)
+				}
+			}
+		}
+		if a := row[col["advisory"]]; a != Advisory || !strings.Contains(a, "scald") {
+			t.Errorf("row %d: advisory %q", r+1, a)
+		}
+	}
+	leak := recs[2] // USD 5.93, ranked second
+	if got, want := leak[col["checks"]], "1. check the actuator reaches its closed end stop; re-stroke it; 2. replace the cartridge"; got != want {
+		t.Errorf("checks = %q, want %q", got, want)
+	}
+	if leak[col["face_in"]] != "15.0 x 12.5" || leak[col["face_mm"]] != "381 x 318" || leak[col["oversized_coil"]] != "no" || leak[col["state"]] != "open" {
+		t.Errorf("coil or state cells: %v", leak)
 	}
 }
 
