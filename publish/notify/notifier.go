@@ -119,8 +119,10 @@ func (n *Notifier) enqueueEvent(ctx context.Context, typ EventType, t rules.Tran
 
 // Remind queues a reminder for every fault in open that is still open and
 // neither acknowledged nor suppressed once each Renotify interval since it
-// opened. Keys are derived from the interval number, so a restart never
-// sends a reminder twice.
+// opened. Keys are derived from the opening time and the interval number,
+// so a restart never sends a reminder twice. The intervals count from
+// OpenedAt: the open list (rules.Evaluator.Open) stamps At with the time
+// it was built, which moves with every change on the site.
 func (n *Notifier) Remind(ctx context.Context, open []rules.Transition, at time.Time) error {
 	if n.cfg.Renotify <= 0 {
 		return nil
@@ -129,7 +131,10 @@ func (n *Notifier) Remind(ctx context.Context, open []rules.Transition, at time.
 		if t.To != rules.StateOpen {
 			continue // acked or suppressed faults stop repeating
 		}
-		since := t.At
+		since := t.OpenedAt
+		if since.IsZero() { // recorded before OpenedAt was published
+			since = t.At
+		}
 		if since.IsZero() || at.Before(since) {
 			continue
 		}
