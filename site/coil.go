@@ -130,6 +130,7 @@ func (d *decoder) decodeGeometry(n *yaml.Node, w string) (coilmodel.Coil, bool) 
 		return coilmodel.Coil{}, false
 	}
 	req := !d.partial
+	reported := d.e.n
 	var c coilmodel.Coil
 	c.FaceWidthM, _ = m.quantity("face_width", units.Length, req, "")
 	c.FaceHeightM, _ = m.quantity("face_height", units.Length, req, "")
@@ -163,6 +164,12 @@ func (d *decoder) decodeGeometry(n *yaml.Node, w string) (coilmodel.Coil, bool) 
 	c.Fin.Material = fm.oneOf("material", "aluminum", "aluminum", "copper")
 	c.Fin.ConductivityWmK = d.material(fm, w+" fin", c.Fin.Material)
 	if d.partial {
+		return c, false
+	}
+	if d.e.n != reported {
+		// A field is already reported (here or, deduplicated, in the
+		// template): checking the whole geometry would only add an error
+		// about the zero left in its place ("rows 0").
 		return c, false
 	}
 	if err := c.Validate(); err != nil {

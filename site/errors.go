@@ -38,6 +38,7 @@ type errs struct {
 	file string
 	list ErrorList
 	seen map[Error]bool
+	n    int // errors reported, duplicates included
 }
 
 // dedupeKey drops the leading subject ("terminal VAV-1-03 coil: ...") so a
@@ -64,6 +65,7 @@ func (e *errs) at(n *yaml.Node, format string, args ...any) {
 }
 
 func (e *errs) atPos(line, col int, msg string) {
+	e.n++
 	k := dedupeKey(line, col, msg)
 	if e.seen[k] {
 		return

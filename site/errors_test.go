@@ -174,3 +174,30 @@ func TestParseEmptyAndGarbage(t *testing.T) {
 		}
 	}
 }
+
+// TestGeometryFieldErrorNotRepeated: a bad field in a template's coil
+// geometry is reported once, at the field, and not again as a whole-geometry
+// error about the zero left in its place ("rows 0") for each terminal that
+// uses the template.
+func TestGeometryFieldErrorNotRepeated(t *testing.T) {
+	geom := `coil:
+      inlet: 10 in
+      geometry: {face_width: 16 in, face_height: 12.5 in, rows: 7, circuits: 2, tubes_per_row: 10,
+        tube: {od: 0.5 in, wall: 0.016 in}, fin: {fpi: 12, thickness: 0.006 in},
+        transverse_pitch: 1.25 in, longitudinal_pitch: 1.083 in}`
+	text := strings.Replace(base, "terminals:\n", "templates:\n  box:\n    "+geom+`
+    valve: {cv: 1.0}
+    airflow: {min: 150 cfm, cooling_max: 600 cfm, heating_max: 300 cfm}
+terminals:
+  - {id: VAV-2, template: box}
+  - {id: VAV-3, template: box}
+`, 1)
+	_, err := Parse("f.yaml", []byte(text))
+	var list ErrorList
+	if !errors.As(err, &list) {
+		t.Fatalf("want ErrorList, got %v", err)
+	}
+	if len(list) != 1 || !strings.Contains(list[0].Msg, "rows: 7") {
+		t.Errorf("want one error, about rows 7; got %d:\n%v", len(list), err)
+	}
+}
