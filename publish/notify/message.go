@@ -24,10 +24,12 @@ type EventType string
 
 // Event types.
 const (
-	EventOpened   EventType = "opened"
-	EventCleared  EventType = "cleared"
-	EventReminder EventType = "still open"
-	EventDigest   EventType = "open"
+	EventOpened    EventType = "opened"
+	EventCleared   EventType = "cleared"
+	EventReminder  EventType = "still open"
+	EventDigest    EventType = "open"
+	EventUnsnoozed EventType = "open after snooze" // the snooze ended and the fault is still there
+	EventEscalated EventType = "more urgent"       // a rule of higher severity now holds it
 )
 
 // Event is one fault in one message.
@@ -203,7 +205,7 @@ func subject(site string, evs []Event) string {
 		return fmt.Sprintf("[risewatch] %s %s: %s", e.T.Entity, e.Type, e.T.Kind)
 	}
 	var parts []string
-	for _, t := range []EventType{EventOpened, EventReminder, EventCleared, EventDigest} {
+	for _, t := range []EventType{EventOpened, EventUnsnoozed, EventEscalated, EventReminder, EventCleared, EventDigest} {
 		if counts[t] > 0 {
 			parts = append(parts, fmt.Sprintf("%d %s", counts[t], t))
 		}

@@ -86,14 +86,20 @@ func key(parts ...string) string {
 	return hex.EncodeToString(h[:12])
 }
 
-// Handle records the e-mail-worthy transitions durably: a fault that opened
-// and a fault that cleared after being open. It sends nothing itself.
+// Handle records the e-mail-worthy transitions durably: a fault that
+// opened, one still there when its snooze ended, one that became more
+// urgent, and a fault that cleared after being open. It sends nothing
+// itself.
 func (n *Notifier) Handle(ctx context.Context, ts []rules.Transition) error {
 	for _, t := range ts {
 		var typ EventType
 		switch {
 		case t.To == rules.StateOpen && (t.From == rules.StateClear || t.From == rules.StatePending):
 			typ = EventOpened
+		case t.To == rules.StateOpen && t.From == rules.StateSuppressed:
+			typ = EventUnsnoozed
+		case t.To == rules.StateOpen && t.From == rules.StateOpen:
+			typ = EventEscalated // a more urgent rule now holds it
 		case t.To == rules.StateClear && (t.From == rules.StateOpen || t.From == rules.StateAcked || t.From == rules.StateSuppressed):
 			typ = EventCleared
 		default:

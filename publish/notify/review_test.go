@@ -53,3 +53,51 @@ func TestRemindersCountFromOpening(t *testing.T) {
 		}
 	}
 }
+
+// TestSnoozeEndAndEscalationAreMailed: a fault still there when its snooze
+// ends comes back into view (rules: Suppressed → Open), and a fault a more
+// urgent rule takes over is escalated (Open → Open at a lower severity
+// number); both are notices (rules.Transition.IsNotice) and the operator
+// who snoozed it or read the first message hears of them. An
+// acknowledgement is not mailed.
+func TestSnoozeEndAndEscalationAreMailed(t *testing.T) {
+	for _, tc := range []struct {
+		name     string
+		from, to rules.State
+		want     string // in the subject; "" = no message
+	}{
+		{"snooze ended", rules.StateSuppressed, rules.StateOpen, "VAV-1-03 open after snooze: leaking-valve"},
+		{"escalated", rules.StateOpen, rules.StateOpen, "VAV-1-03 more urgent: leaking-valve"},
+		{"acknowledged", rules.StateOpen, rules.StateAcked, ""},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			clk := &clock{t: t0}
+			n, rs := quietNotifier(t, testConfig(), clk)
+			ctx := context.Background()
+			tr := leak("VAV-1-03", t0)
+			tr.From, tr.To = tc.from, tc.to
+			if err := n.Handle(ctx, []rules.Transition{tr}); err != nil {
+				t.Fatal(err)
+			}
+			clk.add(10 * time.Minute)
+			if err := n.Flush(ctx); err != nil {
+				t.Fatal(err)
+			}
+			if _, err := n.Deliver(ctx); err != nil {
+				t.Fatal(err)
+			}
+			if tc.want == "" {
+				if len(rs.mails) != 0 {
+					t.Fatalf("%d messages, want none", len(rs.mails))
+				}
+				return
+			}
+			if len(rs.mails) != 1 {
+				t.Fatalf("%d messages, want 1", len(rs.mails))
+			}
+			if s := string(rs.mails[0].Data); !strings.Contains(s, "Subject: [risewatch] "+tc.want) || !strings.Contains(s, "/faults/VAV-1-03%2Fleaking-valve/ack") {
+				t.Errorf("message lacks subject %q or the acknowledge link:\n%.600s", tc.want, s)
+			}
+		})
+	}
+}
