@@ -233,6 +233,12 @@ func TestOutputs(t *testing.T) {
 		if !strings.Contains(b.String(), "VAV-1") || !strings.Contains(b.String(), "short") || !strings.Contains(b.String(), want) {
 			t.Errorf("table (ip=%v):\n%s", ip, b.String())
 		}
+		// The leaving water and coil pressure drop are at the flow the
+		// load needs, not at today's flow: the header says so (a 50 ft
+		// drop read as today's would send someone after a blocked coil).
+		if !strings.Contains(b.String(), "LWT at need") || !strings.Contains(b.String(), "coil ΔP at need") {
+			t.Errorf("table (ip=%v) header does not say LWT and coil ΔP are at the needed flow:\n%s", ip, b.String())
+		}
 		b.Reset()
 		if err := a.WriteCSV(&b, ip); err != nil {
 			t.Fatal(err)

@@ -31,7 +31,7 @@ func (a *Assessment) WriteTable(w io.Writer, ip bool) error {
 	ew.printf("\n")
 	tw := tabwriter.NewWriter(ew, 2, 4, 2, ' ', 0)
 	hdr := []string{"#", "terminal", "loop", "status", "load " + u.heatUnit(), "basis", "capacity " + u.heatUnit(), "margin",
-		"flow " + u.waterUnit(), "needs " + u.waterUnit(), "LWT " + u.tempUnit(), "coil ΔP " + u.waterDPUnit(),
+		"flow " + u.waterUnit(), "needs " + u.waterUnit(), "LWT at need " + u.tempUnit(), "coil ΔP at need " + u.waterDPUnit(),
 		"air ΔP " + u.airDPUnit(), "min supply " + u.tempUnit(), "first option that meets"}
 	fmt.Fprintln(tw, strings.Join(hdr, "\t"))
 	for i := range a.Results {
