@@ -10,7 +10,6 @@ import (
 	"mime/quotedprintable"
 	"net/textproto"
 	"net/url"
-	"sort"
 	"strings"
 	ttemplate "text/template"
 	"time"
@@ -36,6 +35,9 @@ const (
 type Event struct {
 	Type EventType
 	T    rules.Transition
+	// earlier holds the fault's other events gathered into the same
+	// message, oldest first (foldEvents); T is the latest.
+	earlier []Event
 }
 
 // Advisory is printed in every message.
@@ -53,6 +55,7 @@ type view struct {
 
 type itemView struct {
 	Type, Title, Since, Message, Seen, Matters, Confidence string
+	History                                                string // the fault's earlier events in this message
 	Causes, Checks                                         []string
 	AckURL, SnoozeURL, AckCmd                              string
 }
@@ -124,6 +127,11 @@ func (c *Config) itemFor(e Event) itemView {
 	if t.Since.IsZero() {
 		it.Since = t.At.In(c.Location).Format("Mon 2 Jan 15:04 MST")
 	}
+	var hist []string
+	for _, p := range e.earlier {
+		hist = append(hist, string(p.Type)+" "+p.T.At.In(c.Location).Format("Mon 2 Jan 15:04 MST"))
+	}
+	it.History = strings.Join(hist, "; ")
 	if c.LinkBase != "" && e.Type != EventCleared {
 		base := strings.TrimRight(c.LinkBase, "/") + "/faults/" + url.PathEscape(t.FaultID)
 		it.AckURL = base + "/ack"
@@ -145,7 +153,8 @@ const textTmpl = `{{.Subject}}
 == {{.Title}} ({{.Type}}) ==
 {{if .Message}}{{.Message}}
 {{end}}Since: {{.Since}}   Confidence: {{.Confidence}}
-{{if .Seen}}What was seen: {{.Seen}}
+{{if .History}}Earlier: {{.History}}
+{{end}}{{if .Seen}}What was seen: {{.Seen}}
 {{end}}{{if .Matters}}Why it matters: {{.Matters}}
 {{end}}{{if .Checks}}What to check first:
 {{range .Checks}}  - {{.}}
@@ -167,6 +176,7 @@ const htmlTmpl = `<!DOCTYPE html><html><body style="font-family:sans-serif;max-w
 <h3 style="margin:.2em 0">{{.Title}} <small>({{.Type}})</small></h3>
 {{if .Message}}<p>{{.Message}}</p>{{end}}
 <p><b>Since</b> {{.Since}} &middot; <b>Confidence</b> {{.Confidence}}</p>
+{{if .History}}<p><b>Earlier:</b> {{.History}}</p>{{end}}
 {{if .Seen}}<p><b>What was seen:</b> {{.Seen}}</p>{{end}}
 {{if .Matters}}<p><b>Why it matters:</b> {{.Matters}}</p>{{end}}
 {{if .Checks}}<p><b>What to check first:</b></p><ol>{{range .Checks}}<li>{{.}}</li>{{end}}</ol>{{end}}
@@ -190,32 +200,6 @@ func newRenderer() *renderer {
 		text: ttemplate.Must(ttemplate.New("t").Funcs(fm).Parse(textTmpl)),
 		html: template.Must(template.New("h").Funcs(fm).Parse(htmlTmpl)),
 	}
-}
-
-// subject summarises a group of events in one line.
-func subject(site string, evs []Event) string {
-	counts := map[EventType]int{}
-	kinds := map[string]bool{}
-	for _, e := range evs {
-		counts[e.Type]++
-		kinds[e.T.Kind.String()] = true
-	}
-	if len(evs) == 1 {
-		e := evs[0]
-		return fmt.Sprintf("[risewatch] %s %s: %s", e.T.Entity, e.Type, e.T.Kind)
-	}
-	var parts []string
-	for _, t := range []EventType{EventOpened, EventUnsnoozed, EventEscalated, EventReminder, EventCleared, EventDigest} {
-		if counts[t] > 0 {
-			parts = append(parts, fmt.Sprintf("%d %s", counts[t], t))
-		}
-	}
-	ks := make([]string, 0, len(kinds))
-	for k := range kinds {
-		ks = append(ks, k)
-	}
-	sort.Strings(ks)
-	return fmt.Sprintf("[risewatch] %s: %s (%s)", site, strings.Join(parts, ", "), strings.Join(ks, ", "))
 }
 
 // compose builds the full MIME message (multipart/alternative, text and HTML).

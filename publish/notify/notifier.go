@@ -206,8 +206,14 @@ func (n *Notifier) matches(r Route, t rules.Transition) bool {
 	return true
 }
 
+// sortEvents ranks a message's faults: the ones that need attention
+// (opened, still open, ...) before the cleared ones, each by weekly cost,
+// dearest first.
 func sortEvents(evs []Event) {
 	sort.SliceStable(evs, func(i, j int) bool {
+		if ci, cj := evs[i].Type == EventCleared, evs[j].Type == EventCleared; ci != cj {
+			return cj
+		}
 		if evs[i].T.Impact.WeeklyCost != evs[j].T.Impact.WeeklyCost {
 			return evs[i].T.Impact.WeeklyCost > evs[j].T.Impact.WeeklyCost
 		}
@@ -246,11 +252,10 @@ func (n *Notifier) Flush(ctx context.Context) error {
 			keys = append(keys, it.Key)
 			continue
 		}
-		evs = append(evs, Event(rec))
+		evs = append(evs, Event{Type: rec.Type, T: rec.T})
 		keys = append(keys, it.Key)
 	}
 	sort.Strings(keys)
-	sortEvents(evs)
 	for _, r := range n.cfg.Routes {
 		if r.Digest {
 			continue
@@ -264,7 +269,8 @@ func (n *Notifier) Flush(ctx context.Context) error {
 		if len(mine) == 0 {
 			continue
 		}
-		if err := n.queueMail(ctx, r, key(append([]string{"mail", r.Name}, keys...)...), subject(n.site, mine), mine, now); err != nil {
+		mine = foldEvents(mine)
+		if err := n.queueMail(ctx, r, key(append([]string{"mail", r.Name}, keys...)...), n.cfg.subject(n.site, mine), mine, now); err != nil {
 			return err
 		}
 	}
