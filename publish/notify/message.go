@@ -56,6 +56,9 @@ type view struct {
 type itemView struct {
 	Type, Title, Since, Message, Seen, Matters, Confidence string
 	History                                                string // the fault's earlier events in this message
+	Where                                                  string // location, air handler and loop
+	Cleared, Explained                                     string // when a cleared fault cleared; what explains it
+	MattersLabel                                           string
 	Causes, Checks                                         []string
 	AckURL, SnoozeURL, AckCmd                              string
 }
@@ -68,7 +71,29 @@ func both(a, b string) string { return a + " (" + b + ")" }
 
 func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
 
-func (c *Config) itemFor(e Event) itemView {
+// stamp formats a time in the site's zone, with the year when it is not
+// the year of the message (at): a fault open since last year, or history
+// mailed later, is not read as this year's.
+func (c *Config) stamp(t, at time.Time) string {
+	lt := t.In(c.Location)
+	if lt.Year() != at.In(c.Location).Year() {
+		return lt.Format("Mon 2 Jan 2006 15:04 MST")
+	}
+	return lt.Format("Mon 2 Jan 15:04 MST")
+}
+
+// pairIf gives "a (b)" for a quantity in both units, or "" when either
+// reads zero at its precision ("0.0 MBH (0.00 kW)" tells nobody anything).
+func pairIf(v float64, ip bool, f func(float64, bool) string) string {
+	a, b := f(v, ip), f(v, !ip)
+	if a == f(0, ip) || b == f(0, !ip) {
+		return ""
+	}
+	return both(a, b)
+}
+
+// itemFor renders one fault of a message composed at at.
+func (c *Config) itemFor(e Event, at time.Time) itemView {
 	t := e.T
 	ev := t.Evidence
 	var seen []string
@@ -94,42 +119,59 @@ func (c *Config) itemFor(e Event) itemView {
 	}
 	im := t.Impact
 	var matters []string
-	if im.WastedHeatW > 0 {
-		matters = append(matters, "unwanted heat "+both(units.FormatPower(im.WastedHeatW, c.IP), units.FormatPower(im.WastedHeatW, !c.IP)))
+	add := func(pre string, v float64, f func(float64, bool) string, post string) {
+		if finite(v) && v > 0 {
+			if p := pairIf(v, c.IP, f); p != "" {
+				matters = append(matters, pre+p+post)
+			}
+		}
 	}
-	if im.AddedCoolingW > 0 {
-		matters = append(matters, "extra cooling "+both(units.FormatPower(im.AddedCoolingW, c.IP), units.FormatPower(im.AddedCoolingW, !c.IP)))
-	}
-	if im.ShortfallW > 0 {
-		matters = append(matters, "heat the zone asked for and did not get "+both(units.FormatPower(im.ShortfallW, c.IP), units.FormatPower(im.ShortfallW, !c.IP))+" (comfort)")
-	}
-	if h := im.WeeklyHeatKWh; h > 0 {
-		matters = append(matters, "about "+both(units.FormatHeatEnergy(h, c.IP), units.FormatHeatEnergy(h, !c.IP))+" of heat a week")
-	}
-	if cl := im.WeeklyCoolKWh; cl > 0 {
-		matters = append(matters, "about "+both(units.FormatCoolingEnergy(cl, c.IP), units.FormatCoolingEnergy(cl, !c.IP))+" of cooling a week")
-	}
-	if im.WeeklyCost > 0 {
+	add("unwanted heat ", im.WastedHeatW, units.FormatPower, "")
+	add("extra cooling ", im.AddedCoolingW, units.FormatPower, "")
+	add("heat the zone asked for and did not get ", im.ShortfallW, units.FormatPower, " (comfort)")
+	add("about ", im.WeeklyHeatKWh, units.FormatHeatEnergy, " of heat a week")
+	add("about ", im.WeeklyCoolKWh, units.FormatCoolingEnergy, " of cooling a week")
+	if im.WeeklyCost >= 0.005 { // "USD 0.00" is no cost to report
 		matters = append(matters, fmt.Sprintf("about %s a week", c.money(im.WeeklyCost)))
 	}
+	var where []string
+	if t.Location != "" {
+		where = append(where, t.Location)
+	}
+	if t.AHU != "" {
+		where = append(where, "air handler "+t.AHU)
+	}
+	if t.Loop != "" && t.Loop != t.Entity {
+		where = append(where, "hot-water loop "+t.Loop)
+	}
 	it := itemView{
-		Type:       string(e.Type),
-		Title:      fmt.Sprintf("%s: %s", t.Entity, t.Kind),
-		Since:      t.Since.In(c.Location).Format("Mon 2 Jan 15:04 MST"),
-		Message:    t.MessageIn(c.IP),
-		Seen:       strings.Join(seen, "; "),
-		Matters:    strings.Join(matters, "; "),
-		Confidence: fmt.Sprintf("%.0f %%", t.Confidence*100),
-		Causes:     t.Causes,
-		Checks:     t.Checks,
-		AckCmd:     "risewatch ack --fault " + t.FaultID,
+		Type:         string(e.Type),
+		Title:        fmt.Sprintf("%s: %s", t.Entity, t.Kind),
+		Since:        c.stamp(t.Since, at),
+		Message:      t.MessageIn(c.IP),
+		Seen:         strings.Join(seen, "; "),
+		Matters:      strings.Join(matters, "; "),
+		MattersLabel: "Why it matters",
+		Confidence:   fmt.Sprintf("%.0f %%", t.Confidence*100),
+		Causes:       t.Causes,
+		Checks:       t.Checks,
+		AckCmd:       "risewatch ack --fault " + t.FaultID,
+		Where:        strings.Join(where, ", "),
 	}
 	if t.Since.IsZero() {
-		it.Since = t.At.In(c.Location).Format("Mon 2 Jan 15:04 MST")
+		it.Since = c.stamp(t.At, at)
+	}
+	if e.Type == EventCleared {
+		// The message and figures are the fault's last record while open.
+		it.Cleared = c.stamp(t.At, at)
+		it.MattersLabel = "While it was open"
+		if t.ExplainedBy != "" {
+			it.Explained = "Closed because " + t.ExplainedBy + " explains it (see that fault): not a repair."
+		}
 	}
 	var hist []string
 	for _, p := range e.earlier {
-		hist = append(hist, string(p.Type)+" "+p.T.At.In(c.Location).Format("Mon 2 Jan 15:04 MST"))
+		hist = append(hist, string(p.Type)+" "+c.stamp(p.T.At, at))
 	}
 	it.History = strings.Join(hist, "; ")
 	if c.LinkBase != "" && e.Type != EventCleared {
@@ -151,11 +193,13 @@ func (c *Config) money(v float64) string {
 const textTmpl = `{{.Subject}}
 {{range .Items}}
 == {{.Title}} ({{.Type}}) ==
-{{if .Message}}{{.Message}}
-{{end}}Since: {{.Since}}   Confidence: {{.Confidence}}
+{{if .Where}}Where: {{.Where}}
+{{end}}{{if .Explained}}{{.Explained}}
+{{end}}{{if .Message}}{{.Message}}
+{{end}}Since: {{.Since}}{{if .Cleared}}   Cleared: {{.Cleared}}{{end}}   Confidence: {{.Confidence}}
 {{if .History}}Earlier: {{.History}}
 {{end}}{{if .Seen}}What was seen: {{.Seen}}
-{{end}}{{if .Matters}}Why it matters: {{.Matters}}
+{{end}}{{if .Matters}}{{.MattersLabel}}: {{.Matters}}
 {{end}}{{if .Checks}}What to check first:
 {{range .Checks}}  - {{.}}
 {{end}}{{end}}{{if .Causes}}Likely causes: {{join .Causes "; "}}
@@ -174,11 +218,13 @@ const htmlTmpl = `<!DOCTYPE html><html><body style="font-family:sans-serif;max-w
 <h2>{{.Subject}}</h2>
 {{range .Items}}<div style="border-left:4px solid {{if eq .Type "cleared"}}#2a7{{else}}#c52{{end}};padding-left:.8em;margin:1em 0">
 <h3 style="margin:.2em 0">{{.Title}} <small>({{.Type}})</small></h3>
+{{if .Where}}<p><b>Where:</b> {{.Where}}</p>{{end}}
+{{if .Explained}}<p><b>{{.Explained}}</b></p>{{end}}
 {{if .Message}}<p>{{.Message}}</p>{{end}}
-<p><b>Since</b> {{.Since}} &middot; <b>Confidence</b> {{.Confidence}}</p>
+<p><b>Since</b> {{.Since}}{{if .Cleared}} &middot; <b>Cleared</b> {{.Cleared}}{{end}} &middot; <b>Confidence</b> {{.Confidence}}</p>
 {{if .History}}<p><b>Earlier:</b> {{.History}}</p>{{end}}
 {{if .Seen}}<p><b>What was seen:</b> {{.Seen}}</p>{{end}}
-{{if .Matters}}<p><b>Why it matters:</b> {{.Matters}}</p>{{end}}
+{{if .Matters}}<p><b>{{.MattersLabel}}:</b> {{.Matters}}</p>{{end}}
 {{if .Checks}}<p><b>What to check first:</b></p><ol>{{range .Checks}}<li>{{.}}</li>{{end}}</ol>{{end}}
 {{if .Causes}}<p><b>Likely causes:</b> {{join .Causes "; "}}</p>{{end}}
 {{if .AckURL}}<p><a href="{{.AckURL}}">Acknowledge</a> &middot; <a href="{{.SnoozeURL}}">Snooze</a></p>{{end}}
@@ -207,7 +253,7 @@ func (c *Config) compose(r *renderer, site, key string, to []string, at time.Tim
 	v := view{Site: site, Subject: subj, Generated: at.In(c.Location).Format("Mon 2 Jan 2006 15:04 MST"), Advisory: Advisory}
 	total := 0.0
 	for _, e := range evs {
-		v.Items = append(v.Items, c.itemFor(e))
+		v.Items = append(v.Items, c.itemFor(e, at))
 		if e.Type != EventCleared {
 			total += e.T.Impact.WeeklyCost
 		}

@@ -613,14 +613,14 @@ func TestAlertMessageInConfiguredUnitOrder(t *testing.T) {
 		if ip {
 			want = tr.MessageIP
 		}
-		if got := c.itemFor(Event{Type: EventOpened, T: tr}).Message; got != want {
+		if got := c.itemFor(Event{Type: EventOpened, T: tr}, tr.At).Message; got != want {
 			t.Errorf("ip=%v: alert message %q, want %q", ip, got, want)
 		}
 	}
 	old := tr
 	old.MessageIP = ""
 	c := testConfig()
-	if got := c.itemFor(Event{Type: EventOpened, T: old}).Message; got != old.Message {
+	if got := c.itemFor(Event{Type: EventOpened, T: old}, old.At).Message; got != old.Message {
 		t.Errorf("stored without an IP-first message: %q, want %q", got, old.Message)
 	}
 }

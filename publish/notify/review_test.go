@@ -13,6 +13,7 @@ import (
 	"time"
 	"unicode/utf8"
 
+	"risewatch/fdd"
 	"risewatch/rules"
 )
 
@@ -212,5 +213,94 @@ func TestSubjectBoundedAtAWord(t *testing.T) {
 	}
 	if !strings.Contains(s, "40 opened") {
 		t.Errorf("subject %q lost the count", s)
+	}
+}
+
+// TestClearedItemSaysWhenAndWhy: a cleared fault says when it cleared, and
+// one closed because another fault explains it (a cold loop, a valve stuck
+// open) says so, so the operator does not read it as repaired; its figures
+// are labelled as what it did while open.
+func TestClearedItemSaysWhenAndWhy(t *testing.T) {
+	c := testConfig()
+	tr := leak("VAV-1-03", t0.Add(3*time.Hour))
+	tr.From, tr.To, tr.ExplainedBy = rules.StateOpen, rules.StateClear, "VAV-1-03/stuck-valve"
+	it := c.itemFor(Event{Type: EventCleared, T: tr}, tr.At)
+	if it.Cleared != "Wed 14 Jan 13:00 UTC" {
+		t.Errorf("cleared at %q, want Wed 14 Jan 13:00 UTC", it.Cleared)
+	}
+	if !strings.Contains(it.Explained, "VAV-1-03/stuck-valve explains it") || !strings.Contains(it.Explained, "not a repair") {
+		t.Errorf("explained-by note %q", it.Explained)
+	}
+	if it.MattersLabel != "While it was open" {
+		t.Errorf("figures of a cleared fault labelled %q", it.MattersLabel)
+	}
+	open := c.itemFor(Event{Type: EventOpened, T: leak("VAV-1-03", t0)}, t0)
+	if open.Cleared != "" || open.Explained != "" || open.MattersLabel != "Why it matters" {
+		t.Errorf("open item: cleared %q, explained %q, label %q", open.Cleared, open.Explained, open.MattersLabel)
+	}
+	clk := &clock{t: t0.Add(3 * time.Hour)}
+	n, rs := quietNotifier(t, c, clk)
+	sendAll(t, n, clk, []rules.Transition{tr})
+	_, text := mailText(t, rs.mails[0])
+	for _, want := range []string{"Cleared: Wed 14 Jan 13:00 UTC", "Closed because VAV-1-03/stuck-valve explains it", "While it was open: unwanted heat"} {
+		if !strings.Contains(text, want) {
+			t.Errorf("text lacks %q:\n%s", want, text)
+		}
+	}
+}
+
+// TestItemSaysWhere: an operator sent to a box needs where it is: the
+// terminal's location text, its air handler and its hot-water loop (a loop
+// fault does not name itself again).
+func TestItemSaysWhere(t *testing.T) {
+	c := testConfig()
+	tr := leak("VAV-1-03", t0)
+	tr.Location = "Larch Hall room 103"
+	if got, want := c.itemFor(Event{Type: EventOpened, T: tr}, t0).Where, "Larch Hall room 103, air handler AHU-1, hot-water loop HW-1"; got != want {
+		t.Errorf("where %q, want %q", got, want)
+	}
+	loop := rules.Transition{FaultID: "HW-1/cold-loop", Entity: "HW-1", EntityKind: rules.EntityLoop, Kind: fdd.KindColdLoop, Loop: "HW-1",
+		From: rules.StatePending, To: rules.StateOpen, At: t0, Since: t0}
+	if got := c.itemFor(Event{Type: EventOpened, T: loop}, t0).Where; got != "" {
+		t.Errorf("loop fault where %q, want none", got)
+	}
+	clk := &clock{t: t0}
+	n, rs := quietNotifier(t, c, clk)
+	sendAll(t, n, clk, []rules.Transition{tr})
+	if _, text := mailText(t, rs.mails[0]); !strings.Contains(text, "Where: Larch Hall room 103, air handler AHU-1") {
+		t.Errorf("text lacks the location:\n%s", text)
+	}
+}
+
+// TestNegligibleFiguresLeftOut: a figure that reads zero at its printed
+// precision ("0.0 MBH (0.00 kW)", "USD 0.00") is left out of "Why it
+// matters" rather than printed.
+func TestNegligibleFiguresLeftOut(t *testing.T) {
+	c := testConfig()
+	tr := leak("VAV-1-03", t0)
+	tr.Impact = rules.Impact{WastedHeatW: 4, AddedCoolingW: 4, ShortfallW: 2, WeeklyHeatKWh: 0.3, WeeklyCoolKWh: 0.1, WeeklyCost: 0.004}
+	if got := c.itemFor(Event{Type: EventOpened, T: tr}, t0).Matters; got != "" {
+		t.Errorf("negligible impact printed as %q", got)
+	}
+	tr.Impact.WastedHeatW, tr.Impact.WeeklyCost = 590, 1.25
+	got := c.itemFor(Event{Type: EventOpened, T: tr}, t0).Matters
+	// 590 W × 3.41214 Btu/h per W = 2013 Btu/h = 2.0 MBH
+	if got != "unwanted heat 2.0 MBH (0.59 kW); about USD 1.25 a week" {
+		t.Errorf("matters %q", got)
+	}
+}
+
+// TestDatesCarryTheYearWhenNotThisYear: a fault open since last year (or
+// history mailed in a later year) shows the year; this year's dates do not.
+func TestDatesCarryTheYearWhenNotThisYear(t *testing.T) {
+	c := testConfig()
+	tr := leak("VAV-1-03", t0)
+	tr.Since = time.Date(2025, 12, 29, 8, 15, 0, 0, time.UTC)
+	if got := c.itemFor(Event{Type: EventReminder, T: tr}, t0).Since; got != "Mon 29 Dec 2025 08:15 UTC" {
+		t.Errorf("since %q, want Mon 29 Dec 2025 08:15 UTC", got)
+	}
+	tr.Since = t0.Add(-time.Hour)
+	if got := c.itemFor(Event{Type: EventReminder, T: tr}, t0).Since; got != "Wed 14 Jan 09:00 UTC" {
+		t.Errorf("since %q, want Wed 14 Jan 09:00 UTC", got)
 	}
 }
