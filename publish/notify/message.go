@@ -40,7 +40,8 @@ type Event struct {
 	earlier []Event
 }
 
-// Advisory is printed in every message.
+// Advisory is printed in every message, ahead of the faults and their
+// checks, so the hot-water warning is read before the work it warns about.
 const Advisory = "risewatch is advisory only and never writes to the building automation system. " +
 	"Confirm every finding on site and follow local codes, the equipment makers' instructions and licensed practice. " +
 	"Hot-water systems can scald and are under pressure: isolate the circuit, let it cool and relieve pressure " +
@@ -191,6 +192,8 @@ func (c *Config) money(v float64) string {
 }
 
 const textTmpl = `{{.Subject}}
+
+{{.Advisory}}
 {{range .Items}}
 == {{.Title}} ({{.Type}}) ==
 {{if .Where}}Where: {{.Where}}
@@ -210,12 +213,11 @@ Snooze: {{.SnoozeURL}}
 Estimated cost of the open faults above: {{.TotalCost}} a week.
 {{end}}
 Generated {{.Generated}} by risewatch for {{.Site}}.
-
-{{.Advisory}}
 `
 
 const htmlTmpl = `<!DOCTYPE html><html><body style="font-family:sans-serif;max-width:46em">
 <h2>{{.Subject}}</h2>
+<p style="background:#fff4d6;padding:.6em">{{.Advisory}}</p>
 {{range .Items}}<div style="border-left:4px solid {{if eq .Type "cleared"}}#2a7{{else}}#c52{{end}};padding-left:.8em;margin:1em 0">
 <h3 style="margin:.2em 0">{{.Title}} <small>({{.Type}})</small></h3>
 {{if .Where}}<p><b>Where:</b> {{.Where}}</p>{{end}}
@@ -232,7 +234,6 @@ const htmlTmpl = `<!DOCTYPE html><html><body style="font-family:sans-serif;max-w
 </div>{{end}}
 {{if .TotalCost}}<p>Estimated cost of the open faults above: <b>{{.TotalCost}}</b> a week.</p>{{end}}
 <p><small>Generated {{.Generated}} by risewatch for {{.Site}}.</small></p>
-<p style="background:#fff4d6;padding:.6em"><small>{{.Advisory}}</small></p>
 </body></html>`
 
 type renderer struct {

@@ -304,3 +304,30 @@ func TestDatesCarryTheYearWhenNotThisYear(t *testing.T) {
 		t.Errorf("since %q, want Wed 14 Jan 09:00 UTC", got)
 	}
 }
+
+// TestAdvisoryBeforeTheChecks: the advisory and hot-water safety notice
+// come before the first fault's checks in both parts, so a message with
+// many faults does not leave it below every instruction.
+func TestAdvisoryBeforeTheChecks(t *testing.T) {
+	clk := &clock{t: t0}
+	n, rs := quietNotifier(t, testConfig(), clk)
+	var ts []rules.Transition
+	for i := 0; i < 12; i++ {
+		ts = append(ts, leak(fmt.Sprintf("VAV-1-%02d", i), t0))
+	}
+	sendAll(t, n, clk, ts)
+	msg, err := mail.ReadMessage(bytes.NewReader(rs.mails[0].Data))
+	if err != nil {
+		t.Fatal(err)
+	}
+	text, html := parts(t, msg)
+	for name, body := range map[string]string{"text": text, "html": html} {
+		a, c := strings.Index(body, "scald"), strings.Index(body, "What to check first")
+		if a < 0 || c < 0 || a > c {
+			t.Errorf("%s part: safety notice at %d, first checks at %d; want the notice first", name, a, c)
+		}
+		if strings.Count(body, "advisory only") != 1 {
+			t.Errorf("%s part: advisory printed %d times, want once", name, strings.Count(body, "advisory only"))
+		}
+	}
+}
