@@ -8,8 +8,8 @@ import (
 )
 
 // foldEvents gathers the events of each fault into one: a message shows a
-// fault once, as it stands at its latest event, with the earlier events
-// listed under it. A catch-up after a restart or a flapping fault would
+// fault once, as it stands at its latest event, with all its events listed
+// under it in time order. A catch-up after a restart or a flapping fault would
 // otherwise put "opened" and "cleared" entries for one fault all over the
 // message, ranked by cost rather than in time order. A fault that opened in
 // the same message keeps "opened" when a later event only escalated or
@@ -33,9 +33,11 @@ func foldEvents(evs []Event) []Event {
 			return g[i].Type == EventOpened && g[j].Type != EventOpened
 		})
 		last := g[len(g)-1]
-		last.earlier = append([]Event(nil), g[:len(g)-1]...)
+		if len(g) > 1 {
+			last.history = append([]Event(nil), g...)
+		}
 		if last.Type != EventCleared {
-			for _, e := range last.earlier {
+			for _, e := range g {
 				if e.Type == EventOpened {
 					last.Type = EventOpened
 				}
@@ -76,9 +78,12 @@ func (c *Config) subject(site string, evs []Event) string {
 	lead := evs[0]
 	s += fmt.Sprintf("; %s %s", lead.T.Entity, lead.T.Kind)
 	if lead.Type != EventCleared && lead.T.Impact.WeeklyCost >= 0.005 {
-		s += ", " + c.money(lead.T.Impact.WeeklyCost) + " a week,"
+		s += " (" + c.money(lead.T.Impact.WeeklyCost) + " a week)"
 	}
-	return clip(s + fmt.Sprintf(" and %d more", len(evs)-1))
+	if more := fmt.Sprintf(" and %d more", len(evs)-1); utf8.RuneCountInString(s+more) <= maxSubject {
+		s += more // the counts already say it when there is no room
+	}
+	return clip(s)
 }
 
 // maxSubjectSite bounds the site name in a subject for several faults, so

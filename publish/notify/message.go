@@ -35,9 +35,10 @@ const (
 type Event struct {
 	Type EventType
 	T    rules.Transition
-	// earlier holds the fault's other events gathered into the same
-	// message, oldest first (foldEvents); T is the latest.
-	earlier []Event
+	// history holds every event of the fault gathered into the same
+	// message, oldest first, when there is more than one (foldEvents); T
+	// is the latest.
+	history []Event
 }
 
 // Advisory is printed in every message, ahead of the faults and their
@@ -56,7 +57,7 @@ type view struct {
 
 type itemView struct {
 	Type, Title, Since, Message, Seen, Matters, Confidence string
-	History                                                string // the fault's earlier events in this message
+	History                                                string // the fault's events in this message, when more than one
 	Where                                                  string // location, air handler and loop
 	Cleared, Explained                                     string // when a cleared fault cleared; what explains it
 	MattersLabel                                           string
@@ -171,7 +172,7 @@ func (c *Config) itemFor(e Event, at time.Time) itemView {
 		}
 	}
 	var hist []string
-	for _, p := range e.earlier {
+	for _, p := range e.history {
 		hist = append(hist, string(p.Type)+" "+c.stamp(p.T.At, at))
 	}
 	it.History = strings.Join(hist, "; ")
@@ -200,7 +201,7 @@ const textTmpl = `{{.Subject}}
 {{end}}{{if .Explained}}{{.Explained}}
 {{end}}{{if .Message}}{{.Message}}
 {{end}}Since: {{.Since}}{{if .Cleared}}   Cleared: {{.Cleared}}{{end}}   Confidence: {{.Confidence}}
-{{if .History}}Earlier: {{.History}}
+{{if .History}}Changes: {{.History}}
 {{end}}{{if .Seen}}What was seen: {{.Seen}}
 {{end}}{{if .Matters}}{{.MattersLabel}}: {{.Matters}}
 {{end}}{{if .Checks}}What to check first:
@@ -224,7 +225,7 @@ const htmlTmpl = `<!DOCTYPE html><html><body style="font-family:sans-serif;max-w
 {{if .Explained}}<p><b>{{.Explained}}</b></p>{{end}}
 {{if .Message}}<p>{{.Message}}</p>{{end}}
 <p><b>Since</b> {{.Since}}{{if .Cleared}} &middot; <b>Cleared</b> {{.Cleared}}{{end}} &middot; <b>Confidence</b> {{.Confidence}}</p>
-{{if .History}}<p><b>Earlier:</b> {{.History}}</p>{{end}}
+{{if .History}}<p><b>Changes:</b> {{.History}}</p>{{end}}
 {{if .Seen}}<p><b>What was seen:</b> {{.Seen}}</p>{{end}}
 {{if .Matters}}<p><b>{{.MattersLabel}}:</b> {{.Matters}}</p>{{end}}
 {{if .Checks}}<p><b>What to check first:</b></p><ol>{{range .Checks}}<li>{{.}}</li>{{end}}</ol>{{end}}

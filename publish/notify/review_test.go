@@ -141,8 +141,8 @@ func sendAll(t *testing.T, n *Notifier, clk *clock, ts []rules.Transition) {
 
 // TestGroupedMessageShowsEachFaultOnce: when one message gathers several
 // events of one fault (a catch-up after a restart, a fault that flaps), the
-// fault appears once, as it stands at its latest event, with the earlier
-// events in time order under it; faults that need attention come before
+// fault appears once, as it stands at its latest event, with its events in
+// time order under it; faults that need attention come before
 // cleared ones, each by cost; and the subject counts faults, not events,
 // and names the fault to open first.
 func TestGroupedMessageShowsEachFaultOnce(t *testing.T) {
@@ -172,14 +172,14 @@ func TestGroupedMessageShowsEachFaultOnce(t *testing.T) {
 		t.Errorf("VAV-1-03 appears %d times, want once:\n%s", c, text)
 	}
 	if !strings.Contains(text, "== VAV-1-03: leaking-valve (opened) ==") ||
-		!strings.Contains(text, "Earlier: opened Wed 14 Jan 10:00 UTC; cleared Wed 14 Jan 12:00 UTC") {
-		t.Errorf("VAV-1-03 not shown as opened with its earlier events in order:\n%s", text)
+		!strings.Contains(text, "Changes: opened Wed 14 Jan 10:00 UTC; cleared Wed 14 Jan 12:00 UTC; opened Wed 14 Jan 15:00 UTC") {
+		t.Errorf("VAV-1-03 not shown as opened with its events in order:\n%s", text)
 	}
 	i7, i3, i2 := strings.Index(text, "== VAV-1-07"), strings.Index(text, "== VAV-1-03"), strings.Index(text, "== VAV-2-01")
 	if !(i7 < i3 && i3 < i2) {
 		t.Errorf("order VAV-1-07 %d, VAV-1-03 %d, VAV-2-01 (cleared) %d: want open faults by cost, then cleared", i7, i3, i2)
 	}
-	if want := "[risewatch] Larkspur Commons: 2 opened, 1 cleared; VAV-1-07 leaking-valve, USD 10.00 a week, and 2 more"; subj != want {
+	if want := "[risewatch] Larkspur Commons: 2 opened, 1 cleared; VAV-1-07 leaking-valve (USD 10.00 a week) and 2 more"; subj != want {
 		t.Errorf("subject\n%q, want\n%q", subj, want)
 	}
 }
@@ -198,7 +198,7 @@ func TestSubjectBoundedAtAWord(t *testing.T) {
 	}
 	evs = foldEvents(evs)
 	s := c.subject(site, evs)
-	full := "[risewatch] " + site + ": 40 opened; VAV-4-39 leaking-valve, USD 39.00 a week, and 39 more"
+	full := "[risewatch] " + site + ": 40 opened; VAV-4-39 leaking-valve (USD 39.00 a week) and 39 more"
 	if n := utf8.RuneCountInString(s); n > maxSubject {
 		t.Errorf("subject of %d characters, want at most %d: %q", n, maxSubject, s)
 	}
@@ -213,6 +213,11 @@ func TestSubjectBoundedAtAWord(t *testing.T) {
 	}
 	if !strings.Contains(s, "40 opened") {
 		t.Errorf("subject %q lost the count", s)
+	}
+	// No room for "and 39 more": it is left out whole, not cut.
+	s = c.subject("Wrenfield College East Campus (demo)", evs)
+	if want := "[risewatch] Wrenfield College East Campus (demo): 40 opened; VAV-4-39 leaking-valve (USD 39.00 a week)"; s != want {
+		t.Errorf("subject\n%q, want\n%q", s, want)
 	}
 }
 
