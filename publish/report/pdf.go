@@ -3,20 +3,12 @@ package report
 import (
 	"bytes"
 	"fmt"
-	"image/color"
 	"io"
-	"math"
 	"strings"
-	"time"
 
 	"github.com/go-pdf/fpdf"
-	"gonum.org/v1/plot"
-	"gonum.org/v1/plot/font"
-	"gonum.org/v1/plot/plotter"
-	"gonum.org/v1/plot/vg"
 
 	"risewatch/rules"
-	"risewatch/units"
 )
 
 // WritePDF writes the weekly report as PDF: A4 portrait, or Letter when the
@@ -70,6 +62,13 @@ func WritePDF(w io.Writer, in Input) error {
 	para := func(s string) {
 		pdf.SetFont("Helvetica", "", 9.5)
 		pdf.MultiCell(0, 4.6, tr(s), "", "L", false)
+	}
+	// notice draws a boxed, shaded safety or advisory text.
+	notice := func(s string) {
+		pdf.SetFillColor(255, 244, 214)
+		pdf.SetFont("Helvetica", "", 8.5)
+		pdf.MultiCell(0, 4.2, tr(s), "1", "L", true)
+		pdf.Ln(1)
 	}
 	// table draws a ruled table whose last column wraps (it holds the
 	// free text: a check, a note, a location); the other cells are cut to
@@ -146,9 +145,7 @@ func WritePDF(w io.Writer, in Input) error {
 	h1("Weekly reheat coil report — " + siteName)
 	para("Week " + week + ". Generated " + in.Generated.In(loc).Format("Mon 2 Jan 2006 15:04 MST") + ".")
 	pdf.Ln(1)
-	pdf.SetFillColor(255, 244, 214)
-	pdf.SetFont("Helvetica", "", 8.5)
-	pdf.MultiCell(0, 4.2, tr(Advisory), "1", "L", true)
+	notice(Advisory)
 	open := ranked(in.Open)
 	total := 0.0
 	for _, t := range open {
@@ -192,6 +189,11 @@ func WritePDF(w io.Writer, in Input) error {
 	for i, t := range open {
 		pdf.AddPage()
 		h1(fmt.Sprintf("%d. %s — %s", i+1, t.Entity, t.Kind))
+		if t.Title != "" {
+			pdf.SetFont("Helvetica", "B", 10)
+			pdf.MultiCell(0, 5, tr(t.Title), "", "L", false)
+		}
+		para(in.statusLine(t))
 		cl := in.coilLine(t.Entity)
 		para(fmt.Sprintf("Box inlet %s, %s row(s), %s FPI, coil face %s. Zone %s. Location: %s. AHU %s, loop %s.",
 			orDash(cl[1]), orDash(cl[2]), orDash(cl[3]), orDash(cl[4]), orDash(cl[5]), orDash(cl[6]), orDash(t.AHU), orDash(t.Loop)))
@@ -210,22 +212,31 @@ func WritePDF(w io.Writer, in Input) error {
 			}
 		}
 		if len(t.Checks) > 0 {
+			room(2 + 6 + 3*4.2 + 1 + 4.6) // the heading, the warning and the first check
 			h2("Checks to make")
+			// The page may be the only one taken to the ladder: the
+			// hot-water warning stands before its checks too.
+			notice(CheckWarning)
 			for j, c := range t.Checks {
 				para(fmt.Sprintf("%d. %s", j+1, c))
 			}
 		}
-		if pts := in.Series[t.Entity]; len(pts) > 1 {
-			png, err := weekPlot(pts, in.IP, t.Entity, loc)
+		if pts := in.Series[t.Entity]; len(pts) < 2 && in.terminal(t.Entity) != nil {
+			pdf.Ln(2)
+			para("No plot: no evidence was recorded for " + t.Entity + " during this week; the figures above are from the record named at the top of the page.")
+		} else if len(pts) > 1 {
+			png, err := weekPlot(pts, in.IP, t.Entity, loc, in.WeekStart, in.WeekEnd)
 			if err != nil {
 				return fmt.Errorf("report: plot %s: %w", t.Entity, err)
 			}
 			name := "plot-" + t.FaultID
 			pdf.RegisterImageOptionsReader(name, fpdf.ImageOptions{ImageType: "PNG"}, bytes.NewReader(png))
 			pdf.Ln(2)
-			plotH := bodyW * 0.5
-			room(plotH)
-			pdf.ImageOptions(name, lm, pdf.GetY(), bodyW, plotH, true, fpdf.ImageOptions{ImageType: "PNG"}, 0, "")
+			plotW, plotH, next := plotBox(bottom-pdf.GetY(), bodyW)
+			if next {
+				pdf.AddPage()
+			}
+			pdf.ImageOptions(name, lm+(bodyW-plotW)/2, pdf.GetY(), plotW, plotH, true, fpdf.ImageOptions{ImageType: "PNG"}, 0, "")
 		}
 	}
 
@@ -244,7 +255,7 @@ func WritePDF(w io.Writer, in Input) error {
 	if len(trs) == 0 {
 		para("None.")
 	} else {
-		table([]string{"Terminal", "Inlet", "Rows", "FPI", "Coil face", "Zone", "Location"}, scale([]float64{20, 22, 9, 9, 24, 22, 50}), trs)
+		table([]string{"Terminal", "Inlet", "Rows", "FPI", "Coil face", "Zone", "Location"}, scale([]float64{20, 30, 8, 8, 24, 20, 46}), trs)
 	}
 
 	for _, s := range in.Sections {
@@ -267,6 +278,21 @@ func WritePDF(w io.Writer, in Input) error {
 	return pdf.Output(w)
 }
 
+// plotBox sizes a fault's plot for the room (mm) left on its page: the body
+// width bodyW when it fits there; else shrunk, centred, to as little as 75 %
+// so it stays on its fault's page; else full size at the top of a new page
+// (next).
+func plotBox(room, bodyW float64) (w, h float64, next bool) {
+	w, h = bodyW, bodyW*plotAspect
+	switch {
+	case room >= h:
+		return w, h, false
+	case room >= 0.75*h:
+		return room / plotAspect, room, false
+	}
+	return w, h, true
+}
+
 func firstOr(s []string, def string) string {
 	if len(s) > 0 {
 		return s[0]
@@ -279,87 +305,6 @@ func orDash(s string) string {
 		return "–"
 	}
 	return s
-}
-
-// weekPlot draws observed and expected rise (left axis, °F or K) and valve
-// command scaled onto the same axis (0-100 % mapped to the rise range) as PNG.
-func weekPlot(pts []Point, ip bool, title string, loc *time.Location) ([]byte, error) {
-	p := plot.New()
-	p.Title.Text = title + ": air temperature rise and valve command"
-	unit := "K"
-	conv := func(k float64) float64 { return k }
-	if ip {
-		unit = "°F"
-		conv = units.DeltaKToF
-	}
-	p.Y.Label.Text = "rise, " + unit + " (valve % scaled to the same axis)"
-	p.X.Tick.Marker = dayTicks{loc: loc}
-	obs, exp, valve := plotter.XYs{}, plotter.XYs{}, plotter.XYs{}
-	maxRise := 1.0
-	for _, pt := range pts {
-		for _, v := range []float64{pt.ObservedRiseK, pt.ExpectedRiseK} {
-			if !math.IsNaN(v) && conv(v) > maxRise {
-				maxRise = conv(v)
-			}
-		}
-	}
-	for _, pt := range pts {
-		x := float64(pt.At.Unix())
-		if !math.IsNaN(pt.ObservedRiseK) {
-			obs = append(obs, plotter.XY{X: x, Y: conv(pt.ObservedRiseK)})
-		}
-		if !math.IsNaN(pt.ExpectedRiseK) {
-			exp = append(exp, plotter.XY{X: x, Y: conv(pt.ExpectedRiseK)})
-		}
-		if !math.IsNaN(pt.ValveFrac) {
-			valve = append(valve, plotter.XY{X: x, Y: pt.ValveFrac * maxRise})
-		}
-	}
-	add := func(xy plotter.XYs, c color.Color, dashed bool, name string) error {
-		if len(xy) < 2 {
-			return nil
-		}
-		l, err := plotter.NewLine(xy)
-		if err != nil {
-			return err
-		}
-		l.Color = c
-		l.Width = vg.Points(1.1)
-		if dashed {
-			l.Dashes = []vg.Length{vg.Points(4), vg.Points(3)}
-		}
-		p.Add(l)
-		p.Legend.Add(name, l)
-		return nil
-	}
-	if err := add(exp, color.RGBA{40, 110, 200, 255}, true, "expected rise"); err != nil {
-		return nil, err
-	}
-	if err := add(obs, color.RGBA{200, 60, 30, 255}, false, "observed rise"); err != nil {
-		return nil, err
-	}
-	if err := add(valve, color.RGBA{90, 90, 90, 255}, false, fmt.Sprintf("valve command (100 %% = %.0f)", maxRise)); err != nil {
-		return nil, err
-	}
-	p.Legend.Top = true
-	p.Legend.Left = true
-	// Sans-serif text like the report's body (gonum's default is serif).
-	for _, f := range []*font.Font{&p.Title.TextStyle.Font, &p.X.Label.TextStyle.Font, &p.Y.Label.TextStyle.Font,
-		&p.X.Tick.Label.Font, &p.Y.Tick.Label.Font, &p.Legend.TextStyle.Font} {
-		f.Variant = "Sans"
-	}
-	// Headroom above the highest rise for the legend, so it covers no line.
-	p.Y.Min, p.Y.Max = math.Min(0, p.Y.Min), maxRise*1.45
-	p.Add(plotter.NewGrid())
-	wt, err := p.WriterTo(7*vg.Inch, 3.5*vg.Inch, "png")
-	if err != nil {
-		return nil, err
-	}
-	var buf bytes.Buffer
-	if _, err := wt.WriteTo(&buf); err != nil {
-		return nil, err
-	}
-	return buf.Bytes(), nil
 }
 
 // fitCell trims txt to the width w (mm) that width measures, so a table's
@@ -407,30 +352,4 @@ func wrapCell(txt string, w float64, width func(string) float64) []string {
 		lines = append(lines, line)
 	}
 	return lines
-}
-
-// dayTicks marks a week plot's time axis (Unix seconds) at local
-// midnights, labelled with the day ("Mon 13"), and at local noons without
-// a label.
-type dayTicks struct{ loc *time.Location }
-
-// Ticks implements plot.Ticker.
-func (d dayTicks) Ticks(lo, hi float64) []plot.Tick {
-	loc := d.loc
-	if loc == nil {
-		loc = time.UTC
-	}
-	t0, t1 := time.Unix(int64(math.Floor(lo)), 0).In(loc), time.Unix(int64(math.Ceil(hi)), 0).In(loc)
-	y, m, dd := t0.Date()
-	var out []plot.Tick
-	for day := time.Date(y, m, dd, 0, 0, 0, 0, loc); !day.After(t1); day = day.AddDate(0, 0, 1) {
-		noon := day.Add(12 * time.Hour)
-		if !day.Before(t0) {
-			out = append(out, plot.Tick{Value: float64(day.Unix()), Label: day.Format("Mon 2")})
-		}
-		if !noon.Before(t0) && !noon.After(t1) {
-			out = append(out, plot.Tick{Value: float64(noon.Unix())})
-		}
-	}
-	return out
 }

@@ -60,6 +60,11 @@ const Advisory = "Advisory only: risewatch reads the building automation system 
 	"Hot-water systems can scald and are under pressure: isolate, cool and depressurise a circuit and follow " +
 	"lock-out/tag-out before opening, venting or replacing valves, coils, strainers or air vents."
 
+// CheckWarning stands above the checks on every fault page: a page taken
+// to site on its own still warns before work on the hot-water circuit.
+const CheckWarning = "Before any check that opens, vents or replaces a valve, coil, strainer or air vent: hot water scalds and is " +
+	"under pressure. Isolate the circuit, let it cool, relieve the pressure and follow lock-out/tag-out."
+
 // ranked returns the open faults, highest weekly cost first.
 func ranked(ts []rules.Transition) []rules.Transition {
 	out := append([]rules.Transition(nil), ts...)
@@ -132,12 +137,20 @@ func (in *Input) evidenceLines(t rules.Transition) []string {
 	if ok(ev.AirflowM3s) && ev.AirflowM3s > 0 {
 		l = append(l, "Airflow "+dual(in.IP, units.FormatAirflow, ev.AirflowM3s))
 	}
-	if ok(ev.UAFactor) && ev.UAFactor > 0 {
-		l = append(l, fmt.Sprintf("Apparent coil UA %.0f %% of baseline", ev.UAFactor*100))
+	// An apparent factor past maxFactor is a fit that left the coil
+	// model's range (a coil with almost no rise at full command gives
+	// millions of percent), not a measurement: it is named as such.
+	factor := func(name, of string, f float64) {
+		switch {
+		case !ok(f) || f <= 0:
+		case f > maxFactor:
+			l = append(l, fmt.Sprintf("%s: no estimate (the fit gave over %.0f %% of %s, outside the coil model's range)", name, maxFactor*100, of))
+		default:
+			l = append(l, fmt.Sprintf("%s %.0f %% of %s", name, f*100, of))
+		}
 	}
-	if ok(ev.FlowFactor) && ev.FlowFactor > 0 {
-		l = append(l, fmt.Sprintf("Apparent water flow %.0f %% of expected", ev.FlowFactor*100))
-	}
+	factor("Apparent coil UA", "baseline", ev.UAFactor)
+	factor("Apparent water flow", "expected", ev.FlowFactor)
 	if ok(ev.LeakFlowFrac) && ev.LeakFlowFrac > 0 {
 		l = append(l, fmt.Sprintf("Estimated leak flow %s of design", units.FormatPercent(ev.LeakFlowFrac)))
 	}
@@ -155,9 +168,56 @@ func (in *Input) evidenceLines(t rules.Transition) []string {
 	if im.WeeklyCoolKWh > 0 {
 		impact = append(impact, dual(in.IP, units.FormatCoolingEnergy, im.WeeklyCoolKWh)+" cooling")
 	}
+	if im.WeeklyShortfallKWh > 0 {
+		impact = append(impact, dual(in.IP, units.FormatHeatEnergy, im.WeeklyShortfallKWh)+" heat short of the zone (comfort, not costed)")
+	}
 	impact = append(impact, fmt.Sprintf("%s %.2f", in.currency(), im.WeeklyCost))
-	l = append(l, fmt.Sprintf("Weekly impact: %s; confidence %.0f %%", strings.Join(impact, ", "), t.Confidence*100))
-	return l
+	s := fmt.Sprintf("Weekly impact: %s; confidence %.0f %%", strings.Join(impact, ", "), t.Confidence*100)
+	if ok(im.OperatingHoursPerWeek) && im.OperatingHoursPerWeek > 0 {
+		s += fmt.Sprintf(" (weekly figures at %.0f h of heating operation a week)", im.OperatingHoursPerWeek)
+	}
+	return append(l, s)
+}
+
+// maxFactor is the largest apparent UA or water-flow factor the report
+// prints as a number (500 %): a coil does not carry five times its rated
+// heat transfer or flow, so a larger fitted factor says the fit failed
+// (common practice, not a published limit).
+const maxFactor = 5.0
+
+// statusLine says since when a fault's condition holds and when it was
+// raised, its state (acknowledged by whom, snoozed until when) and when
+// the evidence on its page was recorded, so a week without new records
+// does not pass old numbers off as this week's.
+func (in *Input) statusLine(t rules.Transition) string {
+	loc := in.loc()
+	at := func(x time.Time) string { return x.In(loc).Format("Mon 2 Jan 2006 15:04") }
+	since := t.Since
+	if since.IsZero() {
+		since = t.At
+	}
+	s := "Condition since " + at(since)
+	if !t.OpenedAt.IsZero() {
+		s += ", fault raised " + at(t.OpenedAt)
+	}
+	switch t.To {
+	case rules.StateAcked:
+		s += "; acknowledged"
+		if t.AckedBy != "" {
+			s += " by " + t.AckedBy
+		}
+		if !t.AckedAt.IsZero() {
+			s += " " + at(t.AckedAt)
+		}
+	case rules.StateSuppressed:
+		s += "; snoozed"
+		if !t.SuppressedUntil.IsZero() {
+			s += " until " + at(t.SuppressedUntil)
+		}
+	default:
+		s += "; open"
+	}
+	return s + ". Evidence as recorded " + at(t.At) + "."
 }
 
 // coilLine is the ladder data of a terminal: box, inlet, rows, FPI, face, location.

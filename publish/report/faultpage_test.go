@@ -1,0 +1,106 @@
+package report
+
+import (
+	"strings"
+	"testing"
+	"time"
+
+	"risewatch/internal/testenv"
+	"risewatch/rules"
+)
+
+// TestEvidenceFactorBeyondModel: an apparent water flow the fit puts at
+// millions of percent (a coil with no rise at full command) is named as no
+// estimate, not printed as a measurement; a plausible one is printed.
+func TestEvidenceFactorBeyondModel(t *testing.T) {
+	in := testInput()
+	tr := in.Open[1]
+	tr.Evidence.FlowFactor, tr.Evidence.UAFactor = 63323.94, 0.07
+	lines := strings.Join(in.evidenceLines(tr), "\n")
+	if strings.Contains(lines, "6332394") || !strings.Contains(lines, "Apparent water flow: no estimate") {
+		t.Errorf("flow factor 63323.94:\n%s", lines)
+	}
+	if !strings.Contains(lines, "Apparent coil UA 7 % of baseline") {
+		t.Errorf("UA factor 0.07:\n%s", lines)
+	}
+	tr.Evidence.FlowFactor = 1.39
+	if lines := strings.Join(in.evidenceLines(tr), "\n"); !strings.Contains(lines, "Apparent water flow 139 % of expected") {
+		t.Errorf("flow factor 1.39:\n%s", lines)
+	}
+}
+
+// TestWeeklyImpactShortfallAndHours: a fault whose cost is comfort (a
+// fouled coil, USD 0.00) says how much heat the zone went short of, in both
+// units (130 kWh / 29.3071 kWh per therm = 4.4 therm, NIST SP 811 B.8), and
+// the weekly figures name the heating hours they assume.
+func TestWeeklyImpactShortfallAndHours(t *testing.T) {
+	in := testInput()
+	tr := in.Open[1]
+	tr.Impact.WeeklyCost, tr.Impact.WeeklyShortfallKWh, tr.Impact.OperatingHoursPerWeek = 0, 130, 60
+	line := in.evidenceLines(tr)[len(in.evidenceLines(tr))-1]
+	for _, want := range []string{"4.4 therm (130 kWh) heat short of the zone (comfort, not costed)", "USD 0.00", "at 60 h of heating operation a week"} {
+		if !strings.Contains(line, want) {
+			t.Errorf("impact line lacks %q: %s", want, line)
+		}
+	}
+}
+
+// TestFaultPagesStatusWarningAndData: every fault page says since when the
+// condition holds, its state (acknowledged by whom) and when its evidence
+// was recorded; carries the hot-water warning above its checks (a page may
+// go to site alone); names the rule's title; and a terminal with no data in
+// the week says why it has no plot. The coil-data table keeps an oversized
+// coil's inlet whole.
+func TestFaultPagesStatusWarningAndData(t *testing.T) {
+	pdftotext := testenv.LookTool(t, "pdftotext", "apt-get install poppler-utils")
+	for _, ip := range []bool{true, false} {
+		in := testInput()
+		in.IP = ip
+		in.Site.Terminals[1].InletIn, in.Site.Terminals[1].Oversized = 14, true
+		in.Open[0].Title = "Reheat valve passing water while closed"
+		in.Open[1].To, in.Open[1].AckedBy = rules.StateAcked, "R. Okafor"
+		in.Open[1].AckedAt = in.WeekStart.Add(100 * time.Hour)
+		pages := pdfPages(t, pdftotext, in)
+		flat := func(s string) string { return strings.Join(strings.Fields(s), " ") }
+		var leak, foul, coil string
+		for _, p := range pages {
+			switch {
+			case strings.Contains(p, "VAV-1-03 — leaking-valve"):
+				leak = flat(p)
+			case strings.Contains(p, "VAV-1-07 — fouled-coil"):
+				foul = flat(p)
+			case strings.Contains(p, "Terminals with open faults"):
+				coil = p
+			}
+		}
+		if leak == "" || foul == "" || coil == "" {
+			t.Fatalf("ip=%v: fault or coil-data pages missing", ip)
+		}
+		for name, c := range map[string]struct{ page, want string }{
+			"leak status": {leak, "Condition since Tue 13 Jan 2026 05:00; open. Evidence as recorded Tue 13 Jan 2026 06:00."},
+			"foul status": {foul, "Condition since Wed 14 Jan 2026 22:00; acknowledged by R. Okafor Fri 16 Jan 2026 04:00. Evidence as recorded Thu 15 Jan 2026 08:00."},
+			"title":       {leak, "Reheat valve passing water while closed"},
+			"no plot":     {leak, "No plot: no evidence was recorded for VAV-1-03 during this week"},
+		} {
+			if !strings.Contains(c.page, c.want) {
+				t.Errorf("ip=%v %s: page lacks %q:\n%s", ip, name, c.want, c.page)
+			}
+		}
+		for name, f := range map[string]struct {
+			page  string
+			first string
+		}{"leak": {leak, in.Open[0].Checks[0]}, "foul": {foul, in.Open[1].Checks[0]}} {
+			page := f.page
+			h, w, chk := strings.Index(page, "Checks to make"), strings.Index(page, flat(CheckWarning)), strings.Index(page, "1. "+f.first)
+			if h < 0 || w < h || chk < w {
+				t.Errorf("ip=%v %s: no hot-water warning between the heading and the checks:\n%s", ip, name, page)
+			}
+		}
+		if strings.Contains(foul, "No plot") {
+			t.Errorf("ip=%v: the terminal with a week of data says it has no plot", ip)
+		}
+		if !strings.Contains(coil, "14 in (oversized coil)") {
+			t.Errorf("ip=%v: coil-data table cuts the oversized coil's inlet:\n%s", ip, coil)
+		}
+	}
+}
