@@ -91,3 +91,58 @@ func TestDashboardInChromium(t *testing.T) {
 		t.Fatalf("after submitting: %q, acks %v", done, b.acks)
 	}
 }
+
+// TestNarrowScreen: in a window 400 px wide (a phone held upright) no page
+// is wider than the window, each chart shown is drawn for that width (its
+// labels not shrunk below 85 %), and every fault's cost is on screen.
+func TestNarrowScreen(t *testing.T) {
+	b := newTestBackend()
+	b.site.Name = "Larkspur Commons North Campus Annex"
+	s, err := New(Config{IP: true}, b, quiet())
+	if err != nil {
+		t.Fatal(err)
+	}
+	ts := httptest.NewServer(s.Handler())
+	defer ts.Close()
+	ctx := browsertest.Start(t, 90*time.Second)
+	shots := browsertest.ScreenshotDir(t)
+	if err := chromedp.Do(ctx, chromedp.EmulateViewport(400, 900)); err != nil {
+		t.Fatal(err)
+	}
+	for _, p := range []string{"/", "/terminals/VAV-1-03", "/terminals/VAV-1-07", "/sources", "/faults/VAV-1-03%2Fleaking-valve/ack"} {
+		if err := chromedp.Do(ctx, chromedp.Navigate(ts.URL+p), chromedp.WaitVisible(chromedp.CSS("main"))); err != nil {
+			t.Fatalf("%s: %v", p, err)
+		}
+		wide, err := chromedp.Run(ctx, chromedp.Evaluate[int](`document.documentElement.scrollWidth - window.innerWidth`))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if wide > 0 {
+			t.Errorf("%s: page %d px wider than the 400 px window", p, wide)
+		}
+		scale, err := chromedp.Run(ctx, chromedp.Evaluate[float64](`Math.min(1, ...[...document.querySelectorAll("svg.chart")].
+			filter(e => e.getBoundingClientRect().width > 0).map(e => e.getBoundingClientRect().width / e.viewBox.baseVal.width))`))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if scale < 0.85 {
+			t.Errorf("%s: charts drawn at %.2f of their size", p, scale)
+		}
+		png, err := chromedp.Run(ctx, chromedp.FullScreenshot(100))
+		if err == nil {
+			name := strings.Trim(strings.NewReplacer("/", "_", "%2F", "_").Replace(p), "_")
+			_ = os.WriteFile(filepath.Join(shots, "narrow-"+name+".png"), png, 0o644)
+		}
+	}
+	if err := chromedp.Do(ctx, chromedp.Navigate(ts.URL+"/"), chromedp.WaitVisible(chromedp.CSS("#faults"))); err != nil {
+		t.Fatal(err)
+	}
+	off, err := chromedp.Run(ctx, chromedp.Evaluate[int](`[...document.querySelectorAll("#faults td")].
+		filter(td => td.textContent.startsWith("USD") && td.getBoundingClientRect().right > window.innerWidth).length`))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if off > 0 {
+		t.Errorf("%d fault costs off the screen", off)
+	}
+}

@@ -19,7 +19,7 @@ const layout = `{{define "top"}}<!DOCTYPE html><html lang="en"><head><meta chars
 <title>{{.Title}} · risewatch</title>
 <style>
 body{font-family:system-ui,sans-serif;margin:0;color:#1d2430;background:#f3f5f8}
-header{background:#17324d;color:#fff;padding:.6em 1.2em;display:flex;gap:1.5em;align-items:baseline}
+header{background:#17324d;color:#fff;padding:.6em 1.2em;display:flex;flex-wrap:wrap;gap:.3em 1.5em;align-items:baseline}
 header a{color:#cfe3ff;text-decoration:none}header b{font-size:1.15em}
 main{padding:1em 1.2em;max-width:78em}
 .cards{display:flex;flex-wrap:wrap;gap:.8em}.card{background:#fff;border-radius:6px;padding:.7em 1em;box-shadow:0 1px 2px #0002;min-width:9em}
@@ -29,6 +29,12 @@ th,td{text-align:left;padding:.35em .6em;border-bottom:1px solid #e6e9ee;font-si
 .pill{border-radius:9px;padding:0 .5em;font-size:.85em;background:#e8edf3}.pill.open{background:#fbe0dd}.pill.acked{background:#fff0c7}.pill.suppressed{background:#e3e3e3}
 form{display:inline-block;background:#fff;padding:.6em .9em;border-radius:6px;box-shadow:0 1px 2px #0002;margin:.3em .6em .3em 0}
 .notice{background:#fff4d6;padding:.6em 1em;border-radius:6px;font-size:.88em;margin-top:2em}
+.scroll{overflow-x:auto;max-width:100%}svg.chart{display:block;max-width:100%;height:auto}svg.narrow{display:none}
+figure.chart{margin:.6em 0}figure.chart figcaption{font-weight:600;font-size:.9em;margin-left:52px}
+@media (max-width:640px){svg.wide{display:none}svg.narrow{display:block}figure.chart figcaption{margin-left:0}
+#faults tr:first-child{display:none}#faults tr{display:block;border-bottom:1px solid #d5dae1;padding:.3em 0}
+#faults td{display:inline-block;border:0;padding:.1em .6em}#faults td[data-l]{display:block}#faults td[data-l]::before{content:attr(data-l) ": ";color:#6b7685}}
+.error{background:#fbe0dd;color:#7a1712;padding:.6em 1em;border-radius:6px;font-weight:600}
 </style></head><body>
 <header><b>risewatch</b><a href="/">Overview</a><a href="/sources">Collectors</a><span class="muted" style="color:#9fb6cc">{{.SiteName}} · {{.Now}}</span></header><main>{{end}}
 {{define "bottom"}}<p class="notice">{{.Advisory}}</p></main></body></html>{{end}}`
@@ -43,55 +49,60 @@ const overviewTmpl = `{{template "top" .}}
 <div class="card"><div class="n">{{.WeeklyCost}}</div>estimated cost / week</div>
 </div>
 <h2>Faults, highest weekly cost first</h2>
-{{if .Faults}}<table id="faults"><tr><th>Entity</th><th>Fault</th><th>State</th><th>Since</th><th>Evidence</th><th>Cost / week</th><th>Confidence</th></tr>
-{{range .Faults}}<tr><td>{{if .Link}}<a href="{{.Link}}">{{.Entity}}</a>{{else}}{{.Entity}}{{end}}</td><td>{{.Kind}}</td><td><span class="pill {{.State}}">{{.State}}</span></td><td>{{.Since}}</td><td>{{.Evidence}}</td><td>{{.Cost}}</td><td>{{.Confidence}}</td></tr>
-{{end}}</table>{{else}}<p>No open faults.</p>{{end}}
+{{if .Faults}}<div class="scroll"><table id="faults"><tr><th>Entity</th><th>Fault</th><th>State</th><th>Since</th><th>Evidence</th><th>Cost / week</th><th>Confidence</th></tr>
+{{range .Faults}}<tr><td>{{if .Link}}<a href="{{.Link}}">{{.Entity}}</a>{{else}}{{.Entity}}{{end}}</td><td>{{.Kind}}</td><td><span class="pill {{.State}}">{{.State}}</span></td><td data-l="Since">{{.Since}}</td><td data-l="Evidence">{{.Evidence}}</td><td data-l="Cost / week">{{.Cost}}</td><td data-l="Confidence">{{.Confidence}}</td></tr>
+{{end}}</table></div>{{else}}<p>No open faults.</p>{{end}}
 <h2>Hot-water loops</h2>
-<table id="loops"><tr><th>Loop</th><th>Design supply</th><th>Terminals</th><th>Open faults</th></tr>
-{{range .Loops}}<tr><td>{{.ID}}</td><td>{{.Design}}</td><td>{{.Terminals}}</td><td>{{.Faults}}</td></tr>{{end}}</table>
+<div class="scroll"><table id="loops"><tr><th>Loop</th><th>Design supply</th><th>Terminals</th><th>Open faults</th></tr>
+{{range .Loops}}<tr><td>{{.ID}}</td><td>{{.Design}}</td><td>{{.Terminals}}</td><td>{{.Faults}}</td></tr>{{end}}</table></div>
 <h2>Air handlers</h2>
-<table id="ahus"><tr><th>AHU</th><th>Terminals</th><th>Open faults</th><th>Latest supply air</th></tr>
-{{range .AHUs}}<tr><td>{{.ID}}</td><td>{{.Terminals}}</td><td>{{.Faults}}</td><td>{{.SAT}}</td></tr>{{end}}</table>
+<div class="scroll"><table id="ahus"><tr><th>AHU</th><th>Terminals</th><th>Open faults</th><th>Latest supply air</th></tr>
+{{range .AHUs}}<tr><td>{{.ID}}</td><td>{{.Terminals}}</td><td>{{.Faults}}</td><td>{{.SAT}}</td></tr>{{end}}</table></div>
 <h2>Terminals</h2>
-<table id="terminals"><tr><th>Terminal</th><th>AHU</th><th>Loop</th><th>Zone</th><th>Observed rise</th><th>Expected rise</th><th>Valve</th><th>State</th></tr>
-{{range .Terminals}}<tr><td><a href="{{.Link}}">{{.ID}}</a></td><td>{{.AHU}}</td><td>{{.Loop}}</td><td>{{.Zone}}</td><td>{{.Obs}}</td><td>{{.Exp}}</td><td>{{.Valve}}</td><td>{{.State}}</td></tr>{{end}}</table>
+<div class="scroll"><table id="terminals"><tr><th>Terminal</th><th>AHU</th><th>Loop</th><th>Zone</th><th>Observed rise</th><th>Expected rise</th><th>Valve</th><th>State</th></tr>
+{{range .Terminals}}<tr><td><a href="{{.Link}}">{{.ID}}</a></td><td>{{.AHU}}</td><td>{{.Loop}}</td><td>{{.Zone}}</td><td>{{.Obs}}</td><td>{{.Exp}}</td><td>{{.Valve}}</td><td>{{.State}}</td></tr>{{end}}</table></div>
 {{template "bottom" .}}`
 
 const terminalTmpl = `{{template "top" .}}
 <h1>{{.T.ID}}</h1>
 <p>{{.T.Building}} {{.T.Location}} · zone {{.T.Zone}} · AHU {{.T.AHU}} · loop {{.T.Loop}}</p>
 {{.RiseChart}}
+{{.ValveChart}}
 {{.FlowChart}}
 <h2>Coil and valve</h2>
-<table id="coil"><tr><th>Box inlet</th><td>{{.Inlet}}</td><th>Rows</th><td>{{.T.Coil.Rows}}</td><th>Circuits</th><td>{{.T.Coil.Circuits}}</td></tr>
+<div class="scroll"><table id="coil"><tr><th>Box inlet</th><td>{{.Inlet}}</td><th>Rows</th><td>{{.T.Coil.Rows}}</td><th>Circuits</th><td>{{.T.Coil.Circuits}}</td></tr>
 <tr><th>Fins</th><td>{{.FPI}}</td><th>Face</th><td>{{.Face}}</td><th>UA multiplier (calibration)</th><td>{{.UAMult}}</td></tr>
-<tr><th>Valve Cv</th><td>{{.T.Valve.Cv}}</td><th>Airflow min / heating max</th><td>{{.Airflows}}</td><th>Rated point</th><td>{{.Rated}}</td></tr></table>
+<tr><th>Valve Cv</th><td>{{.T.Valve.Cv}}</td><th>Airflow min / heating max</th><td>{{.Airflows}}</td><th>Rated point</th><td>{{.Rated}}</td></tr></table></div>
 <h2>Baseline</h2>
-<table id="baseline">{{range .Baseline}}<tr><th>{{index . 0}}</th><td>{{index . 1}}</td></tr>{{end}}</table>
+<div class="scroll"><table id="baseline">{{range .Baseline}}<tr><th>{{index . 0}}</th><td>{{index . 1}}</td></tr>{{end}}</table></div>
 <h2>Latest evidence</h2>
-<table id="evidence">{{range .Evidence}}<tr><th>{{index . 0}}</th><td>{{index . 1}}</td></tr>{{end}}</table>
+<div class="scroll"><table id="evidence">{{range .Evidence}}<tr><th>{{index . 0}}</th><td>{{index . 1}}</td></tr>{{end}}</table></div>
 <h2>Faults</h2>
-{{range .Open}}<div><b>{{.Kind}}</b> <span class="pill {{.State}}">{{.State}}</span> since {{.Since}} — {{.Message}}
-<br>{{template "forms" .}}</div>{{else}}<p>No open faults.</p>{{end}}
+{{range .Open}}<div class="fault"><b>{{.Kind}}</b> <span class="pill {{.State}}">{{.State}}</span> since {{.Since}} — {{.Message}}
+{{if .Status}}<br><span class="muted">{{.Status}}</span>{{end}}
+{{if .Causes}}<p>Likely causes:</p><ol class="causes">{{range .Causes}}<li>{{.}}</li>{{end}}</ol>{{end}}
+{{if .Checks}}<p>Check first — hot water scalds and is under pressure: isolate the circuit, let it cool and relieve pressure before opening anything, and follow your lock-out/tag-out procedure:</p><ol class="checks">{{range .Checks}}<li>{{.}}</li>{{end}}</ol>{{end}}
+{{template "forms" .}}</div>{{else}}<p>No open faults.</p>{{end}}
 <h2>History</h2>
-<table id="history"><tr><th>When</th><th>Fault</th><th>From</th><th>To</th><th>Note</th></tr>
-{{range .History}}<tr><td>{{index . 0}}</td><td>{{index . 1}}</td><td>{{index . 2}}</td><td>{{index . 3}}</td><td>{{index . 4}}</td></tr>{{end}}</table>
+<div class="scroll"><table id="history"><tr><th>When</th><th>Fault</th><th>From</th><th>To</th><th>Note</th></tr>
+{{range .History}}<tr><td>{{index . 0}}</td><td>{{index . 1}}</td><td>{{index . 2}}</td><td>{{index . 3}}</td><td>{{index . 4}}</td></tr>{{else}}<tr><td colspan="5">No fault history.</td></tr>{{end}}</table></div>
 {{template "bottom" .}}`
 
 const formsTmpl = `{{define "forms"}}<form method="post" action="/faults/{{.IDPath}}/ack"><input type="hidden" name="csrf" value="{{.CSRF}}">
-<label>Name <input name="by" required size="10"></label> <label>Note <input name="note" size="24"></label> <button type="submit">Acknowledge</button></form>
+<label>Name <input name="by" required size="10" maxlength="80" value="{{.By}}"></label> <label>Note <input name="note" size="24" maxlength="500" value="{{.Note}}"></label> <button type="submit">Acknowledge</button></form>
 <form method="post" action="/faults/{{.IDPath}}/snooze"><input type="hidden" name="csrf" value="{{.CSRF}}">
-<label>Name <input name="by" required size="10"></label> <label>Until <input type="date" name="until" required value="{{.SnoozeDefault}}"></label> <label>Note <input name="note" size="16"></label> <button type="submit">Snooze</button></form>{{end}}`
+<label>Name <input name="by" required size="10" maxlength="80" value="{{.By}}"></label> <label>Until <input type="date" name="until" required min="{{.SnoozeMin}}" value="{{.SnoozeDefault}}"></label> <label>Note <input name="note" size="16" maxlength="500" value="{{.Note}}"></label> <button type="submit">Snooze</button></form>{{end}}`
 
-const actionTmpl = `{{template "top" .}}<h1>{{.Heading}}</h1><p>{{.Text}}</p>{{if .Fault}}{{template "forms" .Fault}}{{end}}<p><a href="{{.Back}}">Back</a></p>{{template "bottom" .}}`
+const actionTmpl = `{{template "top" .}}<h1>{{.Heading}}</h1>{{if .Error}}<p class="error" id="error">{{.Error}}</p>{{end}}{{if .Text}}<p>{{.Text}}</p>{{end}}{{if .Fault}}{{template "forms" .Fault}}{{end}}<p><a href="{{.Back}}">{{.BackText}}</a></p>{{template "bottom" .}}`
 
 const sourcesTmpl = `{{template "top" .}}<h1>Collectors</h1>
-<table id="sources"><tr><th>Source</th><th>Kind</th><th>Last success</th><th>Reads</th><th>Errors</th><th>Points (stale)</th><th>Last error</th></tr>
-{{range .Sources}}<tr><td>{{.Name}}</td><td>{{.Kind}}</td><td class="{{.Class}}">{{.Last}}</td><td>{{.Reads}}</td><td>{{.Errors}}</td><td>{{.Points}}</td><td>{{.LastError}}</td></tr>{{else}}<tr><td colspan="7">No sources configured.</td></tr>{{end}}</table>
+<div class="scroll"><table id="sources"><tr><th>Source</th><th>Kind</th><th>Last success</th><th>Reads</th><th>Errors</th><th>Points (stale)</th><th>Last error</th></tr>
+{{range .Sources}}<tr><td>{{.Name}}</td><td>{{.Kind}}</td><td class="{{.Class}}">{{.Last}}</td><td>{{.Reads}}</td><td>{{.Errors}}</td><td>{{.Points}}</td><td>{{.LastError}}</td></tr>{{else}}<tr><td colspan="7">No sources configured.</td></tr>{{end}}</table></div>
 {{template "bottom" .}}`
 
 // Advisory is shown on every page.
-const Advisory = "risewatch is advisory only and never writes to the building automation system. Confirm findings on site; follow local codes and licensed practice. Hot-water systems can scald and are under pressure: isolate, cool and relieve pressure before working on valves, coils or vents."
+const Advisory = "risewatch is advisory only and never writes to the building automation system. Confirm findings on site; follow local codes, the equipment makers' instructions and licensed practice. " +
+	"Hot-water systems can scald and are under pressure: isolate the circuit, let it cool and relieve pressure before opening, venting or replacing valves, coils, strainers or air vents, and follow your lock-out/tag-out procedure."
 
 func parseTemplates(ip bool) *template.Template {
 	t := template.Must(template.New("layout").Parse(layout))
@@ -122,18 +133,25 @@ func (s *Server) render(w http.ResponseWriter, name string, data any) {
 	}
 }
 
-func (s *Server) temp(c float64) string {
-	if math.IsNaN(c) {
+// dual writes an SI value in both units, the page's first and the other
+// in brackets ("180.0 °F (82.2 °C)"), or "–" when it is unknown.
+func (s *Server) dual(f func(float64, bool) string, v float64) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
 		return "–"
 	}
-	return units.FormatTemp(c, s.cfg.IP)
+	return f(v, s.cfg.IP) + " (" + f(v, !s.cfg.IP) + ")"
 }
 
-func (s *Server) dT(k float64) string {
-	if math.IsNaN(k) || math.IsInf(k, 0) {
+func (s *Server) temp(c float64) string { return s.dual(units.FormatTemp, c) }
+
+func (s *Server) dT(k float64) string { return s.dual(units.FormatTempDiff, k) }
+
+// factor writes a dimensionless factor with two decimals, "–" when unknown.
+func factor(v float64) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
 		return "–"
 	}
-	return units.FormatTempDiff(k, s.cfg.IP)
+	return fmt.Sprintf("%.2f", v)
 }
 
 func (s *Server) loc() *time.Location {
@@ -236,7 +254,7 @@ func (s *Server) overview(w http.ResponseWriter, r *http.Request) {
 	if cur == "" {
 		cur = "USD"
 	}
-	data.WeeklyCost = fmt.Sprintf("%s %.0f", cur, total)
+	data.WeeklyCost = fmt.Sprintf("%s %.2f", cur, total)
 	loopTerms, ahuTerms := map[string]int{}, map[string]int{}
 	ahuSAT := map[string]float64{}
 	data.Terminals = make([]termRow, 0, len(st.Terminals))
@@ -279,26 +297,12 @@ func (s *Server) overview(w http.ResponseWriter, r *http.Request) {
 	s.render(w, "overview", data)
 }
 
-type faultForm struct {
-	Kind, State, Since, Message, IDPath, CSRF, SnoozeDefault string
-}
-
-func (s *Server) formFor(w http.ResponseWriter, r *http.Request, f rules.Transition) faultForm {
-	since := f.Since
-	if since.IsZero() {
-		since = f.At
-	}
-	return faultForm{Kind: f.Kind.String(), State: f.To.String(), Since: since.In(s.loc()).Format("Mon 2 Jan 15:04"),
-		Message: f.MessageIn(s.cfg.IP), IDPath: url.PathEscape(f.FaultID), CSRF: s.csrfToken(w, r),
-		SnoozeDefault: s.b.Now().In(s.loc()).AddDate(0, 0, 7).Format("2006-01-02")}
-}
-
 func (s *Server) terminal(w http.ResponseWriter, r *http.Request) {
 	st := s.b.Site()
 	id := r.PathValue("id")
 	idx, ok := st.TerminalIndex[id]
 	if !ok {
-		http.Error(w, "no terminal "+id, http.StatusNotFound)
+		s.fail(w, http.StatusNotFound, "No terminal "+id, "The site file has no terminal "+id+".", "", "")
 		return
 	}
 	t := st.Terminals[idx]
@@ -310,55 +314,78 @@ func (s *Server) terminal(w http.ResponseWriter, r *http.Request) {
 	}
 	var xs []time.Time
 	var obs, exp, valve, flow []float64
-	conv := func(k float64) float64 { return k }
-	tu, fu := "K", "L/s"
-	fconv := units.M3sToLs
+	// Each chart is drawn in the page's first unit, with the other unit
+	// on its right-hand axis (both conversions are pure scales).
+	rise := axis{Unit: "K", Alt: "°F", AltScale: 1 / units.KelvinPerRankine}
+	air := axis{Unit: "L/s", Alt: "cfm", AltScale: units.M3sToCFM(1) / units.M3sToLs(1)}
 	if s.cfg.IP {
-		conv, tu, fu, fconv = units.DeltaKToF, "°F", "cfm", units.M3sToCFM
+		rise = axis{Unit: "°F", Alt: "K", AltScale: units.KelvinPerRankine}
+		air = axis{Unit: "cfm", Alt: "L/s", AltScale: units.M3sToLs(1) / units.M3sToCFM(1)}
 	}
 	for _, p := range pts {
 		xs = append(xs, p.At.In(s.loc()))
-		obs, exp = append(obs, conv(p.ObservedRiseK)), append(exp, conv(p.ExpectedRiseK))
-		valve, flow = append(valve, p.ValveFrac*100), append(flow, fconv(p.AirflowM3s))
+		if s.cfg.IP {
+			obs, exp = append(obs, units.DeltaKToF(p.ObservedRiseK)), append(exp, units.DeltaKToF(p.ExpectedRiseK))
+			flow = append(flow, units.M3sToCFM(p.AirflowM3s))
+		} else {
+			obs, exp = append(obs, p.ObservedRiseK), append(exp, p.ExpectedRiseK)
+			flow = append(flow, units.M3sToLs(p.AirflowM3s))
+		}
+		valve = append(valve, p.ValveFrac*100)
+	}
+	zone := ""
+	if len(xs) > 0 {
+		zone = ", times " + xs[0].Format("MST")
 	}
 	data := struct {
 		page
 		T                                         any
-		RiseChart, FlowChart                      template.HTML
+		RiseChart, ValveChart, FlowChart          template.HTML
 		Inlet, FPI, Face, UAMult, Airflows, Rated string
 		Evidence, Baseline                        [][2]string
 		Open                                      []faultForm
 		History                                   [][5]string
 	}{page: s.page(t.ID), T: t}
-	data.RiseChart = lineChart("Air temperature rise, observed and expected ("+tu+")", tu, 900, 260,
+	data.RiseChart = chart("Air temperature rise, observed and expected ("+rise.Unit+" and "+rise.Alt+zone+")", rise, 260,
 		[]Series{{Name: "observed", Color: "#c0392b", X: xs, Y: obs}, {Name: "expected", Color: "#2874c8", Dashed: true, X: xs, Y: exp}})
-	data.FlowChart = lineChart("Valve command (%) and airflow ("+fu+")", "", 900, 220,
-		[]Series{{Name: "valve %", Color: "#555", X: xs, Y: valve}, {Name: "airflow " + fu, Color: "#1d7a45", X: xs, Y: flow}})
+	data.ValveChart = chart("Valve command (%"+zone+")", axis{Unit: "%", Lo: 0, Hi: 100, Fixed: true}, 180,
+		[]Series{{Name: "valve command %", Color: "#555", X: xs, Y: valve}})
+	data.FlowChart = chart("Airflow ("+air.Unit+" and "+air.Alt+zone+")", air, 200,
+		[]Series{{Name: "airflow " + air.Unit, Color: "#1d7a45", X: xs, Y: flow}})
 	data.Inlet = fmt.Sprintf("%g in", t.InletIn)
 	if t.Oversized {
 		data.Inlet += " (oversized coil)"
 	}
 	data.FPI = fmt.Sprintf("%.0f FPI", units.PerMToFPI(t.Coil.Fin.PerM))
-	data.Face = units.FormatLength(t.Coil.FaceWidthM, s.cfg.IP) + " × " + units.FormatLength(t.Coil.FaceHeightM, s.cfg.IP)
+	data.Face = units.FormatLength(t.Coil.FaceWidthM, s.cfg.IP) + " × " + units.FormatLength(t.Coil.FaceHeightM, s.cfg.IP) +
+		" (" + units.FormatLength(t.Coil.FaceWidthM, !s.cfg.IP) + " × " + units.FormatLength(t.Coil.FaceHeightM, !s.cfg.IP) + ")"
 	um := t.Coil.UAMultiplier
 	if um == 0 {
 		um = 1
 	}
 	data.UAMult = fmt.Sprintf("%.2f", um)
-	data.Airflows = units.FormatAirflow(t.MinAirflowM3s, s.cfg.IP) + " / " + units.FormatAirflow(t.HeatingAirflowM3s, s.cfg.IP)
+	data.Airflows = s.dual(units.FormatAirflow, t.MinAirflowM3s) + " / " + s.dual(units.FormatAirflow, t.HeatingAirflowM3s)
 	data.Rated = "none (geometry only)"
 	if t.Rated != nil {
-		data.Rated = fmt.Sprintf("%s at %s, %s, EAT %s, EWT %s", units.FormatPower(t.Rated.CapacityW, s.cfg.IP), units.FormatAirflow(t.Rated.AirflowM3s, s.cfg.IP),
-			units.FormatWaterFlow(t.Rated.WaterFlowM3s, s.cfg.IP), s.temp(t.Rated.EnteringAirC), s.temp(t.Rated.EnteringWaterC))
+		data.Rated = fmt.Sprintf("%s at %s, %s, EAT %s, EWT %s", s.dual(units.FormatPower, t.Rated.CapacityW), s.dual(units.FormatAirflow, t.Rated.AirflowM3s),
+			s.dual(units.FormatWaterFlow, t.Rated.WaterFlowM3s), s.temp(t.Rated.EnteringAirC), s.temp(t.Rated.EnteringWaterC))
 	}
 	if ev, ok := s.b.Latest(idx); ok {
+		expected := s.dT(ev.ExpectedRiseK)
+		if expected != "–" && !math.IsNaN(ev.SigmaK) && ev.SigmaK > 0 {
+			expected += " ± " + s.dT(2*ev.SigmaK)
+		}
 		data.Evidence = [][2]string{
 			{"At", ev.At.In(s.loc()).Format("Mon 2 Jan 15:04")},
 			{"Usable / steady", fmt.Sprintf("%v / %v", ev.Usable, ev.Steady)},
-			{"Supply air / discharge air", s.temp(ev.SupplyC) + " / " + s.temp(ev.DischargeC)},
+			{"Valve command", percent(ev.ValveFrac)},
+			{"Airflow", s.dual(units.FormatAirflow, ev.AirflowM3s)},
+			{"Supply air", s.temp(ev.SupplyC)},
+			{"Discharge air", s.temp(ev.DischargeC)},
 			{"Hot-water supply", s.temp(ev.HotWaterC)},
-			{"Observed / expected rise", s.dT(ev.ObservedRiseK) + " / " + s.dT(ev.ExpectedRiseK) + " (± " + s.dT(2*ev.SigmaK) + ")"},
-			{"Apparent UA / water flow factor", fmt.Sprintf("%.2f / %.2f", ev.UAFactor, ev.FlowFactor)},
+			{"Observed rise", s.dT(ev.ObservedRiseK)},
+			{"Expected rise (± 2σ)", expected},
+			{"Apparent UA / water flow factor", factor(ev.UAFactor) + " / " + factor(ev.FlowFactor)},
 			{"Leak rise with valve closed", s.dT(ev.LeakRiseK)},
 		}
 	}
@@ -415,127 +442,10 @@ func (s *Server) baselineRows(idx int, id string) [][2]string {
 	return rows
 }
 
-func (s *Server) findFault(r *http.Request) (rules.Transition, bool) {
-	id := r.PathValue("id")
-	fs, err := s.b.Faults(r.Context())
-	if err != nil {
-		return rules.Transition{}, false
+// percent writes a 0..1 fraction as a percentage, "–" when unknown.
+func percent(frac float64) string {
+	if math.IsNaN(frac) || math.IsInf(frac, 0) {
+		return "–"
 	}
-	for _, f := range fs {
-		if f.FaultID == id {
-			return f, true
-		}
-	}
-	return rules.Transition{}, false
-}
-
-type actionPage struct {
-	page
-	Heading, Text, Back string
-	Fault               *faultForm
-}
-
-func (s *Server) backFor(f rules.Transition) string {
-	if _, ok := s.b.Site().TerminalIndex[f.Entity]; ok {
-		return "/terminals/" + url.PathEscape(f.Entity)
-	}
-	return "/"
-}
-
-// ackForm and snoozeForm are what e-mail links open: a page with the POST
-// forms, so a GET never changes anything.
-func (s *Server) ackForm(w http.ResponseWriter, r *http.Request) { s.actionForm(w, r, "Acknowledge") }
-func (s *Server) snoozeForm(w http.ResponseWriter, r *http.Request) {
-	s.actionForm(w, r, "Snooze")
-}
-
-func (s *Server) actionForm(w http.ResponseWriter, r *http.Request, verb string) {
-	f, ok := s.findFault(r)
-	if !ok {
-		http.Error(w, "no open fault "+r.PathValue("id"), http.StatusNotFound)
-		return
-	}
-	ff := s.formFor(w, r, f)
-	s.render(w, "action", actionPage{page: s.page(verb), Heading: verb + " " + f.FaultID, Text: f.MessageIn(s.cfg.IP), Back: s.backFor(f), Fault: &ff})
-}
-
-func (s *Server) ackPost(w http.ResponseWriter, r *http.Request) { s.actionPost(w, r, false) }
-func (s *Server) snoozePost(w http.ResponseWriter, r *http.Request) {
-	s.actionPost(w, r, true)
-}
-
-func (s *Server) actionPost(w http.ResponseWriter, r *http.Request, snooze bool) {
-	if err := s.checkCSRF(r); err != nil {
-		http.Error(w, "refused: "+err.Error(), http.StatusForbidden)
-		return
-	}
-	f, ok := s.findFault(r)
-	if !ok {
-		http.Error(w, "no open fault "+r.PathValue("id"), http.StatusNotFound)
-		return
-	}
-	by := strings.TrimSpace(r.PostFormValue("by"))
-	note := strings.TrimSpace(r.PostFormValue("note"))
-	if by == "" || len(by) > 80 || len(note) > 500 {
-		http.Error(w, "name is required (up to 80 characters); note up to 500", http.StatusBadRequest)
-		return
-	}
-	var err error
-	text := ""
-	if snooze {
-		until, perr := time.ParseInLocation("2006-01-02", r.PostFormValue("until"), s.loc())
-		if perr != nil || !until.After(s.b.Now()) {
-			http.Error(w, "until: a future date YYYY-MM-DD is required", http.StatusBadRequest)
-			return
-		}
-		err = s.b.Snooze(r.Context(), f.FaultID, by, until, note)
-		text = "Snoozed until " + until.Format("Mon 2 Jan 2006") + " by " + by + "."
-	} else {
-		err = s.b.Ack(r.Context(), f.FaultID, by, note)
-		text = "Acknowledged by " + by + ". Repeat notifications stop; the fault stays visible until it clears."
-	}
-	if err != nil {
-		http.Error(w, err.Error(), http.StatusInternalServerError)
-		return
-	}
-	s.log.Info("web: fault action", "fault", f.FaultID, "snooze", snooze, "by", by)
-	s.render(w, "action", actionPage{page: s.page("Done"), Heading: f.FaultID, Text: text, Back: s.backFor(f)})
-}
-
-func (s *Server) sources(w http.ResponseWriter, r *http.Request) {
-	type row struct {
-		Name, Kind, Last, Class, Errors, Points, LastError string
-		Reads                                              uint64
-	}
-	var rows []row
-	now := s.b.Now()
-	for _, src := range s.b.Sources() {
-		rw := row{Name: src.Name, Kind: src.Kind, Reads: src.Reads, LastError: src.LastError, Points: fmt.Sprintf("%d (%d)", src.Points, src.StalePoints), Last: "never", Class: "bad"}
-		if !src.LastSuccess.IsZero() {
-			age := now.Sub(src.LastSuccess).Round(time.Second)
-			rw.Last = src.LastSuccess.In(s.loc()).Format("Mon 15:04:05") + " (" + age.String() + " ago)"
-			rw.Class = "ok"
-			if age > 15*time.Minute {
-				rw.Class = "bad"
-			}
-		}
-		var es []string
-		keys := make([]string, 0, len(src.Errors))
-		for k := range src.Errors {
-			keys = append(keys, k)
-		}
-		sort.Strings(keys)
-		for _, k := range keys {
-			es = append(es, fmt.Sprintf("%s %d", k, src.Errors[k]))
-		}
-		rw.Errors = strings.Join(es, ", ")
-		if rw.Errors == "" {
-			rw.Errors = "0"
-		}
-		rows = append(rows, rw)
-	}
-	s.render(w, "sources", struct {
-		page
-		Sources []row
-	}{s.page("Collectors"), rows})
+	return units.FormatPercent(frac)
 }

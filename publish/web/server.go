@@ -45,7 +45,7 @@ type Point struct {
 // SourceHealth is one collector's state for the health page.
 type SourceHealth struct {
 	Name, Kind  string
-	LastSuccess time.Time
+	LastSuccess time.Time // wall clock
 	Reads       uint64
 	Errors      map[string]uint64 // by kind
 	LastError   string
@@ -79,6 +79,10 @@ type Config struct {
 	BasicUser, BasicPassword string
 	TLSCert, TLSKey          string
 	IP                       bool // IP units first
+	// Wall is the wall clock the collectors page measures ages with
+	// (SourceHealth.LastSuccess is wall-clock time even when Backend.Now
+	// is a data clock); nil means time.Now.
+	Wall func() time.Time
 	// Extra handlers mounted beside the pages (e.g. "/metrics").
 	Extra map[string]http.Handler
 }
@@ -141,6 +145,7 @@ func (s *Server) routes() {
 	m.HandleFunc("GET /faults/{id}/snooze", s.snoozeForm)
 	m.HandleFunc("POST /faults/{id}/snooze", s.snoozePost)
 	m.HandleFunc("GET /healthz", func(w http.ResponseWriter, _ *http.Request) { _, _ = w.Write([]byte("ok\n")) })
+	m.HandleFunc("/", s.notFound)
 	for p, h := range s.cfg.Extra {
 		m.Handle(p, h)
 	}

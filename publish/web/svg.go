@@ -17,10 +17,40 @@ type Series struct {
 	Y      []float64 // NaN breaks the line
 }
 
-// lineChart renders series as an inline SVG chart with a time axis and a
-// labelled value axis. It is deliberately small: a polyline per series.
-func lineChart(title, yLabel string, w, h int, series []Series) template.HTML {
-	const ml, mr, mt, mb = 52, 12, 22, 28
+// axis describes a chart's value axis: the unit of the plotted values
+// and, when Alt is set, a second unit labelled on the right-hand side at
+// its own round values (Alt = AltScale × value: a pure scale, as between
+// K and °F or L/s and cfm). With Fixed the axis spans at least Lo to Hi
+// (a valve command 0-100 %).
+type axis struct {
+	Unit, Alt string
+	AltScale  float64
+	Lo, Hi    float64
+	Fixed     bool
+}
+
+// chart is a titled chart drawn twice, 900 px wide and 420 px wide for
+// narrow screens (a phone held upright), where the wide drawing scaled
+// down would shrink its labels past reading; the page's CSS shows one.
+// The title is HTML, so it wraps.
+func chart(title string, ax axis, h int, series []Series) template.HTML {
+	return template.HTML(`<figure class="chart"><figcaption>`+template.HTMLEscapeString(title)+`</figcaption>`) +
+		drawChart("chart wide", title, false, ax, 900, h, series) + drawChart("chart narrow", title, false, ax, 420, h, series) +
+		template.HTML(`</figure>`)
+}
+
+// lineChart renders series as an inline SVG chart with a title, a time
+// axis and a labelled value axis. It is deliberately small: a polyline per
+// series.
+func lineChart(title string, ax axis, w, h int, series []Series) template.HTML {
+	return drawChart("chart", title, true, ax, w, h, series)
+}
+
+// drawChart draws the chart of class class, labelled title for screen
+// readers and, with showTitle, above the plot. Every chart keeps room for
+// a right-hand axis, so charts stacked on a page share their time axis.
+func drawChart(class, title string, showTitle bool, ax axis, w, h int, series []Series) template.HTML {
+	const ml, mr, mt, mb = 52, 52, 22, 28
 	pw, ph := float64(w-ml-mr), float64(h-mt-mb)
 	var t0, t1 time.Time
 	ymin, ymax := math.Inf(1), math.Inf(-1)
@@ -39,11 +69,16 @@ func lineChart(title, yLabel string, w, h int, series []Series) template.HTML {
 		}
 	}
 	var b strings.Builder
-	fmt.Fprintf(&b, `<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 %d %d" width="%d" height="%d" role="img" aria-label="%s" class="chart">`, w, h, w, h, template.HTMLEscapeString(title))
-	fmt.Fprintf(&b, `<text x="%d" y="14" font-size="12" font-weight="bold">%s</text>`, ml, template.HTMLEscapeString(title))
+	fmt.Fprintf(&b, `<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 %d %d" width="%d" height="%d" role="img" aria-label="%s" class="%s">`, w, h, w, h, template.HTMLEscapeString(title), class)
+	if showTitle {
+		fmt.Fprintf(&b, `<text x="%d" y="14" font-size="12" font-weight="bold">%s</text>`, ml, template.HTMLEscapeString(title))
+	}
 	if math.IsInf(ymin, 0) || !t1.After(t0) {
 		fmt.Fprintf(&b, `<text x="%d" y="%d" font-size="12" fill="#777">no data yet</text></svg>`, ml, mt+int(ph/2))
 		return template.HTML(b.String())
+	}
+	if ax.Fixed {
+		ymin, ymax = math.Min(ymin, ax.Lo), math.Max(ymax, ax.Hi)
 	}
 	if ymax-ymin < 1e-9 {
 		ymax, ymin = ymax+1, ymin-1
@@ -59,7 +94,7 @@ func lineChart(title, yLabel string, w, h int, series []Series) template.HTML {
 		fmt.Fprintf(&b, `<line x1="%d" x2="%.1f" y1="%.1f" y2="%.1f" stroke="#e4e4e4"/><text x="%d" y="%.1f" font-size="10" text-anchor="end">%.*f</text>`,
 			ml, ml+pw, sy(y), sy(y), ml-4, sy(y)+3, prec, y)
 	}
-	ticks, format := timeTicks(t0, t1, 8)
+	ticks, format := timeTicks(t0, t1, max(2, int(pw/90)))
 	for _, t := range ticks {
 		// A label at either end of the axis is anchored inside the chart.
 		anchor := "middle"
@@ -72,7 +107,24 @@ func lineChart(title, yLabel string, w, h int, series []Series) template.HTML {
 		fmt.Fprintf(&b, `<line x1="%.1f" x2="%.1f" y1="%d" y2="%.1f" stroke="#eeeeee"/><text x="%.1f" y="%d" font-size="10" text-anchor="%s">%s</text>`,
 			sx(t), sx(t), mt, mt+ph, sx(t), h-10, anchor, t.Format(format))
 	}
-	fmt.Fprintf(&b, `<text x="10" y="%.0f" font-size="10" transform="rotate(-90 10 %.0f)" text-anchor="middle">%s</text>`, mt+ph/2, mt+ph/2, template.HTMLEscapeString(yLabel))
+	fmt.Fprintf(&b, `<text x="10" y="%.0f" font-size="10" transform="rotate(-90 10 %.0f)" text-anchor="middle">%s</text>`, mt+ph/2, mt+ph/2, template.HTMLEscapeString(ax.Unit))
+	if ax.Alt != "" && ax.AltScale > 0 {
+		// The other unit's own round values, placed where they fall on
+		// the first unit's scale.
+		xr := float64(ml) + pw
+		at := valueTicks(ymin*ax.AltScale, ymax*ax.AltScale, 5)
+		aprec := max(0, -int(math.Floor(math.Log10(at[1]-at[0])+1e-9)))
+		for _, v := range at {
+			y := v / ax.AltScale
+			if y < ymin-1e-9 || y > ymax+1e-9 {
+				continue
+			}
+			fmt.Fprintf(&b, `<line x1="%.1f" x2="%.1f" y1="%.1f" y2="%.1f" stroke="#999"/><text x="%.1f" y="%.1f" font-size="10" fill="#555">%.*f</text>`,
+				xr, xr+4, sy(y), sy(y), xr+6, sy(y)+3, aprec, v)
+		}
+		fmt.Fprintf(&b, `<text x="%d" y="%.0f" font-size="10" fill="#555" transform="rotate(90 %d %.0f)" text-anchor="middle">%s</text>`,
+			w-8, mt+ph/2, w-8, mt+ph/2, template.HTMLEscapeString(ax.Alt))
+	}
 	// Lines.
 	lx := ml + 8
 	for _, s := range series {

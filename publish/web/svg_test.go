@@ -65,7 +65,7 @@ func TestTimeTicksOnBoundaries(t *testing.T) {
 // TestLineChartLabels: the chart's value labels are the round ticks.
 func TestLineChartLabels(t *testing.T) {
 	t0 := time.Date(2025, 1, 13, 0, 0, 0, 0, time.UTC)
-	svg := string(lineChart("rise", "°F", 600, 200, []Series{{Name: "observed", Color: "#c00",
+	svg := string(lineChart("rise", axis{Unit: "°F"}, 600, 200, []Series{{Name: "observed", Color: "#c00",
 		X: []time.Time{t0, t0.Add(24 * time.Hour), t0.Add(48 * time.Hour)}, Y: []float64{-3.1, 29.8, 12}}}))
 	for _, w := range []string{">-10<", ">0<", ">30<", ">Tue 14<"} {
 		if !strings.Contains(svg, w) {

@@ -29,6 +29,10 @@ type testBackend struct {
 	faults []rules.Transition
 	acks   []string
 	now    time.Time
+	// evidence, when set, replaces Latest's fixed record.
+	evidence func(i int) (fdd.Evidence, bool)
+	// sources, when set, replaces Sources' fixed list.
+	sources []SourceHealth
 }
 
 func newTestBackend() *testBackend {
@@ -48,7 +52,9 @@ func newTestBackend() *testBackend {
 		Since: now.Add(-4 * time.Hour), Confidence: 0.9, AHU: "AHU-1", Loop: "HW-1", Message: "Valve closed, discharge 4.1 K (7.4 °F) above supply.",
 		MessageIP: "Valve closed, discharge 7.4 °F (4.1 K) above supply.",
 		Evidence:  rules.Evidence{ObservedRiseK: 4.1, ValveFrac: 0, LeakRiseK: 4.1, LeakFlowFrac: 0.05, ExpectedRiseK: math.NaN()},
-		Impact:    rules.Impact{WeeklyCost: 5.93}}}}
+		Impact:    rules.Impact{WeeklyCost: 5.93},
+		Causes:    []string{"valve seat worn or debris under the seat"},
+		Checks:    []string{"stroke the valve closed and feel the coil's return pipe"}}}}
 }
 
 func (b *testBackend) Site() *site.Site { return b.site }
@@ -67,6 +73,9 @@ func (b *testBackend) History(_ context.Context, e string, _ int) ([]rules.Trans
 	return out, nil
 }
 func (b *testBackend) Latest(i int) (fdd.Evidence, bool) {
+	if b.evidence != nil {
+		return b.evidence(i)
+	}
 	return fdd.Evidence{At: b.now, Usable: true, Steady: true, SupplyC: 13, DischargeC: 15.3, HotWaterC: 80, ObservedRiseK: 2.3 + float64(i), ExpectedRiseK: 0.1, SigmaK: 0.4, UAFactor: 1, FlowFactor: 1, LeakRiseK: 2.2}, true
 }
 func (b *testBackend) Baseline(i int) (fdd.Baseline, bool) {
@@ -87,6 +96,9 @@ func (b *testBackend) Series(_ context.Context, _ int, from, to time.Time) ([]Po
 	return out, nil
 }
 func (b *testBackend) Sources() []SourceHealth {
+	if b.sources != nil {
+		return b.sources
+	}
 	return []SourceHealth{{Name: "exports", Kind: "trendfile", LastSuccess: b.now.Add(-time.Minute), Reads: 1200, Errors: map[string]uint64{"bad-row": 2}, Points: 40}}
 }
 func (b *testBackend) Ack(_ context.Context, id, by, note string) error {
@@ -207,7 +219,7 @@ func TestPagesRender(t *testing.T) {
 	for path, wants := range map[string][]string{
 		// The fault's evidence digest, IP first as the page is: 4.1 K × 1.8 = 7.4 °F.
 		"/": {"Larkspur Commons", "VAV-1-03", "leaking-valve", "USD 5.93", "HW-1", "180.0 °F", "advisory only", "leak rise 7.4 °F (4.1 K), leak 5 % of design flow"},
-		"/terminals/VAV-1-07": {"<svg", "Air temperature rise, observed and expected (°F)", "12.5 in", "10 FPI", "No open faults.",
+		"/terminals/VAV-1-07": {"<svg", "Air temperature rise, observed and expected (°F and K", "12.5 in", "10 FPI", "No open faults.",
 			"rated (submittal data) while the baseline is learned", "not seen healthy yet", "risewatch relearn --config FILE --by NAME VAV-1-07"},
 		// 95 % intervals: 1.08 ± 1.96·0.01, 0.90 ± 1.96·0.02; 0.2 K = 0.36 °F.
 		"/terminals/VAV-1-03": {"Acknowledge", "Snooze", "discharge 7.4 °F (4.1 K) above supply", "Leak rise with valve closed", "learned from this coil&#39;s own history",
