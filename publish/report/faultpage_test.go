@@ -1,6 +1,12 @@
 package report
 
 import (
+	"fmt"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"regexp"
+	"strconv"
 	"strings"
 	"testing"
 	"time"
@@ -101,6 +107,57 @@ func TestFaultPagesStatusWarningAndData(t *testing.T) {
 		}
 		if !strings.Contains(coil, "14 in (oversized coil)") {
 			t.Errorf("ip=%v: coil-data table cuts the oversized coil's inlet:\n%s", ip, coil)
+		}
+	}
+}
+
+// TestPDFNoTextPastMargins: no word on any page runs past the side
+// margins (10 mm) on A4 or Letter, with a readiness-like section whose
+// eight headings include a long one ("First option that meets"), in a
+// table sized to what its columns hold (pdftotext -bbox word boxes).
+func TestPDFNoTextPastMargins(t *testing.T) {
+	pdftotext := testenv.LookTool(t, "pdftotext", "apt-get install poppler-utils")
+	for _, ip := range []bool{true, false} {
+		in := testInput()
+		in.IP = ip
+		sec := Section{Title: "Low-temperature hot-water readiness at 120.0 °F supply",
+			Header: []string{"Terminal", "Loop", "Status", "Load MBH", "Capacity MBH", "Margin", "Min supply °F", "First option that meets"}}
+		for i := 0; i < 30; i++ {
+			sec.Rows = append(sec.Rows, []string{fmt.Sprintf("VAV-Q-2%02d", i), "HW-1", "meets-low-dt", "14.7", "9.0", "-39 %", "158.1", "12 fins per inch"})
+		}
+		in.Sections = []Section{sec}
+		path := filepath.Join(t.TempDir(), "week.pdf")
+		f, err := os.Create(path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := WritePDF(f, in); err != nil {
+			t.Fatal(err)
+		}
+		f.Close()
+		out, err := exec.Command(pdftotext, "-bbox", path, "-").Output()
+		if err != nil {
+			t.Fatal(err)
+		}
+		page := regexp.MustCompile(`<page width="([0-9.]+)"`)
+		word := regexp.MustCompile(`<word xMin="([0-9.]+)" yMin="[0-9.]+" xMax="([0-9.]+)" yMax="[0-9.]+">([^<]*)</word>`)
+		const margin = 10 / 25.4 * 72 // pt
+		pageW, words := 0.0, 0
+		for _, line := range strings.Split(string(out), "\n") {
+			if m := page.FindStringSubmatch(line); m != nil {
+				pageW, _ = strconv.ParseFloat(m[1], 64)
+			}
+			if m := word.FindStringSubmatch(line); m != nil {
+				words++
+				x0, _ := strconv.ParseFloat(m[1], 64)
+				x1, _ := strconv.ParseFloat(m[2], 64)
+				if x0 < margin-1 || x1 > pageW-margin+1 {
+					t.Errorf("ip=%v: %q at x %.1f-%.1f pt runs past a margin of the %.1f pt page", ip, m[3], x0, x1, pageW)
+				}
+			}
+		}
+		if words < 200 {
+			t.Fatalf("ip=%v: only %d words read", ip, words)
 		}
 	}
 }

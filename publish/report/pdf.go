@@ -75,7 +75,7 @@ func WritePDF(w io.Writer, in Input) error {
 	// their column (fitCell). A row never splits across pages, and a page
 	// the table continues on starts with the header row again.
 	table := func(header []string, widths []float64, rows [][]string) {
-		const headH, lineH, padH = 6.0, 3.8, 1.6
+		const minHeadH, lineH, padH = 6.0, 3.8, 1.6
 		pdf.SetFont("Helvetica", "", 8.5)
 		cells := make([][][]string, len(rows))
 		heights := make([]float64, len(rows))
@@ -96,13 +96,29 @@ func WritePDF(w io.Writer, in Input) error {
 			}
 			heights[r] = float64(n)*lineH + padH
 		}
+		// The header cells wrap within their columns too, so a long
+		// heading stays inside its box and the table.
+		pdf.SetFont("Helvetica", "B", 8.5)
+		heads := make([][]string, len(header))
+		headH := minHeadH
+		for i, h := range header {
+			heads[i] = wrapCell(h, widths[i]-1.5, width)
+			headH = max(headH, float64(len(heads[i]))*lineH+padH)
+		}
+		pdf.SetFont("Helvetica", "", 8.5)
 		head := func() {
 			pdf.SetFont("Helvetica", "B", 8.5)
 			pdf.SetFillColor(225, 232, 240)
-			for i, h := range header {
-				pdf.CellFormat(widths[i], headH, tr(h), "1", 0, "L", true, 0, "")
+			x, y := lm, pdf.GetY()
+			for i := range header {
+				pdf.Rect(x, y, widths[i], headH, "FD")
+				for k, line := range heads[i] {
+					pdf.SetXY(x, y+padH/2+float64(k)*lineH)
+					pdf.CellFormat(widths[i], lineH, tr(line), "", 0, "L", false, 0, "")
+				}
+				x += widths[i]
 			}
-			pdf.Ln(-1)
+			pdf.SetXY(lm, y+headH)
 			pdf.SetFont("Helvetica", "", 8.5)
 		}
 		first := 0.0
@@ -265,17 +281,44 @@ func WritePDF(w io.Writer, in Input) error {
 			para(p)
 		}
 		if len(s.Header) > 0 {
-			ws := make([]float64, len(s.Header))
-			for i := range ws {
-				ws[i] = 1
+			hw := func(s string) float64 {
+				pdf.SetFont("Helvetica", "B", 8.5)
+				defer pdf.SetFont("Helvetica", "", 8.5)
+				return width(s)
 			}
-			table(s.Header, scale(ws), s.Rows)
+			pdf.SetFont("Helvetica", "", 8.5)
+			table(s.Header, scale(naturalWidths(s.Header, s.Rows, hw, width, bodyW)), s.Rows)
 		}
 	}
 	if err := pdf.Error(); err != nil {
 		return fmt.Errorf("report: pdf: %w", err)
 	}
 	return pdf.Output(w)
+}
+
+// naturalWidths gives a section table's columns widths (mm, before scaling
+// to the body width bodyW) from what they hold: each column as wide as its
+// widest cell and the longest word of its heading (headW measures the
+// bold heading, cellW a cell), the last one, which wraps, at most 40 % of
+// the body; so narrow numbers leave room for the free text, and no cell of
+// a sized column needs cutting when the whole fits.
+func naturalWidths(header []string, rows [][]string, headW, cellW func(string) float64, bodyW float64) []float64 {
+	ws := make([]float64, len(header))
+	for i, h := range header {
+		for _, word := range strings.Fields(h) {
+			ws[i] = max(ws[i], headW(word))
+		}
+		for _, r := range rows {
+			if i < len(r) {
+				ws[i] = max(ws[i], cellW(r[i]))
+			}
+		}
+		ws[i] += 2.5
+	}
+	if n := len(ws) - 1; n >= 0 {
+		ws[n] = min(ws[n], 0.4*bodyW)
+	}
+	return ws
 }
 
 // plotBox sizes a fault's plot for the room (mm) left on its page: the body
