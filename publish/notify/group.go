@@ -13,7 +13,7 @@ import (
 // otherwise put "opened" and "cleared" entries for one fault all over the
 // message, ranked by cost rather than in time order. A fault that opened in
 // the same message keeps "opened" when a later event only escalated or
-// reminded. The result is ranked by sortEvents.
+// reminded (or "re-opened"). The result is ranked by sortEvents.
 func foldEvents(evs []Event) []Event {
 	byID := map[string][]Event{}
 	var ids []string
@@ -38,8 +38,9 @@ func foldEvents(evs []Event) []Event {
 		}
 		if last.Type != EventCleared {
 			for _, e := range g {
-				if e.Type == EventOpened {
-					last.Type = EventOpened
+				if e.Type == EventOpened || e.Type == EventReopened {
+					last.Type = e.Type
+					break
 				}
 			}
 		}
@@ -69,7 +70,7 @@ func (c *Config) subject(site string, evs []Event) string {
 		counts[e.Type]++
 	}
 	var parts []string
-	for _, t := range []EventType{EventOpened, EventUnsnoozed, EventEscalated, EventReminder, EventDigest, EventCleared} {
+	for _, t := range []EventType{EventOpened, EventReopened, EventUnsnoozed, EventEscalated, EventReminder, EventDigest, EventCleared} {
 		if counts[t] > 0 {
 			parts = append(parts, fmt.Sprintf("%d %s", counts[t], t))
 		}

@@ -24,6 +24,7 @@ type EventType string
 // Event types.
 const (
 	EventOpened    EventType = "opened"
+	EventReopened  EventType = "re-opened" // opened again after it was mailed about and cleared
 	EventCleared   EventType = "cleared"
 	EventReminder  EventType = "still open"
 	EventDigest    EventType = "open"

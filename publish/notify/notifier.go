@@ -36,6 +36,13 @@ type recorder interface {
 	RecordNotification(ctx context.Context, n store.Notification) error
 }
 
+// notificationLister is implemented by queues that can say what was sent
+// about a fault (*store.Store); the notifier then tells a fault opening
+// again from one opening for the first time.
+type notificationLister interface {
+	Notifications(ctx context.Context, faultID string) ([]store.Notification, error)
+}
+
 // Notifier turns fault transitions into grouped, durable, deduplicated e-mail.
 type Notifier struct {
 	cfg    Config
@@ -256,6 +263,7 @@ func (n *Notifier) Flush(ctx context.Context) error {
 		keys = append(keys, it.Key)
 	}
 	sort.Strings(keys)
+	n.markReopened(ctx, evs)
 	for _, r := range n.cfg.Routes {
 		if r.Digest {
 			continue
@@ -280,6 +288,37 @@ func (n *Notifier) Flush(ctx context.Context) error {
 		}
 	}
 	return nil
+}
+
+// markReopened turns "opened" into "re-opened" for a fault that was mailed
+// about before: a message went out only while an earlier opening of it was
+// open or as it cleared, so the operator has seen this fault come and go.
+// Without a notification record (a queue that keeps none, or an error) the
+// event stays "opened".
+func (n *Notifier) markReopened(ctx context.Context, evs []Event) {
+	nl, ok := n.q.(notificationLister)
+	if !ok {
+		return
+	}
+	seen := map[string]bool{}
+	for i := range evs {
+		if evs[i].Type != EventOpened {
+			continue
+		}
+		id := evs[i].T.FaultID
+		before, done := seen[id]
+		if !done {
+			recs, err := nl.Notifications(ctx, id)
+			if err != nil {
+				n.log.Warn("notify: notifications of a fault not read; mailed as opened", "fault", id, "err", err)
+			}
+			before = err == nil && len(recs) > 0
+			seen[id] = before
+		}
+		if before {
+			evs[i].Type = EventReopened
+		}
+	}
 }
 
 func (n *Notifier) queueMail(ctx context.Context, r Route, k, subj string, evs []Event, now time.Time) error {

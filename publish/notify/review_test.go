@@ -15,6 +15,7 @@ import (
 
 	"risewatch/fdd"
 	"risewatch/rules"
+	"risewatch/store"
 )
 
 // quietNotifier is a notifier on an in-memory queue with a recording sender.
@@ -334,5 +335,46 @@ func TestAdvisoryBeforeTheChecks(t *testing.T) {
 		if strings.Count(body, "advisory only") != 1 {
 			t.Errorf("%s part: advisory printed %d times, want once", name, strings.Count(body, "advisory only"))
 		}
+	}
+}
+
+// TestReopenedFaultSaysSo: a fault that opens again after the operator was
+// mailed about it (and its clearing) is "re-opened", not a new "opened", so
+// a recurring fault is recognised; the store's notification records say
+// what was mailed. A first opening stays "opened".
+func TestReopenedFaultSaysSo(t *testing.T) {
+	ctx := context.Background()
+	st, err := store.Open(ctx, t.TempDir(), store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st.Close()
+	clk := &clock{t: time.Now()} // the store stamps queued items with the wall clock
+	rs := &recSender{}
+	n := New(testConfig(), "Larkspur Commons", st, rs, clk.now, slog.New(slog.NewTextHandler(io.Discard, nil)))
+	tr := leak("VAV-3-04", clk.now())
+	other := leak("VAV-3-05", clk.now())
+	sendAll(t, n, clk, []rules.Transition{tr})
+	cl := tr
+	cl.From, cl.To, cl.At = rules.StateOpen, rules.StateClear, clk.now()
+	sendAll(t, n, clk, []rules.Transition{cl})
+	again := tr
+	again.At, again.Since = clk.now(), clk.now().Add(-time.Hour)
+	sendAll(t, n, clk, []rules.Transition{again})
+	other.At = clk.now()
+	sendAll(t, n, clk, []rules.Transition{other})
+	var subjects []string
+	for _, m := range rs.mails {
+		s, _ := mailText(t, m)
+		subjects = append(subjects, s)
+	}
+	want := []string{
+		"[risewatch] VAV-3-04 opened: leaking-valve",
+		"[risewatch] VAV-3-04 cleared: leaking-valve",
+		"[risewatch] VAV-3-04 re-opened: leaking-valve",
+		"[risewatch] VAV-3-05 opened: leaking-valve",
+	}
+	if strings.Join(subjects, "\n") != strings.Join(want, "\n") {
+		t.Errorf("subjects\n%s\nwant\n%s", strings.Join(subjects, "\n"), strings.Join(want, "\n"))
 	}
 }
