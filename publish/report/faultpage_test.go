@@ -161,3 +161,43 @@ func TestPDFNoTextPastMargins(t *testing.T) {
 		}
 	}
 }
+
+// TestPDFNumberKeepsItsUnit: no printed line ends between a number and its
+// unit ("5" / "°F (3 K)"), or between a currency code or "±" and its
+// number, in a paragraph or a table's wrapped column, whatever the line
+// lengths; text that is not a quantity still wraps.
+func TestPDFNumberKeepsItsUnit(t *testing.T) {
+	pdftotext := testenv.LookTool(t, "pdftotext", "apt-get install poppler-utils")
+	var msg []string
+	for i := 0; i < 60; i++ {
+		q := []string{"5 °F (3 K)", "20.4 MBH (5.98 kW)", "USD 12.40", "± 3.0 °F", "61 %", "584 cfm (275.6 L/s)", "2.3 h"}[i%7]
+		msg = append(msg, strings.Repeat("w", 1+i%9), q)
+	}
+	for _, ip := range []bool{true, false} {
+		in := testInput()
+		in.IP, in.Series = ip, nil
+		in.Open[0].Message, in.Open[0].MessageIP = strings.Join(msg, " "), strings.Join(msg, " ")
+		in.Opened = []rules.Transition{in.Open[0]}
+		lines := 0
+		for _, page := range pdfPages(t, pdftotext, in) {
+			for _, l := range strings.Split(page, "\n") {
+				f := strings.Fields(l)
+				if len(f) == 0 || !strings.Contains(l, "www") {
+					continue
+				}
+				lines++
+				first, last := f[0], f[len(f)-1]
+				switch strings.TrimRight(first, ")") {
+				case "°F", "K", "MBH", "kW", "%", "cfm", "L/s", "h":
+					t.Errorf("ip=%v: a line starts with the unit %q: %q", ip, first, l)
+				}
+				if last == "USD" || last == "±" {
+					t.Errorf("ip=%v: a line ends with %q: %q", ip, last, l)
+				}
+			}
+		}
+		if lines < 20 {
+			t.Fatalf("ip=%v: the long message gave only %d lines", ip, lines)
+		}
+	}
+}

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"fmt"
 	"io"
+	"regexp"
 	"strings"
 
 	"github.com/go-pdf/fpdf"
@@ -23,7 +24,10 @@ func WritePDF(w io.Writer, in Input) error {
 	pdf.SetCreator("risewatch", true)
 	pdf.SetAutoPageBreak(true, 15)
 	pdf.AliasNbPages("{nb}")
-	tr := pdf.UnicodeTranslatorFromDescriptor("") // cp1252 covers °, ±, ³ and –
+	cp1252 := pdf.UnicodeTranslatorFromDescriptor("") // cp1252 covers °, ±, ³, – and the no-break space
+	// Every text goes through keepUnits, so no line ends between a number
+	// and its unit ("5" / "°F (3 K)") or its currency.
+	tr := func(s string) string { return cp1252(keepUnits(s)) }
 	loc := in.loc()
 	siteName := "site"
 	if in.Site != nil && in.Site.Name != "" {
@@ -85,7 +89,7 @@ func WritePDF(w io.Writer, in Input) error {
 			for i := range header {
 				txt := ""
 				if i < len(row) {
-					txt = row[i]
+					txt = keepUnits(row[i])
 				}
 				if i == len(header)-1 {
 					cells[r][i] = wrapCell(txt, widths[i]-1.5, width)
@@ -102,7 +106,7 @@ func WritePDF(w io.Writer, in Input) error {
 		heads := make([][]string, len(header))
 		headH := minHeadH
 		for i, h := range header {
-			heads[i] = wrapCell(h, widths[i]-1.5, width)
+			heads[i] = wrapCell(keepUnits(h), widths[i]-1.5, width)
 			headH = max(headH, float64(len(heads[i]))*lineH+padH)
 		}
 		pdf.SetFont("Helvetica", "", 8.5)
@@ -350,6 +354,23 @@ func orDash(s string) string {
 	return s
 }
 
+// unitAfter matches a number and the unit after it, and unitBefore a
+// currency code or "±" and the number after it, each pair joined by one
+// space (the unit followed by the end of a word).
+var (
+	unitAfter  = regexp.MustCompile(`(\d) (°F|°C|K|%|kW|kWh|MBH|therm|ton-h|cfm|L/s|gpm|in\.?|mm|Pa|kPa|psi|h|min|FPI)([\s).,;:]|$)`)
+	unitBefore = regexp.MustCompile(`(±|\b[A-Z]{3}) (\d)`)
+)
+
+// keepUnits joins each number to its unit, and a currency code or "±" to
+// the number after it, with a no-break space, so that a line never ends
+// between the two halves of one quantity (typesetting practice).
+func keepUnits(s string) string {
+	const nbsp = "\u00a0"
+	s = unitAfter.ReplaceAllString(s, "${1}"+nbsp+"${2}${3}")
+	return unitBefore.ReplaceAllString(s, "${1}"+nbsp+"${2}")
+}
+
 // fitCell trims txt to the width w (mm) that width measures, so a table's
 // columns stay aligned: whole characters come off the end (never part of a
 // multi-byte one, such as the ° of a temperature) and an ellipsis marks the
@@ -366,12 +387,14 @@ func fitCell(txt string, w float64, width func(string) float64) string {
 }
 
 // wrapCell breaks txt into lines no wider than w (width measures a
-// string), at spaces where it can; a word wider than w on its own is cut
+// string), at spaces (not no-break spaces) where it can; a word wider than w on its own is cut
 // into pieces at whole characters. Runs of spaces collapse to one.
 func wrapCell(txt string, w float64, width func(string) float64) []string {
 	var lines []string
 	line := ""
-	for _, word := range strings.Fields(txt) {
+	// Break at ASCII spaces only: a no-break space (keepUnits) holds a
+	// number to its unit.
+	for _, word := range strings.FieldsFunc(txt, func(r rune) bool { return r == ' ' || r == '\t' || r == '\n' || r == '\r' }) {
 		if line != "" && width(line+" "+word) <= w {
 			line += " " + word
 			continue
