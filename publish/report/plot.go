@@ -67,7 +67,7 @@ func weekPanels(pts []Point, ip bool, title string, loc *time.Location, from, to
 		}
 	}
 	rise, cmd = plot.New(), plot.New()
-	rise.Title.Text = title + ": air temperature rise and valve command"
+	rise.Title.Text = title + ": air temperature rise and valve command, hourly means"
 	rise.Y.Label.Text = "air temperature rise, " + unit
 	cmd.Y.Label.Text = "valve command, %"
 	cmd.X.Label.Text = "day, site time"

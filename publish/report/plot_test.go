@@ -37,7 +37,8 @@ func TestSegmentsBreakAtGaps(t *testing.T) {
 
 // TestWeekPanelsValveOnItsOwnAxis: the valve command is drawn on an axis
 // of its own, 0-100 %, under the rise panel whose axis names the report's
-// unit (°F for IP, K for SI); both panels span the report's whole week,
+// unit (°F for IP, K for SI) and whose title says the points are hourly
+// means; both panels span the report's whole week,
 // even when only its first day has data.
 func TestWeekPanelsValveOnItsOwnAxis(t *testing.T) {
 	in := testInput()
@@ -48,6 +49,11 @@ func TestWeekPanelsValveOnItsOwnAxis(t *testing.T) {
 			t.Fatal(err)
 		}
 		unit := map[bool]string{true: "°F", false: "K"}[ip]
+		// The points are hourly means: a valve hunting within the hour
+		// does not show, and the title says so.
+		if !strings.Contains(rise.Title.Text, "hourly means") {
+			t.Errorf("ip=%v: title %q does not say the points are hourly means", ip, rise.Title.Text)
+		}
 		if !strings.HasSuffix(rise.Y.Label.Text, ", "+unit) || strings.Contains(rise.Y.Label.Text, "valve") {
 			t.Errorf("ip=%v: rise axis %q, want it in %s and for the rise alone", ip, rise.Y.Label.Text, unit)
 		}
