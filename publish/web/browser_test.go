@@ -120,6 +120,16 @@ func TestNarrowScreen(t *testing.T) {
 		if wide > 0 {
 			t.Errorf("%s: page %d px wider than the 400 px window", p, wide)
 		}
+		// A table may scroll inside its box, but these tables fit.
+		cut, err := chromedp.Run(ctx, chromedp.Evaluate[string](`["faults", "coil", "baseline", "evidence", "sources"].
+			map(id => document.getElementById(id)).filter(e => e && e.parentElement.scrollWidth > e.parentElement.clientWidth).
+			map(e => e.id).join(" ")`))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if cut != "" {
+			t.Errorf("%s: tables wider than the window: %s", p, cut)
+		}
 		scale, err := chromedp.Run(ctx, chromedp.Evaluate[float64](`Math.min(1, ...[...document.querySelectorAll("svg.chart")].
 			filter(e => e.getBoundingClientRect().width > 0).map(e => e.getBoundingClientRect().width / e.viewBox.baseVal.width))`))
 		if err != nil {

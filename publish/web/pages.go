@@ -32,8 +32,10 @@ form{display:inline-block;background:#fff;padding:.6em .9em;border-radius:6px;bo
 .scroll{overflow-x:auto;max-width:100%}svg.chart{display:block;max-width:100%;height:auto}svg.narrow{display:none}
 figure.chart{margin:.6em 0}figure.chart figcaption{font-weight:600;font-size:.9em;margin-left:52px}
 @media (max-width:640px){svg.wide{display:none}svg.narrow{display:block}figure.chart figcaption{margin-left:0}
-#faults tr:first-child{display:none}#faults tr{display:block;border-bottom:1px solid #d5dae1;padding:.3em 0}
-#faults td{display:inline-block;border:0;padding:.1em .6em}#faults td[data-l]{display:block}#faults td[data-l]::before{content:attr(data-l) ": ";color:#6b7685}}
+table.stack tr:first-child{display:none}table.stack tr{display:block;border-bottom:1px solid #d5dae1;padding:.3em 0}
+table.stack td{display:inline-block;border:0;padding:.1em .6em}table.stack td[data-l]{display:block}table.stack td[data-l]::before{content:attr(data-l) ": ";color:#6b7685}
+#coil tr{display:grid;grid-template-columns:minmax(7em,auto) 1fr}}
+td a,#faults td[data-l="Since"],#faults td[data-l="Cost / week"]{white-space:nowrap}
 .error{background:#fbe0dd;color:#7a1712;padding:.6em 1em;border-radius:6px;font-weight:600}
 </style></head><body>
 <header><b>risewatch</b><a href="/">Overview</a><a href="/sources">Collectors</a><span class="muted" style="color:#9fb6cc">{{.SiteName}} · {{.Now}}</span></header><main>{{end}}
@@ -49,7 +51,7 @@ const overviewTmpl = `{{template "top" .}}
 <div class="card"><div class="n">{{.WeeklyCost}}</div>estimated cost / week</div>
 </div>
 <h2>Faults, highest weekly cost first</h2>
-{{if .Faults}}<div class="scroll"><table id="faults"><tr><th>Entity</th><th>Fault</th><th>State</th><th>Since</th><th>Evidence</th><th>Cost / week</th><th>Confidence</th></tr>
+{{if .Faults}}<div class="scroll"><table id="faults" class="stack"><tr><th>Entity</th><th>Fault</th><th>State</th><th>Since</th><th>Evidence</th><th>Cost / week</th><th>Confidence</th></tr>
 {{range .Faults}}<tr><td>{{if .Link}}<a href="{{.Link}}">{{.Entity}}</a>{{else}}{{.Entity}}{{end}}</td><td>{{.Kind}}</td><td><span class="pill {{.State}}">{{.State}}</span></td><td data-l="Since">{{.Since}}</td><td data-l="Evidence">{{.Evidence}}</td><td data-l="Cost / week">{{.Cost}}</td><td data-l="Confidence">{{.Confidence}}</td></tr>
 {{end}}</table></div>{{else}}<p>No open faults.</p>{{end}}
 <h2>Hot-water loops</h2>
@@ -96,8 +98,8 @@ const formsTmpl = `{{define "forms"}}<form method="post" action="/faults/{{.IDPa
 const actionTmpl = `{{template "top" .}}<h1>{{.Heading}}</h1>{{if .Error}}<p class="error" id="error">{{.Error}}</p>{{end}}{{if .Text}}<p>{{.Text}}</p>{{end}}{{if .Fault}}{{template "forms" .Fault}}{{end}}<p><a href="{{.Back}}">{{.BackText}}</a></p>{{template "bottom" .}}`
 
 const sourcesTmpl = `{{template "top" .}}<h1>Collectors</h1>
-<div class="scroll"><table id="sources"><tr><th>Source</th><th>Kind</th><th>Last success</th><th>Reads</th><th>Errors</th><th>Points (stale)</th><th>Last error</th></tr>
-{{range .Sources}}<tr><td>{{.Name}}</td><td>{{.Kind}}</td><td class="{{.Class}}">{{.Last}}</td><td>{{.Reads}}</td><td>{{.Errors}}</td><td>{{.Points}}</td><td>{{.LastError}}</td></tr>{{else}}<tr><td colspan="7">No sources configured.</td></tr>{{end}}</table></div>
+<div class="scroll"><table id="sources" class="stack"><tr><th>Source</th><th>Kind</th><th>Last success</th><th>Reads</th><th>Errors</th><th>Points (stale)</th><th>Last error</th></tr>
+{{range .Sources}}<tr><td>{{.Name}}</td><td>{{.Kind}}</td><td data-l="Last success" class="{{.Class}}">{{.Last}}</td><td data-l="Reads">{{.Reads}}</td><td data-l="Errors">{{.Errors}}</td><td data-l="Points (stale)">{{.Points}}</td><td data-l="Last error">{{.LastError}}</td></tr>{{else}}<tr><td colspan="7">No sources configured.</td></tr>{{end}}</table></div>
 {{template "bottom" .}}`
 
 // Advisory is shown on every page.

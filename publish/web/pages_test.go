@@ -251,7 +251,7 @@ func TestCollectorAgeOnTheWallClock(t *testing.T) {
 	ts := httptest.NewServer(s.Handler())
 	defer ts.Close()
 	_, body := get(t, ts.Client(), ts.URL+"/sources")
-	if !strings.Contains(body, `<td class="ok">Thu 3 Dec 07:14:55 (1 min ago)</td>`) {
+	if !strings.Contains(body, `<td data-l="Last success" class="ok">Thu 3 Dec 07:14:55 (1 min ago)</td>`) {
 		t.Errorf("collector age:\n%s", body)
 	}
 	for d, want := range map[time.Duration]string{-time.Hour: "just now", 45 * time.Second: "45 s ago", 3*time.Hour + 5*time.Minute: "3 h 5 min ago",
