@@ -36,6 +36,10 @@ type Config struct {
 	IP bool `yaml:"ip_units"`
 	// Currency for costs, e.g. "USD".
 	Currency string `yaml:"-"`
+	// SiteFile is the site file's path as the server knows it, for the
+	// "risewatch ack" command printed in each alert (set by the daemon; a
+	// placeholder is printed when empty).
+	SiteFile string `yaml:"-"`
 }
 
 // SMTPConfig says how to reach the mail server.

@@ -158,7 +158,7 @@ func (c *Config) itemFor(e Event, at time.Time) itemView {
 		Confidence:   fmt.Sprintf("%.0f %%", t.Confidence*100),
 		Causes:       t.Causes,
 		Checks:       t.Checks,
-		AckCmd:       "risewatch ack --fault " + t.FaultID,
+		AckCmd:       c.ackCommand(t.FaultID),
 		Where:        strings.Join(where, ", "),
 	}
 	if t.Since.IsZero() {
@@ -183,6 +183,27 @@ func (c *Config) itemFor(e Event, at time.Time) itemView {
 		it.SnoozeURL = base + "/snooze"
 	}
 	return it
+}
+
+// ackCommand is the command that acknowledges a fault on the server, with
+// every flag "risewatch ack" requires (--config, --fault, --by), so it runs
+// once the name is filled in.
+func (c *Config) ackCommand(faultID string) string {
+	file := "SITE-FILE"
+	if c.SiteFile != "" {
+		file = shellQuote(c.SiteFile)
+	}
+	return "risewatch ack --fault " + shellQuote(faultID) + " --config " + file + ` --by "YOUR NAME"`
+}
+
+// shellQuote quotes s for a POSIX shell when it holds anything but the
+// characters of plain paths and fault IDs.
+func shellQuote(s string) string {
+	plain := s != "" && strings.Trim(s, "abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ0123456789-_./:+@%,=") == ""
+	if plain {
+		return s
+	}
+	return "'" + strings.ReplaceAll(s, "'", `'\''`) + "'"
 }
 
 func (c *Config) money(v float64) string {

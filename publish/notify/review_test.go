@@ -378,3 +378,20 @@ func TestReopenedFaultSaysSo(t *testing.T) {
 		t.Errorf("subjects\n%s\nwant\n%s", strings.Join(subjects, "\n"), strings.Join(want, "\n"))
 	}
 }
+
+// TestAckCommandHasRequiredFlags: the command printed for acknowledging on
+// the server carries every flag "risewatch ack" refuses to run without
+// (--config, --fault, --by), with the site file when the daemon gave it.
+func TestAckCommandHasRequiredFlags(t *testing.T) {
+	c := testConfig()
+	tr := leak("VAV-1-03", t0)
+	if got, want := c.itemFor(Event{Type: EventOpened, T: tr}, t0).AckCmd,
+		`risewatch ack --fault VAV-1-03/leaking-valve --config SITE-FILE --by "YOUR NAME"`; got != want {
+		t.Errorf("without a site file: %q, want %q", got, want)
+	}
+	c.SiteFile = "/etc/risewatch/Larkspur Commons.yaml"
+	got := c.itemFor(Event{Type: EventOpened, T: tr}, t0).AckCmd
+	if want := `risewatch ack --fault VAV-1-03/leaking-valve --config '/etc/risewatch/Larkspur Commons.yaml' --by "YOUR NAME"`; got != want {
+		t.Errorf("with a site file: %q, want %q", got, want)
+	}
+}
