@@ -78,7 +78,7 @@ const terminalTmpl = `{{template "top" .}}
 <h2>Baseline</h2>
 <div class="scroll"><table id="baseline">{{range .Baseline}}<tr><th>{{index . 0}}</th><td>{{index . 1}}</td></tr>{{end}}</table></div>
 <h2>Latest evidence</h2>
-<div class="scroll"><table id="evidence">{{range .Evidence}}<tr><th>{{index . 0}}</th><td>{{index . 1}}</td></tr>{{end}}</table></div>
+<div class="scroll"><table id="evidence">{{range .Evidence}}<tr><th>{{index . 0}}</th><td>{{index . 1}}</td></tr>{{else}}<tr><td>No sample analysed yet for this terminal: check its points on the <a href="/sources">collectors</a> page.</td></tr>{{end}}</table></div>
 <h2>Faults</h2>
 {{range .Open}}<div class="fault"><b>{{.Kind}}</b> <span class="pill {{.State}}">{{.State}}</span> since {{.Since}} — {{.Message}}
 {{if .Status}}<br><span class="muted">{{.Status}}</span>{{end}}

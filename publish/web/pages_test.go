@@ -301,3 +301,22 @@ func TestWeeklyCostInCents(t *testing.T) {
 		t.Error("faults not ranked by weekly cost")
 	}
 }
+
+// TestTerminalWithoutData: a terminal nothing was read for yet says so in
+// its charts and its evidence, not with empty tables.
+func TestTerminalWithoutData(t *testing.T) {
+	b := newTestBackend()
+	b.evidence = func(int) (fdd.Evidence, bool) { return fdd.Evidence{}, false }
+	b.noSeries = true
+	s, _ := New(Config{}, b, quiet())
+	ts := httptest.NewServer(s.Handler())
+	defer ts.Close()
+	code, body := get(t, ts.Client(), ts.URL+"/terminals/VAV-1-07")
+	if code != http.StatusOK || strings.Count(body, "no data yet") < 3 || !strings.Contains(body, "No sample analysed yet for this terminal") {
+		t.Errorf("terminal without data: %d\n%s", code, body)
+	}
+	_, ov := get(t, ts.Client(), ts.URL+"/")
+	if !strings.Contains(ov, `<div class="n warn">1</div>without usable data`) {
+		t.Error("overview does not count the terminal without data")
+	}
+}

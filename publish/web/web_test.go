@@ -33,6 +33,8 @@ type testBackend struct {
 	evidence func(i int) (fdd.Evidence, bool)
 	// sources, when set, replaces Sources' fixed list.
 	sources []SourceHealth
+	// noSeries makes Series return no points.
+	noSeries bool
 }
 
 func newTestBackend() *testBackend {
@@ -87,6 +89,9 @@ func (b *testBackend) Baseline(i int) (fdd.Baseline, bool) {
 	return fdd.Baseline{Terminal: "VAV-1-07", Source: "rated", UAFactor: 1, FlowFactor: 1}, true
 }
 func (b *testBackend) Series(_ context.Context, _ int, from, to time.Time) ([]Point, error) {
+	if b.noSeries {
+		return nil, nil
+	}
 	var out []Point
 	for t := from; t.Before(to); t = t.Add(time.Hour) {
 		h := float64(t.Sub(from) / time.Hour)
