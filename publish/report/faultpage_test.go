@@ -11,8 +11,10 @@ import (
 	"testing"
 	"time"
 
+	"risewatch/fdd"
 	"risewatch/internal/testenv"
 	"risewatch/rules"
+	"risewatch/site"
 )
 
 // TestEvidenceFactorBeyondModel: an apparent water flow the fit puts at
@@ -200,4 +202,43 @@ func TestPDFNumberKeepsItsUnit(t *testing.T) {
 			t.Fatalf("ip=%v: the long message gave only %d lines", ip, lines)
 		}
 	}
+}
+
+// TestLoopFaultPageNamesTheLoop: a fault of a hot-water loop (a cold loop)
+// has no box or coil: its page describes the loop, with its design supply
+// temperature in both units (82.2 °C = 180.0 °F) and the terminals it
+// serves, instead of a row of dashes for a box that does not exist.
+func TestLoopFaultPageNamesTheLoop(t *testing.T) {
+	in := testInput()
+	in.Site.Loops = []site.Loop{{ID: "HW-1", DesignSupplyC: 82.2, DesignDeltaK: 11.1}}
+	in.Site.LoopIndex = map[string]int{"HW-1": 0}
+	cold := rules.Transition{FaultID: "HW-1/cold-loop", Entity: "HW-1", EntityKind: rules.EntityLoop, Kind: fdd.KindColdLoop,
+		To: rules.StateOpen, At: in.WeekStart.Add(50 * time.Hour), Loop: "HW-1", Confidence: 0.9}
+	for _, c := range []struct {
+		ip   bool
+		want string
+	}{
+		{true, "Hot-water loop HW-1, design supply 180.0 °F (82.2 °C), design ΔT 20.0 °F (11.1 K); it serves 2 terminal(s)."},
+		{false, "Hot-water loop HW-1, design supply 82.2 °C (180.0 °F), design ΔT 11.1 K (20.0 °F); it serves 2 terminal(s)."},
+	} {
+		in.IP = c.ip
+		if got := in.placeLine(cold); !strings.Contains(got, c.want) || strings.Contains(got, "Box inlet") {
+			t.Errorf("ip=%v: %q, want %q", c.ip, got, c.want)
+		}
+	}
+	if got := in.placeLine(in.Open[0]); !strings.HasPrefix(got, "Box inlet 8 in, 1 row(s), 10 FPI") {
+		t.Errorf("terminal fault: %q", got)
+	}
+	// On the printed page too.
+	pdftotext := testenv.LookTool(t, "pdftotext", "apt-get install poppler-utils")
+	in.IP, in.Series, in.Open = false, nil, []rules.Transition{cold}
+	for _, page := range pdfPages(t, pdftotext, in) {
+		if flat := strings.Join(strings.Fields(page), " "); strings.Contains(flat, "1. HW-1 — cold-loop") {
+			if !strings.Contains(flat, "Hot-water loop HW-1, design supply 82.2 °C") || strings.Contains(flat, "Box inlet") {
+				t.Errorf("loop fault page:\n%s", flat)
+			}
+			return
+		}
+	}
+	t.Error("no page for the loop fault")
 }

@@ -214,9 +214,7 @@ func WritePDF(w io.Writer, in Input) error {
 			pdf.MultiCell(0, 5, tr(t.Title), "", "L", false)
 		}
 		para(in.statusLine(t))
-		cl := in.coilLine(t.Entity)
-		para(fmt.Sprintf("Box inlet %s, %s row(s), %s FPI, coil face %s. Zone %s. Location: %s. AHU %s, loop %s.",
-			orDash(cl[1]), orDash(cl[2]), orDash(cl[3]), orDash(cl[4]), orDash(cl[5]), orDash(cl[6]), orDash(t.AHU), orDash(t.Loop)))
+		para(in.placeLine(t))
 		if msg := t.MessageIn(in.IP); msg != "" {
 			h2("What was seen")
 			para(msg)

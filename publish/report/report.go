@@ -220,6 +220,47 @@ func (in *Input) statusLine(t rules.Transition) string {
 	return s + ". Evidence as recorded " + at(t.At) + "."
 }
 
+// placeLine says where a fault's page sends the technician: for a
+// terminal its box, coil, zone and location; for a hot-water loop or an
+// air handler (a fault of the whole system, which has no box or coil of
+// its own) its design temperatures and the terminals it serves.
+func (in *Input) placeLine(t rules.Transition) string {
+	served := func(match func(*site.Terminal) bool) int {
+		n := 0
+		if in.Site != nil {
+			for i := range in.Site.Terminals {
+				if match(&in.Site.Terminals[i]) {
+					n++
+				}
+			}
+		}
+		return n
+	}
+	switch {
+	case t.EntityKind == rules.EntityLoop:
+		s := "Hot-water loop " + t.Entity
+		if in.Site != nil {
+			if i, ok := in.Site.LoopIndex[t.Entity]; ok && i < len(in.Site.Loops) {
+				l := &in.Site.Loops[i]
+				if l.DesignSupplyC > 0 {
+					s += ", design supply " + dual(in.IP, units.FormatTemp, l.DesignSupplyC)
+				}
+				if l.DesignDeltaK > 0 {
+					s += ", design ΔT " + dual(in.IP, units.FormatTempDiff, l.DesignDeltaK)
+				}
+			}
+		}
+		return fmt.Sprintf("%s; it serves %d terminal(s). The fault is the loop's, not one box's.",
+			s, served(func(tm *site.Terminal) bool { return tm.Loop == t.Entity }))
+	case t.EntityKind == rules.EntityAHU:
+		return fmt.Sprintf("Air handler %s; it serves %d terminal(s). The fault is the air handler's, not one box's.",
+			t.Entity, served(func(tm *site.Terminal) bool { return tm.AHU == t.Entity }))
+	}
+	cl := in.coilLine(t.Entity)
+	return fmt.Sprintf("Box inlet %s, %s row(s), %s FPI, coil face %s. Zone %s. Location: %s. AHU %s, loop %s.",
+		orDash(cl[1]), orDash(cl[2]), orDash(cl[3]), orDash(cl[4]), orDash(cl[5]), orDash(cl[6]), orDash(t.AHU), orDash(t.Loop))
+}
+
 // coilLine is the ladder data of a terminal: box, inlet, rows, FPI, face, location.
 func (in *Input) coilLine(id string) []string {
 	tm := in.terminal(id)
