@@ -242,3 +242,31 @@ func TestLoopFaultPageNamesTheLoop(t *testing.T) {
 	}
 	t.Error("no page for the loop fault")
 }
+
+// TestPDFContinuedTablesNameTheirSection: a page that a table continues
+// on starts with the table's heading marked "(continued)", so a printed
+// page on its own says which list it is.
+func TestPDFContinuedTablesNameTheirSection(t *testing.T) {
+	pdftotext := testenv.LookTool(t, "pdftotext", "apt-get install poppler-utils")
+	in := testInput()
+	in.Series = nil
+	sec := Section{Title: "Low-temperature hot-water readiness at 120.0 °F supply", Header: []string{"Terminal", "Status"}}
+	for i := 0; i < 120; i++ {
+		sec.Rows = append(sec.Rows, []string{fmt.Sprintf("VAV-Q-%03d", i), "short"})
+	}
+	in.Sections = []Section{sec}
+	pages := pdfPages(t, pdftotext, in)
+	cont := 0
+	for _, p := range pages {
+		flat := strings.Join(strings.Fields(p), " ")
+		if strings.Contains(flat, "VAV-Q-") && !strings.Contains(flat, "VAV-Q-000") {
+			cont++
+			if !strings.HasPrefix(flat, sec.Title+" (continued) Terminal Status") {
+				t.Errorf("continuation page does not start with the section heading: %.120s", flat)
+			}
+		}
+	}
+	if cont == 0 {
+		t.Fatal("the 120-row table did not continue on another page")
+	}
+}

@@ -53,11 +53,16 @@ func WritePDF(w io.Writer, in Input) error {
 		}
 	}
 
+	// heading is the latest h1 or h2: a table that continues on a new page
+	// repeats it, marked "(continued)", above its header row.
+	heading := ""
 	h1 := func(s string) {
+		heading = s
 		pdf.SetFont("Helvetica", "B", 15)
 		pdf.MultiCell(0, 8, tr(s), "", "L", false)
 	}
 	h2 := func(s string) {
+		heading = s
 		room(2 + 6 + 2*4.6) // the heading and two lines under it
 		pdf.Ln(2)
 		pdf.SetFont("Helvetica", "B", 12)
@@ -134,6 +139,10 @@ func WritePDF(w io.Writer, in Input) error {
 		for r := range rows {
 			if pdf.GetY()+heights[r] > bottom {
 				pdf.AddPage()
+				if heading != "" {
+					pdf.SetFont("Helvetica", "B", 10)
+					pdf.MultiCell(0, 5, tr(heading+" (continued)"), "", "L", false)
+				}
 				head()
 			}
 			x, y := lm, pdf.GetY()
