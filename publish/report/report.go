@@ -296,13 +296,32 @@ func (in *Input) coilLine(id string) []string {
 // ("\ufeffrank") and should trim it.
 const csvBOM = "\ufeff"
 
-// csvHeader names the work list's columns: every quantity's unit is in its
-// name, and every number cell holds a bare number.
+// csvHeader names the work list's columns, SI first in each SI/IP pair:
+// every quantity's unit is in its name, and every number cell holds a bare
+// number.
 func csvHeader(cur string) []string {
 	return []string{"rank", "terminal", "fault", "state", "severity", "since", "weekly_cost_" + strings.ToLower(cur),
 		"weekly_heat_kwh", "weekly_heat_therm", "weekly_cooling_kwh", "weekly_cooling_ton_h", "confidence_pct",
 		"observed_rise_k", "observed_rise_f", "expected_rise_k", "expected_rise_f", "valve_pct", "message", "likely_causes", "checks",
-		"inlet_in", "oversized_coil", "rows", "fpi", "face_in", "face_mm", "zone", "location", "ahu", "loop", "advisory"}
+		"inlet_in", "oversized_coil", "rows", "fpi", "face_mm", "face_in", "zone", "location", "ahu", "loop", "advisory"}
+}
+
+// csvPairs are the columns of csvHeader that give one quantity in SI then
+// IP units.
+var csvPairs = [][2]string{{"weekly_heat_kwh", "weekly_heat_therm"}, {"weekly_cooling_kwh", "weekly_cooling_ton_h"},
+	{"observed_rise_k", "observed_rise_f"}, {"expected_rise_k", "expected_rise_f"}, {"face_mm", "face_in"}}
+
+// ipFirst swaps each SI/IP pair of columns (by the canonical header) so the
+// IP one comes first, as the report's ip_units setting asks.
+func ipFirst(header, cells []string) {
+	at := make(map[string]int, len(header))
+	for i, h := range header {
+		at[h] = i
+	}
+	for _, p := range csvPairs {
+		i, j := at[p[0]], at[p[1]]
+		cells[i], cells[j] = cells[j], cells[i]
+	}
 }
 
 // numbered joins items as "1. first; 2. second": an item may hold a
@@ -317,7 +336,8 @@ func numbered(items []string) string {
 }
 
 // WriteCSV writes the work list: a header row, then one row per open fault,
-// highest cost first. It opens in a spreadsheet as it is: UTF-8 with a byte
+// highest cost first; each quantity in SI and IP columns side by side, the
+// IP one first when the report is in IP units. It opens in a spreadsheet as it is: UTF-8 with a byte
 // order mark, the header on the first line, numbers without units (the
 // units are in the column names) and the advisory, with its hot-water
 // safety warning, in the last column of every row, so it stays with a row
@@ -327,7 +347,12 @@ func WriteCSV(w io.Writer, in Input) error {
 		return fmt.Errorf("report: csv: %w", err)
 	}
 	cw := csv.NewWriter(w)
-	if err := cw.Write(csvHeader(in.currency())); err != nil {
+	canon := csvHeader(in.currency())
+	header := append([]string(nil), canon...)
+	if in.IP {
+		ipFirst(canon, header)
+	}
+	if err := cw.Write(header); err != nil {
 		return fmt.Errorf("report: csv: %w", err)
 	}
 	loc := in.loc()
@@ -368,7 +393,10 @@ func WriteCSV(w io.Writer, in Input) error {
 			num(im.WeeklyCoolKWh, 1), num(im.WeeklyCoolKWh/units.KWhPerTonHour, 2), num(t.Confidence*100, 0),
 			num(ev.ObservedRiseK, 2), num(units.DeltaKToF(ev.ObservedRiseK), 2),
 			num(ev.ExpectedRiseK, 2), num(units.DeltaKToF(ev.ExpectedRiseK), 2), num(ev.ValveFrac*100, 0), t.MessageIn(in.IP),
-			numbered(t.Causes), numbered(t.Checks), inlet, oversized, rows, fpi, faceIn, faceMM, cl[5], cl[6], t.AHU, t.Loop, Advisory}
+			numbered(t.Causes), numbered(t.Checks), inlet, oversized, rows, fpi, faceMM, faceIn, cl[5], cl[6], t.AHU, t.Loop, Advisory}
+		if in.IP {
+			ipFirst(canon, row)
+		}
 		if err := cw.Write(row); err != nil {
 			return fmt.Errorf("report: csv: %w", err)
 		}

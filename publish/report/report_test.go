@@ -493,3 +493,34 @@ func TestPDFMessageInReportUnits(t *testing.T) {
 		}
 	}
 }
+
+// TestCSVUnitOrderFollowsReport: each quantity's SI and IP columns stand
+// side by side, the IP one first in an IP report and the SI one first
+// otherwise, with the values under their own names (9 K = 16.2 °F).
+func TestCSVUnitOrderFollowsReport(t *testing.T) {
+	for _, ip := range []bool{true, false} {
+		in := testInput()
+		in.IP = ip
+		var buf bytes.Buffer
+		if err := WriteCSV(&buf, in); err != nil {
+			t.Fatal(err)
+		}
+		recs, err := csv.NewReader(strings.NewReader(strings.TrimPrefix(buf.String(), "\ufeff"))).ReadAll()
+		if err != nil {
+			t.Fatal(err)
+		}
+		col := map[string]int{}
+		for i, h := range recs[0] {
+			col[h] = i
+		}
+		for _, p := range csvPairs {
+			si, imp := col[p[0]], col[p[1]]
+			if ip && imp != si-1 || !ip && imp != si+1 {
+				t.Errorf("ip=%v: %s at %d, %s at %d", ip, p[0], si, p[1], imp)
+			}
+		}
+		if recs[1][col["observed_rise_k"]] != "9.00" || recs[1][col["observed_rise_f"]] != "16.20" || recs[1][col["face_in"]] != "15.0 x 12.5" {
+			t.Errorf("ip=%v: values not under their names: %v", ip, recs[1])
+		}
+	}
+}
