@@ -270,3 +270,26 @@ func TestPDFContinuedTablesNameTheirSection(t *testing.T) {
 		t.Fatal("the 120-row table did not continue on another page")
 	}
 }
+
+// TestPDFLongTerminalIDWhole: a terminal ID longer than its table column
+// wraps (after its hyphens) instead of being cut, in the summary and in the
+// coil-data table: "VAV-NORTHWING-2-107" and "...-2-108" stay told apart.
+func TestPDFLongTerminalIDWhole(t *testing.T) {
+	pdftotext := testenv.LookTool(t, "pdftotext", "apt-get install poppler-utils")
+	for _, ip := range []bool{true, false} {
+		in := testInput()
+		in.IP, in.Series = ip, nil
+		const id = "VAV-NORTHWING-2-107"
+		in.Site.Terminals[1].ID = id
+		in.Site.TerminalIndex = map[string]int{"VAV-1-03": 0, id: 1}
+		in.Open[1].Entity, in.Opened = id, nil
+		for _, p := range pdfPages(t, pdftotext, in) {
+			if !strings.Contains(p, "Open faults, highest weekly cost first") && !strings.Contains(p, "coil data") {
+				continue
+			}
+			if strings.Contains(p, "…") || !strings.Contains(p, "NORTHWING-") || !strings.Contains(p, "2-107") {
+				t.Errorf("ip=%v: terminal ID cut or lost:\n%s", ip, p)
+			}
+		}
+	}
+}

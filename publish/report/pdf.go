@@ -79,9 +79,10 @@ func WritePDF(w io.Writer, in Input) error {
 		pdf.MultiCell(0, 4.2, tr(s), "1", "L", true)
 		pdf.Ln(1)
 	}
-	// table draws a ruled table whose last column wraps (it holds the
-	// free text: a check, a note, a location); the other cells are cut to
-	// their column (fitCell). A row never splits across pages, and a page
+	// table draws a ruled table whose cells wrap within their columns
+	// (wrapCell): the free text of the last one (a check, a note, a
+	// location) and a terminal ID or other cell too long for its column
+	// alike, so nothing is cut. A row never splits across pages, and a page
 	// the table continues on starts with the header row again.
 	table := func(header []string, widths []float64, rows [][]string) {
 		const minHeadH, lineH, padH = 6.0, 3.8, 1.6
@@ -96,11 +97,7 @@ func WritePDF(w io.Writer, in Input) error {
 				if i < len(row) {
 					txt = keepUnits(row[i])
 				}
-				if i == len(header)-1 {
-					cells[r][i] = wrapCell(txt, widths[i]-1.5, width)
-				} else {
-					cells[r][i] = []string{fitCell(txt, widths[i]-1.5, width)}
-				}
+				cells[r][i] = wrapCell(txt, widths[i]-1.5, width)
 				n = max(n, len(cells[r][i]))
 			}
 			heights[r] = float64(n)*lineH + padH
@@ -378,21 +375,6 @@ func keepUnits(s string) string {
 	return unitBefore.ReplaceAllString(s, "${1}"+nbsp+"${2}")
 }
 
-// fitCell trims txt to the width w (mm) that width measures, so a table's
-// columns stay aligned: whole characters come off the end (never part of a
-// multi-byte one, such as the ° of a temperature) and an ellipsis marks the
-// cut, so a reader knows the text goes on (the fault's page has it whole).
-func fitCell(txt string, w float64, width func(string) float64) string {
-	if width(txt) <= w {
-		return txt
-	}
-	r := []rune(txt)
-	for len(r) > 0 && width(string(r)+"…") > w {
-		r = r[:len(r)-1]
-	}
-	return strings.TrimRight(string(r), " ,;:") + "…"
-}
-
 // wrapCell breaks txt into lines no wider than w (width measures a
 // string), at spaces (not no-break spaces) where it can; a word wider than w on its own is cut
 // into pieces at whole characters. Runs of spaces collapse to one.
@@ -415,6 +397,14 @@ func wrapCell(txt string, w float64, width func(string) float64) []string {
 			k := 1
 			for k < len(r) && width(string(r[:k+1])) <= w {
 				k++
+			}
+			// An identifier ("VAV-NORTH-2-107") breaks after a hyphen
+			// or slash where it can, not in the middle of a number.
+			for j := k - 1; j > 1 && k < len(r); j-- {
+				if r[j-1] == '-' || r[j-1] == '/' {
+					k = j
+					break
+				}
 			}
 			lines = append(lines, string(r[:k]))
 			word = string(r[k:])
