@@ -293,3 +293,25 @@ func TestPDFLongTerminalIDWhole(t *testing.T) {
 		}
 	}
 }
+
+// TestPDFSummaryCostsWithCurrency: the summary table writes each weekly
+// cost as the dashboard and e-mail do, currency first ("USD 14.20").
+func TestPDFSummaryCostsWithCurrency(t *testing.T) {
+	pdftotext := testenv.LookTool(t, "pdftotext", "apt-get install poppler-utils")
+	in := testInput()
+	in.Series = nil
+	first, rows := pdfPages(t, pdftotext, in)[0], 0
+	for _, l := range strings.Split(first, "\n") {
+		f := strings.Fields(l)
+		if len(f) > 2 && (f[1] == "VAV-1-07" || f[1] == "VAV-1-03") {
+			rows++
+			want := map[string]string{"VAV-1-07": "USD 14.20", "VAV-1-03": "USD 5.93"}[f[1]]
+			if !strings.Contains(strings.Join(f, " "), want) {
+				t.Errorf("summary row %q lacks %q", l, want)
+			}
+		}
+	}
+	if rows != 2 {
+		t.Errorf("%d summary rows found, want 2:\n%s", rows, first)
+	}
+}

@@ -189,12 +189,12 @@ func WritePDF(w io.Writer, in Input) error {
 			since = t.At
 		}
 		rows = append(rows, []string{fmt.Sprint(i + 1), t.Entity, t.Kind.String(), since.In(loc).Format("Jan 2 15:04"),
-			fmt.Sprintf("%.2f", t.Impact.WeeklyCost), fmt.Sprintf("%.0f %%", t.Confidence*100), firstOr(t.Checks, "")})
+			fmt.Sprintf("%s %.2f", in.currency(), t.Impact.WeeklyCost), fmt.Sprintf("%.0f %%", t.Confidence*100), firstOr(t.Checks, "")})
 	}
 	if len(rows) == 0 {
 		para("No open faults.")
 	} else {
-		table([]string{"#", "Terminal", "Fault", "Since", "Cost/wk " + in.currency(), "Conf.", "Check first"}, scale([]float64{6, 18, 22, 20, 18, 11, 60}), rows)
+		table([]string{"#", "Terminal", "Fault", "Since", "Cost/week", "Conf.", "Check first"}, scale([]float64{6, 18, 22, 20, 18, 11, 60}), rows)
 	}
 	listChanges := func(title string, ts []rules.Transition) {
 		h2(title)
