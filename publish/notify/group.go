@@ -55,15 +55,16 @@ func foldEvents(evs []Event) []Event {
 // message.
 const maxSubject = 110
 
-// subject summarises a message in one line: for one fault its entity, what
-// happened and its kind; for several, the site, the count of faults per
+// subject summarises a message in one line: the site (one mailbox may get
+// several sites' alerts, Route.Sites), then for one fault its entity, kind
+// and what happened; for several, the count of faults per
 // event type and the fault that leads the message (the dearest one needing
 // attention), so an inbox list shows what to open first. evs are folded
 // and ranked (foldEvents).
 func (c *Config) subject(site string, evs []Event) string {
 	if len(evs) == 1 {
 		e := evs[0]
-		return clip(fmt.Sprintf("[risewatch] %s %s: %s", e.T.Entity, e.Type, e.T.Kind))
+		return clip(fmt.Sprintf("[risewatch] %s: %s %s %s", clipTo(site, maxSubjectSite), e.T.Entity, e.T.Kind, e.Type))
 	}
 	counts := map[EventType]int{}
 	for _, e := range evs {

@@ -73,8 +73,8 @@ func TestSnoozeEndAndEscalationAreMailed(t *testing.T) {
 		from, to rules.State
 		want     string // in the subject; "" = no message
 	}{
-		{"snooze ended", rules.StateSuppressed, rules.StateOpen, "VAV-1-03 open after snooze: leaking-valve"},
-		{"escalated", rules.StateOpen, rules.StateOpen, "VAV-1-03 more urgent: leaking-valve"},
+		{"snooze ended", rules.StateSuppressed, rules.StateOpen, "Larkspur Commons: VAV-1-03 leaking-valve open after snooze"},
+		{"escalated", rules.StateOpen, rules.StateOpen, "Larkspur Commons: VAV-1-03 leaking-valve more urgent"},
 		{"acknowledged", rules.StateOpen, rules.StateAcked, ""},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
@@ -369,10 +369,10 @@ func TestReopenedFaultSaysSo(t *testing.T) {
 		subjects = append(subjects, s)
 	}
 	want := []string{
-		"[risewatch] VAV-3-04 opened: leaking-valve",
-		"[risewatch] VAV-3-04 cleared: leaking-valve",
-		"[risewatch] VAV-3-04 re-opened: leaking-valve",
-		"[risewatch] VAV-3-05 opened: leaking-valve",
+		"[risewatch] Larkspur Commons: VAV-3-04 leaking-valve opened",
+		"[risewatch] Larkspur Commons: VAV-3-04 leaking-valve cleared",
+		"[risewatch] Larkspur Commons: VAV-3-04 leaking-valve re-opened",
+		"[risewatch] Larkspur Commons: VAV-3-05 leaking-valve opened",
 	}
 	if strings.Join(subjects, "\n") != strings.Join(want, "\n") {
 		t.Errorf("subjects\n%s\nwant\n%s", strings.Join(subjects, "\n"), strings.Join(want, "\n"))
@@ -393,5 +393,16 @@ func TestAckCommandHasRequiredFlags(t *testing.T) {
 	got := c.itemFor(Event{Type: EventOpened, T: tr}, t0).AckCmd
 	if want := `risewatch ack --fault VAV-1-03/leaking-valve --config '/etc/risewatch/Larkspur Commons.yaml' --by "YOUR NAME"`; got != want {
 		t.Errorf("with a site file: %q, want %q", got, want)
+	}
+}
+
+// TestSingleFaultSubjectNamesTheSite: routes can select sites, so one
+// mailbox may get alerts from several; a one-fault subject names the site
+// like every other subject does.
+func TestSingleFaultSubjectNamesTheSite(t *testing.T) {
+	c := testConfig()
+	evs := foldEvents([]Event{{Type: EventOpened, T: leak("VAV-2-07", t0)}})
+	if got, want := c.subject("Larkspur Commons", evs), "[risewatch] Larkspur Commons: VAV-2-07 leaking-valve opened"; got != want {
+		t.Errorf("subject %q, want %q", got, want)
 	}
 }
