@@ -202,8 +202,12 @@ func TestDaemonEndToEnd(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !strings.Contains(string(eml), "Subject: ") || !strings.Contains(string(eml), "risewatch ack --fault") {
+	if !strings.Contains(string(eml), "Subject: ") || !strings.Contains(string(eml), "risewatch ack --") {
 		t.Errorf("spooled message lacks a subject or the ack command:\n%.600s", eml)
+	}
+	// The printed ack command runs as printed: it names this site file.
+	if text := mailText(t, mails[0]); !strings.Contains(text, "--config "+cfgPath) && !strings.Contains(text, "--config '"+cfgPath+"'") {
+		t.Errorf("the ack command in the alert does not name the site file %s:\n%.1200s", cfgPath, text)
 	}
 
 	// Reload with a bad configuration: refused, still serving.

@@ -107,6 +107,7 @@ func newPipeline(d *Daemon, p *plan, st *store.Store, dry bool) (*pipeline, erro
 		}
 		nc := *cfg.Notify
 		nc.Currency = s.Energy.Currency
+		nc.SiteFile = s.File // the ack command an alert prints names it
 		pl.ntf = notify.New(nc, s.Name, pl.q, snd, nil, d.log)
 	}
 	wc := web.Config{Listen: cfg.Listen, TLSCert: cfg.Web.TLSCert, TLSKey: cfg.Web.TLSKey, IP: cfg.Web.IP,

@@ -46,6 +46,14 @@ func (q txQueue) Pending(ctx context.Context, channel string) (int, int64, error
 	return q.st.Pending(ctx, channel)
 }
 
+// Notifications says what was sent about a fault, so the notifier tells a
+// fault opening again from one opening for the first time ("re-opened").
+// The store runs in WAL mode: this read does not wait for a write
+// transaction in progress.
+func (q txQueue) Notifications(ctx context.Context, faultID string) ([]store.Notification, error) {
+	return q.st.Notifications(ctx, faultID)
+}
+
 // RecordNotification keeps "what was sent to whom" (the notifier looks for it).
 func (q txQueue) RecordNotification(ctx context.Context, n store.Notification) error {
 	return q.st.RecordNotification(ctx, n)
