@@ -394,6 +394,14 @@ func publishMid(e *Evidence, st *termState) {
 	e.ClosedRiseK = st.closedRaw.v
 }
 
+// maxShownFlowFactor is the largest apparent water-flow factor published.
+// When a coil gives almost no heat (a valve stuck shut) the two factors
+// cannot be told apart: the fit drives UA down and lets the flow factor run
+// off (6.3·10⁴ on the demo's stuck valve), and a factor of many times the
+// flow the valve and branch can pass means nothing. Above 4 the flow is
+// published as unknown; the running estimate itself is kept. [I]
+const maxShownFlowFactor = 4
+
 // publishSlow writes the fields of publish that change only with
 // st.pubGen (or never): the response statistics, the running factors, the
 // closed-valve fit and capacity, the last high-command performance, the
@@ -404,6 +412,9 @@ func (en *Engine) publishSlow(e *Evidence, st *termState) {
 	e.DATSetC = nan
 	if fo := &st.facOut; fo.ua > 0 {
 		e.UAFactor, e.UAFactorSigma, e.FlowFactor, e.FlowFactorSigma = fo.ua, fo.uaSig, fo.fl, fo.flSig
+		if !(fo.fl <= maxShownFlowFactor) {
+			e.FlowFactor, e.FlowFactorSigma = nan, nan
+		}
 	} else {
 		e.UAFactor, e.UAFactorSigma, e.FlowFactor, e.FlowFactorSigma = nan, nan, nan, nan
 	}

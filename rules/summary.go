@@ -61,7 +61,9 @@ func (t *Transition) SummaryIn(ip bool) string {
 		}
 	case fdd.KindFouledCoil:
 		add("UA %s of baseline", pc(ev.UAFactor))
-		add("apparent water flow %s", pc(ev.FlowFactor))
+		if finite(ev.FlowFactor) {
+			add("apparent water flow %s", pc(ev.FlowFactor))
+		}
 	case fdd.KindStarvedCoil:
 		// The flow factor tells a starved coil only when it is down; the
 		// rule also opens on the rise at high command (perf_high), where

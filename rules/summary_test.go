@@ -97,6 +97,10 @@ func TestSummaryFollowsTheHoldingRule(t *testing.T) {
 			func(ev *Evidence) { ev.FlowFactor = 1.6 }, []string{"rise at high command 86 % of the model's, 82 % of its healthy level"}},
 		{"model-coil-fouled", nil,
 			func(ev *Evidence) { ev.UAFactor, ev.FlowFactor = 0.83, 1.02 }, []string{"UA 83 % of baseline", "apparent water flow 102 %"}},
+		// A flow factor the fit could not determine (published as NaN) is
+		// left out, not printed as "n/a".
+		{"model-coil-fouled", nil,
+			func(ev *Evidence) { ev.UAFactor, ev.FlowFactor = 0.07, math.NaN() }, []string{"UA 7 % of baseline"}},
 		{"g36-valve-leak", map[string]float64{"valve": 0, "dat_minus_sat_k": 4},
 			func(ev *Evidence) { ev.ValveFrac = 0 }, []string{"DAT−SAT 4.0 K (7.2 °F) at valve 0 %"}},
 		{"loop-cold-supply", map[string]float64{"short_fraction": 0.78},
@@ -236,6 +240,8 @@ func TestMessagesGiveOnlyKnownFigures(t *testing.T) {
 		// (the demo campus's scaled coil fits at 36 % flow, 83 % UA).
 		{"model-coil-fouled", map[string]float64{"ua_factor": 0.83, "flow_factor": 0.36, "shortfall_low_k": -3, "shortfall_high_k": -6},
 			[]string{"apparent water flow of 36 % of baseline", "points to scale or sludge inside the tubes"}, nil},
+		{"model-coil-fouled", map[string]float64{"ua_factor": 0.07, "flow_factor": nan, "shortfall_low_k": -3, "shortfall_high_k": -6},
+			[]string{"(±", "); its rise against the model is -3.0 K"}, []string{"apparent water flow", "inside the tubes"}},
 		{"model-valve-leak", map[string]float64{"leak_rise_k": 3.3, "airflow_m3s": 0.54, "leak_flow_frac": 0.06},
 			[]string{"(1144 cfm): an estimated leak of 6 % of design water flow, wasting"}, nil},
 		// The leak flow is inverted only after a run at zero command; a
