@@ -101,7 +101,10 @@ type ReportConfig struct {
 	Schedule string   `yaml:"schedule"` // five-field cron spec in site time; default Monday 06:00
 	To       []string `yaml:"to"`       // contractor recipients (needs notify for the mail server)
 	IP       bool     `yaml:"ip_units"`
-	Disabled bool     `yaml:"disabled"`
+	// Paper is the PDF's page size, letter or a4; empty: letter with IP
+	// units, a4 with SI (a Canadian site in SI printing on Letter sets it).
+	Paper    string `yaml:"paper"`
+	Disabled bool   `yaml:"disabled"`
 	// Readiness, when set, adds the low-temperature readiness section.
 	Readiness *ReadinessConfig `yaml:"readiness"`
 }
@@ -237,6 +240,11 @@ func (c *Config) validate(el *errList) {
 		if _, err := report.ParseSchedule(c.Report.Schedule, c.Location()); err != nil {
 			el.at(at("report.schedule"), "daemon: report: schedule %q: %v (five cron fields in site time, e.g. \"0 6 * * MON\")", c.Report.Schedule, err)
 		}
+	}
+	switch c.Report.Paper {
+	case "", report.PaperLetter, report.PaperA4:
+	default:
+		el.at(at("report.paper"), "daemon: report: paper %q: want %s or %s", c.Report.Paper, report.PaperLetter, report.PaperA4)
 	}
 	for i, a := range c.Report.To {
 		if !strings.Contains(a, "@") || strings.ContainsAny(a, "\r\n<>") {

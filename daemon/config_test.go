@@ -53,6 +53,7 @@ func TestDaemonSectionErrors(t *testing.T) {
 		{"daemon:\n  report:\n    readiness: {supply: 300 F}\n", "daemon: report: readiness: supply 300 F: must be 77 to 230"},
 		{"daemon:\n  report:\n    readiness: {delta_t: 20 F}\n", "readiness: supply is required"},
 		{"daemon:\n  report:\n    readiness:\n      supply: 120 F\n      branch_dp: 5 cfm\n", pos(4, 18) + "daemon: report: readiness: branch_dp: "},
+		{"daemon:\n  report:\n    paper: legal\n", pos(2, 12) + "daemon: report: paper \"legal\": want letter or a4"},
 		{"daemon:\n  memory_limit: lots\n", pos(1, 17) + "daemon: memory_limit \"lots\": expected auto, off or a size"},
 		{"daemon:\n  memory_limit: 4MiB\n", pos(1, 17) + "daemon: memory_limit \"4MiB\": below 16MiB"},
 	}

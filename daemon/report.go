@@ -213,15 +213,22 @@ func reportWeek(at time.Time, loc *time.Location, current bool) (start, end time
 	return report.PreviousWeek(at, loc)
 }
 
+// ReportUnits gives the weekly report's unit order and paper: the report's
+// own settings (not the dashboard's), for the scheduled report and
+// `risewatch report` alike, so a week comes out the same either way.
+func (c *Config) ReportUnits() (ip bool, paper string) { return c.Report.IP, c.Report.Paper }
+
 // runReport writes (and mails) the report of the week reportWeek gives.
 func (pl *pipeline) runReport(ctx context.Context, at time.Time, mail, current bool) {
 	cfg, s := pl.p.cfg, pl.p.site
 	start, end := reportWeek(at, cfg.Location(), current)
-	in, err := ReportInput(ctx, pl.st, s, pl.ring, start, end, cfg.Report.IP || cfg.Web.IP)
+	ip, paper := cfg.ReportUnits()
+	in, err := ReportInput(ctx, pl.st, s, pl.ring, start, end, ip)
 	if err != nil {
 		pl.d.log.Error("weekly report: gather", "err", err)
 		return
 	}
+	in.Paper = paper
 	if err := AddReadiness(ctx, &in, s, cfg); err != nil {
 		pl.d.log.Error("weekly report: readiness section left out", "err", err)
 	}

@@ -160,3 +160,17 @@ func TestReportWeekPicksFullerWeek(t *testing.T) {
 		}
 	}
 }
+
+// TestReportUnitsAreTheReports: the weekly report takes its unit order and
+// paper from its own settings; the dashboard's ip_units does not change it
+// (the scheduled report had used either, `risewatch report` only its own).
+func TestReportUnitsAreTheReports(t *testing.T) {
+	c := &Config{Web: WebConfig{IP: true}}
+	if ip, paper := c.ReportUnits(); ip || paper != "" {
+		t.Errorf("dashboard in IP, report unset: ip %v, paper %q; want SI and the default paper", ip, paper)
+	}
+	c.Report.IP, c.Report.Paper = true, report.PaperA4
+	if ip, paper := c.ReportUnits(); !ip || paper != report.PaperA4 {
+		t.Errorf("report ip_units and paper a4: got %v, %q", ip, paper)
+	}
+}

@@ -54,10 +54,12 @@ func runReport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 		return err
 	}
 	defer st.Close()
-	in, err := daemon.ReportInput(ctx, st, s, nil, start, end, *ip || cfg.Report.IP)
+	repIP, paper := cfg.ReportUnits()
+	in, err := daemon.ReportInput(ctx, st, s, nil, start, end, *ip || repIP)
 	if err != nil {
 		return err
 	}
+	in.Paper = paper
 	if err := daemon.AddReadiness(ctx, &in, s, cfg); err != nil {
 		return err
 	}

@@ -12,12 +12,21 @@ import (
 	"risewatch/rules"
 )
 
-// WritePDF writes the weekly report as PDF: A4 portrait, or Letter when the
-// report uses IP units (North American sites print on Letter).
+// WritePDF writes the weekly report as PDF, portrait, on in.Paper: by
+// default Letter when the report uses IP units (North American sites print
+// on Letter) and A4 otherwise.
 func WritePDF(w io.Writer, in Input) error {
 	size := "A4"
-	if in.IP {
+	switch in.Paper {
+	case PaperLetter:
 		size = "Letter"
+	case PaperA4:
+	case "":
+		if in.IP {
+			size = "Letter"
+		}
+	default:
+		return fmt.Errorf("report: paper %q: want %s or %s", in.Paper, PaperLetter, PaperA4)
 	}
 	pdf := fpdf.New("P", "mm", size, "")
 	pdf.SetTitle("risewatch weekly coil report", true)

@@ -47,12 +47,21 @@ type Input struct {
 	Opened    []rules.Transition // opened during the week
 	Cleared   []rules.Transition // cleared during the week
 	// Series holds each terminal's week of evidence, keyed by terminal ID.
-	Series   map[string][]Point
-	IP       bool // IP units first (SI in brackets); false: SI first
+	Series map[string][]Point
+	IP     bool // IP units first (SI in brackets); false: SI first
+	// Paper is the PDF's page size: PaperLetter or PaperA4; "" gives
+	// Letter with IP units and A4 with SI units.
+	Paper    string
 	Sections []Section
 	// Generated is when the report was made (printed on it).
 	Generated time.Time
 }
+
+// Page sizes for Input.Paper.
+const (
+	PaperLetter = "letter"
+	PaperA4     = "a4"
+)
 
 // Advisory is printed on the first page and in every row of the CSV.
 const Advisory = "Advisory only: risewatch reads the building automation system and never writes to it. " +
