@@ -34,12 +34,17 @@ func (d *decoder) decodeCoil(n *yaml.Node, what string, t *Terminal) {
 	var c coilmodel.Coil
 	haveGeom := false
 	if m.has("geometry") {
-		for _, k := range []string{"rows", "fpi", "oversized"} {
+		for _, k := range []string{"rows", "fpi"} {
 			if m.has(k) {
 				d.e.at(m.at(k), "%s: %s belongs to the preset form; with geometry give rows and fins inside geometry", w, k)
 			}
 		}
 		c, haveGeom = d.decodeGeometry(m.val("geometry"), w+" geometry")
+		// With geometry, oversized only says the face is larger than the
+		// inlet's usual one (labels; readiness does not offer it again).
+		if b, ok := m.boolean("oversized"); ok {
+			t.Oversized = b
+		}
 	} else {
 		p := CoilPreset{InletIn: t.InletIn}
 		rows, okR := m.integer("rows", full, 1, coilmodel.MaxRows)

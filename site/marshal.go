@@ -445,6 +445,9 @@ func (w *writer) coilNode(t *Terminal) *yaml.Node {
 			put(m, "inlet", text(strconv.FormatFloat(t.InletIn, 'g', -1, 64)+" in"))
 		}
 		put(m, "geometry", w.geometry(base))
+		if t.Oversized {
+			put(m, "oversized", boolean(true))
+		}
 	}
 	if t.Rated != nil {
 		r := t.Rated

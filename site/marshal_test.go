@@ -183,3 +183,23 @@ func BenchmarkParseCampus(b *testing.B) {
 		}
 	}
 }
+
+// TestMarshalKeepsOversizedGeometry: a coil given by its full geometry and
+// marked oversized (as the simulator writes its oversized boxes) keeps the
+// mark through a written site file; it was dropped, so the report lost
+// "(oversized coil)" and readiness offered the larger face again.
+func TestMarshalKeepsOversizedGeometry(t *testing.T) {
+	s := campus(t, 8)
+	tm := &s.Terminals[2]
+	tm.CoilPreset, tm.Oversized = nil, true
+	out := checkRoundTrip(t, s)
+	back, err := Parse("roundtrip.yaml", out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i := range back.Terminals {
+		if bt := &back.Terminals[i]; bt.ID == tm.ID && (!bt.Oversized || bt.CoilPreset != nil) {
+			t.Errorf("%s after the round trip: oversized %v, preset %v", tm.ID, bt.Oversized, bt.CoilPreset)
+		}
+	}
+}
