@@ -270,8 +270,18 @@ func TestOutputs(t *testing.T) {
 		t.Error("a .gif plot name was accepted")
 	}
 	sec := a.Section(true)
-	if len(sec.Rows) != 1 || len(sec.Rows[0]) != len(sec.Header) || !strings.Contains(sec.Title, "120.0 °F") {
+	if len(sec.Rows) != 1 || len(sec.Rows[0]) != len(sec.Header) || !strings.Contains(sec.Title, "120.0 °F (48.9 °C)") {
 		t.Errorf("section %+v", sec)
+	}
+	// More terminals than the report shows: the rest are pointed to where
+	// they are (the weekly CSV is the fault work list and has none).
+	for len(a.Results) <= maxSectionRows {
+		a.Results = append(a.Results, a.Results[0])
+	}
+	sec = a.Section(false)
+	intro := strings.Join(sec.Intro, " ")
+	if len(sec.Rows) != maxSectionRows || strings.Contains(intro, "CSV") || !strings.Contains(intro, "risewatch assess --supply 48.9C --si ") {
+		t.Errorf("%d rows, intro %q", len(sec.Rows), intro)
 	}
 }
 
