@@ -45,15 +45,36 @@ type fault struct {
 
 func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
 
-// observe accumulates the fault's power figures from one sample. Only
-// samples in heating operation (fan and plant on, data usable) count; the
-// weekly figure scales their mean by the terminal's operating hours.
+// Which of the engine's power figures a fault kind owns. The evidence
+// carries them for the terminal whatever is wrong with it; a fault counts
+// only what it causes: heat with the valve shut is waste for a valve that
+// passes water (leaking, stuck open, reversed), but for a DAT that reads
+// high it is the sensor's error, and beside a starved coil it belongs to a
+// leak fault of its own. A heating shortfall is a coil's, valve's or
+// loop's; a sensor or data fault makes the measured rise, and so the
+// shortfall, wrong.
+var (
+	kindWastes = [...]bool{fdd.KindLeakingValve: true, fdd.KindStuckValve: true, fdd.KindReversedValve: true, fdd.KindZoneSensor: false}
+	kindShorts = [...]bool{fdd.KindStuckValve: true, fdd.KindFouledCoil: true, fdd.KindStarvedCoil: true, fdd.KindColdLoop: true,
+		fdd.KindReversedValve: true, fdd.KindLowDischarge: true, fdd.KindZoneSensor: false}
+)
+
+// observe accumulates the fault's power figures from one sample: those its
+// kind owns (kindWastes, kindShorts). Only samples in heating operation
+// (fan and plant on, data usable) count; the weekly figure scales their
+// mean by the terminal's operating hours.
 func (f *fault) observe(ev *fdd.Evidence, at int64, mask gateMask) {
 	f.lastEnergyAt = at
 	if mask&(gFan|gPlant|gUsable) != gFan|gPlant|gUsable {
 		return
 	}
 	h, c, s := ev.WastedHeatW, ev.AddedCoolingW, ev.ShortfallW
+	if k := f.key.kind; k < 0 || int(k) >= len(kindWastes) || !kindWastes[k] {
+		h, c = 0, 0
+	}
+	if k := f.key.kind; k < 0 || int(k) >= len(kindShorts) || !kindShorts[k] {
+		s = 0
+	}
 	if !finite(h) || h < 0 {
 		h = 0
 	}

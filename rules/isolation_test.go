@@ -223,3 +223,33 @@ func TestOffsetWithPlantOnExplainsLeak(t *testing.T) {
 		})
 	}
 }
+
+// TestImpactFollowsTheFaultKind: a fault counts only the power figures it
+// causes. The same record (470 W of heat with the valve shut, 900 W short
+// when heating) costs a leaking valve its waste, a starved coil only its
+// shortfall, and a biased discharge sensor nothing: its "waste" is the
+// sensor reading high (before, the demo's dat-offset and starved-coil
+// faults showed a weekly cost of wasted heat).
+func TestImpactFollowsTheFaultKind(t *testing.T) {
+	ev := quiet(0, minute(0))
+	ev.WastedHeatW, ev.AddedCoolingW, ev.ShortfallW = 470, 470, 900
+	all := gFan | gPlant | gUsable
+	for _, c := range []struct {
+		kind              fdd.Kind
+		heat, cool, short float64
+	}{
+		{fdd.KindLeakingValve, 470, 470, 0},
+		{fdd.KindStuckValve, 470, 470, 900},
+		{fdd.KindStarvedCoil, 0, 0, 900},
+		{fdd.KindFouledCoil, 0, 0, 900},
+		{fdd.KindDATOffset, 0, 0, 0},
+		{fdd.KindDATFailed, 0, 0, 0},
+		{fdd.KindHunting, 0, 0, 0},
+	} {
+		f := &fault{key: faultKey{ek: EntityTerminal, kind: c.kind}}
+		f.observe(&ev, 1, all)
+		if f.heatWSum != c.heat || f.coolWSum != c.cool || f.shortWSum != c.short {
+			t.Errorf("%s: heat %g, cooling %g, shortfall %g W; want %g, %g, %g", c.kind, f.heatWSum, f.coolWSum, f.shortWSum, c.heat, c.cool, c.short)
+		}
+	}
+}
