@@ -289,10 +289,13 @@ func startSMTPSink(t testing.TB, port int, maildir string) *smtpSink {
 // receivedMail is one message the SMTP sink stored.
 type receivedMail struct {
 	file, messageID, subject string
-	faults                   []string // fault IDs named by its ack commands
+	faults                   []string // fault IDs of its items ("== VAV-1: leaking-valve (opened) ==") and ack commands
 }
 
-var ackRE = regexp.MustCompile(`risewatch ack --fault (\S+)`)
+var (
+	ackRE   = regexp.MustCompile(`risewatch ack --fault (\S+)`)
+	titleRE = regexp.MustCompile(`(?m)^== (\S+): (\S+) \(`)
+)
 
 // mails reads every message in the maildir.
 func mails(t testing.TB, dir string) []receivedMail {
@@ -311,10 +314,19 @@ func mails(t testing.TB, dir string) []receivedMail {
 		rm := receivedMail{file: f, messageID: m.Header.Get("Message-ID"), subject: m.Header.Get("Subject")}
 		text := plainText(t, f, m)
 		seen := map[string]bool{}
+		// A fault raised and closed within one message (another fault
+		// explains it) is one item without an ack command.
+		var ids []string
+		for _, g := range titleRE.FindAllStringSubmatch(text, -1) {
+			ids = append(ids, g[1]+"/"+g[2])
+		}
 		for _, g := range ackRE.FindAllStringSubmatch(text, -1) {
-			if !seen[g[1]] {
-				seen[g[1]] = true
-				rm.faults = append(rm.faults, g[1])
+			ids = append(ids, g[1])
+		}
+		for _, id := range ids {
+			if !seen[id] {
+				seen[id] = true
+				rm.faults = append(rm.faults, id)
 			}
 		}
 		out = append(out, rm)
