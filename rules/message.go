@@ -46,10 +46,7 @@ func na(v float64) bool { return math.IsNaN(v) || math.IsInf(v, 0) }
 // ipFirst, the other way round; a missing value prints as "n/a". Message
 // templates and Transition.Summary share it, through unitFmt.
 func unitPair(f func(v float64, ip bool) string, v float64, ipFirst bool) string {
-	if na(v) {
-		return "n/a"
-	}
-	return f(v, ipFirst) + " (" + f(v, !ipFirst) + ")"
+	return units.FormatPair(f, v, ipFirst, "n/a")
 }
 
 // unitFmt formats values with both units, IP first when ip is set.

@@ -349,6 +349,17 @@ func FormatExact(si float64, d Dimension) string {
 	return best
 }
 
+// FormatPair writes an SI value in both units with one of the Format
+// helpers below, IP first when ipFirst is set and the other in brackets
+// ("180.0 °F (82.2 °C)"); a value that is not finite gives unknown. Every
+// output's dual-unit text goes through it.
+func FormatPair(f func(v float64, ip bool) string, v float64, ipFirst bool, unknown string) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return unknown
+	}
+	return f(v, ipFirst) + " (" + f(v, !ipFirst) + ")"
+}
+
 // Table formatting. Each helper takes the SI value and ip=true for IP units.
 // Precision follows what a technician reads off a BAS screen.
 

@@ -193,6 +193,9 @@ func TestFormat(t *testing.T) {
 		{FormatLength(InToM(12), true), "12.0 in"},
 		{FormatLength(InToM(12), false), "305 mm"},
 		{FormatPercent(0.42), "42 %"},
+		{FormatPair(FormatTemp, FToC(180), true, "n/a"), "180.0 °F (82.2 °C)"},
+		{FormatPair(FormatTemp, FToC(180), false, "n/a"), "82.2 °C (180.0 °F)"},
+		{FormatPair(FormatTemp, math.NaN(), true, "–"), "–"},
 	}
 	for _, c := range cases {
 		if c.got != c.want {

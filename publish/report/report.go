@@ -119,10 +119,7 @@ func (in *Input) terminal(id string) *site.Terminal {
 }
 
 func dual(ip bool, f func(float64, bool) string, v float64) string {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return "n/a"
-	}
-	return f(v, ip) + " (" + f(v, !ip) + ")"
+	return units.FormatPair(f, v, ip, "n/a")
 }
 
 // evidenceLines describes a fault's evidence with numbers and units.

@@ -138,10 +138,7 @@ func (s *Server) render(w http.ResponseWriter, name string, data any) {
 // dual writes an SI value in both units, the page's first and the other
 // in brackets ("180.0 °F (82.2 °C)"), or "–" when it is unknown.
 func (s *Server) dual(f func(float64, bool) string, v float64) string {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return "–"
-	}
-	return f(v, s.cfg.IP) + " (" + f(v, !s.cfg.IP) + ")"
+	return units.FormatPair(f, v, s.cfg.IP, "–")
 }
 
 func (s *Server) temp(c float64) string { return s.dual(units.FormatTemp, c) }
